@@ -1,0 +1,1 @@
+/* Empty C++ file: makes automake link eomc and tests with the C++ driver (GiNaC). */

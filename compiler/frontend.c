@@ -1,0 +1,29 @@
+/*
+** frontend.c — read, parse and check one model file.
+*/
+#include "frontend.h"
+
+#include <stdio.h>
+#include <string.h>
+#include "parse.h"
+
+int frontend_load(Frontend *fe, const char *path) {
+  char err[512];
+  memset(fe, 0, sizeof *fe);
+  if (source_read(&fe->src, path, err, sizeof err) != 0) {
+    fprintf(stderr, "eomc: error: %s\n", err);
+    return 2;
+  }
+  diag_init(&fe->diag, path, fe->src.text, fe->src.len);
+  fe->ast = parse_model(path, fe->src.text, fe->src.len, &fe->diag);
+  if (fe->diag.nerrors) return 1;
+  check_model(fe->ast, &fe->diag, &fe->model);
+  return fe->diag.nerrors ? 1 : 0;
+}
+
+void frontend_free(Frontend *fe) {
+  if (fe->ast) ast_free(fe->ast);
+  diag_free(&fe->diag);
+  source_free(&fe->src);
+  memset(fe, 0, sizeof *fe);
+}

@@ -1,0 +1,67 @@
+/*
+** ir.h — the expression DAG handed from the symbolic core to the C emitter.
+**
+** The symbolic core (C++, GiNaC) derives every quantity the generated code
+** needs, then hash-conses all of them into one IrGraph: each distinct
+** subexpression is one node, so a repeated subexpression is shared.  Nodes are
+** in dependency order (args[i] < own index) and the numbering is
+** deterministic (it never depends on GiNaC's hash order or on addresses).
+** The emitter decides per generated function which shared nodes become
+** temporaries.
+*/
+#ifndef EOMC_IR_H
+#define EOMC_IR_H
+
+#ifdef __cplusplus
+extern "C" {
+#endif
+
+/* The arrays a generated function reads. */
+typedef enum IrVar {
+  IRV_T,      /* time (index 0) */
+  IRV_Q,      /* q[index] */
+  IRV_QD,     /* qd[index] */
+  IRV_QDD,    /* qdd[index] (inverse dynamics only) */
+  IRV_U,      /* u[index] */
+  IRV_P       /* p[index] */
+} IrVar;
+
+typedef enum IrOp {
+  IR_NUM,     /* num */
+  IR_VAR,     /* var, index */
+  IR_ADD,     /* sum of args (n >= 2) */
+  IR_MUL,     /* product of args (n >= 2) */
+  IR_NEG,     /* -args[0] */
+  IR_DIV,     /* args[0] / args[1] */
+  IR_POW,     /* args[0] ^ args[1]; args[1] is often an IR_NUM */
+  IR_CALL     /* fn(args...) */
+} IrOp;
+
+typedef enum IrFn {
+  IRF_SIN, IRF_COS, IRF_TAN, IRF_ASIN, IRF_ACOS, IRF_ATAN, IRF_ATAN2,
+  IRF_EXP, IRF_LOG, IRF_SQRT, IRF_ABS, IRF_SINH, IRF_COSH, IRF_TANH,
+  IRF_SIGN    /* derivative of abs: (x > 0) - (x < 0) */
+} IrFn;
+
+typedef struct IrNode {
+  IrOp op;
+  IrFn fn;        /* IR_CALL */
+  IrVar var;      /* IR_VAR */
+  int index;      /* IR_VAR */
+  double num;     /* IR_NUM */
+  int nargs;
+  int *args;      /* node indices, all smaller than this node's */
+} IrNode;
+
+typedef struct IrGraph {
+  IrNode *nodes;
+  int nnodes;
+} IrGraph;
+
+/* C name of a function (libm spelling), e.g. "sin". */
+const char *ir_fn_name(IrFn fn);
+
+#ifdef __cplusplus
+}
+#endif
+#endif

@@ -1,0 +1,59 @@
+/*
+** symbolic.h — the C interface of the symbolic core (symbolic*.cc, GiNaC).
+**
+** sym_derive() turns a checked Model into an EomSystem: every quantity the
+** generated code needs, as root nodes of one shared IrGraph.  Matrices are
+** row-major arrays of node indices.  A root may be a structural zero (an
+** IR_NUM node with num == 0); the emitter skips those.
+**
+** Conventions (SPEC §2): M(q) q'' = f(t, q, q', u); the state is x = [q; q'].
+*/
+#ifndef EOMC_SYMBOLIC_H
+#define EOMC_SYMBOLIC_H
+
+#include "check.h"
+#include "diag.h"
+#include "ir.h"
+
+#ifdef __cplusplus
+extern "C" {
+#endif
+
+typedef struct EomSystem {
+  IrGraph g;
+  int nq, nu, np, ny, nc;
+  int *mass;          /* nq*nq  M(q, p), symmetric */
+  int *forcing;       /* nq     f(t, q, qd, u, p) */
+  int *dmass_dq;      /* nq*nq*nq: [k*nq*nq + i*nq + j] = dM_ij/dq_k */
+  int *dforcing_dq;   /* nq*nq  [i*nq + j] = df_i/dq_j */
+  int *dforcing_dqd;  /* nq*nq  [i*nq + j] = df_i/dqd_j */
+  int *dforcing_du;   /* nq*nu  [i*nu + j] = df_i/du_j */
+  int *inverse;       /* nq     M qdd - f(u = 0), in terms of IRV_QDD */
+  int energy_T, energy_V;
+  int *outputs;       /* ny     y(t, q, qd, u, p) */
+  int *constraint;    /* nc     phi(q, p) (t allowed) */
+  int *constraint_jacobian;  /* nc*nq  G = dphi/dq */
+  int *constraint_gamma;     /* nc     gamma with G qdd = gamma */
+  /* Human-readable forms for `eomc show` (malloc'd, NUL-terminated). */
+  char **mass_text;          /* nq*nq */
+  char **forcing_text;       /* nq */
+  char **mass_latex;         /* nq*nq */
+  char **forcing_latex;      /* nq */
+} EomSystem;
+
+typedef struct SymOptions {
+  int no_cse;          /* keep the graph a tree-like expansion (for benchmarks) */
+  int want_text;       /* fill the *_text / *_latex fields */
+  double max_seconds;  /* 0: no limit */
+} SymOptions;
+
+/* Derive the equations of motion of `m`.  Returns 0 on success; on failure
+** reports errors to `d` (with the offending term's location) and returns
+** nonzero.  `out` must be freed with sym_free() either way. */
+int sym_derive(const Model *m, const SymOptions *opt, Diag *d, EomSystem *out);
+void sym_free(EomSystem *s);
+
+#ifdef __cplusplus
+}
+#endif
+#endif

@@ -1,0 +1,60 @@
+/*
+** eom/model.h — the descriptor every generated model exports as P_model.
+**
+** One runtime (libeomrt) drives any generated model through this struct:
+** sizes, names, units, defaults, initial state and the generated functions.
+** Arrays are plain double*, matrices row-major; the state is x = [q; qd].
+** Function pointers of features a model lacks are NULL (e.g. the constraint
+** functions when nc == 0).
+*/
+#ifndef EOM_MODEL_H
+#define EOM_MODEL_H
+
+#ifdef __cplusplus
+extern "C" {
+#endif
+
+/* Bumped whenever the layout of struct eom_model changes. */
+#define EOM_MODEL_ABI 1
+
+struct eom_model {
+  int abi;                          /* EOM_MODEL_ABI of the generating eomc */
+  const char *name;                 /* the model's C prefix */
+  const char *hash;                 /* hash of the model text (hex) */
+  int nq, nu, np, ny, nc;
+
+  const char *const *coord_names;   /* nq */
+  const char *const *coord_units;   /* nq, "" when none */
+  const char *const *coord_descs;   /* nq, "" when none */
+  const char *const *param_names;   /* np */
+  const char *const *param_units;   /* np */
+  const char *const *param_descs;   /* np */
+  const double *param_defaults;     /* np */
+  const char *const *input_names;   /* nu */
+  const char *const *input_units;   /* nu */
+  const char *const *output_names;  /* ny */
+  const double *q0, *qd0;           /* default initial state, nq each */
+
+  void (*mass)(const double *q, const double *p, double *M);
+  void (*forcing)(double t, const double *q, const double *qd, const double *u,
+                  const double *p, double *f);
+  int (*accel)(double t, const double *q, const double *qd, const double *u,
+               const double *p, double *qdd);
+  void (*rhs)(double t, const double *x, const double *u, const double *p, double *xdot);
+  void (*jacobian)(double t, const double *x, const double *u, const double *p,
+                   double *A, double *B);
+  void (*inverse)(double t, const double *q, const double *qd, const double *qdd,
+                  const double *p, double *Q);
+  void (*energy)(const double *q, const double *qd, const double *p, double *T, double *V);
+  void (*outputs)(double t, const double *q, const double *qd, const double *u,
+                  const double *p, double *y);
+  void (*constraint)(const double *q, const double *p, double *phi);
+  void (*constraint_jacobian)(const double *q, const double *p, double *G);
+  int (*accel_constrained)(double t, const double *q, const double *qd, const double *u,
+                           const double *p, double *qdd, double *lambda);
+};
+
+#ifdef __cplusplus
+}
+#endif
+#endif
