@@ -135,9 +135,11 @@ Expr *ast_list(Arena *a, SrcLoc loc, Expr **items, int nitems);
 Decl *ast_decl(Arena *a, DeclKind k, SrcLoc loc, const char *name);
 Stmt *ast_stmt(Arena *a, StmtKind k, SrcLoc loc);
 
-/* Deepest expression the compiler accepts; deeper input is an error, never a
+/* Deepest expression tree the compiler accepts (brackets are limited to
+** AST_MAX_NESTING by the lexer); deeper input is an error, never a
 ** stack overflow in a later recursive pass. */
-#define AST_MAX_DEPTH 512
+#define AST_MAX_DEPTH 2000
+#define AST_MAX_NESTING 256
 
 const char *ast_stmt_keyword(StmtKind k);
 

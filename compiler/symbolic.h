@@ -34,16 +34,10 @@ typedef struct EomSystem {
   int *constraint;    /* nc     phi(q, p) (t allowed) */
   int *constraint_jacobian;  /* nc*nq  G = dphi/dq */
   int *constraint_gamma;     /* nc     gamma with G qdd = gamma */
-  /* Human-readable forms for `eomc show` (malloc'd, NUL-terminated). */
-  char **mass_text;          /* nq*nq */
-  char **forcing_text;       /* nq */
-  char **mass_latex;         /* nq*nq */
-  char **forcing_latex;      /* nq */
 } EomSystem;
 
 typedef struct SymOptions {
   int no_cse;          /* keep the graph a tree-like expansion (for benchmarks) */
-  int want_text;       /* fill the *_text / *_latex fields */
   double max_seconds;  /* 0: no limit */
 } SymOptions;
 
