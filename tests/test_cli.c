@@ -1,0 +1,253 @@
+/*
+** test_cli.c — end-to-end tests of the eomc command line: exit statuses,
+** hostile input, and the catalogue of malformed models in tests/bad/.
+**
+** Each tests/bad/*.eom starts with `# expect: LINE:COL: SUBSTRING`: the
+** position and a piece of the message of the first error eomc must print.
+*/
+#include <check.h>
+#include <dirent.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "testutil.h"
+
+static const char *eomc(void) { return env_or("EOMC", BUILDDIR "/eomc"); }
+static const char *srcdir(void) { return env_or("SRCDIR", SRCDIR); }
+
+static RunResult run2(const char *verb, const char *arg) {
+  char *argv[] = {(char *)eomc(), (char *)verb, (char *)arg, NULL};
+  if (!arg) argv[2] = NULL;
+  return run_argv(argv);
+}
+
+/* Run `eomc check` on model text; returns the result. */
+static RunResult check_text(const char *text, size_t len) {
+  char *dir = make_temp_dir();
+  char *path = write_file(dir, "model.eom", text, len);
+  RunResult r = run2("check", path);
+  free(path);
+  remove_tree(dir);
+  free(dir);
+  return r;
+}
+
+START_TEST(usage_statuses) {
+  RunResult r = run2(NULL, NULL);
+  ck_assert_int_eq(r.status, 2);
+  run_free(&r);
+  r = run2("--help", NULL);
+  ck_assert_int_eq(r.status, 0);
+  ck_assert_ptr_nonnull(strstr(r.out, "usage: eomc"));
+  run_free(&r);
+  r = run2("--version", NULL);
+  ck_assert_int_eq(r.status, 0);
+  ck_assert_ptr_nonnull(strstr(r.out, "eomc "));
+  run_free(&r);
+  r = run2("frobnicate", NULL);
+  ck_assert_int_eq(r.status, 2);
+  ck_assert_ptr_nonnull(strstr(r.err, "unknown command"));
+  run_free(&r);
+  r = run2("check", NULL);
+  ck_assert_int_eq(r.status, 2);
+  run_free(&r);
+  r = run2("check", "--help");
+  ck_assert_int_eq(r.status, 0);
+  run_free(&r);
+  r = run2("check", "/nonexistent/dir/model.eom");
+  ck_assert_int_eq(r.status, 2);
+  ck_assert_ptr_nonnull(strstr(r.err, "cannot open"));
+  run_free(&r);
+}
+END_TEST
+
+/* Whatever the bytes, eomc answers with diagnostics and status 1: no crash. */
+static void expect_model_error(const char *text, size_t len, const char *substr) {
+  RunResult r = check_text(text, len);
+  ck_assert_msg(r.status == 1, "status %d, stderr: %.300s", r.status, r.err ? r.err : "");
+  ck_assert_ptr_nonnull(strstr(r.err, "error:"));
+  if (substr) ck_assert_msg(strstr(r.err, substr) != NULL, "missing '%s' in: %.300s", substr, r.err);
+  run_free(&r);
+}
+
+START_TEST(empty_file) { expect_model_error("", 0, "coordinate"); }
+END_TEST
+
+START_TEST(binary_garbage) {
+  char buf[4096];
+  unsigned x = 12345;
+  for (size_t i = 0; i < sizeof buf; i++) {
+    x = x * 1103515245u + 12345u;
+    buf[i] = (char)(x >> 16);
+  }
+  expect_model_error(buf, sizeof buf, NULL);
+}
+END_TEST
+
+START_TEST(non_utf8_bytes) {
+  const char text[] = "coord x [m]\nparam k\xff\xfe = 2\nkinetic x'^2/2\n";
+  expect_model_error(text, sizeof text - 1, NULL);
+}
+END_TEST
+
+START_TEST(nul_byte) {
+  const char text[] = "coord x\n\0kinetic x'^2\n";
+  expect_model_error(text, sizeof text - 1, NULL);
+}
+END_TEST
+
+START_TEST(deep_nesting) {
+  size_t n = 100000, len = 0;
+  char *text = malloc(2 * n + 64);
+  len += (size_t)sprintf(text, "coord x\nkinetic ");
+  for (size_t i = 0; i < n; i++) text[len++] = '(';
+  text[len++] = 'x';
+  for (size_t i = 0; i < n; i++) text[len++] = ')';
+  text[len++] = '\n';
+  expect_model_error(text, len, "nesting too deep");
+  free(text);
+}
+END_TEST
+
+START_TEST(deep_unary_chain) {
+  size_t n = 100000, len = 0;
+  char *text = malloc(n + 64);
+  len += (size_t)sprintf(text, "coord x\nkinetic ");
+  for (size_t i = 0; i < n; i++) text[len++] = '-';
+  len += (size_t)sprintf(text + len, "x'^2\n");
+  expect_model_error(text, len, "too deep");
+  free(text);
+}
+END_TEST
+
+START_TEST(megabyte_line) {
+  size_t n = 1 << 20, len = 0;
+  char *text = malloc(n + 64);
+  len += (size_t)sprintf(text, "coord x\nkinetic x'^2/2 ");
+  while (len < n) text[len++] = '@';
+  text[len++] = '\n';
+  RunResult r = check_text(text, len);
+  ck_assert_int_eq(r.status, 1);
+  ck_assert_ptr_nonnull(strstr(r.err, ":2:"));
+  ck_assert_msg(strlen(r.err) < 4096, "diagnostic should not echo the whole line");
+  run_free(&r);
+  free(text);
+}
+END_TEST
+
+/* Parse `# expect: L:C: text` from the first line of a catalogue file. */
+static int parse_expect(const char *src, int *line, int *col, char *msg, size_t msglen) {
+  const char *p = strstr(src, "# expect:");
+  const char *nl = strchr(src, '\n');
+  if (!p || (nl && p > nl)) return 0;
+  if (sscanf(p, "# expect: %d:%d:", line, col) != 2) return 0;
+  const char *m = strchr(strchr(p + 9, ':') + 1, ':') + 1;
+  while (*m == ' ') m++;
+  size_t n = nl ? (size_t)(nl - m) : strlen(m);
+  if (n >= msglen) n = msglen - 1;
+  memcpy(msg, m, n);
+  msg[n] = '\0';
+  return 1;
+}
+
+static int cmp_names(const void *a, const void *b) {
+  return strcmp(*(char *const *)a, *(char *const *)b);
+}
+
+START_TEST(bad_catalogue) {
+  char dir[4096];
+  snprintf(dir, sizeof dir, "%s/tests/bad", srcdir());
+  DIR *d = opendir(dir);
+  ck_assert_ptr_nonnull(d);
+  char *names[1024];
+  int n = 0;
+  struct dirent *e;
+  while ((e = readdir(d)) && n < 1024) {
+    size_t len = strlen(e->d_name);
+    if (len > 4 && strcmp(e->d_name + len - 4, ".eom") == 0) names[n++] = strdup(e->d_name);
+  }
+  closedir(d);
+  qsort(names, (size_t)n, sizeof names[0], cmp_names);
+  ck_assert_msg(n >= 40, "the catalogue must hold at least 40 malformed models, found %d", n);
+  int failures = 0;
+  for (int i = 0; i < n; i++) {
+    char path[8192];
+    snprintf(path, sizeof path, "%s/%s", dir, names[i]);
+    char *src = read_file(path, NULL);
+    ck_assert_ptr_nonnull(src);
+    int line, col;
+    char msg[512];
+    ck_assert_msg(parse_expect(src, &line, &col, msg, sizeof msg), "%s: no '# expect:' line", names[i]);
+    RunResult r = run2("check", path);
+    char where[8300];
+    snprintf(where, sizeof where, "%s:%d:%d: error: ", path, line, col);
+    /* The first error line must be at the expected place and name the problem. */
+    const char *first = r.err ? strstr(r.err, ": error: ") : NULL;
+    while (first && first > r.err && first[-1] != '\n') first--;
+    size_t first_len = first ? strcspn(first, "\n") : 0;
+    const char *found = first ? strstr(first, msg) : NULL;
+    int ok = r.status == 1 && first && strncmp(first, where, strlen(where)) == 0 && found &&
+             (size_t)(found - first) < first_len;
+    if (!ok) {
+      failures++;
+      fprintf(stderr, "bad/%s: expected first error at %d:%d containing '%s'; status %d, got:\n%s\n",
+              names[i], line, col, msg, r.status, r.err ? r.err : "");
+    }
+    run_free(&r);
+    free(src);
+    free(names[i]);
+  }
+  ck_assert_msg(failures == 0, "%d catalogue models did not give the expected first error", failures);
+}
+END_TEST
+
+START_TEST(examples_check_clean) {
+  char dir[4096];
+  snprintf(dir, sizeof dir, "%s/examples", srcdir());
+  DIR *d = opendir(dir);
+  ck_assert_ptr_nonnull(d);
+  struct dirent *e;
+  int count = 0;
+  while ((e = readdir(d))) {
+    size_t len = strlen(e->d_name);
+    if (len <= 4 || strcmp(e->d_name + len - 4, ".eom") != 0) continue;
+    char path[8192];
+    snprintf(path, sizeof path, "%s/%s", dir, e->d_name);
+    RunResult r = run2("check", path);
+    ck_assert_msg(r.status == 0, "%s: status %d\n%s", e->d_name, r.status, r.err);
+    ck_assert_msg(strstr(r.err, "warning") == NULL, "%s warns:\n%s", e->d_name, r.err);
+    run_free(&r);
+    count++;
+  }
+  closedir(d);
+  ck_assert_int_ge(count, 4);
+}
+END_TEST
+
+int main(void) {
+  Suite *s = suite_create("cli");
+  TCase *tc = tcase_create("usage");
+  tcase_add_test(tc, usage_statuses);
+  suite_add_tcase(s, tc);
+  tc = tcase_create("hostile");
+  tcase_set_timeout(tc, 60);
+  tcase_add_test(tc, empty_file);
+  tcase_add_test(tc, binary_garbage);
+  tcase_add_test(tc, non_utf8_bytes);
+  tcase_add_test(tc, nul_byte);
+  tcase_add_test(tc, deep_nesting);
+  tcase_add_test(tc, deep_unary_chain);
+  tcase_add_test(tc, megabyte_line);
+  suite_add_tcase(s, tc);
+  tc = tcase_create("catalogue");
+  tcase_set_timeout(tc, 120);
+  tcase_add_test(tc, bad_catalogue);
+  tcase_add_test(tc, examples_check_clean);
+  suite_add_tcase(s, tc);
+  SRunner *sr = srunner_create(s);
+  srunner_run_all(sr, CK_NORMAL);
+  int failed = srunner_ntests_failed(sr);
+  srunner_free(sr);
+  return failed ? 1 : 0;
+}

@@ -1,0 +1,123 @@
+/*
+** testutil.c — run programs and handle temporary files for end-to-end tests.
+**
+** Output is captured through temporary files rather than pipes so a chatty
+** child can never deadlock the test.
+*/
+#include "testutil.h"
+
+#include <dirent.h>
+#include <fcntl.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <sys/stat.h>
+#include <sys/wait.h>
+#include <unistd.h>
+
+const char *env_or(const char *name, const char *fallback) {
+  const char *v = getenv(name);
+  return v && *v ? v : fallback;
+}
+
+char *read_file(const char *path, size_t *len) {
+  FILE *f = fopen(path, "rb");
+  if (!f) return NULL;
+  size_t cap = 4096, n = 0;
+  char *buf = malloc(cap);
+  size_t got;
+  while (buf && (got = fread(buf + n, 1, cap - n - 1, f)) > 0) {
+    n += got;
+    if (cap - n - 1 == 0) buf = realloc(buf, cap *= 2);
+  }
+  fclose(f);
+  if (!buf) return NULL;
+  buf[n] = '\0';
+  if (len) *len = n;
+  return buf;
+}
+
+static int capture_fd(char *templ) {
+  int fd = mkstemp(templ);
+  if (fd >= 0) unlink(templ);
+  return fd;
+}
+
+static char *slurp_fd(int fd) {
+  off_t size = lseek(fd, 0, SEEK_END);
+  if (size < 0) size = 0;
+  char *buf = malloc((size_t)size + 1);
+  if (!buf) return NULL;
+  lseek(fd, 0, SEEK_SET);
+  ssize_t n = 0, got;
+  while (n < size && (got = read(fd, buf + n, (size_t)(size - n))) > 0) n += got;
+  buf[n] = '\0';
+  close(fd);
+  return buf;
+}
+
+RunResult run_argv(char *const argv[]) {
+  RunResult r = {-1, NULL, NULL};
+  char out_t[] = "/tmp/eomc-test-outXXXXXX", err_t[] = "/tmp/eomc-test-errXXXXXX";
+  int out_fd = capture_fd(out_t), err_fd = capture_fd(err_t);
+  if (out_fd < 0 || err_fd < 0) return r;
+  fflush(NULL);
+  pid_t pid = fork();
+  if (pid == 0) {
+    int devnull = open("/dev/null", O_RDONLY);
+    if (devnull >= 0) dup2(devnull, 0);
+    dup2(out_fd, 1);
+    dup2(err_fd, 2);
+    execvp(argv[0], argv);
+    _exit(127);
+  }
+  int st = 0;
+  if (pid > 0) waitpid(pid, &st, 0);
+  r.status = pid < 0 ? -1 : WIFEXITED(st) ? WEXITSTATUS(st) : 128 + WTERMSIG(st);
+  r.out = slurp_fd(out_fd);
+  r.err = slurp_fd(err_fd);
+  return r;
+}
+
+void run_free(RunResult *r) {
+  free(r->out);
+  free(r->err);
+  r->out = r->err = NULL;
+}
+
+char *make_temp_dir(void) {
+  char templ[] = "/tmp/eomc-test-XXXXXX";
+  char *d = mkdtemp(templ);
+  return d ? strdup(d) : NULL;
+}
+
+char *write_file(const char *dir, const char *name, const char *data, size_t len) {
+  size_t n = strlen(dir) + strlen(name) + 2;
+  char *path = malloc(n);
+  snprintf(path, n, "%s/%s", dir, name);
+  FILE *f = fopen(path, "wb");
+  if (f) {
+    fwrite(data, 1, len, f);
+    fclose(f);
+  }
+  return path;
+}
+
+void remove_tree(const char *path) {
+  DIR *d = opendir(path);
+  if (d) {
+    struct dirent *e;
+    while ((e = readdir(d))) {
+      if (!strcmp(e->d_name, ".") || !strcmp(e->d_name, "..")) continue;
+      size_t n = strlen(path) + strlen(e->d_name) + 2;
+      char *p = malloc(n);
+      snprintf(p, n, "%s/%s", path, e->d_name);
+      struct stat st;
+      if (lstat(p, &st) == 0 && S_ISDIR(st.st_mode)) remove_tree(p);
+      else unlink(p);
+      free(p);
+    }
+    closedir(d);
+  }
+  rmdir(path);
+}

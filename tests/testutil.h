@@ -1,0 +1,32 @@
+/*
+** testutil.h — helpers for end-to-end tests: run a program, capture its
+** output, make temporary files and directories.
+*/
+#ifndef EOMC_TESTUTIL_H
+#define EOMC_TESTUTIL_H
+
+#include <stddef.h>
+
+typedef struct RunResult {
+  int status;        /* exit status, or 128 + signal number */
+  char *out;         /* captured stdout (NUL-terminated, malloc'd) */
+  char *err;         /* captured stderr */
+} RunResult;
+
+/* Run argv (argv[0] looked up on PATH) with stdin from /dev/null. */
+RunResult run_argv(char *const argv[]);
+void run_free(RunResult *r);
+
+/* Environment variable or a default. */
+const char *env_or(const char *name, const char *fallback);
+
+/* Create a fresh temporary directory; returns a malloc'd path. */
+char *make_temp_dir(void);
+/* Write `len` bytes to dir/name; returns a malloc'd path. */
+char *write_file(const char *dir, const char *name, const char *data, size_t len);
+/* Read a whole file (malloc'd, NUL-terminated) or NULL. */
+char *read_file(const char *path, size_t *len);
+/* rm -r of a directory made by make_temp_dir(). */
+void remove_tree(const char *path);
+
+#endif
