@@ -113,6 +113,8 @@ typedef struct Stmt {
   SrcLoc *name_locs;
   int nnames;
   Expr *e[4];
+  /* checker: */
+  struct Decl *target;   /* ST_FORCE, ST_INITIAL: the coordinate named */
 } Stmt;
 
 /* A parsed model file. */
