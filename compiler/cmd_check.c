@@ -29,36 +29,56 @@ static void put_clean(const char *s, FILE *out) {
   for (; s && *s; s++) fputc((unsigned char)*s < 0x20 ? ' ' : *s, out);
 }
 
-static int name_width(Decl **v, int n) {
-  int w = 4;
+/* What a declaration table shows besides name, unit and description. */
+enum { PLAIN, VALUE, COORD };
+
+/* One table of declarations: name, optional value, unit, description,
+** each column as wide as its widest entry. */
+static void print_decls(const Model *m, const char *title, Decl **v, int n, int kind, FILE *out) {
+  Arena *a = m->ast->arena;
+  char num[64];
+  int wname = 0, wvalue = 0, wunit = 0;
+  if (n == 0) return;
   for (int i = 0; i < n; i++) {
     int k = (int)strlen(v[i]->name);
-    if (k > w) w = k;
+    if (k > wname) wname = k;
+    k = (int)strlen(unit_text(a, v[i]->unit));
+    if (k > wunit) wunit = k;
+    if (kind == VALUE) {
+      k = snprintf(num, sizeof num, "%.6g", v[i]->number);
+      if (k > wvalue) wvalue = k;
+    }
   }
-  return w > 24 ? 24 : w;
-}
-
-static void print_unit_desc(Arena *a, const Decl *dc, FILE *out) {
-  if (dc->unit) {
-    fputs("  [", out);
-    put_clean(unit_text(a, dc->unit), out);
-    fputs("]", out);
-  }
-  if (dc->desc) {
-    fputs("  ", out);
-    put_clean(dc->desc, out);
-  }
-  fputc('\n', out);
-}
-
-static void print_decls(const Model *m, const char *title, Decl **v, int n, int with_value, FILE *out) {
-  if (n == 0) return;
-  int w = name_width(v, n);
+  if (wname > 24) wname = 24;
+  if (wunit > 24) wunit = 24;
   fprintf(out, "%s (%d):\n", title, n);
   for (int i = 0; i < n; i++) {
-    fprintf(out, "  %-*s", w, v[i]->name);
-    if (with_value) fprintf(out, " = %-10.6g", v[i]->number);
-    print_unit_desc(m->ast->arena, v[i], out);
+    fprintf(out, "  %-*s", wname, v[i]->name);
+    if (kind == VALUE) {
+      snprintf(num, sizeof num, "%.6g", v[i]->number);
+      fprintf(out, " = %-*s", wvalue, num);
+    }
+    if (wunit) {
+      const char *u = unit_text(a, v[i]->unit);
+      fputs("  ", out);
+      if (*u) {
+        fputc('[', out);
+        put_clean(u, out);
+        fputc(']', out);
+      } else {
+        fputs("  ", out);
+      }
+      fprintf(out, "%*s", wunit - (int)strlen(u), "");
+    }
+    if (kind == COORD) {
+      fprintf(out, "  initial %g", m->q0[i]);
+      if (m->qd0[i] != 0) fprintf(out, ", rate %g", m->qd0[i]);
+    }
+    if (v[i]->desc) {
+      fputs("  ", out);
+      put_clean(v[i]->desc, out);
+    }
+    fputc('\n', out);
   }
 }
 
@@ -71,18 +91,12 @@ static const char *term_kind(const Stmt *s) {
 }
 
 static void print_summary(const Model *m, const char *path, FILE *out) {
-  Arena *a = m->ast->arena;
   fprintf(out, "model %s  (%s)\n", m->name, path);
-  int w = name_width(m->coords, m->ncoords);
-  fprintf(out, "coordinates (%d):\n", m->ncoords);
-  for (int i = 0; i < m->ncoords; i++) {
-    fprintf(out, "  %-*s  initial %g, rate %g", w, m->coords[i]->name, m->q0[i], m->qd0[i]);
-    print_unit_desc(a, m->coords[i], out);
-  }
-  print_decls(m, "parameters", m->params, m->nparams, 1, out);
-  print_decls(m, "constants", m->consts, m->nconsts, 1, out);
-  print_decls(m, "inputs", m->inputs, m->ninputs, 0, out);
-  print_decls(m, "outputs", m->outputs, m->noutputs, 0, out);
+  print_decls(m, "coordinates", m->coords, m->ncoords, COORD, out);
+  print_decls(m, "parameters", m->params, m->nparams, VALUE, out);
+  print_decls(m, "constants", m->consts, m->nconsts, VALUE, out);
+  print_decls(m, "inputs", m->inputs, m->ninputs, PLAIN, out);
+  print_decls(m, "outputs", m->outputs, m->noutputs, PLAIN, out);
   if (m->nidentify) {
     fputs("identify:", out);
     for (int i = 0; i < m->nidentify; i++) fprintf(out, " %s", m->identify[i]->name);
