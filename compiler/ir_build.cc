@@ -1,0 +1,471 @@
+/*
+** ir_build.cc — GiNaC expressions to one deterministic, hash-consed IrGraph.
+**
+** Three jobs, in this order:
+**  1. Translate each GiNaC node once (memoised on its address, so the shared
+**     subtrees GiNaC builds while differentiating are visited once) into a
+**     temporary node.  Numeric coefficients are pulled out of products
+**     (2*a*b becomes 2 * (a*b), so the a*b node is shared with every other
+**     use), negative powers become divisions, x^(1/2) becomes sqrt.
+**  2. Hash-cons the temporary nodes by content.  Each node gets a 64-bit key
+**     computed only from its own content and its arguments' keys; arguments
+**     of sums and products are sorted by that key, so the result does not
+**     depend on GiNaC's term order (which moves with address randomisation).
+**  3. Number the nodes depth first from the roots, in root order: the
+**     numbering depends only on the roots' content.
+** Constants are folded along the way (x*0, x+0, x*1, f(number)).
+*/
+#include "symbolic_internal.h"
+
+#include <algorithm>
+#include <cassert>
+#include <cmath>
+#include <cstdint>
+#include <cstdlib>
+#include <cstring>
+#include <sstream>
+#include <unordered_map>
+
+#include "symbolic.h"
+
+using namespace GiNaC;
+
+namespace eomsym {
+
+namespace {
+
+/* A node before final numbering.  Arguments are ids of other TNodes. */
+struct TNode {
+  IrOp op;
+  IrFn fn;
+  IrVar var;
+  int index;
+  double num;
+  std::vector<int> args;
+  uint64_t key;  /* structural key: content and the arguments' keys only */
+};
+
+uint64_t mix(uint64_t h, uint64_t v) {
+  /* splitmix64 finaliser over the running hash: cheap and well spread */
+  uint64_t z = h ^ (v + 0x9e3779b97f4a7c15ULL + (h << 6) + (h >> 2));
+  z = (z ^ (z >> 30)) * 0xbf58476d1ce4e5b9ULL;
+  z = (z ^ (z >> 27)) * 0x94d049bb133111ebULL;
+  return z ^ (z >> 31);
+}
+
+uint64_t double_bits(double v) {
+  uint64_t b;
+  std::memcpy(&b, &v, sizeof b);
+  return b;
+}
+
+bool is_commutative(IrOp op) { return op == IR_ADD || op == IR_MUL; }
+
+struct FnName {
+  const char *ginac;
+  IrFn fn;
+};
+const FnName fn_names[] = {
+  {"sin", IRF_SIN},   {"cos", IRF_COS},   {"tan", IRF_TAN},     {"asin", IRF_ASIN},
+  {"acos", IRF_ACOS}, {"atan", IRF_ATAN}, {"atan2", IRF_ATAN2}, {"exp", IRF_EXP},
+  {"log", IRF_LOG},   {"abs", IRF_ABS},   {"sinh", IRF_SINH},   {"cosh", IRF_COSH},
+  {"tanh", IRF_TANH}, {"csgn", IRF_SIGN},
+};
+
+/* Value of fn at constant arguments, the way the generated C computes it. */
+double eval_fn(IrFn fn, const double *a) {
+  switch (fn) {
+    case IRF_SIN: return std::sin(a[0]);
+    case IRF_COS: return std::cos(a[0]);
+    case IRF_TAN: return std::tan(a[0]);
+    case IRF_ASIN: return std::asin(a[0]);
+    case IRF_ACOS: return std::acos(a[0]);
+    case IRF_ATAN: return std::atan(a[0]);
+    case IRF_ATAN2: return std::atan2(a[0], a[1]);
+    case IRF_EXP: return std::exp(a[0]);
+    case IRF_LOG: return std::log(a[0]);
+    case IRF_SQRT: return std::sqrt(a[0]);
+    case IRF_ABS: return std::fabs(a[0]);
+    case IRF_SINH: return std::sinh(a[0]);
+    case IRF_COSH: return std::cosh(a[0]);
+    case IRF_TANH: return std::tanh(a[0]);
+    case IRF_SIGN: return (a[0] > 0) - (a[0] < 0);
+  }
+  assert(!"unknown IrFn");
+  return 0;
+}
+
+}  // namespace
+
+struct IrBuilder::Impl {
+  const VarTable &vars;
+  std::vector<TNode> nodes;
+  std::unordered_multimap<uint64_t, int> table;  /* key -> ids with that key */
+  /* GiNaC node address -> id; the ex is kept so the address is never reused */
+  std::unordered_map<const basic *, std::pair<ex, int>> memo;
+  std::vector<int> roots;
+  SrcLoc loc;  /* of the root being translated, for errors */
+
+  explicit Impl(const VarTable &v) : vars(v), loc{0, 0} {}
+
+  /* ---- hash-consing ---- */
+
+  /* Total order on nodes by content; equal only for the same node. */
+  int compare(int a, int b) const {
+    if (a == b) return 0;
+    const TNode &x = nodes[a], &y = nodes[b];
+    if (x.key != y.key) return x.key < y.key ? -1 : 1;
+    /* equal keys of different nodes: a 64-bit collision, settle by content */
+    if (x.op != y.op) return x.op < y.op ? -1 : 1;
+    if (x.fn != y.fn) return x.fn < y.fn ? -1 : 1;
+    if (x.var != y.var) return x.var < y.var ? -1 : 1;
+    if (x.index != y.index) return x.index < y.index ? -1 : 1;
+    if (double_bits(x.num) != double_bits(y.num))
+      return double_bits(x.num) < double_bits(y.num) ? -1 : 1;
+    if (x.args.size() != y.args.size()) return x.args.size() < y.args.size() ? -1 : 1;
+    for (size_t i = 0; i < x.args.size(); i++)
+      if (int c = compare(x.args[i], y.args[i])) return c;
+    assert(!"two nodes with the same content");
+    return 0;
+  }
+
+  bool same_content(const TNode &x, const TNode &y) const {
+    return x.op == y.op && x.fn == y.fn && x.var == y.var && x.index == y.index &&
+           double_bits(x.num) == double_bits(y.num) && x.args == y.args;
+  }
+
+  int intern(TNode n) {
+    if (is_commutative(n.op))
+      std::sort(n.args.begin(), n.args.end(),
+                [this](int a, int b) { return compare(a, b) < 0; });
+    uint64_t k = mix(mix(mix(mix(n.op, n.fn), n.var), (uint64_t)n.index), double_bits(n.num));
+    for (int a : n.args) k = mix(k, nodes[a].key);
+    n.key = k;
+    auto range = table.equal_range(k);
+    for (auto it = range.first; it != range.second; ++it)
+      if (same_content(nodes[it->second], n)) return it->second;
+    int id = (int)nodes.size();
+    nodes.push_back(std::move(n));
+    table.emplace(k, id);
+    return id;
+  }
+
+  TNode blank(IrOp op) {
+    TNode n;
+    n.op = op;
+    n.fn = IRF_SIN;
+    n.var = IRV_T;
+    n.index = 0;
+    n.num = 0;
+    n.key = 0;
+    return n;
+  }
+
+  bool is_num(int id, double *v = nullptr) const {
+    if (nodes[id].op != IR_NUM) return false;
+    if (v) *v = nodes[id].num;
+    return true;
+  }
+  bool is_num_value(int id, double v) const {
+    return nodes[id].op == IR_NUM && nodes[id].num == v;
+  }
+
+  /* ---- node constructors with constant folding ---- */
+
+  int num(double v) {
+    if (!std::isfinite(v))
+      throw SymError{loc, "the equations contain a non-finite constant (division by zero?)"};
+    if (v == 0) v = 0;  /* -0 and 0 are one node */
+    TNode n = blank(IR_NUM);
+    n.num = v;
+    return intern(n);
+  }
+
+  int var(IrVar v, int index) {
+    TNode n = blank(IR_VAR);
+    n.var = v;
+    n.index = index;
+    return intern(n);
+  }
+
+  /* c and X when id is the scaled node c*X made by scale(), else 0. */
+  bool scaled(int id, double *c, int *x) const {
+    const TNode &n = nodes[id];
+    if (n.op != IR_MUL || n.args.size() != 2) return false;
+    for (int k = 0; k < 2; k++)
+      if (is_num(n.args[k], c)) {
+        *x = n.args[1 - k];
+        return true;
+      }
+    return false;
+  }
+
+  int neg(int a) {
+    double v;
+    int x;
+    if (is_num(a, &v)) return num(-v);
+    if (nodes[a].op == IR_NEG) return nodes[a].args[0];
+    if (scaled(a, &v, &x)) return scale(-v, x);
+    TNode n = blank(IR_NEG);
+    n.args.push_back(a);
+    return intern(n);
+  }
+
+  int add(const std::vector<int> &terms) {
+    double c = 0;
+    std::vector<int> rest;
+    for (int a : terms) {
+      double v;
+      if (is_num(a, &v)) c += v;
+      else rest.push_back(a);
+    }
+    if (c != 0) rest.push_back(num(c));
+    if (rest.empty()) return num(0);
+    if (rest.size() == 1) return rest[0];
+    /* x - y and y - x are one node (and a NEG): GiNaC picks either sign for
+    ** a sum depending on its term order.  The term whose sign-free part
+    ** sorts first is made positive. */
+    int first = -1, first_base = -1;
+    for (int a : rest) {
+      int base = negative(a) ? neg(a) : a;
+      if (first < 0 || compare(base, first_base) < 0) first = a, first_base = base;
+    }
+    bool flip = negative(first);
+    if (flip)
+      for (int &a : rest) a = neg(a);
+    TNode n = blank(IR_ADD);
+    n.args = rest;
+    int sum = intern(n);
+    return flip ? neg(sum) : sum;
+  }
+
+  /* Does the node carry a visible minus sign (-x, -2*x, a negative number)? */
+  bool negative(int id) const {
+    double c;
+    int x;
+    if (is_num(id, &c)) return c < 0;
+    if (nodes[id].op == IR_NEG) return true;
+    return scaled(id, &c, &x) && c < 0;
+  }
+
+  /* Product of non-numeric factors, no coefficient. */
+  int product(const std::vector<int> &factors) {
+    if (factors.empty()) return num(1);
+    if (factors.size() == 1) return factors[0];
+    TNode n = blank(IR_MUL);
+    n.args = factors;
+    return intern(n);
+  }
+
+  /* c * x with the coefficient kept outside x, so x is shared. */
+  int scale(double c, int x) {
+    double v;
+    if (c == 0 || is_num_value(x, 0)) return num(0);
+    if (is_num(x, &v)) return num(c * v);
+    if (c == 1) return x;
+    if (c == -1) return neg(x);
+    TNode n = blank(IR_MUL);
+    n.args = {num(c), x};
+    return intern(n);
+  }
+
+  int mul(const std::vector<int> &factors) {
+    double c = 1;
+    std::vector<int> rest;
+    for (int a : factors) {
+      double v;
+      int x;
+      const TNode &n = nodes[a];
+      if (is_num(a, &v)) {
+        c *= v;
+      } else if (n.op == IR_NEG) {
+        c = -c;
+        rest.push_back(n.args[0]);
+      } else if (scaled(a, &v, &x)) {
+        c *= v;  /* keep coefficients outside, so x is shared */
+        rest.push_back(x);
+      } else {
+        rest.push_back(a);
+      }
+    }
+    if (c == 0) return num(0);
+    return scale(c, product(rest));
+  }
+
+  int div(int a, int b) {
+    double va, vb;
+    if (is_num(b, &vb)) {
+      if (vb == 0) throw SymError{loc, "the equations divide by zero"};
+      return scale(1 / vb, a);
+    }
+    if (is_num_value(a, 0)) return num(0);
+    (void)va;
+    TNode n = blank(IR_DIV);
+    n.args = {a, b};
+    return intern(n);
+  }
+
+  int call(IrFn fn, const std::vector<int> &args) {
+    bool constant = true;
+    std::vector<double> v(args.size());
+    for (size_t i = 0; i < args.size(); i++) constant = constant && is_num(args[i], &v[i]);
+    if (constant) return num(eval_fn(fn, v.data()));
+    TNode n = blank(IR_CALL);
+    n.fn = fn;
+    n.args = args;
+    return intern(n);
+  }
+
+  int pow_num(int base, double k) {
+    double v;
+    if (k == 0) return num(1);
+    if (k == 1) return base;
+    if (is_num(base, &v)) return num(std::pow(v, k));
+    if (k == 0.5) return call(IRF_SQRT, {base});
+    if (k < 0) return div(num(1), pow_num(base, -k));
+    /* b^(n + 1/2) = b^n * sqrt(b): the sqrt node is shared with its other uses */
+    if (k - std::floor(k) == 0.5 && k < 8)
+      return mul({pow_num(base, std::floor(k)), call(IRF_SQRT, {base})});
+    TNode n = blank(IR_POW);
+    n.args = {base, num(k)};
+    return intern(n);
+  }
+
+  /* ---- translation from GiNaC ---- */
+
+  double number_of(const numeric &x) {
+    if (!x.is_real())
+      throw SymError{loc, "the equations contain a complex number (e.g. sqrt or log of a "
+                          "negative constant)"};
+    return x.to_double();
+  }
+
+  int translate(const ex &e) {
+    const basic *b = &ex_to<basic>(e);
+    auto it = memo.find(b);
+    if (it != memo.end()) return it->second.second;
+    int id = translate_new(e);
+    memo.emplace(b, std::make_pair(e, id));
+    return id;
+  }
+
+  int translate_new(const ex &e) {
+    if (is_a<numeric>(e)) return num(number_of(ex_to<numeric>(e)));
+    if (is_a<symbol>(e)) {
+      auto v = vars.find(e);
+      if (v == vars.end())
+        throw SymError{loc, "internal: unknown symbol '" + ex_to<symbol>(e).get_name() +
+                                "' in the equations"};
+      return var(v->second.var, v->second.index);
+    }
+    if (is_a<constant>(e)) {
+      ex v = e.evalf();
+      if (!is_a<numeric>(v)) throw SymError{loc, "internal: constant without a value"};
+      return num(number_of(ex_to<numeric>(v)));
+    }
+    if (is_a<GiNaC::add>(e)) {
+      std::vector<int> terms;
+      terms.reserve(e.nops());
+      for (size_t i = 0; i < e.nops(); i++) terms.push_back(translate(e.op(i)));
+      return add(terms);
+    }
+    if (is_a<GiNaC::mul>(e)) return translate_mul(e);
+    if (is_a<power>(e)) {
+      const ex &expo = e.op(1);
+      if (is_a<numeric>(expo) && ex_to<numeric>(expo).is_real())
+        return pow_num(translate(e.op(0)), number_of(ex_to<numeric>(expo)));
+      TNode n = blank(IR_POW);
+      n.args = {translate(e.op(0)), translate(expo)};
+      return intern(n);
+    }
+    if (is_a<function>(e)) {
+      const std::string &name = ex_to<function>(e).get_name();
+      for (const FnName &f : fn_names)
+        if (name == f.ginac) {
+          std::vector<int> args;
+          for (size_t i = 0; i < e.nops(); i++) args.push_back(translate(e.op(i)));
+          return call(f.fn, args);
+        }
+      throw SymError{loc, "the equations contain the function '" + name +
+                              "', which has no C translation"};
+    }
+    std::ostringstream os;
+    os << e;
+    throw SymError{loc, "internal: cannot translate '" + os.str().substr(0, 60) + "' to C"};
+  }
+
+  /* coefficient * (numerator factors) / (denominator factors) */
+  int translate_mul(const ex &e) {
+    double c = 1;
+    std::vector<int> up, down;
+    for (size_t i = 0; i < e.nops(); i++) {
+      const ex &f = e.op(i);
+      if (is_a<numeric>(f)) {
+        c *= number_of(ex_to<numeric>(f));
+        continue;
+      }
+      if (is_a<power>(f) && is_a<numeric>(f.op(1)) && ex_to<numeric>(f.op(1)).is_real() &&
+          ex_to<numeric>(f.op(1)).is_negative()) {
+        double k = -number_of(ex_to<numeric>(f.op(1)));
+        down.push_back(pow_num(translate(f.op(0)), k));
+        continue;
+      }
+      up.push_back(translate(f));
+    }
+    /* fold factors that became numbers (e.g. sin of a constant) */
+    int top = mul(up), bottom = mul(down);
+    int x = is_num_value(bottom, 1) ? top : div(top, bottom);
+    return scale(c, x);
+  }
+
+  /* ---- final numbering ---- */
+
+  void number(int id, std::vector<int> &final_index, std::vector<int> &order) {
+    if (final_index[id] >= 0) return;
+    for (int a : nodes[id].args) number(a, final_index, order);
+    assert(final_index[id] < 0);
+    final_index[id] = (int)order.size();
+    order.push_back(id);
+  }
+};
+
+IrBuilder::IrBuilder(const VarTable &vars) : impl_(new Impl(vars)) {}
+IrBuilder::~IrBuilder() = default;
+
+int IrBuilder::add_root(const ex &e, SrcLoc loc) {
+  impl_->loc = loc;
+  impl_->roots.push_back(impl_->translate(e));
+  return (int)impl_->roots.size() - 1;
+}
+
+void IrBuilder::finish(IrGraph *g, std::vector<int> &roots) {
+  Impl &im = *impl_;
+  std::vector<int> final_index(im.nodes.size(), -1), order;
+  for (int r : im.roots) im.number(r, final_index, order);
+  g->nnodes = (int)order.size();
+  g->nodes = (IrNode *)calloc(order.size() ? order.size() : 1, sizeof(IrNode));
+  if (!g->nodes) throw std::bad_alloc();
+  for (size_t i = 0; i < order.size(); i++) {
+    const TNode &t = im.nodes[order[i]];
+    IrNode &n = g->nodes[i];
+    n.op = t.op;
+    n.fn = t.fn;
+    n.var = t.var;
+    n.index = t.index;
+    n.num = t.num;
+    n.nargs = (int)t.args.size();
+    n.args = nullptr;
+    if (n.nargs) {
+      n.args = (int *)malloc(sizeof(int) * t.args.size());
+      if (!n.args) throw std::bad_alloc();
+      for (int k = 0; k < n.nargs; k++) {
+        n.args[k] = final_index[t.args[k]];
+        assert(n.args[k] >= 0 && n.args[k] < (int)i);
+      }
+    }
+  }
+  roots.resize(im.roots.size());
+  for (size_t h = 0; h < im.roots.size(); h++) roots[h] = final_index[im.roots[h]];
+}
+
+}  // namespace eomsym

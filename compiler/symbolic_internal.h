@@ -1,0 +1,73 @@
+/*
+** symbolic_internal.h — what the C++ files of the symbolic core share.
+**
+** symbolic.cc derives GiNaC expressions from the model; ir_build.cc turns
+** them into the deterministic, hash-consed IrGraph.  Neither the C parts of
+** the compiler nor the emitter see this header: their interface is symbolic.h.
+**
+** Errors inside the core are thrown as SymError and turned into one Diag
+** error at the C boundary (sym_derive), so deep code never has to unwind by
+** hand and never exits.
+*/
+#ifndef EOMC_SYMBOLIC_INTERNAL_H
+#define EOMC_SYMBOLIC_INTERNAL_H
+
+#include <ginac/ginac.h>
+
+#include <map>
+#include <memory>
+#include <string>
+#include <vector>
+
+/* The shared C headers carry no extern "C" of their own. */
+extern "C" {
+#include "ast.h"
+#include "check.h"
+#include "diag.h"
+}
+#include "ir.h"
+
+namespace eomsym {
+
+/* A model error found by the core, reported at `loc` (line 0: no place). */
+struct SymError {
+  SrcLoc loc;
+  std::string msg;
+};
+
+/* Which IR variable a GiNaC symbol stands for. */
+struct VarRef {
+  IrVar var;
+  int index;
+};
+typedef std::map<GiNaC::ex, VarRef, GiNaC::ex_is_less> VarTable;
+
+/* Builds one IrGraph from many roots.  Equal subexpressions become one node
+** whatever GiNaC's (run-dependent) operand order; node numbers depend only on
+** the roots' content and the order in which they were added. */
+class IrBuilder {
+ public:
+  explicit IrBuilder(const VarTable &vars);
+  ~IrBuilder();
+  IrBuilder(const IrBuilder &) = delete;
+  IrBuilder &operator=(const IrBuilder &) = delete;
+
+  /* Add a root; returns its handle for finish().  Throws SymError at `loc`
+  ** when `e` holds something C cannot compute (a complex number, an
+  ** unknown function). */
+  int add_root(const GiNaC::ex &e, SrcLoc loc);
+
+  /* Number the nodes reachable from the roots (depth first, roots in the
+  ** order added, arguments in canonical order) and write them to `g`
+  ** (malloc'd; freed by sym_free).  roots[h] becomes the node index of the
+  ** root with handle h. */
+  void finish(IrGraph *g, std::vector<int> &roots);
+
+ private:
+  struct Impl;
+  std::unique_ptr<Impl> impl_;
+};
+
+}  // namespace eomsym
+
+#endif

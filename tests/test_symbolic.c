@@ -1,0 +1,629 @@
+/*
+** test_symbolic.c — the symbolic core: derived equations of motion against
+** published closed forms, exact derivatives against finite differences,
+** determinism of the expression graph, and the errors it reports.
+**
+** Each model goes through the real front end (frontend_load on model text
+** written to a temporary file) and sym_derive(); the resulting IrGraph is
+** evaluated by the small interpreter below, so these tests check the graph
+** the emitter consumes, not GiNaC's view of it.
+*/
+#include <check.h>
+#include <math.h>
+#include <stdint.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <unistd.h>
+
+#include "frontend.h"
+#include "symbolic.h"
+
+/* ------------------------------------------------------------ helpers */
+
+/* A point at which to evaluate a graph. */
+typedef struct State {
+  double t;
+  double q[32], qd[32], qdd[32], u[8], p[32];
+} State;
+
+/* Value of every node of g at s (nodes are in dependency order). */
+static double *eval_graph(const IrGraph *g, const State *s) {
+  double *v = malloc(sizeof(double) * (g->nnodes ? g->nnodes : 1));
+  ck_assert_ptr_nonnull(v);
+  for (int i = 0; i < g->nnodes; i++) {
+    const IrNode *n = &g->nodes[i];
+    for (int k = 0; k < n->nargs; k++) ck_assert_int_lt(n->args[k], i);
+    const double *a0 = n->nargs > 0 ? &v[n->args[0]] : NULL;
+    double x = 0;
+    switch (n->op) {
+      case IR_NUM: x = n->num; break;
+      case IR_VAR:
+        switch (n->var) {
+          case IRV_T: x = s->t; break;
+          case IRV_Q: x = s->q[n->index]; break;
+          case IRV_QD: x = s->qd[n->index]; break;
+          case IRV_QDD: x = s->qdd[n->index]; break;
+          case IRV_U: x = s->u[n->index]; break;
+          case IRV_P: x = s->p[n->index]; break;
+        }
+        break;
+      case IR_ADD:
+        ck_assert_int_ge(n->nargs, 2);
+        for (int k = 0; k < n->nargs; k++) x += v[n->args[k]];
+        break;
+      case IR_MUL:
+        ck_assert_int_ge(n->nargs, 2);
+        x = 1;
+        for (int k = 0; k < n->nargs; k++) x *= v[n->args[k]];
+        break;
+      case IR_NEG: x = -*a0; break;
+      case IR_DIV: x = v[n->args[0]] / v[n->args[1]]; break;
+      case IR_POW: x = pow(v[n->args[0]], v[n->args[1]]); break;
+      case IR_CALL:
+        switch (n->fn) {
+          case IRF_SIN: x = sin(*a0); break;
+          case IRF_COS: x = cos(*a0); break;
+          case IRF_TAN: x = tan(*a0); break;
+          case IRF_ASIN: x = asin(*a0); break;
+          case IRF_ACOS: x = acos(*a0); break;
+          case IRF_ATAN: x = atan(*a0); break;
+          case IRF_ATAN2: x = atan2(v[n->args[0]], v[n->args[1]]); break;
+          case IRF_EXP: x = exp(*a0); break;
+          case IRF_LOG: x = log(*a0); break;
+          case IRF_SQRT: x = sqrt(*a0); break;
+          case IRF_ABS: x = fabs(*a0); break;
+          case IRF_SINH: x = sinh(*a0); break;
+          case IRF_COSH: x = cosh(*a0); break;
+          case IRF_TANH: x = tanh(*a0); break;
+          case IRF_SIGN: x = (*a0 > 0) - (*a0 < 0); break;
+        }
+        break;
+    }
+    v[i] = x;
+  }
+  return v;
+}
+
+/* One loaded and derived model. */
+typedef struct Derived {
+  Frontend fe;
+  EomSystem sys;
+  int status;  /* sym_derive's result; -1 when the front end failed */
+} Derived;
+
+/* Write text to a fresh DIR/model.eom; returns the malloc'd path. */
+static char *write_temp_model(const char *text) {
+  char dir[] = "/tmp/eomc-test-symbolic-XXXXXX";
+  ck_assert_ptr_nonnull(mkdtemp(dir));
+  char *path = malloc(sizeof dir + 16);
+  sprintf(path, "%s/model.eom", dir);
+  FILE *f = fopen(path, "w");
+  ck_assert_ptr_nonnull(f);
+  ck_assert_int_eq((long)fwrite(text, 1, strlen(text), f), (long)strlen(text));
+  fclose(f);
+  return path;
+}
+
+static void remove_temp_model(char *path) {
+  unlink(path);
+  *strrchr(path, '/') = 0;
+  rmdir(path);
+  free(path);
+}
+
+static void derive_opts(Derived *d, const char *text, const SymOptions *opt) {
+  char *path = write_temp_model(text);
+  memset(d, 0, sizeof *d);
+  int rc = frontend_load(&d->fe, path);
+  remove_temp_model(path);
+  if (rc != 0) {
+    diag_print(&d->fe.diag, stderr);
+    d->status = -1;
+    return;
+  }
+  d->status = sym_derive(&d->fe.model, opt, &d->fe.diag, &d->sys);
+}
+
+static void derive(Derived *d, const char *text) {
+  SymOptions opt = {0, 0};
+  derive_opts(d, text, &opt);
+}
+
+/* Derive a model that must be accepted. */
+static void derive_ok(Derived *d, const char *text) {
+  derive(d, text);
+  if (d->status != 0) diag_print(&d->fe.diag, stderr);
+  ck_assert_int_eq(d->status, 0);
+}
+
+static void derived_free(Derived *d) {
+  sym_free(&d->sys);
+  frontend_free(&d->fe);
+}
+
+static int param_index(const Derived *d, const char *name) {
+  for (int i = 0; i < d->fe.model.nparams; i++)
+    if (strcmp(d->fe.model.params[i]->name, name) == 0) return i;
+  ck_abort_msg("no parameter %s", name);
+  return -1;
+}
+
+/* Deterministic pseudo-random numbers in [lo, hi). */
+static uint64_t rng_state = 88172645463325252ULL;
+static double uniform(double lo, double hi) {
+  rng_state ^= rng_state << 13;
+  rng_state ^= rng_state >> 7;
+  rng_state ^= rng_state << 17;
+  return lo + (hi - lo) * (double)(rng_state >> 11) / 9007199254740992.0;
+}
+
+static void random_state(const Derived *d, State *s) {
+  memset(s, 0, sizeof *s);
+  s->t = uniform(0, 2);
+  for (int i = 0; i < d->sys.nq; i++) {
+    s->q[i] = uniform(-3, 3);
+    s->qd[i] = uniform(-2, 2);
+    s->qdd[i] = uniform(-2, 2);
+  }
+  for (int i = 0; i < d->sys.nu; i++) s->u[i] = uniform(-1, 1);
+  for (int i = 0; i < d->sys.np; i++) s->p[i] = uniform(0.5, 2);
+}
+
+static void assert_close(double got, double want, double rel, const char *what) {
+  double err = fabs(got - want), scale = fabs(want) > 1 ? fabs(want) : 1;
+  ck_assert_msg(err <= rel * scale, "%s: got %.17g, want %.17g (error %.3g)", what, got, want,
+                err / scale);
+}
+
+/* M and f of a derived system at s. */
+static void mass_forcing(const Derived *d, const State *s, double *M, double *f) {
+  double *v = eval_graph(&d->sys.g, s);
+  int n = d->sys.nq;
+  for (int i = 0; i < n * n; i++) M[i] = v[d->sys.mass[i]];
+  for (int i = 0; i < n; i++) f[i] = v[d->sys.forcing[i]];
+  free(v);
+}
+
+/* Is there an error reported on source line `line` containing `text`? */
+static int has_error(const Derived *d, int line, const char *text) {
+  for (int i = 0; i < d->fe.diag.nmsgs; i++) {
+    const DiagMsg *m = &d->fe.diag.msgs[i];
+    if (m->level == DIAG_ERROR && m->loc.line == line && strstr(m->text, text)) return 1;
+  }
+  return 0;
+}
+
+/* ------------------------------------------------------------ closed forms */
+
+/* Mass on a linear spring: omega^2 = k/m (common practice; any mechanics text). */
+START_TEST(mass_spring) {
+  Derived d;
+  derive_ok(&d,
+            "coord x\n"
+            "param m = 2\n"
+            "param k = 8\n"
+            "kinetic m/2*x'^2\n"
+            "potential k/2*x^2\n");
+  ck_assert_int_eq(d.sys.nq, 1);
+  State s;
+  for (int trial = 0; trial < 10; trial++) {
+    random_state(&d, &s);
+    double m = s.p[param_index(&d, "m")], k = s.p[param_index(&d, "k")];
+    double M, f, *v;
+    mass_forcing(&d, &s, &M, &f);
+    assert_close(M, m, 1e-14, "M");
+    assert_close(-f / (M * s.q[0]), k / m, 1e-13, "omega^2");
+    v = eval_graph(&d.sys.g, &s);
+    assert_close(v[d.sys.energy_T], m / 2 * s.qd[0] * s.qd[0], 1e-14, "T");
+    assert_close(v[d.sys.energy_V], k / 2 * s.q[0] * s.q[0], 1e-14, "V");
+    free(v);
+  }
+  derived_free(&d);
+}
+END_TEST
+
+/* Atwood machine over a massless pulley: a = g (m1 - m2)/(m1 + m2)
+** (common textbook result).  y is the drop of m1; m2 rises by y. */
+START_TEST(atwood_machine) {
+  Derived d;
+  derive_ok(&d,
+            "coord y\n"
+            "param m1 = 3\n"
+            "param m2 = 1\n"
+            "param g = 9.81\n"
+            "kinetic (m1 + m2)/2*y'^2\n"
+            "potential -m1*g*y + m2*g*y\n");
+  State s;
+  for (int trial = 0; trial < 10; trial++) {
+    random_state(&d, &s);
+    double m1 = s.p[param_index(&d, "m1")], m2 = s.p[param_index(&d, "m2")],
+           g = s.p[param_index(&d, "g")];
+    double M, f;
+    mass_forcing(&d, &s, &M, &f);
+    assert_close(f / M, g * (m1 - m2) / (m1 + m2), 1e-14, "a");
+  }
+  derived_free(&d);
+}
+END_TEST
+
+/* Bead on a hoop of radius R spinning at rate w about its vertical diameter
+** (Marion, Classical Dynamics of Particles and Systems, 1970, problem 7-18):
+** q'' = w^2 sin q cos q - (g/R) sin q, q measured from the lowest point. */
+START_TEST(bead_on_rotating_hoop) {
+  Derived d;
+  derive_ok(&d,
+            "coord q\n"
+            "param m = 0.1\n"
+            "param R = 0.5\n"
+            "param w = 6\n"
+            "param g = 9.81\n"
+            "let rho = R*sin(q)\n"
+            "kinetic m/2*(R^2*q'^2 + rho^2*w^2)\n"
+            "potential -m*g*R*cos(q)\n");
+  State s;
+  for (int trial = 0; trial < 10; trial++) {
+    random_state(&d, &s);
+    double R = s.p[param_index(&d, "R")], w = s.p[param_index(&d, "w")],
+           g = s.p[param_index(&d, "g")], q = s.q[0];
+    double M, f;
+    mass_forcing(&d, &s, &M, &f);
+    assert_close(f / M, w * w * sin(q) * cos(q) - g / R * sin(q), 1e-13, "q''");
+  }
+  derived_free(&d);
+}
+END_TEST
+
+static const char double_pendulum[] =
+  "# two point masses on massless rods, angles from the downward vertical\n"
+  "coord a, b\n"
+  "param m1 = 1.2\n"
+  "param m2 = 0.7\n"
+  "param l1 = 0.9\n"
+  "param l2 = 0.6\n"
+  "param g = 9.81\n"
+  "let x1 = l1*sin(a)\n"
+  "let y1 = -l1*cos(a)\n"
+  "let x2 = x1 + l2*sin(b)\n"
+  "let y2 = y1 - l2*cos(b)\n"
+  "kinetic m1/2*(x1'^2 + y1'^2)\n"
+  "kinetic m2/2*(x2'^2 + y2'^2)\n"
+  "potential g*(m1*y1 + m2*y2)\n";
+
+/* Double pendulum with point masses (Taylor, Classical Mechanics, 2005,
+** section 11.4 — closed form written from memory):
+**   M = [(m1+m2) l1^2, m2 l1 l2 c; m2 l1 l2 c, m2 l2^2], c = cos(a - b)
+**   f1 = -m2 l1 l2 sin(a - b) b'^2 - (m1+m2) g l1 sin a
+**   f2 =  m2 l1 l2 sin(a - b) a'^2 - m2 g l2 sin b */
+START_TEST(double_pendulum_closed_form) {
+  Derived d;
+  derive_ok(&d, double_pendulum);
+  ck_assert_int_eq(d.sys.nq, 2);
+  State s;
+  for (int trial = 0; trial < 50; trial++) {
+    random_state(&d, &s);
+    double m1 = s.p[param_index(&d, "m1")], m2 = s.p[param_index(&d, "m2")],
+           l1 = s.p[param_index(&d, "l1")], l2 = s.p[param_index(&d, "l2")],
+           g = s.p[param_index(&d, "g")];
+    double a = s.q[0], b = s.q[1], ad = s.qd[0], bd = s.qd[1];
+    double c = cos(a - b), sn = sin(a - b);
+    double Mw[4] = {(m1 + m2) * l1 * l1, m2 * l1 * l2 * c, m2 * l1 * l2 * c, m2 * l2 * l2};
+    double fw[2] = {-m2 * l1 * l2 * sn * bd * bd - (m1 + m2) * g * l1 * sin(a),
+                    m2 * l1 * l2 * sn * ad * ad - m2 * g * l2 * sin(b)};
+    double M[4], f[2];
+    mass_forcing(&d, &s, M, f);
+    for (int i = 0; i < 4; i++) assert_close(M[i], Mw[i], 1e-12, "M");
+    for (int i = 0; i < 2; i++) assert_close(f[i], fw[i], 1e-12, "f");
+  }
+  derived_free(&d);
+}
+END_TEST
+
+/* The same pendulum written with vectors: rates of vector lets, rotz(),
+** matrix times vector, dot() and indexing must give the same M and f. */
+START_TEST(vector_lets_match_scalar_form) {
+  Derived d, e;
+  derive_ok(&d, double_pendulum);
+  derive_ok(&e,
+            "coord a, b\n"
+            "param m1 = 1.2\n"
+            "param m2 = 0.7\n"
+            "param l1 = 0.9\n"
+            "param l2 = 0.6\n"
+            "param g = 9.81\n"
+            "let r1 = rotz(a)*[0, -l1, 0]\n"
+            "let r2 = r1 + l2*[sin(b), -cos(b), 0]\n"
+            "kinetic m1/2*dot(r1', r1') + m2/2*dot(r2', r2')\n"
+            "potential g*(m1*r1[2] + m2*r2[2])\n");
+  State s;
+  for (int trial = 0; trial < 10; trial++) {
+    random_state(&d, &s);
+    double M1[4], f1[2], M2[4], f2[2];
+    mass_forcing(&d, &s, M1, f1);
+    mass_forcing(&e, &s, M2, f2);
+    for (int i = 0; i < 4; i++) assert_close(M2[i], M1[i], 1e-13, "M");
+    for (int i = 0; i < 2; i++) assert_close(f2[i], f1[i], 1e-13, "f");
+  }
+  derived_free(&d);
+  derived_free(&e);
+}
+END_TEST
+
+/* Damped oscillator driven by an input: Rayleigh's dissipation function
+** D = c q'^2 / 2 gives the generalized force -c q' (Goldstein, Poole and
+** Safko, Classical Mechanics, 3rd ed., 2002, section 1.5). */
+START_TEST(damped_driven_oscillator) {
+  Derived d;
+  derive_ok(&d,
+            "coord x\n"
+            "param m = 1.5\n"
+            "param k = 4\n"
+            "param c = 0.3\n"
+            "input F\n"
+            "kinetic m/2*x'^2\n"
+            "potential k/2*x^2\n"
+            "dissipation c/2*x'^2\n"
+            "force x = F*cos(t)\n");
+  ck_assert_int_eq(d.sys.nu, 1);
+  State s;
+  for (int trial = 0; trial < 10; trial++) {
+    random_state(&d, &s);
+    double k = s.p[param_index(&d, "k")], c = s.p[param_index(&d, "c")],
+           m = s.p[param_index(&d, "m")];
+    double *v = eval_graph(&d.sys.g, &s);
+    double want = -k * s.q[0] - c * s.qd[0] + s.u[0] * cos(s.t);
+    assert_close(v[d.sys.forcing[0]], want, 1e-14, "f");
+    assert_close(v[d.sys.dforcing_dqd[0]], -c, 1e-14, "df/dqd");
+    assert_close(v[d.sys.dforcing_dq[0]], -k, 1e-14, "df/dq");
+    assert_close(v[d.sys.dforcing_du[0]], cos(s.t), 1e-14, "df/du");
+    /* inverse dynamics: M q'' - f with u = 0 */
+    assert_close(v[d.sys.inverse[0]], m * s.qdd[0] + k * s.q[0] + c * s.qd[0], 1e-14, "inverse");
+    free(v);
+  }
+  derived_free(&d);
+}
+END_TEST
+
+/* Planar chain of n point masses on rods: M_ij = l_i l_j cos(q_i - q_j)
+** sum_{k >= max(i,j)} m_k (the standard result for a chain of point masses
+** with absolute angles; e.g. Meirovitch, Methods of Analytical Dynamics,
+** 1970, ch. 4 — from memory).  Written with lets, as a user would. */
+static char *chain_model(int n) {
+  size_t cap = 4096 + (size_t)n * 256;
+  char *s = malloc(cap), *p = s;
+  p += sprintf(p, "coord q1");
+  for (int i = 2; i <= n; i++) p += sprintf(p, ", q%d", i);
+  p += sprintf(p, "\nparam g = 9.81\n");
+  for (int i = 1; i <= n; i++) p += sprintf(p, "param m%d = 1\nparam l%d = 1\n", i, i);
+  for (int i = 1; i <= n; i++) {
+    if (i == 1) {
+      p += sprintf(p, "let x1 = l1*sin(q1)\nlet y1 = -l1*cos(q1)\n");
+    } else {
+      p += sprintf(p, "let x%d = x%d + l%d*sin(q%d)\n", i, i - 1, i, i);
+      p += sprintf(p, "let y%d = y%d - l%d*cos(q%d)\n", i, i - 1, i, i);
+    }
+    p += sprintf(p, "kinetic m%d/2*(x%d'^2 + y%d'^2)\npotential m%d*g*y%d\n", i, i, i, i, i);
+  }
+  ck_assert((size_t)(p - s) < cap);
+  return s;
+}
+
+START_TEST(planar_chain_mass_matrix) {
+  const int n = 6;
+  char *text = chain_model(n);
+  Derived d;
+  derive_ok(&d, text);
+  free(text);
+  State s;
+  for (int trial = 0; trial < 5; trial++) {
+    random_state(&d, &s);
+    double M[36], f[6];
+    mass_forcing(&d, &s, M, f);
+    for (int i = 0; i < n; i++)
+      for (int j = 0; j < n; j++) {
+        char name[8];
+        double sum = 0;
+        for (int k = (i > j ? i : j); k < n; k++) {
+          snprintf(name, sizeof name, "m%d", k + 1);
+          sum += s.p[param_index(&d, name)];
+        }
+        snprintf(name, sizeof name, "l%d", i + 1);
+        double li = s.p[param_index(&d, name)];
+        snprintf(name, sizeof name, "l%d", j + 1);
+        double lj = s.p[param_index(&d, name)];
+        assert_close(M[i * n + j], li * lj * cos(s.q[i] - s.q[j]) * sum, 1e-12, "chain M");
+      }
+  }
+  derived_free(&d);
+}
+END_TEST
+
+/* ------------------------------------------------------------ exact derivatives */
+
+/* dM/dq, df/dq, df/dqd against central differences of M and f. */
+START_TEST(derivatives_match_finite_differences) {
+  Derived d;
+  derive_ok(&d, double_pendulum);
+  const int n = 2;
+  const double h = 1e-6;
+  State s;
+  for (int trial = 0; trial < 5; trial++) {
+    random_state(&d, &s);
+    double *v = eval_graph(&d.sys.g, &s);
+    for (int k = 0; k < n; k++) {
+      double Mp[4], Mm[4], fp[2], fm[2];
+      State a = s, b = s;
+      a.q[k] += h, b.q[k] -= h;
+      mass_forcing(&d, &a, Mp, fp);
+      mass_forcing(&d, &b, Mm, fm);
+      for (int ij = 0; ij < n * n; ij++)
+        assert_close(v[d.sys.dmass_dq[k * n * n + ij]], (Mp[ij] - Mm[ij]) / (2 * h), 1e-7,
+                     "dM/dq");
+      for (int i = 0; i < n; i++)
+        assert_close(v[d.sys.dforcing_dq[i * n + k]], (fp[i] - fm[i]) / (2 * h), 1e-7, "df/dq");
+      a = s, b = s;
+      a.qd[k] += h, b.qd[k] -= h;
+      mass_forcing(&d, &a, Mp, fp);
+      mass_forcing(&d, &b, Mm, fm);
+      for (int i = 0; i < n; i++)
+        assert_close(v[d.sys.dforcing_dqd[i * n + k]], (fp[i] - fm[i]) / (2 * h), 1e-7,
+                     "df/dqd");
+    }
+    free(v);
+  }
+  derived_free(&d);
+}
+END_TEST
+
+/* ------------------------------------------------------------ the graph */
+
+static void assert_same_graph(const EomSystem *a, const EomSystem *b) {
+  ck_assert_int_eq(a->g.nnodes, b->g.nnodes);
+  for (int i = 0; i < a->g.nnodes; i++) {
+    const IrNode *x = &a->g.nodes[i], *y = &b->g.nodes[i];
+    ck_assert_int_eq(x->op, y->op);
+    ck_assert_int_eq(x->nargs, y->nargs);
+    if (x->op == IR_NUM) ck_assert(memcmp(&x->num, &y->num, sizeof x->num) == 0);
+    if (x->op == IR_VAR) ck_assert(x->var == y->var && x->index == y->index);
+    if (x->op == IR_CALL) ck_assert_int_eq(x->fn, y->fn);
+    for (int k = 0; k < x->nargs; k++) ck_assert_int_eq(x->args[k], y->args[k]);
+  }
+  int n = a->nq;
+  for (int i = 0; i < n * n; i++) ck_assert_int_eq(a->mass[i], b->mass[i]);
+  for (int i = 0; i < n; i++) ck_assert_int_eq(a->forcing[i], b->forcing[i]);
+  for (int i = 0; i < n * n * n; i++) ck_assert_int_eq(a->dmass_dq[i], b->dmass_dq[i]);
+  for (int i = 0; i < n * n; i++) ck_assert_int_eq(a->dforcing_dq[i], b->dforcing_dq[i]);
+  ck_assert_int_eq(a->energy_T, b->energy_T);
+  ck_assert_int_eq(a->energy_V, b->energy_V);
+}
+
+/* Two derivations in one process create different GiNaC symbols, hence a
+** different GiNaC term order: the graphs must still be identical. */
+START_TEST(graph_is_deterministic) {
+  char *text = chain_model(5);
+  Derived a, b;
+  derive_ok(&a, text);
+  derive_ok(&b, text);
+  assert_same_graph(&a.sys, &b.sys);
+  derived_free(&a);
+  derived_free(&b);
+  free(text);
+}
+END_TEST
+
+/* Hash-consing: no two nodes are equal, sums/products carry >= 2 arguments,
+** no foldable constants remain, and each sin/cos argument has one node. */
+START_TEST(graph_is_hash_consed) {
+  char *text = chain_model(4);
+  Derived d;
+  derive_ok(&d, text);
+  free(text);
+  const IrGraph *g = &d.sys.g;
+  for (int i = 0; i < g->nnodes; i++) {
+    const IrNode *x = &g->nodes[i];
+    if (x->op == IR_ADD || x->op == IR_MUL) ck_assert_int_ge(x->nargs, 2);
+    if (x->op != IR_NUM && x->op != IR_VAR) {
+      int all_num = 1;
+      for (int k = 0; k < x->nargs; k++) all_num &= g->nodes[x->args[k]].op == IR_NUM;
+      ck_assert_msg(!all_num, "node %d has only constant arguments", i);
+    }
+    if (x->op == IR_MUL)
+      for (int k = 0; k < x->nargs; k++) {
+        const IrNode *a = &g->nodes[x->args[k]];
+        ck_assert_msg(!(a->op == IR_NUM && (a->num == 1 || a->num == 0)), "x*1 or x*0 left");
+      }
+    for (int j = 0; j < i; j++) {
+      const IrNode *y = &g->nodes[j];
+      if (x->op != y->op || x->nargs != y->nargs || x->fn != y->fn) continue;
+      if (x->op == IR_NUM && x->num != y->num) continue;
+      if (x->op == IR_VAR && (x->var != y->var || x->index != y->index)) continue;
+      int same = 1;
+      for (int k = 0; k < x->nargs; k++) same &= x->args[k] == y->args[k];
+      ck_assert_msg(!same, "nodes %d and %d are equal", j, i);
+    }
+  }
+  derived_free(&d);
+}
+END_TEST
+
+/* ------------------------------------------------------------ errors */
+
+/* Kinetic energy quartic in the rate: M would depend on q'. */
+START_TEST(non_quadratic_lagrangian_is_an_error) {
+  Derived d;
+  derive(&d,
+         "coord x\n"
+         "param m = 1\n"
+         "kinetic m/2*x'^2\n"
+         "kinetic x'^4\n"
+         "potential x^2\n");
+  ck_assert_int_eq(d.status, 1);
+  ck_assert_msg(has_error(&d, 4, "not quadratic"), "error on line 4 expected");
+  derived_free(&d);
+}
+END_TEST
+
+/* Terms that cancel are not a dependence: structurally (GiNaC cancels
+** x'^3 - x'^3) and only numerically (sin^2 + cos^2 - 1 stays). */
+START_TEST(cancelling_rate_terms_are_accepted) {
+  Derived d;
+  derive_ok(&d,
+            "coord x\n"
+            "param m = 2\n"
+            "kinetic m/2*(x'^2 + x'^3 - x'^3)\n"
+            "lagrangian (sin(x)^2 + cos(x)^2 - 1)*x'^4\n");
+  State s;
+  random_state(&d, &s);
+  double M, f;
+  mass_forcing(&d, &s, &M, &f);
+  assert_close(M, s.p[0], 1e-12, "M");
+  derived_free(&d);
+}
+END_TEST
+
+START_TEST(time_limit_is_an_error) {
+  char *text = chain_model(8);
+  Derived d;
+  SymOptions opt = {0, 1e-9};
+  derive_opts(&d, text, &opt);
+  free(text);
+  ck_assert_int_eq(d.status, 1);
+  ck_assert_int_eq(d.fe.diag.nerrors, 1);
+  ck_assert_ptr_nonnull(strstr(d.fe.diag.msgs[0].text, "time limit"));
+  derived_free(&d);
+}
+END_TEST
+
+Suite *symbolic_suite(void) {
+  Suite *s = suite_create("symbolic");
+  TCase *tc = tcase_create("closed forms");
+  tcase_set_timeout(tc, 120);
+  tcase_add_test(tc, mass_spring);
+  tcase_add_test(tc, atwood_machine);
+  tcase_add_test(tc, bead_on_rotating_hoop);
+  tcase_add_test(tc, double_pendulum_closed_form);
+  tcase_add_test(tc, damped_driven_oscillator);
+  tcase_add_test(tc, planar_chain_mass_matrix);
+  tcase_add_test(tc, vector_lets_match_scalar_form);
+  suite_add_tcase(s, tc);
+  tc = tcase_create("derivatives and graph");
+  tcase_set_timeout(tc, 120);
+  tcase_add_test(tc, derivatives_match_finite_differences);
+  tcase_add_test(tc, graph_is_deterministic);
+  tcase_add_test(tc, graph_is_hash_consed);
+  suite_add_tcase(s, tc);
+  tc = tcase_create("errors");
+  tcase_add_test(tc, non_quadratic_lagrangian_is_an_error);
+  tcase_add_test(tc, cancelling_rate_terms_are_accepted);
+  tcase_add_test(tc, time_limit_is_an_error);
+  suite_add_tcase(s, tc);
+  return s;
+}
+
+int main(void) {
+  SRunner *sr = srunner_create(symbolic_suite());
+  srunner_run_all(sr, CK_NORMAL);
+  int failed = srunner_ntests_failed(sr);
+  srunner_free(sr);
+  return failed ? EXIT_FAILURE : EXIT_SUCCESS;
+}
