@@ -1,0 +1,584 @@
+/*
+** test_check.c — the semantic pass (check.c): names, shapes, built-in
+** arities, time rates, param/const/initial evaluation, the Model it fills,
+** and the rule that one mistake gives one error.
+**
+** Each model is parsed with parse_model() and checked with check_model();
+** errors are asserted by position (line:col) and a piece of the message.
+** The numbers expected from evaluated defaults are plain arithmetic.
+*/
+#include <check.h>
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "check.h"
+#include "parse.h"
+
+typedef struct Checked {
+  Diag d;
+  Ast *ast;
+  Model m;
+  const char *src;
+} Checked;
+
+/* Parse (which must succeed) and check `src` as the file `path`. */
+static Checked *load_as(const char *path, const char *src) {
+  Checked *c = calloc(1, sizeof *c);
+  ck_assert_ptr_nonnull(c);
+  c->src = src;
+  diag_init(&c->d, path, src, strlen(src));
+  c->ast = parse_model(path, src, strlen(src), &c->d);
+  if (c->d.nerrors) {
+    diag_print(&c->d, stderr);
+    ck_abort_msg("test model does not parse:\n%s", src);
+  }
+  check_model(c->ast, &c->d, &c->m);
+  return c;
+}
+
+static Checked *load(const char *src) { return load_as("test.eom", src); }
+
+static void unload(Checked *c) {
+  ast_free(c->ast);
+  diag_free(&c->d);
+  free(c);
+}
+
+static const DiagMsg *first_of(const Checked *c, DiagLevel level) {
+  for (int i = 0; i < c->d.nmsgs; i++)
+    if (c->d.msgs[i].level == level) return &c->d.msgs[i];
+  return NULL;
+}
+
+/* The first error is at line:col and contains `substr`. */
+static void expect_error(const char *src, int line, int col, const char *substr) {
+  Checked *c = load(src);
+  const DiagMsg *e = first_of(c, DIAG_ERROR);
+  if (!e || e->loc.line != line || e->loc.col != col || !strstr(e->text, substr)) {
+    diag_print(&c->d, stderr);
+    ck_abort_msg("expected error at %d:%d containing '%s' for:\n%s", line, col, substr, src);
+  }
+  unload(c);
+}
+
+/* No errors and no warnings. */
+static Checked *expect_clean(const char *src) {
+  Checked *c = load(src);
+  if (c->d.nerrors || c->d.nwarnings) {
+    diag_print(&c->d, stderr);
+    ck_abort_msg("expected a clean model:\n%s", src);
+  }
+  return c;
+}
+
+static void expect_ok(const char *src) { unload(expect_clean(src)); }
+
+static int count_level(const Checked *c, DiagLevel level) {
+  int n = 0;
+  for (int i = 0; i < c->d.nmsgs; i++) n += c->d.msgs[i].level == level;
+  return n;
+}
+
+/* ------------------------------------------------------------ names */
+
+START_TEST(undefined_name) {
+  expect_error("coord x\nkinetic x'^2 + y\n", 2, 16, "undefined name 'y'");
+}
+END_TEST
+
+START_TEST(declaration_must_precede_use) {
+  expect_error("coord x\nkinetic m*x'^2\nparam m = 1\n", 2, 9, "undefined name 'm'");
+  expect_error("coord x\nparam m = m\nkinetic m*x'^2\n", 2, 11, "undefined name 'm'");
+  expect_error("coord x\nlet r = r + x\nkinetic r'^2\n", 2, 9, "undefined name 'r'");
+}
+END_TEST
+
+START_TEST(duplicate_declaration_names_earlier_line) {
+  Checked *c = load("coord x\nparam m = 1\nparam m = 2\nkinetic m*x'^2\n");
+  ck_assert_int_eq(c->d.nerrors, 1);
+  const DiagMsg *e = first_of(c, DIAG_ERROR);
+  ck_assert_int_eq(e->loc.line, 3);
+  ck_assert_int_eq(e->loc.col, 7);
+  ck_assert_ptr_nonnull(strstr(e->text, "duplicate declaration of 'm'"));
+  ck_assert_ptr_nonnull(strstr(e->text, "line 2"));
+  const DiagMsg *n = first_of(c, DIAG_NOTE);
+  ck_assert_ptr_nonnull(n);
+  ck_assert_int_eq(n->loc.line, 2);
+  ck_assert_int_eq(n->loc.col, 7);
+  unload(c);
+  /* Across kinds and within one coord list. */
+  expect_error("coord x\ninput x\nkinetic x'^2\n", 2, 7, "duplicate declaration of 'x'");
+  expect_error("coord x, y, x\nkinetic x'^2 + y'^2\n", 1, 13, "duplicate declaration of 'x'");
+}
+END_TEST
+
+START_TEST(builtin_and_predefined_names_rejected) {
+  expect_error("coord x\nparam cos = 1\nkinetic x'^2\n", 2, 7, "'cos' is a built-in function");
+  expect_error("coord x\nlet dh = x\nkinetic x'^2\n", 2, 5, "'dh' is a built-in function");
+  expect_error("coord pi\nkinetic pi'^2\n", 1, 7, "'pi' is predefined");
+  expect_error("coord x\ninput t\nkinetic x'^2\n", 2, 7, "'t' is predefined");
+}
+END_TEST
+
+START_TEST(c_keywords_and_libm_names_are_fine) {
+  /* The emitter never uses model names as C identifiers. */
+  expect_ok("coord double\nparam y0 = 1\nparam j1 = 2\nlet int = y0*j1\n"
+            "kinetic int*double'^2\npotential y0*double^2\n");
+}
+END_TEST
+
+START_TEST(context_words_are_names) {
+  /* mass, at, on, orient, inertia mean something only inside body/force/torque. */
+  expect_ok("coord at\nparam mass = 2\nparam inertia = 1\nkinetic mass*at'^2 + inertia*at'^2\n");
+}
+END_TEST
+
+START_TEST(undefined_name_reported_once_per_statement) {
+  Checked *c = load("coord x\nkinetic (zz +\n   x'^2 + zz*zz)\npotential zz\n");
+  /* Once in the kinetic statement (which spans two lines), once in potential. */
+  ck_assert_int_eq(c->d.nerrors, 2);
+  ck_assert_int_eq(c->d.msgs[0].loc.line, 2);
+  ck_assert_int_eq(c->d.msgs[1].loc.line, 4);
+  unload(c);
+}
+END_TEST
+
+START_TEST(names_resolve_to_declarations) {
+  Checked *c = expect_clean("coord x\nparam m = 2\nkinetic m*x'^2 + t*pi*0\n");
+  Expr *e = c->m.terms[0]->e[0];            /* (m*(x')^2) + ((t*pi)*0) */
+  ck_assert_int_eq(e->kind, EX_BINARY);
+  Expr *mx = e->args[0];
+  ck_assert_int_eq(mx->args[0]->kind, EX_NAME);
+  ck_assert_ptr_eq(mx->args[0]->ref, c->m.params[0]);
+  ck_assert_ptr_eq(mx->args[1]->args[0]->args[0]->ref, c->m.coords[0]);
+  Expr *tp = e->args[1]->args[0];
+  ck_assert_str_eq(tp->args[0]->name, "t");
+  ck_assert_ptr_null(tp->args[0]->ref);
+  ck_assert_ptr_null(tp->args[1]->ref);
+  unload(c);
+}
+END_TEST
+
+START_TEST(outputs_and_bodies_are_not_values) {
+  expect_error("coord x\noutput y = x\nkinetic y*x'^2\n", 3, 9, "'y' is an output");
+  expect_error("coord x\nbody b mass 1 at [x, 0, 0]\nkinetic b\n", 3, 9, "'b' is a body");
+}
+END_TEST
+
+/* ------------------------------------------------------------ built-ins */
+
+START_TEST(builtin_arity_table) {
+  ck_assert_int_eq(check_builtin_arity("sin"), 1);
+  ck_assert_int_eq(check_builtin_arity("atan2"), 2);
+  ck_assert_int_eq(check_builtin_arity("dh"), 4);
+  ck_assert_int_eq(check_builtin_arity("diag"), -1);
+  ck_assert_int_eq(check_builtin_arity("rot"), 1);
+  ck_assert_int_lt(check_builtin_arity("sine"), -1);
+  ck_assert_int_lt(check_builtin_arity("y0"), -1);
+  ck_assert(check_is_keyword("coord"));
+  ck_assert(check_is_keyword("constraint"));
+  ck_assert(!check_is_keyword("mass"));
+  ck_assert(!check_is_keyword("double"));
+}
+END_TEST
+
+START_TEST(wrong_arity) {
+  expect_error("coord x\nkinetic sin(x, x)*x'^2\n", 2, 9, "sin takes 1 argument, not 2");
+  expect_error("coord x\nlet T = dh(x, 1, 2)\nkinetic x'^2\n", 2, 9, "dh takes 4 arguments, not 3");
+  expect_error("coord x\nkinetic atan2(x)*x'^2\n", 2, 9, "atan2 takes 2 arguments, not 1");
+}
+END_TEST
+
+START_TEST(unknown_function) {
+  expect_error("coord x\nkinetic foo(x)*x'^2\n", 2, 9, "unknown function 'foo'");
+  expect_error("coord x\nparam m = 1\nkinetic m(x)*x'^2\n", 3, 9, "'m' is a param, not a function");
+}
+END_TEST
+
+/* ------------------------------------------------------------ shapes */
+
+START_TEST(vector_plus_scalar) {
+  expect_error("coord x\nlet v = [x, x, x]\nkinetic x'^2 + v\n", 3, 14, "cannot add scalar and 3x1");
+  expect_error("coord x\nkinetic x'^2 - [1, 2]\n", 2, 14, "cannot subtract scalar and 2x1");
+}
+END_TEST
+
+START_TEST(matrix_times_wrong_vector) {
+  expect_error("coord x\nlet R = rotz(x)\nlet p = R*[1, 2]\nkinetic x'^2\n", 3, 10,
+               "cannot multiply 3x3 by 2x1");
+}
+END_TEST
+
+START_TEST(shapes_of_valid_expressions) {
+  Checked *c = load("coord x\n"
+                    "let R = rotz(x)\n"             /* 3x3 */
+                    "let p = R*[1, 2, 3]\n"         /* 3x1 */
+                    "let pt = transpose(p)\n"       /* 1x3 */
+                    "let s = pt*p\n"                /* 1x1 */
+                    "let M = [[1, 2], [3, 4]]\n"    /* 2x2 */
+                    "let T = dh(x, 0.1, 0.2, 0)\n"  /* 4x4 */
+                    "let P = pos(T)\n"              /* 3x1 */
+                    "let Q = rot(T)\n"              /* 3x3 */
+                    "let D = diag(1, 2, 3, 4)\n"    /* 4x4 */
+                    "let c = cross(p, P)\n"         /* 3x1 */
+                    "let n = norm(c) + dot(p, P) + p[2] + R[1, 3] + M[2, 2] + D[4, 4]\n"
+                    "let rows = [[1, 2, 3]]\n"      /* 1x3 */
+                    "kinetic (s + n)*x'^2 + rows[3] + Q[1, 1]\n");
+  ck_assert_int_eq(c->d.nerrors, 0);
+  static const struct {
+    int r, c;
+  } want[] = {{3, 3}, {3, 1}, {1, 3}, {1, 1}, {2, 2}, {4, 4}, {3, 1}, {3, 3}, {4, 4}, {3, 1}, {1, 1}, {1, 3}};
+  ck_assert_int_eq(c->m.nlets, 12);
+  for (int i = 0; i < 12; i++) {
+    ck_assert_msg(c->m.lets[i]->shape.rows == want[i].r && c->m.lets[i]->shape.cols == want[i].c,
+                  "let %s: %dx%d, want %dx%d", c->m.lets[i]->name, c->m.lets[i]->shape.rows,
+                  c->m.lets[i]->shape.cols, want[i].r, want[i].c);
+    ck_assert_int_eq(c->m.lets[i]->index, i);
+  }
+  unload(c);
+}
+END_TEST
+
+START_TEST(list_and_matrix_literals) {
+  expect_error("coord x\nlet M = [[1, 2], [3]]\nkinetic x'^2\n", 2, 18, "rows must have equal lengths");
+  expect_error("coord x\nlet M = [[1, 2], 3]\nkinetic x'^2\n", 2, 18, "every row of a matrix must be a list");
+  expect_error("coord x\nlet v = [1, 2]\nlet w = [v, 1]\nkinetic x'^2\n", 3, 10,
+               "entries of a vector must be scalars");
+}
+END_TEST
+
+START_TEST(divisor_and_power_need_scalars) {
+  expect_error("coord x\nkinetic x'^2/[1, 2, 3]\n", 2, 13, "divisor must be a scalar, not 3x1");
+  expect_error("coord x\nlet R = rotx(x)\nlet S = R^2\nkinetic x'^2\n", 3, 10, "base of ^ must be a scalar");
+  expect_error("coord x\nkinetic x'^[1, 2]\n", 2, 11, "exponent of ^ must be a scalar");
+}
+END_TEST
+
+START_TEST(indexing) {
+  const char *head = "coord x\nconst two = 2\nlet v = [x, 2*x, 3*x]\nlet A = rotx(x)\n";
+  char src[512];
+  snprintf(src, sizeof src, "%skinetic v[4]*x'^2\n", head);
+  expect_error(src, 5, 11, "index 4 is out of range 1..3");
+  snprintf(src, sizeof src, "%skinetic v[0]*x'^2\n", head);
+  expect_error(src, 5, 11, "out of range");
+  snprintf(src, sizeof src, "%skinetic v[x]*x'^2\n", head);
+  expect_error(src, 5, 11, "constant integer");
+  snprintf(src, sizeof src, "%skinetic v[1.5]*x'^2\n", head);
+  expect_error(src, 5, 11, "constant integer");
+  snprintf(src, sizeof src, "%skinetic A[1]*x'^2\n", head);
+  expect_error(src, 5, 10, "needs two indices");
+  snprintf(src, sizeof src, "%skinetic A[2, 4]*x'^2\n", head);
+  expect_error(src, 5, 14, "index 4 is out of range 1..3");
+  snprintf(src, sizeof src, "%skinetic x[1]*x'^2\n", head);
+  expect_error(src, 5, 10, "cannot index a scalar");
+  snprintf(src, sizeof src, "%skinetic (v[two] + A[two, 3] + v[1 + 2])*x'^2\n", head);
+  expect_ok(src);
+}
+END_TEST
+
+START_TEST(vector_builtins) {
+  expect_error("coord x\nkinetic dot([1, 2, 3], [1, 2])*x'^2\n", 2, 9, "dot needs two vectors of equal length");
+  expect_error("coord x\nlet c = cross([1, 2], [3, 4])\nkinetic x'^2\n", 2, 9, "cross needs two 3-vectors");
+  expect_error("coord x\nkinetic norm(rotz(x))*x'^2\n", 2, 9, "norm needs a vector, not 3x3");
+  expect_error("coord x\nlet p = pos(rotz(x))\nkinetic x'^2\n", 2, 9, "pos needs a 4x4 transform, not 3x3");
+  expect_error("coord x\nlet R = rotz([x, x])\nkinetic x'^2\n", 2, 14, "argument 1 of rotz must be a scalar");
+  expect_error("coord x\nkinetic sin([x, x])*x'^2\n", 2, 13, "argument 1 of sin must be a scalar");
+  expect_error("coord x\nlet D = diag()\nkinetic x'^2\n", 2, 9, "diag needs at least one argument");
+  expect_ok("coord x\nkinetic dot([1, 2], [x', x'])^2 + atan2(x, 1)\n");
+}
+END_TEST
+
+START_TEST(statement_shapes) {
+  expect_error("coord x\nkinetic [x', x']\n", 2, 9, "a kinetic term must be a scalar, not 2x1");
+  expect_error("coord x\nkinetic x'^2\npotential rotz(x)\n", 3, 11, "a potential term must be a scalar, not 3x3");
+  expect_error("coord x\nkinetic x'^2\nforce x = [1, 2, 3]\n", 3, 11, "generalized force must be a scalar");
+  expect_error("coord x\nkinetic x'^2\nforce [1, 0] at [x, 0, 0]\n", 3, 7, "force vector must be a 3-vector");
+  expect_error("coord x\nkinetic x'^2\nforce [1, 0, 0] at x\n", 3, 20, "point of application must be a 3-vector");
+  expect_error("coord x\nkinetic x'^2\ntorque [0, 0, 1] on [x, 0, 0]\n", 3, 21, "orientation must be a 3x3 matrix");
+  expect_error("coord x\nkinetic x'^2\ngravity 9.81\n", 3, 9, "gravity must be a 3-vector");
+  expect_error("coord x\nbody b mass [1, 2] at [x, 0, 0]\n", 2, 13, "mass of body 'b' must be a scalar");
+  expect_error("coord x\nbody b mass 1 at [x, 0]\n", 2, 18, "position of body 'b' must be a 3-vector");
+  expect_error("coord x\nbody b mass 1 at [x, 0, 0] orient diag(1, 1)\n", 2, 35,
+               "orientation of body 'b' must be a 3x3 matrix");
+  expect_error("coord x\nbody b mass 1 at [x, 0, 0] inertia [1, 1, 1]\n", 2, 36,
+               "inertia of body 'b' must be a 3x3 matrix");
+  expect_error("coord x\nkinetic x'^2\nconstraint [x, x] = x\n", 3, 1, "equal shapes, not 2x1 and scalar");
+  expect_error("coord x\nkinetic x'^2\noutput p = [x, x]\n", 3, 12, "output 'p' must be a scalar");
+}
+END_TEST
+
+START_TEST(inertia_symmetry_warning) {
+  Checked *c = load("coord x\ngravity [0, 0, -9.81]\n"
+                    "body b mass 2 at [x, 0, 0] orient rotz(x) inertia [[1, 0.2, 0], [0, 1, 0], [0, 0, 1]]\n");
+  ck_assert_int_eq(c->d.nerrors, 0);
+  const DiagMsg *w = first_of(c, DIAG_WARNING);
+  ck_assert_ptr_nonnull(w);
+  ck_assert_ptr_nonnull(strstr(w->text, "not symmetric"));
+  unload(c);
+  expect_ok("coord x\nparam Ixy = 0.2\n"
+            "body b mass 2 at [x, 0, 0] inertia [[1, Ixy, 0], [Ixy, 1, 0], [0, 0, 1]]\n");
+  expect_ok("coord x\nbody b mass 2 at [x, 0, 0] orient rotz(x) inertia diag(1, 2, 3)\n");
+}
+END_TEST
+
+START_TEST(errors_do_not_cascade) {
+  /* The undefined name is the only problem reported for the statement. */
+  Checked *c = load("coord x\nkinetic (zz + [1, 2])*x'^2 + rotz(zz)\n");
+  ck_assert_int_eq(c->d.nerrors, 1);
+  ck_assert_ptr_nonnull(strstr(c->d.msgs[0].text, "undefined name 'zz'"));
+  unload(c);
+  /* A let in error does not make later uses of it errors. */
+  c = load("coord x\nlet v = [x, 1] + 1\nkinetic v*x'^2\npotential v[3]\n");
+  ck_assert_int_eq(c->d.nerrors, 1);
+  unload(c);
+}
+END_TEST
+
+/* ------------------------------------------------------------ time rates */
+
+START_TEST(rate_of_param_const_input) {
+  expect_error("coord x\nparam m = 1\nkinetic m'*x'^2\n", 3, 10, "'m' has no time rate: it is a param");
+  expect_error("coord x\nconst c = 1\nkinetic c'*x'^2\n", 3, 10, "'c' has no time rate: it is a const");
+  expect_error("coord x\ninput u\nkinetic x'^2\nforce x = u'\n", 4, 12, "'u' has no known time rate: it is an input");
+  expect_error("coord x\ninput u\nkinetic x'^2\nforce x = (u*x)'\n", 4, 16, "uses input 'u'");
+  expect_error("coord x\ninput u\nlet w = u*x\nkinetic x'^2\nforce x = w'\n", 5, 12, "uses input 'u'");
+}
+END_TEST
+
+START_TEST(second_rate_rejected) {
+  expect_error("coord x\nkinetic x''\n", 2, 11, "second time derivative");
+  expect_error("coord x\nkinetic (x'*x)'\n", 2, 15, "second time derivative");
+  expect_error("coord x\nlet v = x'\nkinetic v'^2\n", 3, 10, "second time derivative");
+  expect_error("coord x\nkinetic x'^2\noutput a = x''\n", 3, 14, "second time derivative");
+  expect_error("coord x\nkinetic x'^2\nforce x = -x''\n", 3, 14, "second time derivative");
+}
+END_TEST
+
+START_TEST(harmless_rates_allowed) {
+  /* t' is 1; the rate of a constant expression is 0; rates of lets of q are velocities. */
+  expect_ok("coord x\nparam m = 2\nlet p = [x, 2*x, 0]\nlet v = p'\n"
+            "kinetic m/2*dot(v, v) + t'*x'^2 + (2*m)'*x + pi'\n");
+  expect_ok("coord x\nlet s = sin(t)\nkinetic x'^2 + s'*x\n");
+}
+END_TEST
+
+START_TEST(constraints_holonomic) {
+  expect_error("coord x, y\nkinetic x'^2 + y'^2\nconstraint x' = y\n", 3, 1, "cannot use rates");
+  expect_error("coord x, y\ninput u\nkinetic x'^2 + y'^2\nconstraint x = u\n", 4, 1, "cannot use input 'u'");
+  Checked *c = expect_clean("coord x, y, z\nkinetic x'^2 + y'^2 + z'^2\nconstraint x^2 + y^2 = 1\n"
+                            "constraint [x, y, z] = [y, z, sin(t)]\n");
+  ck_assert_int_eq(c->m.nconstraints, 4);
+  unload(c);
+}
+END_TEST
+
+/* ------------------------------------------------------------ values */
+
+START_TEST(param_defaults_evaluated) {
+  Checked *c = expect_clean("coord x\nconst two = 2\nparam a = 1.5\nparam b = a*two + sqrt(16) - 2^3\n"
+                            "param c = cos(pi)\nconst d = two*pi\n"
+                            "kinetic (a + b + c + d)*x'^2\n");
+  ck_assert_int_eq(c->m.nparams, 3);
+  ck_assert(c->m.params[0]->number == 1.5);
+  ck_assert(c->m.params[1]->number == -1.0);
+  ck_assert(c->m.params[2]->number == -1.0);
+  ck_assert_int_eq(c->m.nconsts, 2);
+  ck_assert(c->m.consts[0]->number == 2.0);
+  ck_assert(fabs(c->m.consts[1]->number - 2 * 3.14159265358979323846) < 1e-15);
+  for (int i = 0; i < 3; i++) ck_assert_int_eq(c->m.params[i]->index, i);
+  unload(c);
+}
+END_TEST
+
+START_TEST(param_defaults_must_be_constant) {
+  expect_error("coord x\nparam m = 2*x\nkinetic m*x'^2\n", 2, 13, "'x' is a coordinate");
+  expect_error("coord x\ninput u\nparam m = u\nkinetic m*x'^2\n", 3, 11, "'u' is an input");
+  expect_error("coord x\nparam m = t\nkinetic m*x'^2\n", 2, 11, "time");
+  expect_error("coord x\nparam m = 1/0\nkinetic m*x'^2\n", 2, 12, "not a finite number");
+  expect_error("coord x\nparam m = [1, 2]\nkinetic x'^2\n", 2, 11, "must be a scalar, not 2x1");
+  expect_error("coord x\nparam m = 2\nconst c = 3*m\nkinetic c*m*x'^2\n", 3, 13, "cannot use param 'm'");
+}
+END_TEST
+
+START_TEST(initial_state) {
+  Checked *c = expect_clean("coord x, y\nparam a = 0.25\nkinetic x'^2 + y'^2\n"
+                            "initial y = 2*a\ninitial x' = -3\ninitial y' = a + 1\n");
+  ck_assert_int_eq(c->m.ncoords, 2);
+  ck_assert(c->m.q0[0] == 0.0);
+  ck_assert(c->m.q0[1] == 0.5);
+  ck_assert(c->m.qd0[0] == -3.0);
+  ck_assert(c->m.qd0[1] == 1.25);
+  ck_assert_int_eq(c->m.nterms, 1);
+  unload(c);
+}
+END_TEST
+
+START_TEST(initial_errors) {
+  expect_error("coord x\nparam m = 1\nkinetic m*x'^2\ninitial m = 2\n", 4, 9, "'m' is not a coordinate (it is a param)");
+  expect_error("initial x = 1\ncoord x\nkinetic x'^2\n", 1, 9, "undefined name 'x'");
+  expect_error("coord x\nkinetic x'^2\ninitial x = 1\ninitial x = 2\n", 4, 1, "duplicate initial value for 'x'");
+  expect_error("coord x\nkinetic x'^2\ninitial x' = 1\ninitial x' = 2\n", 4, 1, "duplicate initial value");
+  expect_error("coord x, y\nkinetic x'^2 + y'^2\ninitial x = y\n", 3, 13, "'y' is a coordinate");
+}
+END_TEST
+
+START_TEST(identify_lists_params) {
+  Checked *c = expect_clean("coord x\nparam m = 1\nparam k = 2\nkinetic m*x'^2\npotential k*x^2\nidentify k, m\n");
+  ck_assert_int_eq(c->m.nidentify, 2);
+  ck_assert_ptr_eq(c->m.identify[0], c->m.params[1]);
+  ck_assert_ptr_eq(c->m.identify[1], c->m.params[0]);
+  unload(c);
+  expect_error("coord x\nkinetic x'^2\nidentify x\n", 3, 10, "'x' is not a param (it is a coordinate)");
+  expect_error("coord x\nparam m = 1\nkinetic m*x'^2\nidentify m, m\n", 4, 13, "already listed");
+  expect_error("coord x\nkinetic x'^2\nidentify q\n", 3, 10, "undefined name 'q'");
+}
+END_TEST
+
+/* ------------------------------------------------------------ force targets */
+
+START_TEST(force_target_must_be_coordinate) {
+  expect_error("coord x\nparam k = 1\nkinetic x'^2\nforce k = 1\n", 4, 7, "'k' is not a coordinate (it is a param)");
+  expect_error("coord x\ninput u\nkinetic x'^2\nforce u = 1\n", 4, 7, "'u' is not a coordinate (it is an input)");
+  expect_error("coord x\nkinetic x'^2\nforce y = 1\n", 3, 7, "undefined name 'y'");
+  Checked *c = expect_clean("coord x, y\ninput u\nkinetic x'^2 + y'^2\nforce y = u\n");
+  ck_assert_ptr_eq(c->m.terms[1]->target, c->m.coords[1]);
+  unload(c);
+}
+END_TEST
+
+/* ------------------------------------------------------------ the model */
+
+START_TEST(model_statement_first) {
+  expect_error("coord x\nmodel late\nkinetic x'^2\n", 2, 1, "'model' must be the first statement");
+  Checked *c = expect_clean("model crane_2\ncoord x\nkinetic x'^2\n");
+  ck_assert_str_eq(c->m.name, "crane_2");
+  unload(c);
+}
+END_TEST
+
+START_TEST(model_name_from_file_stem) {
+  static const struct {
+    const char *path, *name;
+  } cases[] = {
+    {"seat_rig.eom", "seat_rig"},
+    {"models/gantry-crane.v2.eom", "gantry_crane_v2"},
+    {"/tmp/2link arm.eom", "m_2link_arm"},
+    {"noext", "noext"},
+    {"dir/.eom", "_eom"},
+    {"", "m_"},
+  };
+  for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++) {
+    Checked *c = load_as(cases[i].path, "coord x\nkinetic x'^2\n");
+    ck_assert_int_eq(c->d.nerrors, 0);
+    ck_assert_msg(strcmp(c->m.name, cases[i].name) == 0, "%s -> %s, want %s", cases[i].path, c->m.name,
+                  cases[i].name);
+    unload(c);
+  }
+}
+END_TEST
+
+START_TEST(model_needs_coordinates_and_energy) {
+  expect_error("", 1, 1, "no coordinates");
+  expect_error("param m = 1\n", 1, 1, "no coordinates");
+  expect_error("coord x\npotential x^2\n", 1, 1, "no energy");
+  expect_ok("coord x\nlagrangian x'^2 - x^2\n");
+  expect_ok("coord x\nbody b mass 1 at [x, 0, 0]\n");
+}
+END_TEST
+
+START_TEST(model_arrays_and_terms) {
+  Checked *c = expect_clean("coord a, b [m]\nparam m = 1 [kg]\ncoord c [m]\ninput u, v [N]\n"
+                            "let s = a + b + c\nconst k = 3 [N/m]\n"
+                            "kinetic 1/2*m*(a'^2 + b'^2 + c'^2)\npotential 1/2*k*s^2\n"
+                            "dissipation 0\nforce a = u + v\noutput y = s [m]\n"
+                            "constraint a = b\nlagrangian 0\n");
+  Model *m = &c->m;
+  ck_assert_int_eq(m->ncoords, 3);
+  ck_assert_str_eq(m->coords[2]->name, "c");
+  for (int i = 0; i < 3; i++) ck_assert_int_eq(m->coords[i]->index, i);
+  ck_assert_int_eq(m->ninputs, 2);
+  ck_assert_int_eq(m->inputs[1]->index, 1);
+  ck_assert_int_eq(m->nlets, 1);
+  ck_assert_int_eq(m->nconsts, 1);
+  ck_assert_int_eq(m->noutputs, 1);
+  ck_assert_int_eq(m->nbodies, 0);
+  ck_assert_int_eq(m->nterms, 6);
+  static const StmtKind kinds[] = {ST_KINETIC, ST_POTENTIAL, ST_DISSIPATION, ST_FORCE, ST_CONSTRAINT, ST_LAGRANGIAN};
+  for (int i = 0; i < 6; i++) ck_assert_int_eq(m->terms[i]->kind, kinds[i]);
+  ck_assert_int_eq(m->nconstraints, 1);
+  ck_assert_int_eq(m->has_units, 1);
+  ck_assert_ptr_eq(m->ast, c->ast);
+  unload(c);
+}
+END_TEST
+
+START_TEST(unused_warnings) {
+  Checked *c = load("coord x\nparam m = 1\nparam unused_p = 2\ninput u\nlet l = x\nkinetic m*x'^2\n");
+  ck_assert_int_eq(c->d.nerrors, 0);
+  ck_assert_int_eq(count_level(c, DIAG_WARNING), 2);
+  ck_assert_ptr_nonnull(strstr(c->d.msgs[0].text, "param 'unused_p' is never used"));
+  ck_assert_int_eq(c->d.msgs[0].loc.line, 3);
+  ck_assert_ptr_nonnull(strstr(c->d.msgs[1].text, "let 'l' is never used"));
+  unload(c);
+}
+END_TEST
+
+int main(void) {
+  Suite *s = suite_create("check");
+  TCase *tc = tcase_create("names");
+  tcase_add_test(tc, undefined_name);
+  tcase_add_test(tc, declaration_must_precede_use);
+  tcase_add_test(tc, duplicate_declaration_names_earlier_line);
+  tcase_add_test(tc, builtin_and_predefined_names_rejected);
+  tcase_add_test(tc, c_keywords_and_libm_names_are_fine);
+  tcase_add_test(tc, context_words_are_names);
+  tcase_add_test(tc, undefined_name_reported_once_per_statement);
+  tcase_add_test(tc, names_resolve_to_declarations);
+  tcase_add_test(tc, outputs_and_bodies_are_not_values);
+  suite_add_tcase(s, tc);
+  tc = tcase_create("builtins");
+  tcase_add_test(tc, builtin_arity_table);
+  tcase_add_test(tc, wrong_arity);
+  tcase_add_test(tc, unknown_function);
+  suite_add_tcase(s, tc);
+  tc = tcase_create("shapes");
+  tcase_add_test(tc, vector_plus_scalar);
+  tcase_add_test(tc, matrix_times_wrong_vector);
+  tcase_add_test(tc, shapes_of_valid_expressions);
+  tcase_add_test(tc, list_and_matrix_literals);
+  tcase_add_test(tc, divisor_and_power_need_scalars);
+  tcase_add_test(tc, indexing);
+  tcase_add_test(tc, vector_builtins);
+  tcase_add_test(tc, statement_shapes);
+  tcase_add_test(tc, inertia_symmetry_warning);
+  tcase_add_test(tc, errors_do_not_cascade);
+  suite_add_tcase(s, tc);
+  tc = tcase_create("rates");
+  tcase_add_test(tc, rate_of_param_const_input);
+  tcase_add_test(tc, second_rate_rejected);
+  tcase_add_test(tc, harmless_rates_allowed);
+  tcase_add_test(tc, constraints_holonomic);
+  suite_add_tcase(s, tc);
+  tc = tcase_create("values");
+  tcase_add_test(tc, param_defaults_evaluated);
+  tcase_add_test(tc, param_defaults_must_be_constant);
+  tcase_add_test(tc, initial_state);
+  tcase_add_test(tc, initial_errors);
+  tcase_add_test(tc, identify_lists_params);
+  tcase_add_test(tc, force_target_must_be_coordinate);
+  suite_add_tcase(s, tc);
+  tc = tcase_create("model");
+  tcase_add_test(tc, model_statement_first);
+  tcase_add_test(tc, model_name_from_file_stem);
+  tcase_add_test(tc, model_needs_coordinates_and_energy);
+  tcase_add_test(tc, model_arrays_and_terms);
+  tcase_add_test(tc, unused_warnings);
+  suite_add_tcase(s, tc);
+  SRunner *sr = srunner_create(s);
+  srunner_run_all(sr, CK_NORMAL);
+  int failed = srunner_ntests_failed(sr);
+  srunner_free(sr);
+  return failed ? 1 : 0;
+}
