@@ -68,7 +68,7 @@ static void print_decls(const Model *m, const char *title, Decl **v, int n, int 
       } else {
         fputs("  ", out);
       }
-      fprintf(out, "%*s", wunit - (int)strlen(u), "");
+      if (v[i]->desc || kind == COORD) fprintf(out, "%*s", wunit - (int)strlen(u), "");
     }
     if (kind == COORD) {
       fprintf(out, "  initial %g", m->q0[i]);
