@@ -1,0 +1,152 @@
+/*
+** eom/runtime.h — the public API of libeomrt: simulate, find equilibria and
+** linearize any generated model through its struct eom_model descriptor.
+**
+** The runtime keeps no global state: every call takes what it needs and
+** allocates its own workspace, so several threads may run simulations at
+** once.  Errors are data: each call returns an eom_status and, when given an
+** eom_report, a message naming the time and the state where it stopped.
+**
+**   struct eom_sim_options o;
+**   eom_sim_options_init(&o);
+**   o.method = "dopri"; o.t_end = 10; o.sample_dt = 0.01;
+**   double x[2 * NQ];            (initial state [q; q'])
+**   struct eom_report rep;
+**   int st = eom_simulate(&P_model, p, NULL, x, &o, my_sample, ctx, &rep);
+*/
+#ifndef EOM_RUNTIME_H
+#define EOM_RUNTIME_H
+
+#include <stddef.h>
+#include <stdio.h>
+#include "model.h"
+
+#ifdef __cplusplus
+extern "C" {
+#endif
+
+typedef enum eom_status {
+  EOM_OK = 0,
+  EOM_EINVAL,      /* bad argument: unknown method, empty time span, ... */
+  EOM_ENOMEM,      /* out of memory */
+  EOM_ESTEP,       /* the step size fell below the smallest allowed */
+  EOM_ENONFINITE,  /* the state or its derivative is not finite */
+  EOM_EMASS,       /* accel() reported a mass matrix that is not positive definite */
+  EOM_ENEWTON,     /* a Newton iteration did not converge */
+  EOM_ESINGULAR,   /* a Newton matrix is singular */
+  EOM_ESTOPPED,    /* the sample callback asked to stop */
+  EOM_EMAXSTEPS,   /* more steps than max_steps */
+  EOM_EINPUT       /* an input table could not be read */
+} eom_status;
+
+/* Short fixed name of a status, e.g. "step size underflow". */
+const char *eom_status_text(eom_status s);
+
+/* What a call did and, on failure, why it stopped. */
+struct eom_report {
+  eom_status status;
+  double t;            /* time reached (simulation) */
+  long steps;          /* accepted steps (simulation) or Newton iterations */
+  long rejected;       /* rejected steps (adaptive methods) */
+  long rhs_evals;      /* evaluations of the model's dynamics */
+  double residual;     /* final max-norm of the residual (equilibrium) */
+  char message[512];   /* "" on success; else names the time and state */
+};
+
+/* ------------------------------------------------------------------ inputs */
+
+/* Input signals u(t): per input either a constant or a column of a table
+** interpolated linearly in time (held constant outside the table's range). */
+typedef struct eom_inputs eom_inputs;
+
+eom_inputs *eom_inputs_new(int nu);
+void eom_inputs_free(eom_inputs *in);
+/* Constant value of input j (drops any table column bound to it). */
+int eom_inputs_set_constant(eom_inputs *in, int j, double value);
+/* Read a CSV table: a header line naming `t` first and then input names
+** (from `names`, nu of them), then rows of numbers with strictly increasing
+** t.  Inputs the table does not name keep their constants.  Returns EOM_OK,
+** or EOM_EINPUT with a message "FILE:LINE: ..." in err. */
+int eom_inputs_load_csv(eom_inputs *in, const char *path, const char *const *names,
+                        char *err, size_t errlen);
+/* u(t) into u[nu]; in may be NULL (all inputs zero). */
+void eom_inputs_eval(const eom_inputs *in, double t, double *u);
+
+/* ------------------------------------------------------------- simulation */
+
+struct eom_sim_options {
+  const char *method;  /* "dopri" (when NULL), "rk4", "radau5" or "midpoint" */
+  double t0, t_end;
+  double step;         /* fixed-step methods: largest step (0: sample_dt, or
+                          span/1000); dopri: first trial step (0: automatic) */
+  double sample_dt;    /* time between samples; 0: a sample after every step */
+  double rtol, atol;   /* dopri error tolerances; implicit methods: Newton
+                          tolerance (defaults 1e-8 and 1e-10) */
+  double h_min;        /* smallest step before EOM_ESTEP (0: automatic) */
+  long max_steps;      /* 0: no limit */
+  int fixed_step;      /* dopri: steps of exactly `step`, no error control */
+};
+
+void eom_sim_options_init(struct eom_sim_options *o);
+
+/* The methods eom_simulate() knows, as one line "rk4, dopri, ...". */
+const char *eom_method_list(void);
+/* Is `name` a known method? */
+int eom_method_known(const char *name);
+
+/* Called with each sample: at t0, every sample_dt, and at the end (or at the
+** last good state before a failure).  x is [q; qd], u the inputs there.
+** Return nonzero to stop the run (status EOM_ESTOPPED). */
+typedef int (*eom_sample_fn)(void *ctx, double t, const double *x, const double *u);
+
+/* Integrate from x (2*nq entries, [q; qd]) over [t0, t_end]; x holds the
+** last good state on return.  p: the np parameters (NULL: defaults);
+** in: input signals (NULL: zero).  sample may be NULL.  rep may be NULL. */
+int eom_simulate(const struct eom_model *m, const double *p, const eom_inputs *in,
+                 double *x, const struct eom_sim_options *o,
+                 eom_sample_fn sample, void *ctx, struct eom_report *rep);
+
+/* xdot = [qd; qdd] at (t, x, u), through accel() (or accel_constrained()
+** when the model has constraints).  Returns EOM_OK or EOM_EMASS. */
+/* (u NULL: all inputs zero, here and below.) */
+int eom_dynamics(const struct eom_model *m, const double *p, double t, const double *x,
+                 const double *u, double *xdot);
+
+/* ------------------------------------------------- equilibria, linearization */
+
+/* Newton on f(t, q, 0, u) = 0 from the guess in q (nq entries), with the
+** M-independent residual f and a backtracking line search on max|f|.
+** Converged when the Newton update is below tol * (1 + max|q|); tol 0:
+** 1e-10, max_iter 0: 100.  Returns EOM_OK, EOM_ENEWTON (no convergence),
+** EOM_ESINGULAR (df/dq singular: the equilibrium is not isolated) or
+** EOM_EINVAL (constrained models are not supported); rep->residual is the
+** final max|f| and rep->steps the iterations. */
+int eom_equilibrium(const struct eom_model *m, const double *p, const double *u, double t,
+                    double *q, double tol, int max_iter, struct eom_report *rep);
+
+/* Linearize M q'' = f about (q, qd): M there (nq x nq), C = -df/dqd and
+** K = -df/dq (row-major).  C comes from the model's jacobian (exact: M does
+** not depend on qd); so does K where q'' = 0 (an equilibrium), otherwise K
+** is central differences of forcing().  Any of M, C, K may be NULL.
+** Returns EOM_OK, EOM_EMASS, EOM_ENOMEM or EOM_EINVAL (constraints). */
+int eom_linearize(const struct eom_model *m, const double *p, const double *u, double t,
+                  const double *q, const double *qd, double *M, double *C, double *K,
+                  struct eom_report *rep);
+
+/* d xdot/dx at (t, x, u) (2nq x 2nq): the model's jacobian, or central
+** differences of eom_dynamics() when the model has none or has constraints. */
+int eom_state_matrix(const struct eom_model *m, const double *p, double t, const double *x,
+                     const double *u, double *A);
+
+/* ---------------------------------------------------------------- CSV out */
+
+/* Header line: t, coordinates, rates (name'), outputs, T, V. */
+int eom_csv_write_header(FILE *f, const struct eom_model *m);
+/* One row for (t, x, u); outputs and energies are evaluated here. */
+int eom_csv_write_row(FILE *f, const struct eom_model *m, const double *p, double t,
+                      const double *x, const double *u);
+
+#ifdef __cplusplus
+}
+#endif
+#endif

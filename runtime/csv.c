@@ -1,0 +1,42 @@
+/*
+** csv.c — write simulation samples as CSV: a header naming every column
+** (t, coordinates, rates as name', outputs, T, V) and one row per sample.
+** Numbers are printed with 17 significant digits so a row read back gives
+** the same doubles.
+*/
+#include <assert.h>
+#include <stdio.h>
+#include <stdlib.h>
+
+#include "eom/runtime.h"
+
+int eom_csv_write_header(FILE *f, const struct eom_model *m) {
+  assert(f && m);
+  fputs("t", f);
+  for (int i = 0; i < m->nq; i++) fprintf(f, ",%s", m->coord_names[i]);
+  for (int i = 0; i < m->nq; i++) fprintf(f, ",%s'", m->coord_names[i]);
+  for (int i = 0; i < m->ny; i++) fprintf(f, ",%s", m->output_names[i]);
+  fputs(",T,V\n", f);
+  return ferror(f) ? -1 : 0;
+}
+
+int eom_csv_write_row(FILE *f, const struct eom_model *m, const double *p, double t,
+                      const double *x, const double *u) {
+  double y_small[32], *y = y_small, T = 0, V = 0;
+  assert(f && m && x);
+  if (!p) p = m->param_defaults;
+  if (m->ny > (int)(sizeof y_small / sizeof y_small[0])) {
+    y = malloc((size_t)m->ny * sizeof(double));
+    if (!y) return -1;
+  }
+  fprintf(f, "%.17g", t);
+  for (int i = 0; i < 2 * m->nq; i++) fprintf(f, ",%.17g", x[i]);
+  if (m->ny > 0 && m->outputs) {
+    m->outputs(t, x, x + m->nq, u, p, y);
+    for (int i = 0; i < m->ny; i++) fprintf(f, ",%.17g", y[i]);
+  }
+  if (m->energy) m->energy(x, x + m->nq, p, &T, &V);
+  fprintf(f, ",%.17g,%.17g\n", T, V);
+  if (y != y_small) free(y);
+  return ferror(f) ? -1 : 0;
+}

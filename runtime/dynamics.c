@@ -1,0 +1,193 @@
+/*
+** dynamics.c — evaluate a model for the integrators: x' = [qd; M⁻¹ f], its
+** jacobian (the model's own or central differences), and failure messages
+** that name the time and the state.
+*/
+#include <assert.h>
+#include <float.h>
+#include <math.h>
+#include <stdarg.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "integrators.h"
+
+static void *alloc_doubles(size_t n) {
+  return calloc(n ? n : 1, sizeof(double));
+}
+
+int simctx_init(SimContext *c, const struct eom_model *m, const double *p,
+                const eom_inputs *in, struct eom_report *rep) {
+  assert(m && rep);
+  memset(c, 0, sizeof *c);
+  c->m = m;
+  c->p = p ? p : m->param_defaults;
+  c->in = in;
+  c->n = 2 * m->nq;
+  c->rep = rep;
+  c->rtol = 1e-8;
+  c->atol = 1e-10;
+  c->u = alloc_doubles((size_t)m->nu);
+  c->lambda = alloc_doubles((size_t)m->nc);
+  c->jac_b = alloc_doubles((size_t)c->n * (size_t)m->nu);
+  c->fd_x = alloc_doubles((size_t)c->n);
+  c->fd_f1 = alloc_doubles((size_t)c->n);
+  c->fd_f2 = alloc_doubles((size_t)c->n);
+  c->piv = calloc((size_t)(3 * c->n + 1), sizeof(int));
+  if (!c->piv || !c->u || !c->lambda || !c->jac_b || !c->fd_x || !c->fd_f1 || !c->fd_f2) {
+    simctx_free(c);
+    return EOM_ENOMEM;
+  }
+  return EOM_OK;
+}
+
+void simctx_free(SimContext *c) {
+  free(c->u);
+  free(c->lambda);
+  free(c->jac_b);
+  free(c->fd_x);
+  free(c->fd_f1);
+  free(c->fd_f2);
+  free(c->piv);
+  c->piv = NULL;
+  c->u = c->lambda = c->jac_b = c->fd_x = c->fd_f1 = c->fd_f2 = NULL;
+}
+
+static void load_inputs(SimContext *c, double t) {
+  int nu = c->m->nu;
+  if (c->u_fixed) {
+    if (nu > 0) memcpy(c->u, c->u_fixed, (size_t)nu * sizeof(double));
+  } else {
+    eom_inputs_eval(c->in, t, c->u);
+  }
+}
+
+/* accel() or, for constrained models, accel_constrained(); nonzero when the
+** (augmented) mass matrix cannot be factored. */
+static int model_accel(const struct eom_model *m, const double *p, double t, const double *x,
+                       const double *u, double *qdd, double *lambda) {
+  const double *q = x, *qd = x + m->nq;
+  if (m->nc > 0 && m->accel_constrained) return m->accel_constrained(t, q, qd, u, p, qdd, lambda);
+  return m->accel(t, q, qd, u, p, qdd);
+}
+
+int sim_rhs(SimContext *c, double t, const double *x, double *xdot) {
+  const struct eom_model *m = c->m;
+  int nq = m->nq;
+  load_inputs(c, t);
+  c->rep->rhs_evals++;
+  memcpy(xdot, x + nq, (size_t)nq * sizeof(double));
+  if (model_accel(m, c->p, t, x, c->u, xdot + nq, c->lambda) != 0)
+    return sim_fail(c, EOM_EMASS, t, x, "the mass matrix is not positive definite");
+  return EOM_OK;
+}
+
+int sim_jacobian(SimContext *c, double t, const double *x, double *A) {
+  const struct eom_model *m = c->m;
+  int n = c->n;
+  if (m->jacobian && m->nc == 0) {
+    load_inputs(c, t);
+    m->jacobian(t, x, c->u, c->p, A, c->jac_b);
+    return EOM_OK;
+  }
+  /* Central differences: error O(delta^2) with delta ~ eps^(1/3) balances
+  ** truncation against cancellation. */
+  memcpy(c->fd_x, x, (size_t)n * sizeof(double));
+  for (int j = 0; j < n; j++) {
+    double delta = cbrt(DBL_EPSILON) * fmax(1.0, fabs(x[j]));
+    c->fd_x[j] = x[j] + delta;
+    int st = sim_rhs(c, t, c->fd_x, c->fd_f1);
+    if (st) return st;
+    c->fd_x[j] = x[j] - delta;
+    st = sim_rhs(c, t, c->fd_x, c->fd_f2);
+    if (st) return st;
+    c->fd_x[j] = x[j];
+    for (int i = 0; i < n; i++) A[i * n + j] = (c->fd_f1[i] - c->fd_f2[i]) / (2 * delta);
+  }
+  return EOM_OK;
+}
+
+/* Append printf-style text to buf (of size cap, holding len bytes). */
+static size_t append(char *buf, size_t cap, size_t len, const char *fmt, ...) {
+  if (len + 1 >= cap) return len;
+  va_list ap;
+  va_start(ap, fmt);
+  int k = vsnprintf(buf + len, cap - len, fmt, ap);
+  va_end(ap);
+  if (k < 0) return len;
+  len += (size_t)k;
+  return len < cap ? len : cap - 1;
+}
+
+int sim_fail(SimContext *c, int status, double t, const double *x, const char *what) {
+  struct eom_report *r = c->rep;
+  assert(status != EOM_OK);
+  if (r->status != EOM_OK) return r->status; /* keep the first cause */
+  r->status = (eom_status)status;
+  r->t = t;
+  size_t cap = sizeof r->message, len = 0;
+  len = append(r->message, cap, len, "at t = %.10g: %s", t, what);
+  if (x) {
+    const struct eom_model *m = c->m;
+    len = append(r->message, cap, len, "; state");
+    for (int i = 0; i < m->nq; i++)
+      len = append(r->message, cap, len, "%s %s = %.10g", i ? "," : "", m->coord_names[i], x[i]);
+    for (int i = 0; i < m->nq; i++)
+      len = append(r->message, cap, len, ", %s' = %.10g", m->coord_names[i], x[m->nq + i]);
+  }
+  return status;
+}
+
+int all_finite(int n, const double *v) {
+  for (int i = 0; i < n; i++)
+    if (!isfinite(v[i])) return 0;
+  return 1;
+}
+
+double scaled_norm(int n, const double *v, const double *a, const double *b, double rtol,
+                   double atol) {
+  double sum = 0;
+  assert(n > 0);
+  for (int i = 0; i < n; i++) {
+    double sk = atol + rtol * fmax(fabs(a[i]), b ? fabs(b[i]) : 0.0);
+    double e = v[i] / sk;
+    sum += e * e;
+  }
+  return sqrt(sum / n);
+}
+
+int eom_dynamics(const struct eom_model *m, const double *p, double t, const double *x,
+                 const double *u, double *xdot) {
+  double lambda_small[16];
+  double *lambda = lambda_small, *zero_u = NULL;
+  assert(m && x && xdot);
+  if (m->nc > (int)(sizeof lambda_small / sizeof lambda_small[0])) {
+    lambda = malloc((size_t)m->nc * sizeof(double));
+    if (!lambda) return EOM_ENOMEM;
+  }
+  if (!u && m->nu > 0) {
+    u = zero_u = calloc((size_t)m->nu, sizeof(double));
+    if (!zero_u) {
+      if (lambda != lambda_small) free(lambda);
+      return EOM_ENOMEM;
+    }
+  }
+  memcpy(xdot, x + m->nq, (size_t)m->nq * sizeof(double));
+  int bad = model_accel(m, p ? p : m->param_defaults, t, x, u, xdot + m->nq, lambda);
+  if (lambda != lambda_small) free(lambda);
+  free(zero_u);
+  return bad ? EOM_EMASS : EOM_OK;
+}
+
+int eom_state_matrix(const struct eom_model *m, const double *p, double t, const double *x,
+                     const double *u, double *A) {
+  struct eom_report rep;
+  SimContext c;
+  memset(&rep, 0, sizeof rep);
+  if (simctx_init(&c, m, p, NULL, &rep) != EOM_OK) return EOM_ENOMEM;
+  c.u_fixed = u;
+  int st = sim_jacobian(&c, t, x, A);
+  simctx_free(&c);
+  return st;
+}

@@ -1,0 +1,164 @@
+/*
+** equilibrium.c — static equilibria: Newton's method on f(t, q, 0, u) = 0.
+**
+** The residual is the generalized force f, not the acceleration M⁻¹f, so a
+** mass matrix that is singular away from the solution does not matter.  The
+** Newton matrix df/dq is M·(d q''/dq) from the model's jacobian, which is
+** exact at the solution (the term (dM/dq)·q'' vanishes there) and so keeps
+** quadratic convergence; central differences of f stand in when that product
+** is unusable.  A backtracking line search on max|f| widens the basin.
+*/
+#include <assert.h>
+#include <float.h>
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "integrators.h"
+
+static double max_abs(int n, const double *v) {
+  double m = 0;
+  for (int i = 0; i < n; i++) m = fmax(m, fabs(v[i]));
+  return isfinite(m) ? m : INFINITY;
+}
+
+/* df/dq (nq x nq) by central differences of forcing() at qd = 0. */
+static void forcing_dq_fd(const struct eom_model *m, const double *p, const double *u, double t,
+                          const double *q, const double *qd, double *J, double *qt,
+                          double *f1, double *f2) {
+  int nq = m->nq;
+  memcpy(qt, q, (size_t)nq * sizeof(double));
+  for (int j = 0; j < nq; j++) {
+    double delta = cbrt(DBL_EPSILON) * fmax(1.0, fabs(q[j]));
+    qt[j] = q[j] + delta;
+    m->forcing(t, qt, qd, u, p, f1);
+    qt[j] = q[j] - delta;
+    m->forcing(t, qt, qd, u, p, f2);
+    qt[j] = q[j];
+    for (int i = 0; i < nq; i++) J[i * nq + j] = (f1[i] - f2[i]) / (2 * delta);
+  }
+}
+
+/* df/dq from the model's jacobian: M times the q-block of d q''/dx. */
+static int forcing_dq_model(const struct eom_model *m, const double *p, const double *u,
+                            double t, const double *q, double *J, double *M, double *x,
+                            double *A, double *B) {
+  int nq = m->nq, n = 2 * nq;
+  if (!m->jacobian || m->nc > 0) return -1;
+  memcpy(x, q, (size_t)nq * sizeof(double));
+  memset(x + nq, 0, (size_t)nq * sizeof(double));
+  m->jacobian(t, x, u, p, A, B);
+  m->mass(q, p, M);
+  for (int i = 0; i < nq; i++)
+    for (int j = 0; j < nq; j++) {
+      double s = 0;
+      for (int k = 0; k < nq; k++) s += M[i * nq + k] * A[(size_t)(nq + k) * n + j];
+      J[i * nq + j] = s;
+    }
+  return all_finite(nq * nq, J) ? 0 : -1;
+}
+
+static void state_text(const struct eom_model *m, const double *q, char *buf, size_t cap) {
+  size_t len = 0;
+  buf[0] = '\0';
+  for (int i = 0; i < m->nq && len + 1 < cap; i++) {
+    int k = snprintf(buf + len, cap - len, "%s%s = %.10g", i ? ", " : "", m->coord_names[i], q[i]);
+    if (k < 0) break;
+    len += (size_t)k;
+  }
+}
+
+int eom_equilibrium(const struct eom_model *m, const double *p, const double *u, double t,
+                    double *q, double tol, int max_iter, struct eom_report *rep) {
+  struct eom_report local;
+  if (!rep) rep = &local;
+  memset(rep, 0, sizeof *rep);
+  assert(m && q);
+  if (!p) p = m->param_defaults;
+  if (tol <= 0) tol = 1e-10;
+  if (max_iter <= 0) max_iter = 100;
+  if (m->nc > 0) {
+    snprintf(rep->message, sizeof rep->message,
+             "equilibria of models with constraints are not supported");
+    return rep->status = EOM_EINVAL;
+  }
+  int nq = m->nq, n = 2 * nq, nu = m->nu;
+  size_t nqq = (size_t)nq * nq;
+  double *buf = calloc(9 * (size_t)nq + 2 * nqq + (size_t)n * n + (size_t)n * nu +
+                           (size_t)nu + 1, sizeof(double));
+  int *piv = calloc((size_t)nq + 1, sizeof(int));
+  if (!buf || !piv) {
+    free(buf);
+    free(piv);
+    snprintf(rep->message, sizeof rep->message, "out of memory");
+    return rep->status = EOM_ENOMEM;
+  }
+  double *qd = buf, *f = qd + nq, *dq = f + nq, *qt = dq + nq, *f1 = qt + nq, *f2 = f1 + nq;
+  double *x = f2 + nq, *J = x + n, *M = J + nqq, *A = M + nqq, *B = A + (size_t)n * n;
+  if (!u) u = B + (size_t)n * nu; /* no inputs given: all zero */
+  char where[256];
+  int st = EOM_ENEWTON;
+
+  m->forcing(t, q, qd, u, p, f);
+  double res = max_abs(nq, f);
+  for (int it = 0; it < max_iter; it++) {
+    rep->steps = it;
+    rep->residual = res;
+    if (!isfinite(res)) {
+      state_text(m, q, where, sizeof where);
+      snprintf(rep->message, sizeof rep->message,
+               "the generalized force is not finite at %s", where);
+      st = EOM_ENEWTON;
+      goto out;
+    }
+    if (forcing_dq_model(m, p, u, t, q, J, M, x, A, B) != 0 || dense_lu(nq, J, piv) != 0) {
+      forcing_dq_fd(m, p, u, t, q, qd, J, qt, f1, f2);
+      if (dense_lu(nq, J, piv) != 0) {
+        state_text(m, q, where, sizeof where);
+        snprintf(rep->message, sizeof rep->message,
+                 "df/dq is singular at %s (residual %.3g): the equilibrium is not isolated, "
+                 "or a coordinate feels no restoring force", where, res);
+        st = EOM_ESINGULAR;
+        goto out;
+      }
+    }
+    for (int i = 0; i < nq; i++) dq[i] = -f[i];
+    dense_lu_solve(nq, J, piv, dq);
+    double step = max_abs(nq, dq);
+    if (step <= tol * (1 + max_abs(nq, q))) {
+      /* Converged: the remaining correction is negligible; take it. */
+      for (int i = 0; i < nq; i++) q[i] += dq[i];
+      m->forcing(t, q, qd, u, p, f);
+      rep->steps = it + 1;
+      rep->residual = max_abs(nq, f);
+      st = EOM_OK;
+      goto out;
+    }
+    /* Backtrack until max|f| decreases; take the shortest step if none does. */
+    double alpha = 1;
+    for (;;) {
+      for (int i = 0; i < nq; i++) qt[i] = q[i] + alpha * dq[i];
+      m->forcing(t, qt, qd, u, p, f1);
+      double rt = max_abs(nq, f1);
+      if (rt <= (1 - 1e-4 * alpha) * res || alpha < 1.0 / 64) {
+        memcpy(q, qt, (size_t)nq * sizeof(double));
+        memcpy(f, f1, (size_t)nq * sizeof(double));
+        res = rt;
+        break;
+      }
+      alpha /= 2;
+    }
+  }
+  rep->steps = max_iter;
+  rep->residual = res;
+  state_text(m, q, where, sizeof where);
+  snprintf(rep->message, sizeof rep->message,
+           "no equilibrium found after %d Newton iterations; last point %s, residual max|f| = %.3g",
+           max_iter, where, res);
+  st = EOM_ENEWTON;
+out:
+  free(buf);
+  free(piv);
+  return rep->status = (eom_status)st;
+}

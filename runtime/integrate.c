@@ -1,0 +1,248 @@
+/*
+** integrate.c — eom_simulate(): pick the method by name, hand out the
+** sample times and drive the fixed-step methods; Dormand–Prince drives
+** itself (dopri.c).  Every failure stops the run with a status and a message
+** naming the time and state; the samples already delivered stay delivered,
+** and the last good state is delivered as one more sample.
+*/
+#include <assert.h>
+#include <float.h>
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "integrators.h"
+
+const char *eom_status_text(eom_status s) {
+  switch (s) {
+  case EOM_OK: return "ok";
+  case EOM_EINVAL: return "invalid argument";
+  case EOM_ENOMEM: return "out of memory";
+  case EOM_ESTEP: return "step size underflow";
+  case EOM_ENONFINITE: return "non-finite state";
+  case EOM_EMASS: return "mass matrix not positive definite";
+  case EOM_ENEWTON: return "Newton iteration did not converge";
+  case EOM_ESINGULAR: return "singular Newton matrix";
+  case EOM_ESTOPPED: return "stopped by the sample function";
+  case EOM_EMAXSTEPS: return "too many steps";
+  case EOM_EINPUT: return "bad input table";
+  }
+  return "unknown status";
+}
+
+void eom_sim_options_init(struct eom_sim_options *o) {
+  memset(o, 0, sizeof *o);
+  o->method = "dopri";
+  o->t_end = 1.0;
+  o->rtol = 1e-8;
+  o->atol = 1e-10;
+}
+
+typedef struct Method {
+  const char *name;
+  FixedStepFn step;      /* NULL: adaptive (dopri_run) */
+  size_t (*work)(int n);
+} Method;
+
+static const Method methods[] = {
+    {"rk4", rk4_step, rk4_work},
+    {"dopri", NULL, dopri_work},
+    {"radau5", radau5_step, radau5_work},
+    {"midpoint", midpoint_step, midpoint_work},
+};
+
+/* Dormand–Prince without error control, for order studies. */
+static const Method dopri_fixed = {"dopri", dopri_fixed_step, dopri_work};
+
+const char *eom_method_list(void) { return "rk4, dopri, radau5, midpoint"; }
+
+static const Method *find_method(const char *name) {
+  if (!name) name = "dopri";
+  for (size_t i = 0; i < sizeof methods / sizeof methods[0]; i++)
+    if (strcmp(methods[i].name, name) == 0) return &methods[i];
+  return NULL;
+}
+
+int eom_method_known(const char *name) { return name && find_method(name) != NULL; }
+
+/* ------------------------------------------------------------------ sampler */
+
+void sampler_init(Sampler *s, double t0, double t_end, double dt, eom_sample_fn fn, void *ctx) {
+  memset(s, 0, sizeof *s);
+  s->t0 = t0;
+  s->t_end = t_end;
+  s->dt = dt;
+  s->fn = fn;
+  s->ctx = ctx;
+  s->last_t = -INFINITY;
+  if (!(dt > 0)) {
+    s->every_step = 1;
+    return;
+  }
+  /* A grid point within rounding of t_end is t_end itself. */
+  double span = t_end - t0;
+  s->kmax = (long)floor(span / dt * (1 + 1e-12));
+  s->end_extra = t0 + (double)s->kmax * dt < t_end - 1e-12 * span;
+}
+
+double sampler_next(const Sampler *s) {
+  if (s->every_step || s->done) return INFINITY;
+  if (s->k <= s->kmax) return fmin(s->t0 + (double)s->k * s->dt, s->t_end);
+  return s->t_end;  /* end_extra */
+}
+
+static int sampler_deliver(SimContext *c, Sampler *s, double t, const double *x) {
+  s->last_t = t;
+  if (!s->fn) return EOM_OK;
+  if (c->u_fixed) {
+    if (c->m->nu > 0) memcpy(c->u, c->u_fixed, (size_t)c->m->nu * sizeof(double));
+  } else
+    eom_inputs_eval(c->in, t, c->u);
+  if (s->fn(s->ctx, t, x, c->u) != 0) return sim_fail(c, EOM_ESTOPPED, t, NULL, "stopped by the sample function");
+  return EOM_OK;
+}
+
+int sampler_emit(SimContext *c, Sampler *s, double t, const double *x) {
+  if (!s->every_step) {
+    s->k++;
+    if (s->k > s->kmax + s->end_extra) s->done = 1;
+  }
+  return sampler_deliver(c, s, t, x);
+}
+
+/* ------------------------------------------------------- fixed-step driver */
+
+/* One step of h; when Newton fails, two steps of h/2 (recursively), down to hmin. */
+static int guarded_step(SimContext *c, const Method *m, double t, double h, double hmin,
+                        double *x, double *work, double *backup) {
+  memcpy(backup, x, (size_t)c->n * sizeof(double));
+  int st = m->step(c, t, h, x, work);
+  if (st != EOM_ENEWTON) return st;
+  memcpy(x, backup, (size_t)c->n * sizeof(double));
+  if (h / 2 < hmin) {
+    char what[128];
+    snprintf(what, sizeof what, "the %s Newton iteration does not converge even with h = %.3g",
+             m->name, h);
+    return sim_fail(c, EOM_ENEWTON, t, x, what);
+  }
+  /* backup is reused below by the nested calls, so keep our own copy. */
+  double *mine = malloc((size_t)c->n * sizeof(double));
+  if (!mine) return EOM_ENOMEM;
+  st = guarded_step(c, m, t, h / 2, hmin, x, work, mine);
+  if (st == EOM_OK) st = guarded_step(c, m, t + h / 2, h / 2, hmin, x, work, mine);
+  free(mine);
+  return st;
+}
+
+static int fixed_run(SimContext *c, const Method *m, const struct eom_sim_options *o,
+                     Sampler *s, double *x) {
+  int n = c->n, st = EOM_OK;
+  double t = o->t0, t_end = o->t_end, span = t_end - t;
+  double hmax = o->step > 0 ? o->step : (o->sample_dt > 0 ? o->sample_dt : span / 1000);
+  double *work = malloc(m->work(n) * sizeof(double));
+  double *backup = malloc((size_t)n * sizeof(double));
+  double *before = malloc((size_t)n * sizeof(double));
+  struct eom_report *rep = c->rep;
+  if (!work || !backup || !before) {
+    st = EOM_ENOMEM;
+    goto done;
+  }
+  while (t < t_end) {
+    double b = s->every_step ? t_end : fmin(sampler_next(s), t_end);
+    assert(b > t);
+    /* Equal steps no longer than hmax that land exactly on the sample. */
+    long nsteps = (long)ceil((b - t) / hmax - 1e-9);
+    if (nsteps < 1) nsteps = 1;
+    double h = (b - t) / (double)nsteps, ta = t;
+    double hmin = o->h_min > 0 ? o->h_min : 1e-12 * fmax(span, fabs(t_end));
+    for (long i = 0; i < nsteps; i++) {
+      if (o->max_steps > 0 && rep->steps >= o->max_steps) {
+        char what[64];
+        snprintf(what, sizeof what, "more than %ld steps", o->max_steps);
+        st = sim_fail(c, EOM_EMAXSTEPS, t, x, what);
+        goto done;
+      }
+      memcpy(before, x, (size_t)n * sizeof(double));
+      if ((st = guarded_step(c, m, t, h, hmin, x, work, backup))) goto restore;
+      double t_next = i + 1 == nsteps ? b : ta + (double)(i + 1) * h;
+      if (!all_finite(n, x)) {
+        memcpy(x, before, (size_t)n * sizeof(double));
+        st = sim_fail(c, EOM_ENONFINITE, t, x,
+                      "the state became non-finite in the step from here");
+        goto done;
+      }
+      t = t_next;
+      c->t_good = t;
+      rep->steps++;
+      if (s->every_step && (st = sampler_emit(c, s, t, x))) goto done;
+    }
+    if (!s->every_step && (st = sampler_emit(c, s, b, x))) goto done;
+  }
+  goto done;
+restore:
+  memcpy(x, before, (size_t)n * sizeof(double));
+done:
+  free(work);
+  free(backup);
+  free(before);
+  return st;
+}
+
+/* ---------------------------------------------------------------- the API */
+
+int eom_simulate(const struct eom_model *m, const double *p, const eom_inputs *in, double *x,
+                 const struct eom_sim_options *o, eom_sample_fn sample, void *ctx,
+                 struct eom_report *rep) {
+  struct eom_report local;
+  SimContext c;
+  Sampler s;
+  if (!rep) rep = &local;
+  memset(rep, 0, sizeof *rep);
+  assert(m && x && o);
+  const Method *meth = find_method(o->method);
+  rep->t = o->t0;
+  if (!meth) {
+    snprintf(rep->message, sizeof rep->message, "unknown method '%s' (known: %s)", o->method,
+             eom_method_list());
+    return rep->status = EOM_EINVAL;
+  }
+  if (!(o->t_end > o->t0) || !isfinite(o->t_end) || !isfinite(o->t0) || m->nq <= 0 ||
+      !m->accel || o->sample_dt < 0 || o->step < 0 || o->rtol < 0 || o->atol < 0) {
+    snprintf(rep->message, sizeof rep->message,
+             "invalid run: need t_end > t0, finite times, steps >= 0 and a model with coordinates");
+    return rep->status = EOM_EINVAL;
+  }
+  if (simctx_init(&c, m, p, in, rep) != EOM_OK) {
+    snprintf(rep->message, sizeof rep->message, "out of memory");
+    return rep->status = EOM_ENOMEM;
+  }
+  if (o->rtol > 0) c.rtol = o->rtol;
+  if (o->atol > 0) c.atol = o->atol;
+  c.t_good = o->t0;
+  sampler_init(&s, o->t0, o->t_end, o->sample_dt, sample, ctx);
+  int st;
+  if (!all_finite(c.n, x)) {
+    st = sim_fail(&c, EOM_ENONFINITE, o->t0, x, "the initial state is not finite");
+  } else if ((st = sampler_emit(&c, &s, o->t0, x)) == EOM_OK) {
+    if (meth->step)
+      st = fixed_run(&c, meth, o, &s, x);
+    else if (o->fixed_step)
+      st = fixed_run(&c, &dopri_fixed, o, &s, x);
+    else
+      st = dopri_run(&c, o, &s, x);
+  }
+  if (st != EOM_OK && st != EOM_ESTOPPED && c.t_good > s.last_t) {
+    /* Deliver the last good state so the output shows where the run ended. */
+    struct eom_report keep = *rep;
+    sampler_deliver(&c, &s, c.t_good, x);
+    *rep = keep;
+  }
+  if (st != EOM_OK && rep->status == EOM_OK) {
+    rep->status = (eom_status)st;
+    snprintf(rep->message, sizeof rep->message, "%s", eom_status_text((eom_status)st));
+  }
+  rep->t = c.t_good;
+  simctx_free(&c);
+  return st;
+}

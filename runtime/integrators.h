@@ -1,0 +1,95 @@
+/*
+** integrators.h — internal interface shared by the files of libeomrt.
+**
+** SimContext bundles what every integrator needs to evaluate a model (the
+** descriptor, parameters, inputs and scratch space) and records the first
+** failure with the time and state where it happened.  The Sampler hands out
+** evenly spaced sample times and calls the user's sample function.  Nothing
+** here is installed; users see only <eom/runtime.h>.
+*/
+#ifndef EOMRT_INTEGRATORS_H
+#define EOMRT_INTEGRATORS_H
+
+#include "eom/runtime.h"
+
+typedef struct SimContext {
+  const struct eom_model *m;
+  const double *p;          /* parameters (np) */
+  const eom_inputs *in;     /* may be NULL */
+  const double *u_fixed;    /* when set, u is this instead of in's signals */
+  int n;                    /* state size 2*nq */
+  double *u;                /* nu: inputs at the last evaluation */
+  double *lambda;           /* nc: multipliers (constrained models) */
+  double *jac_b;            /* n*nu: d xdot/du, filled by jacobian() and dropped */
+  double *fd_x, *fd_f1, *fd_f2;  /* n each: finite-difference scratch */
+  int *piv;                 /* 3n: pivots for the implicit methods */
+  double rtol, atol;
+  double t_good;            /* time of the last accepted state */
+  struct eom_report *rep;   /* never NULL inside the runtime */
+} SimContext;
+
+/* Allocate the scratch of c for model m (everything else set by the caller).
+** Returns EOM_OK or EOM_ENOMEM. */
+int simctx_init(SimContext *c, const struct eom_model *m, const double *p,
+                const eom_inputs *in, struct eom_report *rep);
+void simctx_free(SimContext *c);
+
+/* xdot = dynamics at (t, x) with u = u(t).  When accel() reports a mass
+** matrix that is not positive definite, fills c->rep with the time and state
+** and returns EOM_EMASS.  Finiteness is the caller's to check: an adaptive
+** method rejects a non-finite trial step instead of failing. */
+int sim_rhs(SimContext *c, double t, const double *x, double *xdot);
+/* A = d xdot/dx at (t, x): the model's jacobian, or central differences. */
+int sim_jacobian(SimContext *c, double t, const double *x, double *A);
+
+/* Record a failure in c->rep: "at t = T: WHAT; state q1 = ..., q1' = ...". */
+int sim_fail(SimContext *c, int status, double t, const double *x, const char *what);
+
+/* Is every entry of v[n] finite? */
+int all_finite(int n, const double *v);
+/* Weighted RMS norm of v with weights atol + rtol * max(|a|, |b|). */
+double scaled_norm(int n, const double *v, const double *a, const double *b,
+                   double rtol, double atol);
+
+/* Evenly spaced sample times over [t0, t_end]: t0 + k*dt, and t_end. */
+typedef struct Sampler {
+  double t0, t_end, dt;
+  long k, kmax;             /* next index; last index on the grid */
+  int end_extra;            /* t_end is off the grid: one more sample there */
+  int done;
+  int every_step;           /* dt == 0: a sample after every step */
+  double last_t;            /* time of the last sample delivered */
+  eom_sample_fn fn;
+  void *ctx;
+} Sampler;
+
+void sampler_init(Sampler *s, double t0, double t_end, double dt, eom_sample_fn fn, void *ctx);
+/* Time of the next grid sample not yet emitted (INFINITY when all are out,
+** and always in every-step mode). */
+double sampler_next(const Sampler *s);
+/* Deliver a sample (t, x): the next grid time, or any step's end in
+** every-step mode.  Returns EOM_OK or EOM_ESTOPPED. */
+int sampler_emit(SimContext *c, Sampler *s, double t, const double *x);
+
+/* One fixed step of length h from (t, x) into x.  Returns EOM_OK or a status
+** (EOM_ENEWTON means: try again with a smaller step). */
+typedef int (*FixedStepFn)(SimContext *c, double t, double h, double *x, double *work);
+
+int rk4_step(SimContext *c, double t, double h, double *x, double *work);
+int dopri_fixed_step(SimContext *c, double t, double h, double *x, double *work);
+int midpoint_step(SimContext *c, double t, double h, double *x, double *work);
+int radau5_step(SimContext *c, double t, double h, double *x, double *work);
+/* Doubles of work each stepper needs for state size n. */
+size_t rk4_work(int n);
+size_t dopri_work(int n);
+size_t midpoint_work(int n);
+size_t radau5_work(int n);
+
+/* Adaptive Dormand–Prince run with dense output at the sample times. */
+int dopri_run(SimContext *c, const struct eom_sim_options *o, Sampler *s, double *x);
+
+/* Dense LU with partial pivoting.  dense_lu returns 0, or -1 when singular. */
+int dense_lu(int n, double *a, int *piv);
+void dense_lu_solve(int n, const double *lu, const int *piv, double *b);
+
+#endif

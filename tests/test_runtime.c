@@ -1,0 +1,671 @@
+/*
+** test_runtime.c — libeomrt and the modal analysis on hand-written models
+** (tests/handmodels.c) whose motion is known in closed form or from
+** handbook formulas.  Each check names its source.
+*/
+#include <check.h>
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <unistd.h>
+
+#include "eom/runtime.h"
+#include "modal.h"
+#include "handmodels.h"
+
+#ifdef HAVE_GSL
+#include <gsl/gsl_sf_ellint.h>
+#endif
+
+static const double PI = 3.141592653589793238462643383279502884;
+
+/* Run m from x over [0, t_end] with the given method; returns the status. */
+static int run(const struct eom_model *m, const double *p, const eom_inputs *in, double *x,
+               const char *method, double t_end, double step, double rtol, double atol,
+               eom_sample_fn fn, void *ctx, struct eom_report *rep) {
+  struct eom_sim_options o;
+  eom_sim_options_init(&o);
+  o.method = method;
+  o.t_end = t_end;
+  o.step = step;
+  if (rtol > 0) o.rtol = rtol;
+  if (atol > 0) o.atol = atol;
+  return eom_simulate(m, p, in, x, &o, fn, ctx, rep);
+}
+
+/* ------------------------------------------------------------- pendulum */
+
+/* Large-amplitude period T = 4 sqrt(L/g) K(sin(theta0/2)) (Abramowitz &
+** Stegun, Handbook of Mathematical Functions, 1964, ch. 17 for K; the
+** pendulum formula is the standard exact solution), K from GSL's
+** gsl_sf_ellint_Kcomp (GSL uses the modulus k, not the parameter m = k^2).
+** Integrate exactly one reference period from rest at theta0: the pendulum
+** must be back at rest; the residual rate gives the period error as one
+** Newton step, dT = -theta'(T) / theta''(T). */
+#ifdef HAVE_GSL
+START_TEST(pendulum_period_large_amplitude) {
+  const double amplitudes_deg[] = {10, 90, 170};
+  const double p[] = {1.0, 1.3, 9.81}; /* m, L, g */
+  double theta0 = amplitudes_deg[_i] * PI / 180;
+  double T_ref = 4 * sqrt(p[1] / p[2]) * gsl_sf_ellint_Kcomp(sin(theta0 / 2), GSL_PREC_DOUBLE);
+  double x[2] = {theta0, 0};
+  struct eom_report rep;
+  int st = run(&tm_pendulum, p, NULL, x, "dopri", T_ref, 0, 1e-13, 1e-14, NULL, NULL, &rep);
+  ck_assert_msg(st == EOM_OK, "%s", rep.message);
+  double accel = -p[2] / p[1] * sin(x[0]);
+  double dT = -x[1] / accel;
+  ck_assert_msg(fabs(dT) / T_ref < 1e-7, "amplitude %g deg: period error %g (T_ref %.12g)",
+                amplitudes_deg[_i], fabs(dT) / T_ref, T_ref);
+  ck_assert_msg(fabs(x[0] - theta0) < 1e-7, "theta(T) = %.12g, theta0 %.12g", x[0], theta0);
+  /* The small-angle period 2 pi sqrt(L/g) is off by 0.19% at 10 degrees
+  ** (A&S 17.3.11 series, first term theta0^2/16): the check can tell. */
+  ck_assert(fabs(T_ref - 2 * PI * sqrt(p[1] / p[2])) / T_ref > 1e-3);
+}
+END_TEST
+#endif
+
+/* Dense output between steps: the undamped oscillator x = cos(w t)
+** (closed form, common practice); samples every 0.05 s fall between the
+** adaptive steps. */
+typedef struct Track {
+  int n;
+  double max_err, last_t;
+  double w;
+} Track;
+
+static int track_cos(void *ctx, double t, const double *x, const double *u) {
+  Track *k = ctx;
+  (void)u;
+  k->n++;
+  k->last_t = t;
+  k->max_err = fmax(k->max_err, fabs(x[0] - cos(k->w * t)));
+  k->max_err = fmax(k->max_err, fabs(x[1] + k->w * sin(k->w * t)));
+  return 0;
+}
+
+START_TEST(dopri_dense_output) {
+  const double p[] = {1.0, 4.0, 0.0}; /* m, k, c: w = 2 */
+  double x[2] = {1, 0};
+  Track k = {0, 0, 0, 2.0};
+  struct eom_sim_options o;
+  struct eom_report rep;
+  eom_sim_options_init(&o);
+  o.t_end = 10;
+  o.sample_dt = 0.01;
+  o.rtol = 1e-7;
+  o.atol = 1e-9;
+  ck_assert_int_eq(eom_simulate(&tm_oscillator, p, NULL, x, &o, track_cos, &k, &rep), EOM_OK);
+  ck_assert_int_eq(k.n, 1001);
+  ck_assert_double_eq(k.last_t, 10.0);
+  ck_assert_msg(k.max_err < 2e-6, "dense output error %g", k.max_err);
+  /* Far fewer steps than samples: the samples really come from interpolation. */
+  ck_assert_msg(rep.steps < 300, "%ld steps", rep.steps);
+}
+END_TEST
+
+/* ------------------------------------------------------------- Kepler */
+
+/* Kepler's third law, period 2 pi sqrt(a^3 / mu), and the conservation of
+** angular momentum m r^2 phi' (Goldstein, Poole & Safko, Classical
+** Mechanics, 3rd ed., 2002, §3.7-3.8).  Start at periapsis r = a(1 - e)
+** with speed sqrt(mu (1 + e) / (a (1 - e))) (vis-viva). */
+typedef struct Ang {
+  double h0, max_dev;
+} Ang;
+
+static int track_angular(void *ctx, double t, const double *x, const double *u) {
+  Ang *a = ctx;
+  (void)t, (void)u;
+  double h = x[0] * x[0] * x[3];
+  if (a->h0 == 0) a->h0 = h;
+  a->max_dev = fmax(a->max_dev, fabs(h - a->h0) / fabs(a->h0));
+  return 0;
+}
+
+START_TEST(kepler_period_and_angular_momentum) {
+  const double p[] = {1.0, 3.0}; /* m, mu */
+  double a = 2.0, e = 0.6, mu = p[1];
+  double rp = a * (1 - e), vp = sqrt(mu * (1 + e) / (a * (1 - e)));
+  double T = 2 * PI * sqrt(a * a * a / mu);
+  double x[4] = {rp, 0, 0, vp / rp};
+  Ang ang = {0, 0};
+  struct eom_sim_options o;
+  struct eom_report rep;
+  eom_sim_options_init(&o);
+  o.t_end = T;
+  o.sample_dt = T / 100;
+  o.rtol = 1e-12;
+  o.atol = 1e-14;
+  ck_assert_int_eq(eom_simulate(&tm_kepler, p, NULL, x, &o, track_angular, &ang, &rep), EOM_OK);
+  ck_assert_msg(fabs(x[0] - rp) < 1e-8 * a, "r(T) = %.12g, periapsis %.12g", x[0], rp);
+  ck_assert_msg(fabs(x[1] - 2 * PI) < 1e-8, "phi(T) - 2 pi = %g", x[1] - 2 * PI);
+  ck_assert_msg(fabs(x[2]) < 1e-7, "r'(T) = %g", x[2]);
+  ck_assert_msg(ang.max_dev < 1e-9, "angular momentum drift %g", ang.max_dev);
+}
+END_TEST
+
+/* ------------------------------------------------------------- order */
+
+/* Error at t = 2 of the oscillator x'' = -x from (1, 0) with fixed steps h. */
+static double fixed_error(const char *method, double h) {
+  const double p[] = {1.0, 1.0, 0.0};
+  double x[2] = {1, 0};
+  struct eom_sim_options o;
+  struct eom_report rep;
+  eom_sim_options_init(&o);
+  o.method = method;
+  o.t_end = 2;
+  o.step = h;
+  o.fixed_step = 1;
+  o.rtol = 1e-15; /* Newton solves well below the truncation error */
+  o.atol = 1e-16;
+  ck_assert_int_eq(eom_simulate(&tm_oscillator, p, NULL, x, &o, NULL, NULL, &rep), EOM_OK);
+  return hypot(x[0] - cos(2.0), x[1] + sin(2.0));
+}
+
+/* A method of order p divides the global error by 2^p per halving of h
+** (Hairer, Nørsett & Wanner, Solving ODEs I, 2nd ed., 1993, §II.3):
+** dopri 5 -> 32, radau5 5 -> 32, rk4 4 -> 16, midpoint 2 -> 4. */
+START_TEST(integrator_orders) {
+  static const struct {
+    const char *method;
+    double h, order;
+  } cases[] = {{"dopri", 0.2, 5}, {"radau5", 0.2, 5}, {"rk4", 0.1, 4}, {"midpoint", 0.02, 2}};
+  for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++) {
+    double e1 = fixed_error(cases[i].method, cases[i].h);
+    double e2 = fixed_error(cases[i].method, cases[i].h / 2);
+    double e3 = fixed_error(cases[i].method, cases[i].h / 4);
+    double want = pow(2, cases[i].order);
+    ck_assert_msg(e1 / e2 > 0.75 * want && e1 / e2 < 1.3 * want, "%s: ratio %g, want %g",
+                  cases[i].method, e1 / e2, want);
+    ck_assert_msg(e2 / e3 > 0.75 * want && e2 / e3 < 1.3 * want, "%s: ratio %g, want %g",
+                  cases[i].method, e2 / e3, want);
+  }
+}
+END_TEST
+
+/* Adaptive dopri meets its tolerance: the error falls as rtol does. */
+START_TEST(dopri_tolerance_proportionality) {
+  const double p[] = {1.0, 1.0, 0.0};
+  double prev = INFINITY;
+  for (double tol = 1e-5; tol >= 1e-11; tol *= 1e-3) {
+    double x[2] = {1, 0};
+    struct eom_report rep;
+    ck_assert_int_eq(run(&tm_oscillator, p, NULL, x, "dopri", 5, 0, tol, tol, NULL, NULL, &rep),
+                     EOM_OK);
+    double err = hypot(x[0] - cos(5.0), x[1] + sin(5.0));
+    ck_assert_msg(err < 100 * tol, "tol %g: error %g", tol, err);
+    ck_assert_msg(err < prev / 50, "tol %g: error %g after %g", tol, err, prev);
+    prev = err;
+  }
+}
+END_TEST
+
+/* ------------------------------------------------------------- energy */
+
+typedef struct Energy {
+  const struct eom_model *m;
+  const double *p;
+  double E0, max_rel;
+  int have;
+} Energy;
+
+static int track_energy(void *ctx, double t, const double *x, const double *u) {
+  Energy *e = ctx;
+  double T, V;
+  (void)t, (void)u;
+  e->m->energy(x, x + e->m->nq, e->p, &T, &V);
+  if (!e->have) e->E0 = T + V, e->have = 1;
+  e->max_rel = fmax(e->max_rel, fabs(T + V - e->E0) / fabs(e->E0));
+  return 0;
+}
+
+static double energy_drift(const struct eom_model *m, const double *p, double *x,
+                           const char *method, double h, double t_end, double sample_dt) {
+  Energy e = {m, p, 0, 0, 0};
+  struct eom_sim_options o;
+  struct eom_report rep;
+  eom_sim_options_init(&o);
+  o.method = method;
+  o.t_end = t_end;
+  o.step = h;
+  o.sample_dt = sample_dt;
+  o.rtol = 1e-14;
+  o.atol = 1e-15;
+  ck_assert_int_eq(eom_simulate(m, p, NULL, x, &o, track_energy, &e, &rep), EOM_OK);
+  ck_assert_int_eq(rep.steps, (long)llround(t_end / h));
+  return e.max_rel;
+}
+
+/* Implicit midpoint keeps quadratic invariants, so the energy of a linear
+** oscillator stays at its start up to rounding (Hairer, Lubich & Wanner,
+** Geometric Numerical Integration, 2nd ed., 2006, §IV.2, Thm 2.1); RK4 is not
+** symplectic and its energy drifts (ibid. §I.1).  10^6 steps of h = 0.1. */
+START_TEST(midpoint_energy_bounded) {
+  const double p[] = {1.0, 1.0, 0.0};
+  double x1[2] = {1, 0}, x2[2] = {1, 0};
+  double mid = energy_drift(&tm_oscillator, p, x1, "midpoint", 0.1, 1e5, 100);
+  double rk4 = energy_drift(&tm_oscillator, p, x2, "rk4", 0.1, 1e5, 100);
+  ck_assert_msg(mid < 1e-6, "midpoint energy drift %g", mid);
+  ck_assert_msg(rk4 > 100 * mid && rk4 > 1e-6, "rk4 drift %g vs midpoint %g", rk4, mid);
+}
+END_TEST
+
+/* On the nonlinear pendulum the midpoint energy error oscillates but does
+** not grow (ibid. §IX.8, long-time energy conservation): the worst error in
+** the last tenth of a long run is no larger than over the first tenth. */
+START_TEST(midpoint_pendulum_no_drift) {
+  const double p[] = {1.0, 1.0, 9.81};
+  double x[2] = {2.0, 0};
+  double first = energy_drift(&tm_pendulum, p, x, "midpoint", 0.01, 100, 0.01);
+  double whole = energy_drift(&tm_pendulum, p, x, "midpoint", 0.01, 900, 0.01);
+  ck_assert_msg(first < 1e-3 && first > 0, "first %g", first);
+  ck_assert_msg(whole < 1.5 * first, "energy error grows: %g then %g", first, whole);
+}
+END_TEST
+
+/* ------------------------------------------------------------- stiffness */
+
+/* A heavily overdamped oscillator (c = 1e4, k = m = 1): eigenvalues
+** s = (-c ± sqrt(c^2 - 4k)) / 2, one near -1e4, one near -1e-4 (closed
+** form, common practice).  At h = 0.01, h s = -100 lies outside RK4's
+** stability region, which must fail cleanly, while the L-stable Radau IIA
+** (Hairer & Wanner, Solving ODEs II, 2nd ed., 1996, §IV.3) follows the slow
+** solution. */
+START_TEST(stiff_radau5_vs_rk4) {
+  const double p[] = {1.0, 1.0, 1e4};
+  double c = p[2], d = sqrt(c * c - 4);
+  double s1 = (-c + d) / 2, s2 = (-c - d) / 2;
+  double A = -s2 / (s1 - s2), B = 1 - A; /* x(0) = 1, x'(0) = 0 */
+  double x[2] = {1, 0};
+  struct eom_report rep;
+  int st = run(&tm_oscillator, p, NULL, x, "radau5", 5, 0.01, 1e-10, 1e-12, NULL, NULL, &rep);
+  ck_assert_msg(st == EOM_OK, "%s", rep.message);
+  double exact = A * exp(s1 * 5) + B * exp(s2 * 5);
+  ck_assert_msg(fabs(x[0] - exact) < 1e-8, "radau5 x(5) = %.12g, exact %.12g", x[0], exact);
+  double y[2] = {1, 0};
+  st = run(&tm_oscillator, p, NULL, y, "rk4", 5, 0.01, 0, 0, NULL, NULL, &rep);
+  ck_assert_int_eq(st, EOM_ENONFINITE);
+  ck_assert_ptr_nonnull(strstr(rep.message, "at t = "));
+  ck_assert(isfinite(y[0]) && isfinite(y[1])); /* the last good state */
+}
+END_TEST
+
+/* ------------------------------------------------------------- failures */
+
+typedef struct Count {
+  int n;
+  double last_t;
+} Count;
+
+static int count_samples(void *ctx, double t, const double *x, const double *u) {
+  Count *c = ctx;
+  (void)x, (void)u;
+  c->n++;
+  c->last_t = t;
+  return 0;
+}
+
+/* x moves at unit speed into x = 1, where its mass 1 - x vanishes. */
+START_TEST(failure_mass_not_positive_definite) {
+  static const char *const methods[] = {"dopri", "rk4", "midpoint", "radau5"};
+  for (size_t i = 0; i < 4; i++) {
+    double x[2] = {0, 1};
+    Count cnt = {0, 0};
+    struct eom_sim_options o;
+    struct eom_report rep;
+    eom_sim_options_init(&o);
+    o.method = methods[i];
+    o.t_end = 3;
+    o.sample_dt = 0.1;
+    o.step = 0.01;
+    int st = eom_simulate(&tm_vanishing_mass, NULL, NULL, x, &o, count_samples, &cnt, &rep);
+    ck_assert_msg(st == EOM_EMASS, "%s: status %d (%s)", methods[i], st, rep.message);
+    ck_assert_int_eq(rep.status, EOM_EMASS);
+    ck_assert_msg(strstr(rep.message, "not positive definite") && strstr(rep.message, "x = "),
+                  "%s", rep.message);
+    double t_fail = atof(strstr(rep.message, "at t = ") + 7);
+    /* Fixed steps fail in the stage that crosses x = 1; dopri shrinks its
+    ** step onto the boundary first. */
+    double slack = i == 0 ? 1e-9 : o.step;
+    ck_assert_msg(t_fail > 0.99 && t_fail <= 1.0 + slack, "%s: failed at %.12g", methods[i],
+                  t_fail);
+    /* Samples up to the failure were delivered, then the last good state. */
+    ck_assert_msg(cnt.n >= 10 && cnt.last_t <= t_fail, "%s: %d samples, last %g", methods[i],
+                  cnt.n, cnt.last_t);
+    ck_assert_msg(x[0] <= 1.0 + 1e-12, "%s: x = %.17g, %s", methods[i], x[0], rep.message);
+    ck_assert_double_eq_tol(rep.t, x[0], 1e-9); /* x = t on this model */
+  }
+}
+END_TEST
+
+/* Radial fall into the centre of force: r reaches 0 in finite time, so the
+** adaptive method must stop with step size underflow (or a non-finite
+** state), not return garbage. */
+START_TEST(failure_collision) {
+  const double p[] = {1.0, 1.0};
+  double x[4] = {1, 0, 0, 0};
+  struct eom_report rep;
+  int st = run(&tm_kepler, p, NULL, x, "dopri", 5, 0, 1e-8, 1e-10, NULL, NULL, &rep);
+  ck_assert_msg(st == EOM_ESTEP || st == EOM_ENONFINITE, "status %d: %s", st, rep.message);
+  /* Free fall from rest at r0 reaches the centre at t = pi/2 sqrt(r0^3 / (2 mu)). */
+  ck_assert_msg(fabs(rep.t - PI / 2 / sqrt(2.0)) < 1e-3, "stopped at %g", rep.t);
+  ck_assert_ptr_nonnull(strstr(rep.message, "r = "));
+}
+END_TEST
+
+START_TEST(bad_arguments) {
+  double x[2] = {0, 0};
+  struct eom_sim_options o;
+  struct eom_report rep;
+  eom_sim_options_init(&o);
+  o.method = "euler-ish";
+  ck_assert_int_eq(eom_simulate(&tm_oscillator, NULL, NULL, x, &o, NULL, NULL, &rep), EOM_EINVAL);
+  ck_assert_ptr_nonnull(strstr(rep.message, "dopri"));
+  ck_assert(eom_method_known("midpoint") && !eom_method_known("euler-ish"));
+  o.method = "rk4";
+  o.t_end = -1;
+  ck_assert_int_eq(eom_simulate(&tm_oscillator, NULL, NULL, x, &o, NULL, NULL, &rep), EOM_EINVAL);
+  x[0] = NAN;
+  o.t_end = 1;
+  ck_assert_int_eq(eom_simulate(&tm_oscillator, NULL, NULL, x, &o, NULL, NULL, &rep),
+                   EOM_ENONFINITE);
+}
+END_TEST
+
+static int stop_at_half(void *ctx, double t, const double *x, const double *u) {
+  (void)ctx, (void)x, (void)u;
+  return t >= 0.5;
+}
+
+/* Sample times are t0 + k dt and the end, exactly; every method agrees. */
+START_TEST(sample_grid) {
+  static const char *const methods[] = {"dopri", "rk4", "midpoint", "radau5"};
+  for (size_t i = 0; i < 4; i++) {
+    double x[2] = {1, 0};
+    Count cnt = {0, 0};
+    struct eom_sim_options o;
+    struct eom_report rep;
+    eom_sim_options_init(&o);
+    o.method = methods[i];
+    o.t_end = 1;
+    o.sample_dt = 0.3;
+    o.step = 0.01;
+    ck_assert_int_eq(eom_simulate(&tm_oscillator, NULL, NULL, x, &o, count_samples, &cnt, &rep),
+                     EOM_OK);
+    ck_assert_int_eq(cnt.n, 5); /* 0, .3, .6, .9, 1 */
+    ck_assert_double_eq(cnt.last_t, 1.0);
+    ck_assert_msg(fabs(x[0] - cos(1.0)) < 1e-4, "%s: x(1) = %.10g", methods[i], x[0]);
+    o.sample_dt = 0.1;
+    cnt.n = 0;
+    x[0] = 1, x[1] = 0;
+    ck_assert_int_eq(eom_simulate(&tm_oscillator, NULL, NULL, x, &o, count_samples, &cnt, &rep),
+                     EOM_OK);
+    ck_assert_int_eq(cnt.n, 11);
+    x[0] = 1, x[1] = 0;
+    ck_assert_int_eq(eom_simulate(&tm_oscillator, NULL, NULL, x, &o, stop_at_half, NULL, &rep),
+                     EOM_ESTOPPED);
+  }
+}
+END_TEST
+
+/* ------------------------------------------------------------- inputs */
+
+static char *write_temp(const char *text) {
+  char *path = strdup("/tmp/eomrt-inputs-XXXXXX");
+  int fd = mkstemp(path);
+  ck_assert_int_ge(fd, 0);
+  ck_assert_int_eq(write(fd, text, strlen(text)), (ssize_t)strlen(text));
+  close(fd);
+  return path;
+}
+
+/* A free mass (k = c = 0) pushed by F(t) = t for t < 1, then 1: by hand,
+** x(2) = 1/6 + 1/2 + 1/2 and x'(2) = 3/2. */
+START_TEST(inputs_table_drives_model) {
+  static const char *const names[] = {"F"};
+  char err[256];
+  char *path = write_temp("# force ramp\nt, F\n0, 0\n1, 1\n2.5, 1\n");
+  eom_inputs *in = eom_inputs_new(1);
+  ck_assert_int_eq(eom_inputs_load_csv(in, path, names, err, sizeof err), EOM_OK);
+  double u;
+  eom_inputs_eval(in, 0.25, &u);
+  ck_assert_double_eq_tol(u, 0.25, 1e-15);
+  eom_inputs_eval(in, -3, &u);
+  ck_assert_double_eq(u, 0.0);
+  eom_inputs_eval(in, 7, &u);
+  ck_assert_double_eq(u, 1.0);
+  const double p[] = {1.0, 0.0, 0.0};
+  double x[2] = {0, 0};
+  struct eom_sim_options o;
+  struct eom_report rep;
+  eom_sim_options_init(&o);
+  o.t_end = 2;
+  o.rtol = 1e-11;
+  o.atol = 1e-13;
+  ck_assert_int_eq(eom_simulate(&tm_oscillator, p, in, x, &o, NULL, NULL, &rep), EOM_OK);
+  ck_assert_double_eq_tol(x[0], 7.0 / 6, 1e-8);
+  ck_assert_double_eq_tol(x[1], 1.5, 1e-8);
+  /* A constant replaces the table column. */
+  eom_inputs_set_constant(in, 0, 2.0);
+  eom_inputs_eval(in, 0.25, &u);
+  ck_assert_double_eq(u, 2.0);
+  eom_inputs_free(in);
+  unlink(path);
+  free(path);
+}
+END_TEST
+
+START_TEST(inputs_table_errors) {
+  static const char *const names[] = {"F"};
+  static const struct {
+    const char *text, *want;
+  } cases[] = {
+      {"t,F\n0,1\n0,2\n", ":3: times must increase"},
+      {"t,G\n0,1\n", "'G' is not an input"},
+      {"time,F\n0,1\n", "first column must be `t`"},
+      {"t,F\n0,1,2\n", ":2: more fields"},
+      {"t,F\n0,abc\n", "not a finite number"},
+      {"t,F\n", "no rows"},
+      {"", "empty table"},
+  };
+  for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++) {
+    char err[256] = "";
+    char *path = write_temp(cases[i].text);
+    eom_inputs *in = eom_inputs_new(1);
+    ck_assert_int_eq(eom_inputs_load_csv(in, path, names, err, sizeof err), EOM_EINPUT);
+    ck_assert_msg(strstr(err, cases[i].want) != NULL, "case %zu: %s", i, err);
+    eom_inputs_free(in);
+    unlink(path);
+    free(path);
+  }
+}
+END_TEST
+
+/* ------------------------------------------------------------- equilibria, modes */
+
+/* Hooke's law (common practice): a constant force F on a spring k rests at F / k. */
+START_TEST(equilibrium_with_input) {
+  const double p[] = {2.0, 50.0, 3.0}, u[] = {7.0};
+  double q[1] = {-4};
+  struct eom_report rep;
+  ck_assert_int_eq(eom_equilibrium(&tm_oscillator, p, u, 0, q, 0, 0, &rep), EOM_OK);
+  ck_assert_double_eq_tol(q[0], 7.0 / 50, 1e-12);
+  ck_assert(rep.residual < 1e-9);
+}
+END_TEST
+
+/* A pendulum under a constant torque tau rests where m g L sin(theta) = tau;
+** past tau = m g L there is no equilibrium and Newton must say so. */
+START_TEST(equilibrium_pendulum_torque) {
+  const double p[] = {1.0, 1.0, 9.81};
+  double u[] = {4.0}, q[1] = {0.1};
+  struct eom_report rep;
+  ck_assert_int_eq(eom_equilibrium(&tm_pendulum, p, u, 0, q, 0, 0, &rep), EOM_OK);
+  ck_assert_double_eq_tol(q[0], asin(4.0 / 9.81), 1e-12);
+  u[0] = 12;
+  q[0] = 0.1;
+  int st = eom_equilibrium(&tm_pendulum, p, u, 0, q, 0, 50, &rep);
+  ck_assert_msg(st == EOM_ENEWTON || st == EOM_ESINGULAR, "status %d", st);
+  ck_assert_ptr_nonnull(strstr(rep.message, "theta = "));
+}
+END_TEST
+
+static void analyse(const struct eom_model *m, const double *p, double *q, ModalResult *r) {
+  int nq = m->nq;
+  double M[16], C[16], K[16], qd[4] = {0};
+  char err[256];
+  struct eom_report rep;
+  ck_assert_int_eq(eom_equilibrium(m, p, NULL, 0, q, 0, 0, &rep), EOM_OK);
+  ck_assert_int_eq(eom_linearize(m, p, NULL, 0, q, qd, M, C, K, &rep), EOM_OK);
+  ck_assert_msg(modal_analyze(nq, M, C, K, r, err, sizeof err) == 0, "%s", err);
+}
+
+/* Two equal masses between three equal springs: omega = sqrt(k/m) (in
+** phase) and sqrt(3k/m) (opposite) (Taylor, Classical Mechanics, 2005, §11.2). */
+START_TEST(modes_two_masses_three_springs) {
+  const double p[] = {2.0, 8.0, 0.0};
+  double q[2] = {0.3, -0.1};
+  ModalResult r;
+  analyse(&tm_chain, p, q, &r);
+  ck_assert_double_eq_tol(q[0], 0, 1e-12);
+  ck_assert_int_eq(r.damped, 0);
+  ck_assert_int_eq(r.nmodes, 2);
+  ck_assert_int_eq(r.modes[0].kind, MODE_OSCILLATING);
+  ck_assert_double_eq_tol(r.modes[0].omega, sqrt(8.0 / 2), 1e-12);
+  ck_assert_double_eq_tol(r.modes[1].omega, sqrt(3 * 8.0 / 2), 1e-12);
+  ck_assert_double_eq_tol(r.modes[0].shape[0], 1, 1e-12);
+  ck_assert_double_eq_tol(r.modes[0].shape[1], 1, 1e-12);
+  ck_assert_double_eq_tol(fabs(r.modes[1].shape[1]), 1, 1e-12);
+  ck_assert_double_eq_tol(r.modes[1].shape[0] * r.modes[1].shape[1], -1, 1e-12);
+  modal_free(&r);
+}
+END_TEST
+
+/* Double pendulum, equal masses and lengths: omega^2 = (g/l)(2 ∓ √2)
+** (Kibble & Berkshire, Classical Mechanics, 5th ed., 2004, eq. 11.21).  The
+** model has no jacobian, so this also checks the finite differences. */
+START_TEST(modes_double_pendulum) {
+  const double p[] = {1.0, 0.5, 9.81};
+  double q[2] = {0.2, -0.3};
+  ModalResult r;
+  analyse(&tm_double_pendulum, p, q, &r);
+  double g_l = p[2] / p[1];
+  ck_assert_int_eq(r.nmodes, 2);
+  ck_assert_double_eq_tol(r.modes[0].omega2 / (g_l * (2 - sqrt(2.0))), 1, 1e-8);
+  ck_assert_double_eq_tol(r.modes[1].omega2 / (g_l * (2 + sqrt(2.0))), 1, 1e-8);
+  /* Shapes (1, √2) and (1, -√2) for (th1, th2), scaled to a largest entry 1. */
+  ck_assert_double_eq_tol(r.modes[0].shape[0] / r.modes[0].shape[1], 1 / sqrt(2.0), 1e-7);
+  ck_assert_double_eq_tol(r.modes[1].shape[0] / r.modes[1].shape[1], -1 / sqrt(2.0), 1e-7);
+  modal_free(&r);
+}
+END_TEST
+
+/* Damped oscillator: omega_n = sqrt(k/m) and zeta = c / (2 sqrt(k m))
+** (common practice); the damped frequency omega_n sqrt(1 - zeta^2). */
+START_TEST(modes_damping_ratio) {
+  const double p[] = {2.0, 50.0, 3.0};
+  double q[1] = {1};
+  ModalResult r;
+  analyse(&tm_oscillator, p, q, &r);
+  ck_assert_int_eq(r.damped, 1);
+  ck_assert_int_eq(r.nmodes, 1);
+  ck_assert_double_eq_tol(r.modes[0].omega, 5.0, 1e-12);
+  ck_assert_double_eq_tol(r.modes[0].zeta, 3.0 / (2 * sqrt(100.0)), 1e-12);
+  ck_assert_double_eq_tol(r.modes[0].omega_d, 5.0 * sqrt(1 - 0.15 * 0.15), 1e-12);
+  modal_free(&r);
+  /* Overdamped (zeta > 1): two real decaying modes, rates -s. */
+  const double p2[] = {1.0, 1.0, 5.0};
+  analyse(&tm_oscillator, p2, q, &r);
+  ck_assert_int_eq(r.nmodes, 2);
+  ck_assert_int_eq(r.modes[0].kind, MODE_DECAYING);
+  ck_assert_double_eq_tol(r.modes[0].rate, (5 - sqrt(21.0)) / 2, 1e-12);
+  ck_assert_double_eq_tol(r.modes[1].rate, (5 + sqrt(21.0)) / 2, 1e-12);
+  modal_free(&r);
+  /* Damped chain: each mode keeps its undamped frequency with zeta = c / (2 m w). */
+  const double p3[] = {2.0, 8.0, 0.4};
+  double q2[2] = {0, 0};
+  analyse(&tm_chain, p3, q2, &r);
+  ck_assert_int_eq(r.nmodes, 2);
+  ck_assert_double_eq_tol(r.modes[0].omega, 2.0, 1e-12);
+  ck_assert_double_eq_tol(r.modes[0].zeta, 0.4 / (2 * 2.0 * 2.0), 1e-12);
+  ck_assert_double_eq_tol(r.modes[1].phase[0] - r.modes[1].phase[1], 180.0 * (r.modes[1].phase[0] > 0 ? 1 : -1), 1e-9);
+  modal_free(&r);
+}
+END_TEST
+
+/* The inverted pendulum (theta = pi) is an equilibrium with omega^2 = -g/L:
+** an unstable direction with growth rate sqrt(g/L), not a NaN frequency. */
+START_TEST(modes_unstable_direction) {
+  const double p[] = {1.0, 2.0, 9.81};
+  double q[1] = {3.0};
+  ModalResult r;
+  analyse(&tm_pendulum, p, q, &r);
+  ck_assert_double_eq_tol(q[0], PI, 1e-12);
+  ck_assert_int_eq(r.modes[0].kind, MODE_UNSTABLE);
+  ck_assert_double_eq_tol(r.modes[0].omega2, -9.81 / 2, 1e-10);
+  ck_assert_double_eq_tol(r.modes[0].rate, sqrt(9.81 / 2), 1e-10);
+  ck_assert(!isnan(r.modes[0].omega));
+  modal_free(&r);
+}
+END_TEST
+
+/* Linearization away from rest: K from differences of f must match the
+** analytic -df/dq of the Kepler forcing at a moving state. */
+START_TEST(linearize_moving_state) {
+  const double p[] = {1.5, 2.0};
+  double q[2] = {1.2, 0.3}, qd[2] = {0.4, 0.9}, M[4], C[4], K[4];
+  struct eom_report rep;
+  ck_assert_int_eq(eom_linearize(&tm_kepler, p, NULL, 0, q, qd, M, C, K, &rep), EOM_OK);
+  double m = p[0], mu = p[1], r = q[0];
+  ck_assert_double_eq_tol(K[0], -(m * qd[1] * qd[1] + 2 * mu * m / (r * r * r)), 1e-7);
+  ck_assert_double_eq_tol(K[2], 2 * m * qd[0] * qd[1], 1e-7);
+  ck_assert_double_eq_tol(C[1], -2 * m * r * qd[1], 1e-12);
+  ck_assert_double_eq_tol(C[3], 2 * m * r * qd[0], 1e-12);
+  ck_assert_double_eq_tol(M[3], m * r * r, 1e-15);
+}
+END_TEST
+
+static Suite *runtime_suite(void) {
+  Suite *s = suite_create("runtime");
+  TCase *tc = tcase_create("integrators");
+  tcase_set_timeout(tc, 60);
+#ifdef HAVE_GSL
+  tcase_add_loop_test(tc, pendulum_period_large_amplitude, 0, 3);
+#endif
+  tcase_add_test(tc, dopri_dense_output);
+  tcase_add_test(tc, kepler_period_and_angular_momentum);
+  tcase_add_test(tc, integrator_orders);
+  tcase_add_test(tc, dopri_tolerance_proportionality);
+  tcase_add_test(tc, midpoint_energy_bounded);
+  tcase_add_test(tc, midpoint_pendulum_no_drift);
+  tcase_add_test(tc, stiff_radau5_vs_rk4);
+  tcase_add_test(tc, failure_mass_not_positive_definite);
+  tcase_add_test(tc, failure_collision);
+  tcase_add_test(tc, bad_arguments);
+  tcase_add_test(tc, sample_grid);
+  suite_add_tcase(s, tc);
+  TCase *ti = tcase_create("inputs");
+  tcase_add_test(ti, inputs_table_drives_model);
+  tcase_add_test(ti, inputs_table_errors);
+  suite_add_tcase(s, ti);
+  TCase *tm = tcase_create("modes");
+  tcase_add_test(tm, equilibrium_with_input);
+  tcase_add_test(tm, equilibrium_pendulum_torque);
+  tcase_add_test(tm, modes_two_masses_three_springs);
+  tcase_add_test(tm, modes_double_pendulum);
+  tcase_add_test(tm, modes_damping_ratio);
+  tcase_add_test(tm, modes_unstable_direction);
+  tcase_add_test(tm, linearize_moving_state);
+  suite_add_tcase(s, tm);
+  return s;
+}
+
+int main(void) {
+  SRunner *sr = srunner_create(runtime_suite());
+  srunner_run_all(sr, CK_NORMAL);
+  int failed = srunner_ntests_failed(sr);
+  srunner_free(sr);
+  return failed ? EXIT_FAILURE : EXIT_SUCCESS;
+}
