@@ -391,7 +391,13 @@ static int scan(Lexer *lx, Token *t) {
         return open_bracket(lx, t, idx ? T_IDX_LBRACK : '[');
       }
       ")" | "]"     { return close_bracket(lx, t); }
-      [-+*/^=,;']   { finish(lx, t, *lx->tok); return t->kind; }
+      ";" {
+        /* Empty statements: a `;` after an end of statement is dropped. */
+        if (lx->depth == 0 && (lx->last.kind == T_NEWLINE || lx->last.kind == ';')) continue;
+        finish(lx, t, ';');
+        return ';';
+      }
+      [-+*/^=,']    { finish(lx, t, *lx->tok); return t->kind; }
 
       *             { return invalid_char(lx, t); }
     */

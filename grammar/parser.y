@@ -72,6 +72,12 @@ static SrcLoc loc_of(YYLTYPE l) {
   return s;
 }
 
+/* Parser stack bound.  A legitimate expression (depth <= AST_MAX_DEPTH,
+** brackets <= AST_MAX_NESTING) needs at most about 2 entries per level of
+** a right-associative chain plus 4 per open bracket, far below this; input
+** that exhausts it is reported as nested too deeply (see yyerror). */
+#define YYMAXDEPTH 10000
+
 #define LOC(l) loc_of(l)
 #define A (ctx->arena)
 
@@ -204,6 +210,12 @@ stmt:
     }
   | KW_LET name '=' expr {
       $$ = decl_stmt(ctx, ST_LET, DECL_LET, @1, $2, @2, $4, NULL, NULL);
+    }
+  | KW_LET name '=' expr '[' expr ']' {
+      /* Parsed only to say why it is wrong. */
+      (void)$6;
+      $$ = bad_stmt(ctx, @5, "'let %s' takes no unit: units go on coord, param, const, "
+                    "input and output", $2);
     }
   | KW_OUTPUT name '=' expr unit_opt desc_opt {
       $$ = decl_stmt(ctx, ST_OUTPUT, DECL_OUTPUT, @1, $2, @2, $4, $5, $6);
@@ -482,36 +494,49 @@ static int yyreport_syntax_error(const yypcontext_t *yyctx, ParseCtx *ctx) {
     /* List what may come here, in words, unless that would be "an operator
     ** or ...": then only the offending token is named. */
     char items[8][32];
-    int nitems = 0, too_many = 0;
+    int nitems = 0, too_many = 0, words = 0;
     if (want_expr) snprintf(items[nitems++], 32, "an expression");
     for (int i = 0; i < nexp; i++) {
       yysymbol_kind_t k = exp[i];
       int c = sym_char(k);
+      if (c == '[' && !want_expr && !had_ops) {       /* after a list of names */
+        if (nitems < 6) snprintf(items[nitems++], 32, "a unit '[...]'");
+        continue;
+      }
       if (c && strchr("+-*/^('[", c)) continue;   /* operators, expression starts */
       if (k == YYSYMBOL_T_IDX_LBRACK || k == YYSYMBOL_T_NUMBER || c == ';') continue;
       if (want_expr && k == YYSYMBOL_T_NAME) continue;
       if (want_name && is_contextual(k)) continue;  /* those are names as well */
-      if (nitems == 6) {
+      if (nitems >= 6) {
         too_many = 1;
         break;
       }
+      if (is_contextual(k)) words = 1;
       if (k == YYSYMBOL_T_NEWLINE) snprintf(items[nitems++], 32, "end of line");
       else describe(k, NULL, items[nitems++], 32);
     }
-    if ((had_ops && !found_end) || nitems == 0 || too_many) {
+    int op_words = had_ops && !found_end && words && !too_many;
+    if (op_words) {
+      memmove(items[1], items[0], (size_t)nitems * sizeof items[0]);
+      snprintf(items[0], 32, "an operator");
+      nitems++;
+    }
+    char list[300] = "";
+    size_t used = 0;
+    for (int i = 0; i < nitems && used < sizeof list; i++) {
+      int w = snprintf(list + used, sizeof list - used, "%s%s",
+                       i == 0 ? "" : i == nitems - 1 ? " or " : ", ", items[i]);
+      if (w > 0) used += (size_t)w;
+    }
+    if (op_words) {
+      /* After an operand where a word of `body`, `force` or `torque` may come. */
+      diag_error(ctx->diag, where, "unexpected %s%s (expected %s)", f, after, list);
+    } else if ((had_ops && !found_end) || nitems == 0 || too_many) {
       diag_error(ctx->diag, where, "unexpected %s%s", f, after);
+    } else if (found_end) {
+      diag_error(ctx->diag, where, "expected %s%s", list, after);
     } else {
-      char list[256] = "";
-      size_t used = 0;
-      for (int i = 0; i < nitems && used < sizeof list; i++) {
-        int w = snprintf(list + used, sizeof list - used, "%s%s",
-                         i == 0 ? "" : i == nitems - 1 ? " or " : ", ", items[i]);
-        if (w > 0) used += (size_t)w;
-      }
-      if (found_end)
-        diag_error(ctx->diag, where, "expected %s%s", list, after);
-      else
-        diag_error(ctx->diag, where, "expected %s%s, found %s", list, after, f);
+      diag_error(ctx->diag, where, "expected %s%s, found %s", list, after, f);
     }
   }
   return 0;
