@@ -1,0 +1,84 @@
+/*
+** cmd_show.c — `eomc show`: print a model's M, f and equations of motion.
+**
+**   eomc show MODEL.eom [--latex]
+**
+** Exit status: 0, 1 model error, 2 usage error or unreadable model.
+*/
+#include <stdio.h>
+#include <string.h>
+#include "cmd.h"
+#include "emit_show.h"
+#include "frontend.h"
+#include "symbolic.h"
+
+static const char show_usage[] =
+  "usage: eomc show MODEL.eom [--latex]\n"
+  "\n"
+  "Print the mass matrix M, the forcing f and the equations of motion\n"
+  "M q'' = f of MODEL.eom, with the model's own names.\n"
+  "\n"
+  "options:\n"
+  "  --latex      LaTeX math (align* environments, a bmatrix for M)\n"
+  "  --no-cse     derive without sharing subexpressions (as `gen --no-cse`)\n"
+  "  -h, --help   this text\n";
+
+int cmd_show(int argc, char **argv) {
+  const char *model = NULL;
+  int latex = 0, no_cse = 0;
+  for (int i = 1; i < argc; i++) {
+    if (cmd_is_help(argv[i])) {
+      fputs(show_usage, stdout);
+      return 0;
+    }
+    if (strcmp(argv[i], "--latex") == 0) latex = 1;
+    else if (strcmp(argv[i], "--no-cse") == 0) no_cse = 1;
+    else if (argv[i][0] == '-' && argv[i][1]) {
+      fprintf(stderr, "eomc show: unknown option '%s'\n(try 'eomc show --help')\n", argv[i]);
+      return EXIT_USAGE;
+    } else if (model) {
+      fprintf(stderr, "eomc show: more than one model given ('%s')\n", argv[i]);
+      return EXIT_USAGE;
+    } else {
+      model = argv[i];
+    }
+  }
+  if (!model) {
+    fputs("eomc show: no model file given\n(try 'eomc show --help')\n", stderr);
+    return EXIT_USAGE;
+  }
+
+  Frontend fe;
+  int rc = frontend_load(&fe, model);
+  if (rc == 2) {
+    frontend_free(&fe);
+    return EXIT_USAGE;
+  }
+  diag_print(&fe.diag, stderr);
+  if (rc != 0) {
+    frontend_free(&fe);
+    return EXIT_MODEL;
+  }
+  EomSystem sys;
+  SymOptions so = {no_cse, 0.0};
+  memset(&sys, 0, sizeof sys);
+  int printed = fe.diag.nmsgs;
+  int failed = sym_derive(&fe.model, &so, &fe.diag, &sys) != 0;
+  Diag tail = fe.diag;
+  tail.msgs += printed;
+  tail.nmsgs -= printed;
+  diag_print(&tail, stderr);
+  if (failed) {
+    if (tail.nmsgs == 0) fprintf(stderr, "eomc: error: %s: the derivation failed\n", model);
+    rc = EXIT_MODEL;
+  } else {
+    printf(latex ? "%% model %s\n" : "model %s\n\n", fe.model.name);
+    if (show_equations(&fe.model, &sys, latex, stdout) != 0) {
+      fputs("eomc: error: cannot write the output\n", stderr);
+      rc = EXIT_RUN;
+    }
+  }
+  sym_free(&sys);
+  frontend_free(&fe);
+  return rc;
+}
