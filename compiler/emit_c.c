@@ -847,9 +847,25 @@ static void emit_jacobian(Emitter *E) {
   const EomSystem *s = E->s;
   int nq = s->nq, nu = s->nu, nx = 2 * nq;
   char lhs[64];
+  /* Which columns of d qdd/d(x, u) are not structurally zero, and whether
+  ** any needs qdd itself (through dM/dq). */
+  int need_qdd = 0, need_c = 0;
+  int *live = calloc((size_t)(nx + nu), sizeof *live);
+  assert(live);
+  for (int col = 0; col < nx + nu; col++)
+    for (int i = 0; i < nq; i++) {
+      int df = col < nq ? s->dforcing_dq[i * nq + col]
+             : col < nx ? s->dforcing_dqd[i * nq + col - nq] : s->dforcing_du[i * nu + col - nx];
+      if (!is_zero(E, df)) live[col] = 1;
+      for (int j = 0; col < nq && j < nq; j++) {
+        int d = s->dmass_dq[col * nq * nq + (i >= j ? i * nq + j : j * nq + i)];
+        if (!is_zero(E, d)) live[col] = need_qdd = 1;
+      }
+      need_c |= live[col];
+    }
   fn_reset(E);
   add_lower(E, s->mass);
-  add_roots(E, s->forcing, nq);
+  if (need_qdd) add_roots(E, s->forcing, nq);
   add_roots(E, s->dforcing_dq, nq * nq);
   add_roots(E, s->dforcing_dqd, nq * nq);
   for (int k = 0; k < nq; k++) add_lower(E, s->dmass_dq + k * nq * nq);
@@ -860,7 +876,10 @@ static void emit_jacobian(Emitter *E) {
              "  double *A, double *B)\n{\n", E->P);
   if (E->vars & VAR_BIT(IRV_Q)) fprintf(o, "  const double *q = x;\n");
   if (E->vars & VAR_BIT(IRV_QD)) fprintf(o, "  const double *qd = x + %d;\n", nq);
-  fprintf(o, "  double a[%d], qdd[%d], c[%d];\n  int i;\n", E->nslots, nq, nq);
+  fprintf(o, "  double a[%d];\n", E->nslots);
+  if (need_qdd) fprintf(o, "  double qdd[%d];\n", nq);
+  if (need_c) fprintf(o, "  double c[%d];\n", nq);
+  fprintf(o, "  int i;\n");
   {
     const Param ps[] = {P_T, P_U, P_P};
     emit_unused(E, ps, NPARAMS(ps));
@@ -876,14 +895,15 @@ static void emit_jacobian(Emitter *E) {
   fprintf(o, "    for (i = %d; i < %d; i++) A[i] = NAN;\n", nq * nx, nx * nx);
   if (nu) fprintf(o, "    for (i = %d; i < %d; i++) B[i] = NAN;\n", nq * nu, nx * nu);
   fprintf(o, "    return;\n  }\n");
-  for (int i = 0; i < nq; i++) {
+  for (int i = 0; need_qdd && i < nq; i++) {
     snprintf(lhs, sizeof lhs, "qdd[%d]", i);
     emit_assign(E, lhs, s->forcing[i]);
   }
-  fprintf(o, "  %s_ldl_solve(a, qdd);\n", E->P);
+  if (need_qdd) fprintf(o, "  %s_ldl_solve(a, qdd);\n", E->P);
   /* Column by column: d qdd/d z = M^-1 (df/dz - dM/dz qdd); M depends on q only. */
   for (int col = 0; col < nx + nu; col++) {
     int any = 0;
+    if (!live[col]) continue;   /* a zero column: already written */
     if (col < nq) fprintf(o, "  /* d qdd / d q[%d] */\n", col);
     else if (col < nx) fprintf(o, "  /* d qdd / d qd[%d] */\n", col - nq);
     else fprintf(o, "  /* d qdd / d u[%d] */\n", col - nx);
@@ -892,11 +912,12 @@ static void emit_jacobian(Emitter *E) {
       else if (col < nx) any |= emit_jac_entry(E, i, s->dforcing_dqd[i * nq + col - nq], NULL);
       else any |= emit_jac_entry(E, i, s->dforcing_du[i * nu + col - nx], NULL);
     }
-    if (!any) continue;   /* a zero column: already written */
+    assert(any);
     fprintf(o, "  %s_ldl_solve(a, c);\n", E->P);
     if (col < nx) fprintf(o, "  for (i = 0; i < %d; i++) A[(%d + i)*%d + %d] = c[i];\n", nq, nq, nx, col);
     else fprintf(o, "  for (i = 0; i < %d; i++) B[(%d + i)*%d + %d] = c[i];\n", nq, nq, nu, col - nx);
   }
+  free(live);
   fputs("}\n\n", o);
 }
 
