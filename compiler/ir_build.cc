@@ -365,8 +365,9 @@ struct IrBuilder::Impl {
     }
     if (is_a<GiNaC::add>(e)) {
       std::vector<int> terms;
-      terms.reserve(e.nops());
-      for (size_t i = 0; i < e.nops(); i++) terms.push_back(translate(e.op(i)));
+      for (const expair &p : PairAccess::pairs(e))
+        terms.push_back(scale(number_of(ex_to<numeric>(p.coeff)), translate(p.rest)));
+      terms.push_back(num(number_of(ex_to<numeric>(PairAccess::overall(e)))));
       return add(terms);
     }
     if (is_a<GiNaC::mul>(e)) return translate_mul(e);
@@ -396,26 +397,16 @@ struct IrBuilder::Impl {
 
   /* coefficient * (numerator factors) / (denominator factors) */
   int translate_mul(const ex &e) {
-    double c = 1;
     std::vector<int> up, down;
-    for (size_t i = 0; i < e.nops(); i++) {
-      const ex &f = e.op(i);
-      if (is_a<numeric>(f)) {
-        c *= number_of(ex_to<numeric>(f));
-        continue;
-      }
-      if (is_a<power>(f) && is_a<numeric>(f.op(1)) && ex_to<numeric>(f.op(1)).is_real() &&
-          ex_to<numeric>(f.op(1)).is_negative()) {
-        double k = -number_of(ex_to<numeric>(f.op(1)));
-        down.push_back(pow_num(translate(f.op(0)), k));
-        continue;
-      }
-      up.push_back(translate(f));
+    for (const expair &p : PairAccess::pairs(e)) {
+      double k = number_of(ex_to<numeric>(p.coeff));
+      if (k < 0) down.push_back(pow_num(translate(p.rest), -k));
+      else up.push_back(pow_num(translate(p.rest), k));
     }
-    /* fold factors that became numbers (e.g. sin of a constant) */
+    /* mul() folds factors that became numbers (e.g. sin of a constant) */
     int top = mul(up), bottom = mul(down);
     int x = is_num_value(bottom, 1) ? top : div(top, bottom);
-    return scale(c, x);
+    return scale(number_of(ex_to<numeric>(PairAccess::overall(e))), x);
   }
 
   /* ---- final numbering ---- */

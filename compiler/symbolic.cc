@@ -74,16 +74,75 @@ ex exact_number(double v, SrcLoc loc) {
 
 /* ------------------------------------------------------------ differentiation */
 
-/* d/d(var) with a memo: each distinct GiNaC node is differentiated once.
-** Elementary functions use the textbook derivatives (abs' = csgn, csgn' = 0
-** away from 0), which keeps GiNaC's conjugate() forms out of the results. */
+bool is_one(const ex &c) { return is_a<numeric>(c) && ex_to<numeric>(c).is_equal(numeric(1)); }
+
+/* Which of the variables (t, q, q', q'', u) each node contains, as a bit
+** set per node, memoised and shared by all Derivers: differentiation then
+** skips every subtree free of its variable without visiting it. */
+class DepCache {
+ public:
+  /* Register every variable before the first query. */
+  int add_var(const ex &sym) {
+    assert(is_a<symbol>(sym) && pool_.empty());
+    int id = (int)ids_.size();
+    ids_[sym] = id;
+    return id;
+  }
+
+  bool contains(const ex &e, int id) {
+    if (is_a<numeric>(e) || is_a<constant>(e)) return false;
+    size_t o = offset(e);
+    return (pool_[o + id / 64] >> (id % 64)) & 1;
+  }
+
+ private:
+  std::map<ex, int, ex_is_less> ids_;
+  size_t words_ = 0;
+  std::vector<uint64_t> pool_;  /* words_ per node; offset 0 is the empty set */
+  std::unordered_map<const basic *, std::pair<ex, size_t>> at_;
+
+  size_t offset(const ex &e) {
+    if (pool_.empty()) {
+      words_ = (ids_.size() + 63) / 64 + 1;
+      pool_.assign(words_, 0);
+    }
+    if (is_a<numeric>(e) || is_a<constant>(e)) return 0;
+    const basic *b = &ex_to<basic>(e);
+    auto it = at_.find(b);
+    if (it != at_.end()) return it->second.second;
+    std::vector<uint64_t> acc(words_, 0);
+    auto merge = [&](const ex &x) {
+      size_t o = offset(x);
+      for (size_t w = 0; w < words_; w++) acc[w] |= pool_[o + w];
+    };
+    if (is_a<symbol>(e)) {
+      auto v = ids_.find(e);
+      if (v != ids_.end()) acc[v->second / 64] |= (uint64_t)1 << (v->second % 64);
+    } else if (is_a<expairseq>(e)) {
+      for (const expair &p : PairAccess::pairs(e)) merge(p.rest);
+    } else {
+      for (size_t i = 0; i < e.nops(); i++) merge(e.op(i));
+    }
+    size_t o = pool_.size();
+    pool_.insert(pool_.end(), acc.begin(), acc.end());
+    at_.emplace(b, std::make_pair(e, o));  /* keeps e alive: the address stays unique */
+    return o;
+  }
+};
+
+/* d/d(var) with a memo: each distinct GiNaC node containing var is
+** differentiated once.  Elementary functions use the textbook derivatives
+** (abs' = csgn, csgn' = 0 away from 0), which keeps GiNaC's conjugate()
+** forms out of the results. */
 class Deriver {
  public:
-  explicit Deriver(const ex &var) : var_(var) { assert(is_a<symbol>(var)); }
+  Deriver(const ex &var, int id, DepCache *deps) : var_(var), id_(id), deps_(deps) {
+    assert(is_a<symbol>(var));
+  }
 
   ex operator()(const ex &e) {
-    if (is_a<numeric>(e) || is_a<constant>(e)) return 0;
     if (is_a<symbol>(e)) return e.is_equal(var_) ? 1 : 0;
+    if (!deps_->contains(e, id_)) return 0;
     const basic *b = &ex_to<basic>(e);
     auto it = memo_.find(b);
     if (it != memo_.end()) return it->second.second;
@@ -94,29 +153,40 @@ class Deriver {
 
  private:
   ex var_;
+  int id_;
+  DepCache *deps_;
   std::unordered_map<const basic *, std::pair<ex, ex>> memo_;
 
   ex fresh(const ex &e) {
     if (is_a<add>(e)) {
       exvector terms;
-      for (size_t i = 0; i < e.nops(); i++) {
-        ex d = (*this)(e.op(i));
-        if (!d.is_zero()) terms.push_back(d);
+      for (const expair &p : PairAccess::pairs(e)) {
+        ex d = (*this)(p.rest);
+        if (!d.is_zero()) terms.push_back(d * p.coeff);
       }
       return terms.empty() ? ex(0) : ex(add(terms));
     }
     if (is_a<mul>(e)) {
-      size_t n = e.nops();
+      /* product rule over the factors rest^coeff */
+      const epvector &pairs = PairAccess::pairs(e);
+      size_t n = pairs.size();
       exvector f(n), d(n);
-      for (size_t k = 0; k < n; k++) f[k] = e.op(k), d[k] = (*this)(f[k]);
+      for (size_t k = 0; k < n; k++) {
+        const expair &p = pairs[k];
+        f[k] = is_one(p.coeff) ? p.rest : pow(p.rest, p.coeff);
+        ex dr = (*this)(p.rest);
+        d[k] = dr.is_zero() || is_one(p.coeff) ? dr
+                                                      : p.coeff * pow(p.rest, p.coeff - 1) * dr;
+      }
       exvector terms;
       for (size_t k = 0; k < n; k++) {
         if (d[k].is_zero()) continue;
         exvector factors;
-        factors.reserve(n);
+        factors.reserve(n + 1);
         for (size_t j = 0; j < n; j++)
           if (j != k) factors.push_back(f[j]);
         factors.push_back(d[k]);
+        factors.push_back(PairAccess::overall(e));
         terms.push_back(mul(factors));
       }
       return terms.empty() ? ex(0) : ex(add(terms));
@@ -132,30 +202,28 @@ class Deriver {
   }
 
   ex function_derivative(const ex &e) {
-    const std::string &name = ex_to<function>(e).get_name();
-    if (name == "atan2") {
+    if (is_ex_the_function(e, atan2)) {
       const ex &y = e.op(0), &x = e.op(1);
       ex dy = (*this)(y), dx = (*this)(x);
-      if (dy.is_zero() && dx.is_zero()) return 0;
       return (x * dy - y * dx) / (pow(x, 2) + pow(y, 2));
     }
     if (e.nops() != 1) return e.diff(ex_to<symbol>(var_));
     const ex &a = e.op(0);
     ex da = (*this)(a);
     if (da.is_zero()) return 0;
-    if (name == "sin") return cos(a) * da;
-    if (name == "cos") return -sin(a) * da;
-    if (name == "tan") return (1 + pow(e, 2)) * da;
-    if (name == "asin") return da / sqrt(1 - pow(a, 2));
-    if (name == "acos") return -da / sqrt(1 - pow(a, 2));
-    if (name == "atan") return da / (1 + pow(a, 2));
-    if (name == "exp") return e * da;
-    if (name == "log") return da / a;
-    if (name == "abs") return csgn(a) * da;
-    if (name == "csgn") return 0;
-    if (name == "sinh") return cosh(a) * da;
-    if (name == "cosh") return sinh(a) * da;
-    if (name == "tanh") return (1 - pow(e, 2)) * da;
+    if (is_ex_the_function(e, sin)) return cos(a) * da;
+    if (is_ex_the_function(e, cos)) return -sin(a) * da;
+    if (is_ex_the_function(e, tan)) return (1 + pow(e, 2)) * da;
+    if (is_ex_the_function(e, asin)) return da / sqrt(1 - pow(a, 2));
+    if (is_ex_the_function(e, acos)) return -da / sqrt(1 - pow(a, 2));
+    if (is_ex_the_function(e, atan)) return da / (1 + pow(a, 2));
+    if (is_ex_the_function(e, exp)) return e * da;
+    if (is_ex_the_function(e, log)) return da / a;
+    if (is_ex_the_function(e, abs)) return csgn(a) * da;
+    if (is_ex_the_function(e, csgn)) return 0;
+    if (is_ex_the_function(e, sinh)) return cosh(a) * da;
+    if (is_ex_the_function(e, cosh)) return sinh(a) * da;
+    if (is_ex_the_function(e, tanh)) return (1 - pow(e, 2)) * da;
     return e.diff(ex_to<symbol>(var_));
   }
 };
@@ -237,6 +305,7 @@ class Derivation {
   ex t_;
   std::vector<ex> q_, qd_, qdd_, u_, p_;
   VarTable vars_;
+  DepCache deps_;
   Deriver dt_;
   std::vector<Deriver> dq_, dqd_, dqdd_, du_;
   std::unordered_map<const Decl *, Val> let_value_, let_rate_, const_value_;
@@ -273,7 +342,7 @@ Derivation::Derivation(const Model *m, const SymOptions *opt)
       nu_(m->ninputs),
       np_(m->nparams),
       t_(realsymbol("t")),
-      dt_(t_) {
+      dt_(t_, deps_.add_var(t_), &deps_) {
   vars_[t_] = VarRef{IRV_T, 0};
   for (int i = 0; i < nq_; i++) {
     const char *name = m->coords[i]->name;
@@ -283,14 +352,14 @@ Derivation::Derivation(const Model *m, const SymOptions *opt)
     vars_[q_[i]] = VarRef{IRV_Q, i};
     vars_[qd_[i]] = VarRef{IRV_QD, i};
     vars_[qdd_[i]] = VarRef{IRV_QDD, i};
-    dq_.emplace_back(q_[i]);
-    dqd_.emplace_back(qd_[i]);
-    dqdd_.emplace_back(qdd_[i]);
+    dq_.emplace_back(q_[i], deps_.add_var(q_[i]), &deps_);
+    dqd_.emplace_back(qd_[i], deps_.add_var(qd_[i]), &deps_);
+    dqdd_.emplace_back(qdd_[i], deps_.add_var(qdd_[i]), &deps_);
   }
   for (int i = 0; i < nu_; i++) {
     u_.push_back(realsymbol(m->inputs[i]->name));
     vars_[u_[i]] = VarRef{IRV_U, i};
-    du_.emplace_back(u_[i]);
+    du_.emplace_back(u_[i], deps_.add_var(u_[i]), &deps_);
   }
   for (int i = 0; i < np_; i++) {
     p_.push_back(realsymbol(m->params[i]->name));

@@ -35,6 +35,19 @@ struct SymError {
   std::string msg;
 };
 
+/* GiNaC keeps the (rest, coeff) pairs of sums and products protected, and
+** op(i) recombines each pair into a new object, which defeats memoising on
+** node addresses.  This reads them in place: for an add, rest*coeff terms
+** plus overall_coeff; for a mul, rest^coeff factors times overall_coeff. */
+struct PairAccess : GiNaC::expairseq {
+  static const GiNaC::epvector &pairs(const GiNaC::ex &e) {
+    return GiNaC::ex_to<GiNaC::expairseq>(e).*(&PairAccess::seq);
+  }
+  static const GiNaC::ex &overall(const GiNaC::ex &e) {
+    return GiNaC::ex_to<GiNaC::expairseq>(e).*(&PairAccess::overall_coeff);
+  }
+};
+
 /* Which IR variable a GiNaC symbol stands for. */
 struct VarRef {
   IrVar var;
