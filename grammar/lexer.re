@@ -23,6 +23,9 @@ void lexer_init(Lexer *lx, const char *src, size_t len, Arena *a, Diag *d) {
   assert(*lx->lim == '\0');
   lx->cur = lx->tok = lx->line_start = lx->src;
   lx->line = 1;
+  /* A UTF-8 byte order mark is not text; columns still count its bytes,
+  ** as they count every byte of the line. */
+  if (len >= 3 && memcmp(src, "\xef\xbb\xbf", 3) == 0) lx->cur += 3;
   lx->arena = a;
   lx->diag = d;
   /* Start as if after an end of line: no statement is open. */

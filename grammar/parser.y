@@ -531,6 +531,13 @@ static int yyreport_syntax_error(const yypcontext_t *yyctx, ParseCtx *ctx) {
     if (op_words) {
       /* After an operand where a word of `body`, `force` or `torque` may come. */
       diag_error(ctx->diag, where, "unexpected %s%s (expected %s)", f, after, list);
+    } else if (had_ops && found == YYSYMBOL_T_NAME && lx->before_last.kind == T_NUMBER &&
+               lx->before_last.start + lx->before_last.len == lx->last.start &&
+               lx->before_last.len + lx->last.len < 40) {
+      /* `2x`: the number and the name touch. */
+      diag_error(ctx->diag, where, "unexpected %s%s (a product needs '*': %.*s*%.*s)", f, after,
+                 (int)lx->before_last.len, (const char *)lx->before_last.start,
+                 (int)lx->last.len, (const char *)lx->last.start);
     } else if ((had_ops && !found_end) || nitems == 0 || too_many) {
       diag_error(ctx->diag, where, "unexpected %s%s", f, after);
     } else if (found_end) {

@@ -437,6 +437,20 @@ START_TEST(crlf_line_ends) {
 }
 END_TEST
 
+START_TEST(byte_order_mark) {
+  Lexed *x = lex("\xef\xbb\xbf" "coord x\n");
+  int want[] = {KW_COORD, T_NAME, NL, END};
+  expect_kinds(x, want);
+  ck_assert_int_eq(x->loc[0].first_column, 4);
+  ck_assert_int_eq(x->diag.nerrors, 0);
+  lexed_free(x);
+  /* Only at the very start. */
+  x = lex("coord x \xef\xbb\xbf\n");
+  ck_assert_int_eq(x->kind[2], T_BAD);
+  lexed_free(x);
+}
+END_TEST
+
 START_TEST(random_bytes_terminate) {
   /* Any bytes: the lexer ends, and every error has a place in the file. */
   unsigned seed = 12345;
@@ -468,6 +482,7 @@ static Suite *lexer_suite(void) {
   tcase_add_test(tc, unterminated_strings);
   tcase_add_test(tc, bad_string_contents);
   tcase_add_test(tc, crlf_line_ends);
+  tcase_add_test(tc, byte_order_mark);
   suite_add_tcase(s, tc);
   tc = tcase_create("statements");
   tcase_add_test(tc, comments_and_blank_lines);

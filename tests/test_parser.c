@@ -505,6 +505,7 @@ START_TEST(error_messages) {
   expect_error("kinetic (a))\n", 1, 12, "unexpected ')'");
   expect_error("kinetic x y\n", 1, 11, "unexpected name 'y' after 'x'");
   expect_error("x = 2\n", 1, 1, "at the start of a statement");
+  expect_error("kinetic 2x^2\n", 1, 10, "unexpected name 'x' after '2' (a product needs '*': 2*x)");
   expect_error("param x 2\n", 1, 9, "expected '=' after 'x', found number '2'");
   expect_error("coord\n", 1, 6, "expected a name after 'coord'");
   expect_error("force x\n", 1, 8, "expected 'at' or '=' after 'x'");
