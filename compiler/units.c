@@ -527,7 +527,7 @@ static void expect_unit(UnitCheck *uc, const Expr *e, Unit want, SrcLoc loc, con
                         const char *expect) {
   char s[96];
   Unit u = expr_unit(uc, e);
-  if (u.kind != UNIT_KNOWN || unit_same(u, want)) return;
+  if (u.kind != UNIT_KNOWN || want.kind != UNIT_KNOWN || unit_same(u, want)) return;
   uc->nerrors++;
   diag_error(uc->d, loc, "%s has unit %s, expected %s", what, unit_format(u, 0, s, sizeof s), expect);
 }
@@ -540,9 +540,15 @@ static int mentions_names(const Expr *e) {
   return 0;
 }
 
+/* A declared value against its declared unit; without a unit the value is
+** still walked, so that its sums and function arguments are checked. */
 static void check_decl_value(UnitCheck *uc, Decl *dc, const char *kind) {
   char what[160], want[120];
-  if (!dc->value || !dc->dim || !mentions_names(dc->value)) return;
+  if (!dc->value || !mentions_names(dc->value)) return;
+  if (!dc->unit || !dc->dim) {
+    expr_unit(uc, dc->value);
+    return;
+  }
   snprintf(what, sizeof what, "value of %s '%s'", kind, dc->name);
   snprintf(want, sizeof want, "%s as declared", unit_format(*dc->dim, 0, (char[96]){0}, 96));
   expect_unit(uc, dc->value, *dc->dim, dc->loc, what, want);
@@ -553,7 +559,6 @@ static void check_statement(UnitCheck *uc, Model *m, Stmt *s) {
   const Unit length = unit_base(U_M), mass = unit_base(U_KG);
   const char *const energy_words = "an energy (J = kg*m^2/s^2)";
   char what[160], want[160], s1[96];
-  (void)m;
   switch (s->kind) {
   case ST_KINETIC: case ST_POTENTIAL: case ST_LAGRANGIAN:
     snprintf(what, sizeof what, "%s term", ast_stmt_keyword(s->kind));
@@ -563,10 +568,8 @@ static void check_statement(UnitCheck *uc, Model *m, Stmt *s) {
     expect_unit(uc, s->e[0], power, s->loc, "dissipation term", "a power (W = kg*m^2/s^3)");
     break;
   case ST_FORCE: {
-    Decl *q = NULL;
-    for (int i = 0; i < m->ncoords; i++)
-      if (strcmp(m->coords[i]->name, s->name) == 0) q = m->coords[i];
-    assert(q && q->dim);
+    Decl *q = s->target;
+    assert(q && q->kind == DECL_COORD && q->dim);
     Unit want_u = unit_div(energy, *q->dim);
     snprintf(what, sizeof what, "force on '%s'", s->name);
     if (unit_is_dimensionless(*q->dim))
@@ -609,7 +612,7 @@ static void check_statement(UnitCheck *uc, Model *m, Stmt *s) {
   case ST_OUTPUT: check_decl_value(uc, s->decls[0], "output"); break;
   case ST_LET: {
     Decl *dc = s->decls[0];
-    if (dc->dim) {  /* a let with a declared unit */
+    if (dc->unit) {  /* a let with a declared unit */
       check_decl_value(uc, dc, "let");
     } else {
       Unit *u = arena_alloc(m->ast->arena, sizeof *u);
@@ -619,10 +622,8 @@ static void check_statement(UnitCheck *uc, Model *m, Stmt *s) {
     break;
   }
   case ST_INITIAL: {
-    Decl *q = NULL;
-    for (int i = 0; i < m->ncoords; i++)
-      if (strcmp(m->coords[i]->name, s->name) == 0) q = m->coords[i];
-    assert(q && q->dim);
+    Decl *q = s->target;
+    assert(q && q->kind == DECL_COORD && q->dim);
     if (!mentions_names(s->e[0])) break;
     Unit want_u = s->rate ? unit_div(*q->dim, unit_base(U_S)) : *q->dim;
     snprintf(what, sizeof what, "initial value of %s%s", s->name, s->rate ? "'" : "");

@@ -245,6 +245,8 @@ START_TEST(vectors_constraints_and_declared_values) {
   expect_clean(src);
   snprintf(src, sizeof src, "%soutput y = x [s]\n", head);
   expect_error(src, 7, 8, "value of output 'y' has unit m, expected s", NULL);
+  snprintf(src, sizeof src, "%soutput y = x + m\n", head);
+  expect_error(src, 7, 14, "operands of '+' have different units: m and kg", NULL);
   snprintf(src, sizeof src, "%sparam I = m*L [kg*m^2]\npotential I*g/L*th\n", head);
   expect_error(src, 7, 7, "value of param 'I' has unit kg*m", NULL);
   snprintf(src, sizeof src, "%sinitial x = m\n", head);
@@ -324,6 +326,21 @@ START_TEST(unitless_inputs_and_consts_are_unchecked) {
 }
 END_TEST
 
+START_TEST(check_twice_gives_same_answer) {
+  /* Later stages may check a model again; computed let units must not be
+  ** mistaken for declared ones. */
+  Checked *c = load("coord x [m]\nparam m = 2 [kg]\ninput u\nlet w = m*u\nlet v = x'\n"
+                    "kinetic 1/2*m*v^2 + 0*w\n");
+  ck_assert_int_eq(c->d.nerrors, 0);
+  int warnings = c->d.nwarnings;
+  Model again;
+  ck_assert_int_eq(check_model(c->ast, &c->d, &again), 0);
+  ck_assert_int_eq(again.has_units, 1);
+  ck_assert_int_eq(c->d.nwarnings, 2 * warnings);
+  unload(c);
+}
+END_TEST
+
 int main(void) {
   Suite *s = suite_create("units");
   TCase *tc = tcase_create("algebra");
@@ -342,6 +359,7 @@ int main(void) {
   tcase_add_test(tc, bodies_and_transforms);
   tcase_add_test(tc, partial_units_warn_and_skip);
   tcase_add_test(tc, unitless_inputs_and_consts_are_unchecked);
+  tcase_add_test(tc, check_twice_gives_same_answer);
   suite_add_tcase(s, tc);
   SRunner *sr = srunner_create(s);
   srunner_run_all(sr, CK_NORMAL);
