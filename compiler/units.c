@@ -572,8 +572,10 @@ static void check_statement(UnitCheck *uc, Model *m, Stmt *s) {
     assert(q && q->kind == DECL_COORD && q->dim);
     Unit want_u = unit_div(energy, *q->dim);
     snprintf(what, sizeof what, "force on '%s'", s->name);
-    if (unit_is_dimensionless(*q->dim))
+    if (unit_is_dimensionless(*q->dim) && q->dim->exp[U_RAD] != 0)
       snprintf(want, sizeof want, "a torque (N*m) for the angle '%s'", s->name);
+    else if (unit_is_dimensionless(*q->dim))
+      snprintf(want, sizeof want, "an energy (J) for the dimensionless '%s'", s->name);
     else if (unit_same(*q->dim, length))
       snprintf(want, sizeof want, "a force (N) for the length '%s'", s->name);
     else
