@@ -491,16 +491,17 @@ static int yyreport_syntax_error(const yypcontext_t *yyctx, ParseCtx *ctx) {
     else
       diag_error(ctx->diag, where, "expected an expression%s, found %s", after, f);
   } else {
-    /* List what may come here, in words, unless that would be "an operator
-    ** or ...": then only the offending token is named. */
+    /* Name the offending token and list, in words, what may come instead
+    ** ("an expression", "end of line", "','"), with hints for common slips. */
     char items[8][32];
-    int nitems = 0, too_many = 0, words = 0;
+    int nitems = 0, too_many = 0, want_unit = 0;
     if (want_expr) snprintf(items[nitems++], 32, "an expression");
     for (int i = 0; i < nexp; i++) {
       yysymbol_kind_t k = exp[i];
       int c = sym_char(k);
-      if (c == '[' && !want_expr && !had_ops) {       /* after a list of names */
-        if (nitems < 6) snprintf(items[nitems++], 32, "a unit '[...]'");
+      if (c == '[' && !want_expr) {                   /* a unit may come here */
+        want_unit = 1;
+        if (nitems < 6 && !had_ops) snprintf(items[nitems++], 32, "a unit '[...]'");
         continue;
       }
       if (c && strchr("+-*/^('[", c)) continue;   /* operators, expression starts */
@@ -511,12 +512,13 @@ static int yyreport_syntax_error(const yypcontext_t *yyctx, ParseCtx *ctx) {
         too_many = 1;
         break;
       }
-      if (is_contextual(k)) words = 1;
       if (k == YYSYMBOL_T_NEWLINE) snprintf(items[nitems++], 32, "end of line");
       else describe(k, NULL, items[nitems++], 32);
     }
-    int op_words = had_ops && !found_end && words && !too_many;
-    if (op_words) {
+    /* After a complete operand an operator could always come next: say so
+    ** first. */
+    int after_operand = had_ops && !found_end;
+    if (after_operand && nitems > 0 && !too_many) {
       memmove(items[1], items[0], (size_t)nitems * sizeof items[0]);
       snprintf(items[0], 32, "an operator");
       nitems++;
@@ -528,17 +530,19 @@ static int yyreport_syntax_error(const yypcontext_t *yyctx, ParseCtx *ctx) {
                        i == 0 ? "" : i == nitems - 1 ? " or " : ", ", items[i]);
       if (w > 0) used += (size_t)w;
     }
-    if (op_words) {
-      /* After an operand where a word of `body`, `force` or `torque` may come. */
-      diag_error(ctx->diag, where, "unexpected %s%s (expected %s)", f, after, list);
-    } else if (had_ops && found == YYSYMBOL_T_NAME && lx->before_last.kind == T_NUMBER &&
-               lx->before_last.start + lx->before_last.len == lx->last.start &&
-               lx->before_last.len + lx->last.len < 40) {
-      /* `2x`: the number and the name touch. */
+    const Token *prev = &lx->before_last, *cur = &lx->last;
+    if (after_operand && found == YYSYMBOL_T_NAME && prev->kind == T_NUMBER &&
+        prev->start + prev->len == cur->start && prev->len + cur->len < 40) {
+      /* `2x`: a number touching a name. */
       diag_error(ctx->diag, where, "unexpected %s%s (a product needs '*': %.*s*%.*s)", f, after,
-                 (int)lx->before_last.len, (const char *)lx->before_last.start,
-                 (int)lx->last.len, (const char *)lx->last.start);
-    } else if ((had_ops && !found_end) || nitems == 0 || too_many) {
+                 (int)prev->len, (const char *)prev->start, (int)cur->len, (const char *)cur->start);
+    } else if (after_operand && want_unit && found == YYSYMBOL_T_NAME && cur->len < 40) {
+      /* `param m = 2 kg` */
+      diag_error(ctx->diag, where, "unexpected %s%s (a unit goes in brackets: [%.*s])", f, after,
+                 (int)cur->len, (const char *)cur->start);
+    } else if (after_operand && nitems > 0 && !too_many) {
+      diag_error(ctx->diag, where, "unexpected %s%s (expected %s)", f, after, list);
+    } else if (after_operand || nitems == 0 || too_many) {
       diag_error(ctx->diag, where, "unexpected %s%s", f, after);
     } else if (found_end) {
       diag_error(ctx->diag, where, "expected %s%s", list, after);
