@@ -213,13 +213,100 @@ struct IrBuilder::Impl {
 
   int add(const std::vector<int> &terms) {
     double c = 0;
-    std::vector<int> rest;
+    std::vector<Term> rest;
     for (int a : terms) {
       double v;
       if (is_num(a, &v)) c += v;
-      else rest.push_back(a);
+      else rest.push_back(split_term(a));
     }
-    if (c != 0) rest.push_back(num(c));
+    std::vector<int> parts;
+    factor_sum(rest, parts);
+    if (c != 0) parts.push_back(num(c));
+    return make_sum(parts);
+  }
+
+  /* ---- factoring of sums ----
+  ** a*x*y + a*x*z + b*w  ->  a*x*(y + z) + b*w, greedily: take out the
+  ** factor shared by most terms, recurse on the terms that had it and on
+  ** the rest.  This is what turns a sum over the points of a chain into
+  ** products of short shared sums (sum of masses beyond a joint, ...).
+  ** It depends only on the terms' content, so it stays deterministic. */
+
+  struct Term {
+    double c;
+    std::vector<int> f;  /* factors, a power x^k (integer k <= 4) as k copies of x */
+  };
+
+  Term split_term(int id) {
+    Term t{1, {}};
+    double v;
+    int x;
+    if (nodes[id].op == IR_NEG) t.c = -1, id = nodes[id].args[0];
+    if (scaled(id, &v, &x)) t.c *= v, id = x;
+    auto push = [&](int a) {
+      const TNode &n = nodes[a];
+      double k;
+      if (n.op == IR_POW && is_num(n.args[1], &k) && k == std::floor(k) && k >= 2 && k <= 4)
+        t.f.insert(t.f.end(), (size_t)k, n.args[0]);
+      else
+        t.f.push_back(a);
+    };
+    if (nodes[id].op == IR_MUL)
+      for (int a : std::vector<int>(nodes[id].args)) push(a);
+    else
+      push(id);
+    return t;
+  }
+
+  int build_term(const Term &t) {
+    std::vector<int> f = t.f, factors;
+    std::sort(f.begin(), f.end());
+    for (size_t i = 0; i < f.size();) {
+      size_t j = i;
+      while (j < f.size() && f[j] == f[i]) j++;
+      factors.push_back(j - i == 1 ? f[i] : pow_num(f[i], (double)(j - i)));
+      i = j;
+    }
+    return scale(t.c, product(factors));
+  }
+
+  void factor_sum(std::vector<Term> terms, std::vector<int> &parts) {
+    for (;;) {
+      int best = -1, best_count = 1;
+      if (terms.size() >= 2) {
+        std::unordered_map<int, int> count;
+        for (const Term &t : terms)
+          for (size_t i = 0; i < t.f.size(); i++)
+            if (std::find(t.f.begin(), t.f.begin() + i, t.f[i]) == t.f.begin() + i)
+              count[t.f[i]]++;
+        for (const auto &kv : count)
+          if (kv.second > best_count || (kv.second == best_count && best >= 0 &&
+                                         compare(kv.first, best) < 0))
+            best = kv.first, best_count = kv.second;
+      }
+      if (best < 0) {
+        for (const Term &t : terms) parts.push_back(build_term(t));
+        return;
+      }
+      std::vector<Term> with, without;
+      for (Term &t : terms) {
+        auto it = std::find(t.f.begin(), t.f.end(), best);
+        if (it == t.f.end()) {
+          without.push_back(std::move(t));
+        } else {
+          t.f.erase(it);
+          with.push_back(std::move(t));
+        }
+      }
+      std::vector<int> inner;
+      factor_sum(std::move(with), inner);
+      parts.push_back(mul({best, make_sum(inner)}));
+      terms = std::move(without);
+    }
+  }
+
+  /* The sum of already factored parts. */
+  int make_sum(std::vector<int> rest) {
     if (rest.empty()) return num(0);
     if (rest.size() == 1) return rest[0];
     /* x - y and y - x are one node (and a NEG): GiNaC picks either sign for
@@ -350,28 +437,29 @@ struct IrBuilder::Impl {
   }
 
   int translate_new(const ex &e) {
-    if (is_a<numeric>(e)) return num(number_of(ex_to<numeric>(e)));
-    if (is_a<symbol>(e)) {
+    NodeKind kind = node_kind(e);
+    if (kind == NK_NUMERIC) return num(number_of(ex_to<numeric>(e)));
+    if (kind == NK_SYMBOL) {
       auto v = vars.find(e);
       if (v == vars.end())
         throw SymError{loc, "internal: unknown symbol '" + ex_to<symbol>(e).get_name() +
                                 "' in the equations"};
       return var(v->second.var, v->second.index);
     }
-    if (is_a<constant>(e)) {
+    if (kind == NK_CONSTANT) {
       ex v = e.evalf();
       if (!is_a<numeric>(v)) throw SymError{loc, "internal: constant without a value"};
       return num(number_of(ex_to<numeric>(v)));
     }
-    if (is_a<GiNaC::add>(e)) {
+    if (kind == NK_ADD) {
       std::vector<int> terms;
       for (const expair &p : PairAccess::pairs(e))
         terms.push_back(scale(number_of(ex_to<numeric>(p.coeff)), translate(p.rest)));
       terms.push_back(num(number_of(ex_to<numeric>(PairAccess::overall(e)))));
       return add(terms);
     }
-    if (is_a<GiNaC::mul>(e)) return translate_mul(e);
-    if (is_a<power>(e)) {
+    if (kind == NK_MUL) return translate_mul(e);
+    if (kind == NK_POWER) {
       const ex &expo = e.op(1);
       if (is_a<numeric>(expo) && ex_to<numeric>(expo).is_real())
         return pow_num(translate(e.op(0)), number_of(ex_to<numeric>(expo)));
@@ -379,7 +467,7 @@ struct IrBuilder::Impl {
       n.args = {translate(e.op(0)), translate(expo)};
       return intern(n);
     }
-    if (is_a<function>(e)) {
+    if (kind == NK_FUNCTION) {
       const std::string &name = ex_to<function>(e).get_name();
       for (const FnName &f : fn_names)
         if (name == f.ginac) {

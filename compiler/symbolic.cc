@@ -90,7 +90,8 @@ class DepCache {
   }
 
   bool contains(const ex &e, int id) {
-    if (is_a<numeric>(e) || is_a<constant>(e)) return false;
+    NodeKind k = node_kind(e);
+    if (k == NK_NUMERIC || k == NK_CONSTANT) return false;
     size_t o = offset(e);
     return (pool_[o + id / 64] >> (id % 64)) & 1;
   }
@@ -106,7 +107,8 @@ class DepCache {
       words_ = (ids_.size() + 63) / 64 + 1;
       pool_.assign(words_, 0);
     }
-    if (is_a<numeric>(e) || is_a<constant>(e)) return 0;
+    NodeKind kind = node_kind(e);
+    if (kind == NK_NUMERIC || kind == NK_CONSTANT) return 0;
     const basic *b = &ex_to<basic>(e);
     auto it = at_.find(b);
     if (it != at_.end()) return it->second.second;
@@ -115,10 +117,10 @@ class DepCache {
       size_t o = offset(x);
       for (size_t w = 0; w < words_; w++) acc[w] |= pool_[o + w];
     };
-    if (is_a<symbol>(e)) {
+    if (kind == NK_SYMBOL) {
       auto v = ids_.find(e);
       if (v != ids_.end()) acc[v->second / 64] |= (uint64_t)1 << (v->second % 64);
-    } else if (is_a<expairseq>(e)) {
+    } else if (kind == NK_ADD || kind == NK_MUL) {
       for (const expair &p : PairAccess::pairs(e)) merge(p.rest);
     } else {
       for (size_t i = 0; i < e.nops(); i++) merge(e.op(i));
@@ -141,7 +143,7 @@ class Deriver {
   }
 
   ex operator()(const ex &e) {
-    if (is_a<symbol>(e)) return e.is_equal(var_) ? 1 : 0;
+    if (node_kind(e) == NK_SYMBOL) return e.is_equal(var_) ? 1 : 0;
     if (!deps_->contains(e, id_)) return 0;
     const basic *b = &ex_to<basic>(e);
     auto it = memo_.find(b);
@@ -158,7 +160,8 @@ class Deriver {
   std::unordered_map<const basic *, std::pair<ex, ex>> memo_;
 
   ex fresh(const ex &e) {
-    if (is_a<add>(e)) {
+    NodeKind kind = node_kind(e);
+    if (kind == NK_ADD) {
       exvector terms;
       for (const expair &p : PairAccess::pairs(e)) {
         ex d = (*this)(p.rest);
@@ -166,7 +169,7 @@ class Deriver {
       }
       return terms.empty() ? ex(0) : ex(add(terms));
     }
-    if (is_a<mul>(e)) {
+    if (kind == NK_MUL) {
       /* product rule over the factors rest^coeff */
       const epvector &pairs = PairAccess::pairs(e);
       size_t n = pairs.size();
@@ -191,13 +194,13 @@ class Deriver {
       }
       return terms.empty() ? ex(0) : ex(add(terms));
     }
-    if (is_a<power>(e)) {
+    if (kind == NK_POWER) {
       const ex &b = e.op(0), &k = e.op(1);
       ex db = (*this)(b), dk = (*this)(k);
       if (dk.is_zero()) return db.is_zero() ? ex(0) : k * pow(b, k - 1) * db;
       return e * (dk * log(b) + k * db / b);
     }
-    if (is_a<function>(e)) return function_derivative(e);
+    if (kind == NK_FUNCTION) return function_derivative(e);
     return e.diff(ex_to<symbol>(var_));  /* nothing else arises; GiNaC knows best */
   }
 

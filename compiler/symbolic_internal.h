@@ -17,6 +17,7 @@
 #include <map>
 #include <memory>
 #include <string>
+#include <typeinfo>
 #include <vector>
 
 /* The shared C headers carry no extern "C" of their own. */
@@ -47,6 +48,30 @@ struct PairAccess : GiNaC::expairseq {
     return GiNaC::ex_to<GiNaC::expairseq>(e).*(&PairAccess::overall_coeff);
   }
 };
+
+/* The GiNaC classes the core meets, found by comparing type_info addresses:
+** is_a<>() is a dynamic_cast that ends in strcmp on type names, and the
+** core asks this once per node per pass. */
+enum NodeKind { NK_NUMERIC, NK_SYMBOL, NK_CONSTANT, NK_ADD, NK_MUL, NK_POWER, NK_FUNCTION, NK_OTHER };
+
+inline NodeKind node_kind(const GiNaC::ex &e) {
+  const std::type_info &t = typeid(GiNaC::ex_to<GiNaC::basic>(e));
+  if (&t == &typeid(GiNaC::mul)) return NK_MUL;
+  if (&t == &typeid(GiNaC::add)) return NK_ADD;
+  if (&t == &typeid(GiNaC::power)) return NK_POWER;
+  if (&t == &typeid(GiNaC::function)) return NK_FUNCTION;
+  if (&t == &typeid(GiNaC::numeric)) return NK_NUMERIC;
+  if (&t == &typeid(GiNaC::realsymbol)) return NK_SYMBOL;
+  /* slow path: another address for the same class, or a subclass */
+  if (GiNaC::is_a<GiNaC::numeric>(e)) return NK_NUMERIC;
+  if (GiNaC::is_a<GiNaC::symbol>(e)) return NK_SYMBOL;
+  if (GiNaC::is_a<GiNaC::constant>(e)) return NK_CONSTANT;
+  if (GiNaC::is_a<GiNaC::add>(e)) return NK_ADD;
+  if (GiNaC::is_a<GiNaC::mul>(e)) return NK_MUL;
+  if (GiNaC::is_a<GiNaC::power>(e)) return NK_POWER;
+  if (GiNaC::is_a<GiNaC::function>(e)) return NK_FUNCTION;
+  return NK_OTHER;
+}
 
 /* Which IR variable a GiNaC symbol stands for. */
 struct VarRef {
