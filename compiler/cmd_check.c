@@ -32,14 +32,25 @@ static void put_clean(const char *s, FILE *out) {
 /* What a declaration table shows besides name, unit and description. */
 enum { PLAIN, VALUE, COORD };
 
+/* "initial 0.1" or "initial 0.1, rate -2" for coordinate i. */
+static char *initial_text(const Model *m, int i, char *buf, size_t n) {
+  if (m->qd0[i] != 0) snprintf(buf, n, "initial %g, rate %g", m->q0[i], m->qd0[i]);
+  else snprintf(buf, n, "initial %g", m->q0[i]);
+  return buf;
+}
+
 /* One table of declarations: name, optional value, unit, description,
 ** each column as wide as its widest entry. */
 static void print_decls(const Model *m, const char *title, Decl **v, int n, int kind, FILE *out) {
   Arena *a = m->ast->arena;
   char num[64];
-  int wname = 0, wvalue = 0, wunit = 0;
+  int wname = 0, wvalue = 0, wunit = 0, winit = 0;
   if (n == 0) return;
   for (int i = 0; i < n; i++) {
+    if (kind == COORD) {
+      int k = (int)strlen(initial_text(m, i, num, sizeof num));
+      if (k > winit) winit = k;
+    }
     int k = (int)strlen(v[i]->name);
     if (k > wname) wname = k;
     k = (int)strlen(unit_text(a, v[i]->unit));
@@ -71,8 +82,8 @@ static void print_decls(const Model *m, const char *title, Decl **v, int n, int 
       if (v[i]->desc || kind == COORD) fprintf(out, "%*s", wunit - (int)strlen(u), "");
     }
     if (kind == COORD) {
-      fprintf(out, "  initial %g", m->q0[i]);
-      if (m->qd0[i] != 0) fprintf(out, ", rate %g", m->qd0[i]);
+      initial_text(m, i, num, sizeof num);
+      fprintf(out, "  %-*s", v[i]->desc ? winit : 0, num);
     }
     if (v[i]->desc) {
       fputs("  ", out);
