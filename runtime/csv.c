@@ -1,14 +1,25 @@
 /*
 ** csv.c — write simulation samples as CSV: a header naming every column
 ** (t, coordinates, rates as name', outputs, T, V) and one row per sample.
-** Numbers are printed with 17 significant digits so a row read back gives
-** the same doubles.
+** Each number is printed in the shortest of %.15g, %.16g and %.17g that
+** reads back as the same double.
 */
 #include <assert.h>
 #include <stdio.h>
 #include <stdlib.h>
+#include <string.h>
 
 #include "eom/runtime.h"
+
+static void put_number(FILE *f, const char *sep, double v) {
+  char buf[40];
+  for (int digits = 15; digits <= 17; digits++) {
+    snprintf(buf, sizeof buf, "%.*g", digits, v);
+    if (digits == 17 || strtod(buf, NULL) == v) break;
+  }
+  fputs(sep, f);
+  fputs(buf, f);
+}
 
 int eom_csv_write_header(FILE *f, const struct eom_model *m) {
   assert(f && m);
@@ -29,14 +40,16 @@ int eom_csv_write_row(FILE *f, const struct eom_model *m, const double *p, doubl
     y = malloc((size_t)m->ny * sizeof(double));
     if (!y) return -1;
   }
-  fprintf(f, "%.17g", t);
-  for (int i = 0; i < 2 * m->nq; i++) fprintf(f, ",%.17g", x[i]);
+  put_number(f, "", t);
+  for (int i = 0; i < 2 * m->nq; i++) put_number(f, ",", x[i]);
   if (m->ny > 0 && m->outputs) {
     m->outputs(t, x, x + m->nq, u, p, y);
-    for (int i = 0; i < m->ny; i++) fprintf(f, ",%.17g", y[i]);
+    for (int i = 0; i < m->ny; i++) put_number(f, ",", y[i]);
   }
   if (m->energy) m->energy(x, x + m->nq, p, &T, &V);
-  fprintf(f, ",%.17g,%.17g\n", T, V);
+  put_number(f, ",", T);
+  put_number(f, ",", V);
+  fputc('\n', f);
   if (y != y_small) free(y);
   return ferror(f) ? -1 : 0;
 }

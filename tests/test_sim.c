@@ -1,0 +1,382 @@
+/*
+** test_sim.c — end to end: run the eomc binary's `sim` and `modes` on the
+** model files in tests/sim and check the numbers against published
+** formulas, the CSV against its documented columns, and the exit codes.
+** The binary is $EOMC, the sources $SRCDIR; generated objects go to a
+** private cache directory ($EOMC_CACHE_DIR).
+*/
+#include <check.h>
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <sys/stat.h>
+
+#include "testutil.h"
+
+static const double PI = 3.141592653589793238462643383279502884;
+static char *cache_dir, *work_dir;
+
+static const char *eomc(void) { return env_or("EOMC", "./eomc"); }
+
+static char *model_path(const char *name) {
+  static char buf[4096];
+  snprintf(buf, sizeof buf, "%s/tests/sim/%s", env_or("SRCDIR", "."), name);
+  return buf;
+}
+
+static char *work_path(const char *name) {
+  char *p = malloc(strlen(work_dir) + strlen(name) + 2);
+  sprintf(p, "%s/%s", work_dir, name);
+  return p;
+}
+
+static void setup(void) {
+  cache_dir = make_temp_dir();
+  work_dir = make_temp_dir();
+  setenv("EOMC_CACHE_DIR", cache_dir, 1);
+}
+
+static void teardown(void) {
+  remove_tree(cache_dir);
+  remove_tree(work_dir);
+  free(cache_dir);
+  free(work_dir);
+}
+
+/* Value of the k-th (0-based) occurrence of "key": NUMBER in a JSON text. */
+static double json_number(const char *text, const char *key, int k) {
+  char pat[128];
+  snprintf(pat, sizeof pat, "\"%s\": ", key);
+  const char *s = text;
+  for (int i = 0; i <= k; i++) {
+    s = strstr(s, pat);
+    ck_assert_msg(s != NULL, "no %s #%d in\n%s", key, k, text);
+    s += strlen(pat);
+  }
+  return strtod(s, NULL);
+}
+
+/* ------------------------------------------------------------- modes */
+
+/* Bead on a hoop spinning at w: off-bottom equilibrium cos(theta0) = g / (w^2 R)
+** and small oscillations there at w sin(theta0) (Marion & Thornton,
+** Classical Dynamics of Particles and Systems, 5th ed., 2004, prob. 7-18). */
+START_TEST(modes_bead_on_hoop) {
+  char *argv[] = {(char *)eomc(), "modes", model_path("bead_hoop.eom"), "--at", "theta=1",
+                  "--json", NULL};
+  RunResult r = run_argv(argv);
+  ck_assert_msg(r.status == 0, "status %d: %s", r.status, r.err);
+  double g = 9.81, R = 0.5, w = 7;
+  double theta0 = acos(g / (w * w * R));
+  double theta = json_number(r.out, "theta", 0);
+  ck_assert_msg(fabs(theta - theta0) < 1e-9, "theta0 %.12g, want %.12g", theta, theta0);
+  double omega = json_number(r.out, "omega_rad_s", 0);
+  ck_assert_msg(fabs(omega - w * sin(theta0)) < 1e-7 * omega, "omega %.12g, want %.12g", omega,
+                w * sin(theta0));
+  ck_assert_msg(fabs(json_number(r.out, "frequency_hz", 0) - omega / (2 * PI)) < 1e-9, "%s", r.out);
+  ck_assert_ptr_nonnull(strstr(r.out, "\"damped\": false"));
+  run_free(&r);
+
+  /* With the same --set the bottom is unstable once w^2 > g/R:
+  ** omega^2 = g/R - w^2 < 0, reported as a growth rate, not NaN. */
+  char *argv2[] = {(char *)eomc(), "modes", model_path("bead_hoop.eom"), "--at", "theta=0", NULL};
+  r = run_argv(argv2);
+  ck_assert_msg(r.status == 0, "status %d: %s", r.status, r.err);
+  ck_assert_ptr_nonnull(strstr(r.out, "unstable direction"));
+  ck_assert_ptr_null(strstr(r.out, "nan"));
+  char want[64];
+  snprintf(want, sizeof want, "exp(%.6g t)", sqrt(w * w - g / R));
+  ck_assert_msg(strstr(r.out, want) != NULL, "want %s in\n%s", want, r.out);
+  run_free(&r);
+
+  /* A slower hoop (w^2 < g/R): only the bottom, at sqrt(g/R - w^2). */
+  char *argv3[] = {(char *)eomc(), "modes", model_path("bead_hoop.eom"), "--set", "w=3",
+                   "--at", "theta=0.2", "--json", NULL};
+  r = run_argv(argv3);
+  ck_assert_msg(r.status == 0, "status %d: %s", r.status, r.err);
+  ck_assert(fabs(json_number(r.out, "theta", 0)) < 1e-9);
+  ck_assert(fabs(json_number(r.out, "omega_rad_s", 0) - sqrt(g / R - 9)) < 1e-7);
+  run_free(&r);
+}
+END_TEST
+
+/* Two equal masses between three equal springs: omega = sqrt(k/m) and
+** sqrt(3k/m) (Taylor, Classical Mechanics, 2005, §11.2); with a damper c
+** on each mass the modes keep their shapes and have damping ratios
+** c / (2 sqrt(k m)) and c / (2 sqrt(3 k m)) (common practice:
+** zeta = c / (2 sqrt(k m)) per modal degree of freedom). */
+START_TEST(modes_damped_pair) {
+  char *argv[] = {(char *)eomc(), "modes", model_path("damped_pair.eom"), "--json", NULL};
+  RunResult r = run_argv(argv);
+  ck_assert_msg(r.status == 0, "status %d: %s", r.status, r.err);
+  double m = 1.5, k = 60, c = 0.9;
+  ck_assert_ptr_nonnull(strstr(r.out, "\"damped\": true"));
+  ck_assert_double_eq_tol(json_number(r.out, "omega_rad_s", 0), sqrt(k / m), 1e-9);
+  ck_assert_double_eq_tol(json_number(r.out, "omega_rad_s", 1), sqrt(3 * k / m), 1e-9);
+  ck_assert_double_eq_tol(json_number(r.out, "damping_ratio", 0), c / (2 * sqrt(k * m)), 1e-12);
+  ck_assert_double_eq_tol(json_number(r.out, "damping_ratio", 1), c / (2 * sqrt(3 * k * m)),
+                          1e-12);
+  run_free(&r);
+  /* Without the dampers: the symmetric problem, shapes (1, 1) and (1, -1). */
+  char *argv2[] = {(char *)eomc(), "modes", model_path("damped_pair.eom"), "--set", "c=0", NULL};
+  r = run_argv(argv2);
+  ck_assert_msg(r.status == 0, "status %d: %s", r.status, r.err);
+  ck_assert_msg(strstr(r.out, "shape: x1 = 1, x2 = 1") && strstr(r.out, "x2 = -1"), "%s", r.out);
+  ck_assert_ptr_nonnull(strstr(r.out, "rad/s"));
+  ck_assert_ptr_nonnull(strstr(r.out, "Hz"));
+  ck_assert_ptr_nonnull(strstr(r.out, "period"));
+  run_free(&r);
+}
+END_TEST
+
+/* ------------------------------------------------------------- sim */
+
+static int count_lines(const char *s) {
+  int n = 0;
+  for (; *s; s++) n += *s == '\n';
+  return n;
+}
+
+START_TEST(sim_csv_columns) {
+  char *out = work_path("pair.csv");
+  char *argv[] = {(char *)eomc(), "sim", model_path("damped_pair.eom"), "--until", "1", "--step",
+                  "0.1", "-o", out, NULL};
+  RunResult r = run_argv(argv);
+  ck_assert_msg(r.status == 0, "status %d: %s", r.status, r.err);
+  ck_assert_msg(strstr(r.err, "action") && strstr(r.err, "steps"), "summary: %s", r.err);
+  char *csv = read_file(out, NULL);
+  ck_assert_ptr_nonnull(csv);
+  const char *header = "t,x1,x2,x1',x2',spring_middle,T,V\n";
+  ck_assert_msg(strncmp(csv, header, strlen(header)) == 0, "%s", csv);
+  ck_assert_int_eq(count_lines(csv), 12); /* header + t = 0, 0.1, ..., 1 */
+  /* First row: t = 0 and the model's initial x1 = 0.05. */
+  const char *row = strchr(csv, '\n') + 1;
+  double t, x1, x2;
+  ck_assert_int_eq(sscanf(row, "%lf,%lf,%lf", &t, &x1, &x2), 3);
+  ck_assert(t == 0 && x1 == 0.05 && x2 == 0);
+  /* Every row has 8 fields. */
+  for (const char *p = row; *p; p = strchr(p, '\n') + 1) {
+    int commas = 0;
+    for (const char *q = p; *q != '\n'; q++) commas += *q == ',';
+    ck_assert_int_eq(commas, 7);
+  }
+  free(csv);
+  run_free(&r);
+  /* Without -o the CSV goes to standard output. */
+  char *argv2[] = {(char *)eomc(), "sim", model_path("damped_pair.eom"), "--until", "0.5",
+                   "--step", "0.25", "--method", "rk4", NULL};
+  r = run_argv(argv2);
+  ck_assert_msg(r.status == 0, "status %d: %s", r.status, r.err);
+  ck_assert_int_eq(count_lines(r.out), 4);
+  ck_assert(strncmp(r.out, "t,x1,x2,", 8) == 0);
+  run_free(&r);
+  free(out);
+}
+END_TEST
+
+/* Read column col of a CSV (header skipped) into a malloc'd array. */
+static double *csv_column(const char *csv, int col, int *n) {
+  int cap = count_lines(csv);
+  double *v = malloc(sizeof(double) * (size_t)(cap + 1));
+  *n = 0;
+  for (const char *p = strchr(csv, '\n') + 1; *p; p = strchr(p, '\n') + 1) {
+    const char *f = p;
+    for (int i = 0; i < col; i++) f = strchr(f, ',') + 1;
+    v[(*n)++] = strtod(f, NULL);
+  }
+  return v;
+}
+
+/* The bead released near its off-bottom equilibrium oscillates at
+** w sin(theta0) (Marion & Thornton, prob. 7-18): measure the period from
+** the upward crossings of theta0 in the CSV. */
+START_TEST(sim_bead_small_oscillation_period) {
+  double g = 9.81, R = 0.5, w = 7, theta0 = acos(g / (w * w * R));
+  char set[64];
+  snprintf(set, sizeof set, "theta=%.17g", theta0 + 1e-3);
+  char *argv[] = {(char *)eomc(), "sim", model_path("bead_hoop.eom"), "--set", set, "--until",
+                  "4", "--step", "0.0005", "--rtol", "1e-11", "--atol", "1e-13", NULL};
+  RunResult r = run_argv(argv);
+  ck_assert_msg(r.status == 0, "status %d: %s", r.status, r.err);
+  int n;
+  double *t = csv_column(r.out, 0, &n), *th = csv_column(r.out, 1, &n);
+  double first = -1, last = -1;
+  int crossings = 0;
+  for (int i = 1; i < n; i++)
+    if (th[i - 1] < theta0 && th[i] >= theta0) {
+      double tc = t[i - 1] + (t[i] - t[i - 1]) * (theta0 - th[i - 1]) / (th[i] - th[i - 1]);
+      if (first < 0) first = tc;
+      last = tc;
+      crossings++;
+    }
+  ck_assert_int_ge(crossings, 3);
+  double period = (last - first) / (crossings - 1), want = 2 * PI / (w * sin(theta0));
+  ck_assert_msg(fabs(period - want) / want < 1e-4, "period %.8g, want %.8g", period, want);
+  free(t);
+  free(th);
+  run_free(&r);
+}
+END_TEST
+
+/* Statics (Hooke's law, common practice): a steady push F on the first cart
+** settles at K x = (F, 0), x1 = 2F/(3k), x2 = F/(3k).  Given once as a
+** constant (--set) and once as an input table (--inputs). */
+START_TEST(sim_inputs_settle) {
+  char *table = write_file(work_dir, "push.csv", "t,F\n0,60\n100,60\n", 17);
+  const char *ways[2][2] = {{"--set", "F=60"}, {"--inputs", table}};
+  for (int w = 0; w < 2; w++) {
+    char *argv[] = {(char *)eomc(), "sim", model_path("damped_pair.eom"), (char *)ways[w][0],
+                    (char *)ways[w][1], "--until", "60", "--step", "1", NULL};
+    RunResult r = run_argv(argv);
+    ck_assert_msg(r.status == 0, "status %d: %s", r.status, r.err);
+    int n;
+    double *x1 = csv_column(r.out, 1, &n), *x2 = csv_column(r.out, 2, &n);
+    ck_assert_int_eq(n, 61);
+    ck_assert_msg(fabs(x1[n - 1] - 2 * 60.0 / 180) < 1e-6, "x1 = %.10g", x1[n - 1]);
+    ck_assert_msg(fabs(x2[n - 1] - 60.0 / 180) < 1e-6, "x2 = %.10g", x2[n - 1]);
+    free(x1);
+    free(x2);
+    run_free(&r);
+  }
+  free(table);
+}
+END_TEST
+
+/* accel() fails where the mass matrix stops being positive definite: exit 3,
+** a message naming the time and state, and the rows so far kept. */
+START_TEST(sim_failure_keeps_rows) {
+  char *out = work_path("fail.csv");
+  char *argv[] = {(char *)eomc(), "sim", model_path("leaning_block.eom"), "--until", "5", "-o",
+                  out, NULL};
+  RunResult r = run_argv(argv);
+  ck_assert_msg(r.status == 3, "status %d: %s", r.status, r.err);
+  ck_assert_msg(strstr(r.err, "at t = ") && strstr(r.err, "x = "), "%s", r.err);
+  char *csv = read_file(out, NULL);
+  ck_assert_ptr_nonnull(csv);
+  ck_assert(strncmp(csv, "t,x,x',T,V\n", 11) == 0);
+  ck_assert_int_ge(count_lines(csv), 10);
+  free(csv);
+  free(out);
+  run_free(&r);
+}
+END_TEST
+
+START_TEST(sim_usage_errors) {
+  static const char *cases[][4] = {
+      {"--set", "nosuch=1", NULL, "not a name"},
+      {"--method", "euler-ish", NULL, "unknown method"},
+      {"--until", "-3", NULL, "positive number"},
+      {"--frobnicate", NULL, NULL, "unknown option"},
+      {"--set", "theta=abc", NULL, "not a finite number"},
+  };
+  for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++) {
+    char *argv[] = {(char *)eomc(), "sim", model_path("bead_hoop.eom"), (char *)cases[i][0],
+                    (char *)cases[i][1], NULL};
+    RunResult r = run_argv(argv);
+    ck_assert_msg(r.status == 2, "case %zu: status %d: %s", i, r.status, r.err);
+    ck_assert_msg(strstr(r.err, cases[i][3]) != NULL, "case %zu: %s", i, r.err);
+    run_free(&r);
+  }
+  char *argv[] = {(char *)eomc(), "sim", model_path("no-such-model.eom"), NULL};
+  RunResult r = run_argv(argv);
+  ck_assert_int_eq(r.status, 2);
+  run_free(&r);
+  /* A model error is status 1. */
+  char *bad = write_file(work_dir, "bad.eom", "coord x\nkinetic 1/2*y'^2\n", 25);
+  char *argv2[] = {(char *)eomc(), "sim", bad, NULL};
+  r = run_argv(argv2);
+  ck_assert_msg(r.status == 1, "status %d: %s", r.status, r.err);
+  ck_assert_ptr_nonnull(strstr(r.err, "error"));
+  run_free(&r);
+  char *argv3[] = {(char *)eomc(), "modes", model_path("bead_hoop.eom"), "--at", "w=1", NULL};
+  r = run_argv(argv3);
+  ck_assert_msg(r.status == 2, "status %d: %s", r.status, r.err);
+  run_free(&r);
+  free(bad);
+}
+END_TEST
+
+/* The second run loads the cached object; a changed model gets its own. */
+START_TEST(sim_cache) {
+  char *argv[] = {(char *)eomc(), "sim", model_path("bead_hoop.eom"), "--until", "0.1", NULL};
+  RunResult r = run_argv(argv);
+  ck_assert_msg(r.status == 0, "%s", r.err);
+  char *first = strdup(r.out);
+  run_free(&r);
+  r = run_argv(argv);
+  ck_assert_msg(r.status == 0, "%s", r.err);
+  ck_assert_str_eq(r.out, first);
+  run_free(&r);
+  free(first);
+  char *text = read_file(model_path("bead_hoop.eom"), NULL);
+  size_t len = strlen(text);
+  char *edited = malloc(len + 32);
+  sprintf(edited, "%sinitial theta' = 1\n", text);
+  char *path = write_file(work_dir, "bead2.eom", edited, strlen(edited));
+  char *argv2[] = {(char *)eomc(), "sim", path, "--until", "0.1", "--step", "0.1", NULL};
+  r = run_argv(argv2);
+  ck_assert_msg(r.status == 0, "%s", r.err);
+  ck_assert_msg(strstr(r.out, "\n0,0.3,1,") != NULL, "%s", r.out);
+  run_free(&r);
+  free(path);
+  free(edited);
+  free(text);
+}
+END_TEST
+
+/* --plot writes an SVG when configure found gnuplot, else says so (exit 3). */
+START_TEST(sim_plot_svg) {
+  char cfg[4096];
+  snprintf(cfg, sizeof cfg, "%s/config.h", env_or("BUILDDIR", "."));
+  char *config = read_file(cfg, NULL);
+  ck_assert_msg(config != NULL, "cannot read %s", cfg);
+  int have_gnuplot = strstr(config, "#define GNUPLOT_PATH") != NULL;
+  free(config);
+  char *svg = work_path("pair.svg");
+  char *argv[] = {(char *)eomc(), "sim", model_path("damped_pair.eom"), "--until", "2",
+                  "--plot", svg, NULL};
+  RunResult r = run_argv(argv);
+  if (have_gnuplot) {
+    ck_assert_msg(r.status == 0, "status %d: %s", r.status, r.err);
+    char *text = read_file(svg, NULL);
+    ck_assert_ptr_nonnull(text);
+    ck_assert_msg(strstr(text, "<svg") && strstr(text, "</svg>"), "not an SVG");
+    ck_assert_ptr_nonnull(strstr(text, "phase portrait: x2"));
+    ck_assert_ptr_nonnull(strstr(text, "T + V"));
+    free(text);
+    ck_assert_int_eq(count_lines(r.out), 1002); /* CSV still on stdout */
+  } else {
+    ck_assert_int_eq(r.status, 3);
+    ck_assert_ptr_nonnull(strstr(r.err, "gnuplot"));
+  }
+  run_free(&r);
+  free(svg);
+}
+END_TEST
+
+static Suite *sim_suite(void) {
+  Suite *s = suite_create("sim");
+  TCase *tc = tcase_create("cli");
+  tcase_add_checked_fixture(tc, setup, teardown);
+  tcase_set_timeout(tc, 120);
+  tcase_add_test(tc, modes_bead_on_hoop);
+  tcase_add_test(tc, modes_damped_pair);
+  tcase_add_test(tc, sim_csv_columns);
+  tcase_add_test(tc, sim_bead_small_oscillation_period);
+  tcase_add_test(tc, sim_inputs_settle);
+  tcase_add_test(tc, sim_failure_keeps_rows);
+  tcase_add_test(tc, sim_usage_errors);
+  tcase_add_test(tc, sim_cache);
+  tcase_add_test(tc, sim_plot_svg);
+  suite_add_tcase(s, tc);
+  return s;
+}
+
+int main(void) {
+  SRunner *sr = srunner_create(sim_suite());
+  srunner_run_all(sr, CK_NORMAL);
+  int failed = srunner_ntests_failed(sr);
+  srunner_free(sr);
+  return failed ? EXIT_FAILURE : EXIT_SUCCESS;
+}
