@@ -82,8 +82,9 @@ static const char *const greek[] = {
   "omega", "Gamma", "Delta", "Theta", "Lambda", "Xi", "Pi", "Sigma", "Upsilon", "Phi", "Psi",
   "Omega", NULL};
 
-/* A model identifier in LaTeX: theta2 -> \theta_{2}, m_cart -> m_{\mathrm{cart}}. */
-static void latex_name(Text *t, const char *name) {
+/* A model identifier in LaTeX: theta2 -> \theta_{2}, m_cart -> m_{\mathrm{cart}};
+** an accent (\dot, \ddot) goes on the stem: \dot{\theta}_{2}. */
+static void latex_accented(Text *t, const char *name, const char *accent) {
   size_t n = strlen(name), stem = n;
   const char *sub = NULL;
   const char *us = strchr(name, '_');
@@ -99,6 +100,7 @@ static void latex_name(Text *t, const char *name) {
   int is_greek = 0;
   for (int i = 0; greek[i]; i++)
     if (strcmp(head, greek[i]) == 0) is_greek = 1;
+  if (accent) putf(t, "%s{", accent);
   if (is_greek) putf(t, "\\%s", head);
   else if (stem == 1) put(t, head);
   else {
@@ -106,6 +108,7 @@ static void latex_name(Text *t, const char *name) {
     for (const char *c = head; *c; c++) putf(t, *c == '_' ? "\\_" : "%c", *c);
     put(t, "}");
   }
+  if (accent) put(t, "}");
   if (sub && *sub) {
     put(t, "_{");
     if (strlen(sub) > 1 && !(sub[0] >= '0' && sub[0] <= '9')) put(t, "\\mathrm{");
@@ -113,6 +116,10 @@ static void latex_name(Text *t, const char *name) {
     if (strlen(sub) > 1 && !(sub[0] >= '0' && sub[0] <= '9')) put(t, "}");
     put(t, "}");
   }
+}
+
+static void latex_name(Text *t, const char *name) {
+  latex_accented(t, name, NULL);
 }
 
 static const char *decl_name(Decl **ds, int n, int i) {
@@ -130,9 +137,7 @@ static void put_coord(Show *S, Text *t, int i, int rate) {
     put(t, rate == 2 ? "''" : rate == 1 ? "'" : "");
     return;
   }
-  if (rate) put(t, rate == 2 ? "\\ddot{" : "\\dot{");
-  latex_name(t, name);
-  if (rate) put(t, "}");
+  latex_accented(t, name, rate == 2 ? "\\ddot" : rate == 1 ? "\\dot" : NULL);
 }
 
 static void put_var(Show *S, Text *t, const IrNode *x) {
