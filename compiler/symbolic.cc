@@ -81,11 +81,17 @@ bool is_one(const ex &c) { return is_a<numeric>(c) && ex_to<numeric>(c).is_equal
 ** skips every subtree free of its variable without visiting it. */
 class DepCache {
  public:
-  /* Register every variable before the first query. */
+  /* Variables may be added at any time: a node built before a variable
+  ** existed cannot contain it, so the sets already computed stay right. */
   int add_var(const ex &sym) {
-    assert(is_a<symbol>(sym) && pool_.empty());
+    assert(is_a<symbol>(sym));
     int id = (int)ids_.size();
     ids_[sym] = id;
+    if ((size_t)id >= words_ * 64) {  /* out of room: start over, twice as wide */
+      words_ = 2 * (words_ + 1);
+      pool_.assign(words_, 0);
+      at_.clear();
+    }
     return id;
   }
 
@@ -103,10 +109,6 @@ class DepCache {
   std::unordered_map<const basic *, std::pair<ex, size_t>> at_;
 
   size_t offset(const ex &e) {
-    if (pool_.empty()) {
-      words_ = (ids_.size() + 63) / 64 + 1;
-      pool_.assign(words_, 0);
-    }
     NodeKind kind = node_kind(e);
     if (kind == NK_NUMERIC || kind == NK_CONSTANT) return 0;
     const basic *b = &ex_to<basic>(e);
@@ -312,6 +314,24 @@ class Derivation {
   Deriver dt_;
   std::vector<Deriver> dq_, dqd_, dqdd_, du_;
   std::unordered_map<const Decl *, Val> let_value_, let_rate_, const_value_;
+
+  /* The rate e' of an expression that is not a coordinate is kept as a
+  ** symbol w (an "atom") while the Lagrangian is differentiated.  With
+  ** L = F(q, q', t, w), w_k = e_k', Lagrange's identities de_k'/dq'_i =
+  ** de_k/dq_i and de_k'/dq_i = d/dt de_k/dq_i give
+  **   E_i = d/dt dF/dq'_i - dF/dq_i + sum_k d/dt(dF/dw_k) de_k/dq_i
+  ** in which the terms that cancel in the textbook form are never made:
+  ** for point masses this is M = J^T m J and f = -J^T m (J' q'), and the
+  ** expressions stay a fraction of the size. */
+  struct Atom {
+    ex w;       /* the symbol */
+    ex e;       /* the expression whose rate it is */
+    ex rate;    /* e' in t, q, q' */
+    ex accel;   /* e'' in t, q, q', q'' */
+  };
+  std::vector<Atom> atoms_;
+  std::vector<Deriver> dw_;
+  std::unique_ptr<Subst> unatom_;  /* w_k -> e_k' */
   std::vector<const Decl *> let_stack_;  /* lets being evaluated (cycle guard) */
 
   std::vector<Term> kinetic_, potential_, lagrangian_, dissipation_;
@@ -320,6 +340,7 @@ class Derivation {
   void tick(const char *step);
   ex totald(const ex &e);
   Val rate(const Val &v);
+  ex unatom(const ex &e);
 
   Val eval(const Expr *x);
   Val eval_name(const Expr *x);
@@ -380,7 +401,8 @@ void Derivation::tick(const char *step) {
                                      s, step, max_seconds_)};
 }
 
-/* d/dt e = de/dt + sum_i de/dq_i q'_i + sum_i de/dq'_i q''_i */
+/* d/dt e = de/dt + sum_i (de/dq_i q'_i + de/dq'_i q''_i) + sum_k de/dw_k e_k''
+** (inputs count as constants: their rates are not known) */
 ex Derivation::totald(const ex &e) {
   exvector terms;
   ex d = dt_(e);
@@ -391,13 +413,41 @@ ex Derivation::totald(const ex &e) {
     d = dqd_[i](e);
     if (!d.is_zero()) terms.push_back(d * qdd_[i]);
   }
+  for (size_t k = 0; k < atoms_.size(); k++) {
+    d = dw_[k](e);
+    if (!d.is_zero()) terms.push_back(d * atoms_[k].accel);
+  }
   return terms.empty() ? ex(0) : ex(add(terms));
 }
 
+/* The rate of each entry: an atom, or 0 for a constant. */
 Val Derivation::rate(const Val &v) {
   Val r(v.rows, v.cols);
-  for (int k = 0; k < v.size(); k++) r.a[k] = totald(v.a[k]);
+  for (int k = 0; k < v.size(); k++) {
+    ex rate = totald(v.a[k]);
+    if (rate.is_zero()) continue;
+    Atom a;
+    a.w = realsymbol(fmt("w%zu", atoms_.size()));
+    a.e = v.a[k];
+    a.rate = rate;
+    dw_.emplace_back(a.w, deps_.add_var(a.w), &deps_);
+    a.accel = totald(rate);
+    atoms_.push_back(a);
+    unatom_.reset();
+    r.a[k] = a.w;
+  }
   return r;
+}
+
+/* e with every atom replaced by the rate it stands for. */
+ex Derivation::unatom(const ex &e) {
+  if (atoms_.empty()) return e;
+  if (!unatom_) {
+    exmap m;
+    for (const Atom &a : atoms_) m[a.w] = a.rate;
+    unatom_.reset(new Subst(m));
+  }
+  return (*unatom_)(e);
 }
 
 /* ---- expressions ---- */
@@ -787,10 +837,10 @@ bool Derivation::nonzero_somewhere(const ex &e, const ex &scale) {
 
 void Derivation::check_no_qdd(const ex &L) {
   for (int k = 0; k < nq_; k++) {
-    if (dqdd_[k](L).is_zero()) continue;
+    if (dqdd_[k](unatom(L)).is_zero()) continue;
     for (const auto *terms : {&kinetic_, &potential_, &lagrangian_})
       for (const Term &t : *terms)
-        if (!dqdd_[k](t.e).is_zero())
+        if (!dqdd_[k](unatom(t.e)).is_zero())
           throw SymError{t.stmt->loc, fmt("this term depends on the acceleration %s''",
                                           m_->coords[k]->name)};
   }
@@ -806,8 +856,9 @@ void Derivation::check_quadratic(const std::vector<std::vector<ex>> &M) {
         /* name the first term whose own second derivative depends on q'_k */
         for (const auto *terms : {&kinetic_, &lagrangian_, &potential_})
           for (const Term &t : *terms) {
-            ex dt = dqd_[k](dqd_[j](dqd_[i](t.e)));
-            if (!dt.is_zero() && nonzero_somewhere(dt, dqd_[j](dqd_[i](t.e))))
+            ex e = unatom(t.e);
+            ex dt = dqd_[k](dqd_[j](dqd_[i](e)));
+            if (!dt.is_zero() && nonzero_somewhere(dt, dqd_[j](dqd_[i](e))))
               throw SymError{t.stmt->loc,
                              fmt("the Lagrangian is not quadratic in the rates: this term makes "
                                  "the mass matrix depend on %s'",
@@ -835,25 +886,50 @@ void Derivation::run(EomSystem *out) {
   for (const Term &t : lagrangian_) Lt.push_back(t.e);
   for (const Term &t : dissipation_) Dt.push_back(t.e);
   ex T = add(Tt), V = add(Vt), D = add(Dt);
-  ex L = T - V + add(Lt);
+  ex L = T - V + add(Lt);  /* in terms of atoms: F above */
   check_no_qdd(L);
   tick("forming the Lagrangian");
 
-  /* generalized momenta p_i = dL/dq'_i and M_ij = dp_i/dq'_j */
-  std::vector<ex> mom(n);
-  std::vector<std::vector<ex>> M(n, std::vector<ex>(n));
-  for (int i = 0; i < n; i++) mom[i] = dqd_[i](L);
+  /* the Euler-Lagrange expressions E_i = d/dt dL/dq'_i - dL/dq_i (see Atom) */
+  const size_t K = atoms_.size();
+  std::vector<ex> dLdw(K), dDdw(K), dLdw_rate(K);
+  for (size_t k = 0; k < K; k++) {
+    dLdw[k] = dw_[k](L);
+    dDdw[k] = dw_[k](D);
+    if (!dLdw[k].is_zero()) dLdw_rate[k] = totald(dLdw[k]);
+    tick("differentiating the Lagrangian");
+  }
+  std::vector<ex> E(n), dDdqd(n);
   for (int i = 0; i < n; i++) {
-    for (int j = i; j < n; j++) M[i][j] = M[j][i] = dqd_[j](mom[i]);
+    exvector terms{totald(dqd_[i](L)), -dq_[i](L)}, dterms{dqd_[i](D)};
+    for (size_t k = 0; k < K; k++) {
+      if (dLdw[k].is_zero() && dDdw[k].is_zero()) continue;
+      ex J = dq_[i](atoms_[k].e);  /* = d e_k' / d q'_i */
+      if (J.is_zero()) continue;
+      if (!dLdw[k].is_zero()) terms.push_back(dLdw_rate[k] * J);
+      if (!dDdw[k].is_zero()) dterms.push_back(dDdw[k] * J);
+    }
+    E[i] = unatom(add(terms));
+    dDdqd[i] = unatom(add(dterms));
+    tick("deriving the equations of motion");
+  }
+
+  /* E is linear in q'': M_ij = dE_i/dq''_j, f = Q - dD/dq' - E(q'' = 0) */
+  std::vector<std::vector<ex>> M(n, std::vector<ex>(n));
+  for (int i = 0; i < n; i++) {
+    for (int j = i; j < n; j++) M[i][j] = M[j][i] = dqdd_[j](E[i]);
     tick("deriving the mass matrix");
   }
   check_quadratic(M);
-
+  exmap no_accel;
+  for (const ex &a : qdd_) no_accel[a] = 0;
+  Subst zero_qdd(no_accel);
   std::vector<ex> f(n);
   for (int i = 0; i < n; i++) {
-    exvector terms{dq_[i](L), -dt_(mom[i]), -dqd_[i](D), force_[i]};
-    for (int j = 0; j < n; j++) terms.push_back(-dq_[j](mom[i]) * qd_[j]);
-    f[i] = add(terms);
+    f[i] = unatom(force_[i]) - dDdqd[i] - zero_qdd(E[i]);
+    for (int j = 0; j < n; j++)
+      if (!dqdd_[j](f[i]).is_zero())
+        throw SymError{kNoLoc, "internal: the forcing depends on accelerations"};
     tick("deriving the forcing vector");
   }
 
@@ -894,7 +970,7 @@ void Derivation::run(EomSystem *out) {
     if (!v.scalar())
       throw SymError{d->loc, fmt("output '%s' is %s: only scalar outputs are supported yet",
                                  d->name, shape_name(v).c_str())};
-    outs.push_back(v.a[0]);
+    outs.push_back(unatom(v.a[0]));
     out_locs.push_back(d->loc);
   }
   tick("computing the outputs");
@@ -912,8 +988,8 @@ void Derivation::run(EomSystem *out) {
   for (const ex &e : dfdqd) h_dfdqd.push_back(b.add_root(e, none));
   for (const ex &e : dfdu) h_dfdu.push_back(b.add_root(e, none));
   for (const ex &e : inv) h_inv.push_back(b.add_root(e, none));
-  int h_T = b.add_root(T, kinetic_.empty() ? none : kinetic_[0].stmt->loc);
-  int h_V = b.add_root(V, potential_.empty() ? none : potential_[0].stmt->loc);
+  int h_T = b.add_root(unatom(T), kinetic_.empty() ? none : kinetic_[0].stmt->loc);
+  int h_V = b.add_root(unatom(V), potential_.empty() ? none : potential_[0].stmt->loc);
   for (size_t i = 0; i < outs.size(); i++) h_out.push_back(b.add_root(outs[i], out_locs[i]));
   tick("building the expression graph");
 
