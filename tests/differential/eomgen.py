@@ -1,0 +1,372 @@
+"""eomgen.py — random scalar Lagrangian models for the differential tests.
+
+generate(seed) builds one model as a small expression tree: 1-4 coordinates,
+a kinetic energy T = 1/2 q'^T (L L^T + eps I) q' (+ 1/2 c y'^2 for lets y),
+so the mass matrix is positive definite by construction, random potentials,
+Lagrangian terms linear in the rates, Rayleigh dissipation and generalized
+forces with inputs.  The same tree is printed as .eom text (to_eom) and
+turned into SymPy expressions (to_sympy in reference.py), so both sides
+start from one set of energies and nothing else is shared.
+
+Every function with a restricted domain gets an argument that stays inside
+it for the sampled states (|q| <= 1.5, |q'| <= 2, 0 <= t <= 3, params in
+[0.5, 2], inputs in [-2, 2]): sqrt/log of 1 + x^2 or c + cos x, asin of
+sin(x)/2, tan of sin(x), division by positive denominators.
+"""
+
+import random
+
+# Names that are legal in the language but collide with C keywords, libm,
+# the generated code's own argument names or context words of the grammar.
+TRICKY_NAMES = ["double", "int", "y0", "j1", "mass", "at", "on", "inertia",
+                "orient", "q", "qd", "p", "u", "M", "f", "main", "static",
+                "e", "E", "I", "T", "V", "x", "tmp", "signed", "exp2", "fabs",
+                "NAN", "INFINITY", "errno", "register", "inline", "restrict"]
+
+
+class Model:
+    """One generated model: declarations and terms in source order."""
+
+    def __init__(self, seed):
+        self.seed = seed
+        self.name = "d%d" % seed
+        self.use_model_stmt = True
+        self.coords = []     # names
+        self.params = []     # (name, default_expr)
+        self.consts = []     # (name, number_text)
+        self.inputs = []     # names
+        self.lets = []       # (name, expr)
+        self.terms = []      # (kind, target coord name or None, expr, essential)
+        self.timed_lets = set()  # lets whose value depends on t
+
+    def kinds_of_names(self):
+        k = {}
+        for c in self.coords:
+            k[c] = "coord"
+        for n, _ in self.params:
+            k[n] = "param"
+        for n, _ in self.consts:
+            k[n] = "const"
+        for n in self.inputs:
+            k[n] = "input"
+        for n, _ in self.lets:
+            k[n] = "let"
+        return k
+
+
+# Expression nodes are tuples:
+#   ("num", text)  ("var", name)  ("t",)  ("pi",)  ("rate", e)  ("neg", e)
+#   ("add"|"sub"|"mul"|"div"|"pow", a, b)  ("call", fname, [args])
+
+def num(text):
+    return ("num", text)
+
+
+def number_text(rng, lo, hi):
+    """A decimal literal in one of the spellings the language accepts."""
+    v = rng.uniform(lo, hi)
+    style = rng.randrange(5)
+    if style == 0:
+        return "%d" % max(1, int(round(v)))
+    if style == 1:
+        return "%.3f" % v
+    if style == 2 and v < 1:
+        return ("%.3f" % v)[1:]          # ".375"
+    if style == 3:
+        return "%.4fe-1" % (v * 10)      # "12.5000e-1"
+    return "%.2fe1" % (v / 10)           # "0.15e1"
+
+
+class ExprGen:
+    """Random expressions over the model's names."""
+
+    def __init__(self, rng, model):
+        self.rng = rng
+        self.m = model
+
+    def leaf(self, allow):
+        """A coordinate, parameter, const, let, input, time or number."""
+        r = self.rng
+        pool = []
+        if "q" in allow:
+            pool += [("var", c) for c in self.m.coords] * 3
+        if "p" in allow:
+            pool += [("var", n) for n, _ in self.m.params]
+            pool += [("var", n) for n, _ in self.m.consts]
+        if "let" in allow:
+            pool += [("var", n) for n, _ in self.m.lets]
+        elif "qlet" in allow:
+            # lets free of time: allowed where M(q) must not depend on t
+            pool += [("var", n) for n, _ in self.m.lets if n not in self.m.timed_lets]
+        if "u" in allow:
+            pool += [("var", n) for n in self.m.inputs]
+        if "qd" in allow:
+            pool += [("rate", ("var", c)) for c in self.m.coords] * 2
+        if "t" in allow:
+            pool.append(("t",))
+        if "pi" in allow and r.random() < 0.3:
+            pool.append(("pi",))
+        pool.append(num(number_text(r, 0.2, 3.0)))
+        return r.choice(pool)
+
+    def positive(self, depth, allow):
+        """An expression > 0.4 on the sampled domain."""
+        r = self.rng
+        x = self.expr(depth, allow)
+        c = r.randrange(3)
+        if c == 0:
+            return ("add", num(number_text(r, 1.0, 2.0)), ("pow", x, num("2")))
+        if c == 1:
+            return ("add", num("2"), ("call", "cos", [x]))
+        return ("add", num("1.5"), ("call", r.choice(["sin", "tanh"]), [x]))
+
+    def bounded(self, depth, allow):
+        """An expression with |value| <= 1 on any domain."""
+        fn = self.rng.choice(["sin", "cos", "tanh"])
+        return ("call", fn, [self.expr(depth, allow)])
+
+    def expr(self, depth, allow):
+        r = self.rng
+        if depth <= 0 or r.random() < 0.25:
+            return self.leaf(allow)
+        d = depth - 1
+        k = r.randrange(22)
+        if k < 4:
+            return (r.choice(["add", "sub"]), self.expr(d, allow), self.expr(d, allow))
+        if k < 8:
+            return ("mul", self.expr(d, allow), self.expr(d, allow))
+        if k == 8:
+            return ("div", self.expr(d, allow), self.positive(d - 1, allow))
+        if k == 9:
+            return ("pow", self.expr(d, allow), num(r.choice(["2", "3"])))
+        if k == 10:
+            # non-integer power of a positive base
+            e = r.choice([num("0.5"), num("1.5")] +
+                         ([("var", n) for n, _ in self.m.params] if "p" in allow else []))
+            return ("pow", self.positive(d - 1, allow), e)
+        if k == 11:
+            return ("neg", self.expr(d, allow))
+        if k < 15:
+            return ("call", r.choice(["sin", "cos"]), [self.expr(d, allow)])
+        if k == 15:
+            return ("call", r.choice(["exp", "atan", "tanh", "sinh", "cosh"]),
+                    [self.bounded(d - 1, allow)])
+        if k == 16:
+            return ("call", r.choice(["sqrt", "log"]), [self.positive(d - 1, allow)])
+        if k == 17:
+            return ("call", r.choice(["asin", "acos"]),
+                    [("div", self.bounded(d - 1, allow), num("2"))])
+        if k == 18:
+            return ("call", "tan", [self.bounded(d - 1, allow)])
+        if k == 19:
+            return ("call", "atan2", [self.expr(d, allow), self.positive(d - 1, allow)])
+        if k == 20 and r.random() < 0.3:
+            # abs of something that stays away from zero: a smooth function
+            return ("call", "abs", [("sub", self.positive(d - 1, allow), num("0.2"))])
+        return self.leaf(allow)
+
+
+def uses_time(e, timed_lets):
+    """Does expression e depend on t (directly or through a let)?"""
+    if e[0] == "t":
+        return True
+    if e[0] == "var":
+        return e[1] in timed_lets
+    if e[0] == "call":
+        return any(uses_time(a, timed_lets) for a in e[2])
+    return any(uses_time(a, timed_lets) for a in e[1:] if isinstance(a, tuple))
+
+
+def uses_coord(e, m):
+    """Does expression e mention a coordinate (directly)?"""
+    if e[0] == "var":
+        return e[1] in m.coords
+    if e[0] == "call":
+        return any(uses_coord(a, m) for a in e[2])
+    return any(uses_coord(a, m) for a in e[1:] if isinstance(a, tuple))
+
+
+def pick_names(rng, count, stem, used, tricky):
+    names = []
+    for i in range(count):
+        name = None
+        if tricky and rng.random() < 0.25:
+            cands = [n for n in TRICKY_NAMES if n not in used]
+            if cands:
+                name = rng.choice(cands)
+        if name is None:
+            name = "%s%d" % (stem, i + 1)
+            if name in used:
+                name = "%s_%d" % (stem, len(used))
+        used.add(name)
+        names.append(name)
+    return names
+
+
+def generate(seed, max_coords=4):
+    """The model for `seed` (deterministic: same seed, same model)."""
+    rng = random.Random(seed)
+    m = Model(seed)
+    m.use_model_stmt = rng.random() < 0.8
+    tricky = rng.random() < 0.3
+    used = set()
+    n = rng.randint(1, max_coords)
+    m.coords = pick_names(rng, n, "q", used, tricky)
+    g = ExprGen(rng, m)
+
+    for name in pick_names(rng, rng.randint(1, 4), "k", used, tricky):
+        if m.params and rng.random() < 0.25:
+            # a default computed from earlier params and consts
+            prev = rng.choice(m.params)[0]
+            m.params.append((name, ("mul", num(number_text(rng, 0.5, 1.5)), ("var", prev))))
+        else:
+            m.params.append((name, num(number_text(rng, 0.5, 2.0))))
+    for name in pick_names(rng, rng.randint(0, 2), "c", used, tricky):
+        m.consts.append((name, number_text(rng, 0.5, 2.0)))
+    m.inputs = pick_names(rng, rng.randint(0, 2), "u", used, tricky)
+    q_only = {"q", "p"}
+    for name in pick_names(rng, rng.randint(0, 2), "y", used, tricky):
+        allow = set(q_only)
+        if rng.random() < 0.3:
+            allow.add("t")
+        if m.lets:
+            allow.add("let")
+        e = g.expr(2, allow)
+        if uses_time(e, m.timed_lets):
+            m.timed_lets.add(name)
+        m.lets.append((name, e))
+
+    # Kinetic energy: one square per column of a lower-triangular L(q)
+    # plus eps/2 |q'|^2, so M = L L^T + eps I is positive definite.
+    for k in range(n):
+        if rng.random() < 0.3:
+            continue
+        s = None
+        for i in range(k, n):
+            entry = g.expr(rng.randint(0, 2), {"q", "p", "qlet"})
+            prod = ("mul", entry, ("rate", ("var", m.coords[i])))
+            s = prod if s is None else ("add", s, prod)
+        if rng.random() < 0.5:
+            m.terms.append(("kinetic", None, ("mul", ("div", num("1"), num("2")), ("pow", s, num("2"))), False))
+        else:
+            m.terms.append(("kinetic", None, ("div", ("mul", s, s), num("2")), False))
+    eps = rng.choice([("var", rng.choice(m.params)[0]), num(number_text(rng, 0.4, 1.5))])
+    s = None
+    for c in m.coords:
+        sq = ("pow", ("rate", ("var", c)), num("2"))
+        s = sq if s is None else ("add", s, sq)
+    m.terms.append(("kinetic", None, ("mul", ("div", eps, num("2")), s), True))
+    # Rates of lets and of parenthesized expressions (chain rule).
+    for name, _ in m.lets:
+        if name not in m.timed_lets and rng.random() < 0.5:
+            w = rng.choice([("var", rng.choice(m.params)[0]), num(number_text(rng, 0.3, 2.0))])
+            m.terms.append(("kinetic", None, ("mul", ("div", w, num("2")),
+                                              ("pow", ("rate", ("var", name)), num("2"))), False))
+    if rng.random() < 0.3:
+        inner = g.expr(2, {"q", "p"})
+        if not uses_coord(inner, m):
+            # a rate of a param or const alone is an error in the language
+            inner = ("mul", inner, ("var", rng.choice(m.coords)))
+        if rng.random() < 0.4:
+            # an explicit time dependence, additive so M stays free of t
+            inner = ("add", inner, ("mul", num(number_text(rng, 0.2, 1.0)), ("call", "sin", [("t",)])))
+        m.terms.append(("kinetic", None, ("mul", num("0.5"), ("pow", ("rate", inner), num("2"))), False))
+
+    all_q = {"q", "p", "let", "t", "pi"}
+    for _ in range(rng.randint(1, 4)):
+        m.terms.append(("potential", None, g.expr(3, all_q), False))
+    if rng.random() < 0.4:
+        c = rng.choice(m.coords)
+        m.terms.append(("lagrangian", None, ("mul", g.expr(2, all_q), ("rate", ("var", c))), False))
+    if rng.random() < 0.2:
+        m.terms.append(("lagrangian", None, g.expr(2, all_q), False))
+    if rng.random() < 0.6:
+        s = None
+        for c in m.coords:
+            if rng.random() < 0.6:
+                coef = g.positive(1, {"q", "p"}) if rng.random() < 0.4 else ("var", rng.choice(m.params)[0])
+                term = ("mul", coef, ("pow", ("rate", ("var", c)), num("2")))
+                s = term if s is None else ("add", s, term)
+        if s is not None:
+            m.terms.append(("dissipation", None, ("div", s, num("2")), False))
+    if rng.random() < 0.2 and n > 1:
+        b = None
+        for c in m.coords:
+            term = ("mul", g.expr(1, {"q", "p"}), ("rate", ("var", c)))
+            b = term if b is None else ("add", b, term)
+        m.terms.append(("dissipation", None, ("mul", num("0.5"), ("pow", b, num("2"))), False))
+    everything = {"q", "p", "let", "t", "u", "qd"}
+    for _ in range(rng.randint(0, 3)):
+        c = rng.choice(m.coords)
+        e = g.expr(2, everything)
+        if m.inputs and rng.random() < 0.7:
+            e = ("add", e, ("mul", ("var", rng.choice(m.inputs)), g.expr(1, {"q", "p"})))
+        m.terms.append(("force", c, e, False))
+    return m
+
+
+# ---------------------------------------------------------------- printing
+
+PREC = {"add": 1, "sub": 1, "mul": 2, "div": 2, "neg": 3, "pow": 4, "rate": 5}
+
+
+def expr_to_eom(e, rng=None, min_prec=0):
+    """Print with the fewest parentheses the precedence rules allow, plus a
+    few redundant ones (rng) to exercise the parser both ways."""
+    kind = e[0]
+    if kind == "num":
+        s, p = e[1], 6
+    elif kind == "var":
+        s, p = e[1], 6
+    elif kind == "t":
+        s, p = "t", 6
+    elif kind == "pi":
+        s, p = "pi", 6
+    elif kind == "call":
+        s, p = "%s(%s)" % (e[1], ", ".join(expr_to_eom(a, rng) for a in e[2])), 6
+    elif kind == "rate":
+        inner = e[1]
+        body = expr_to_eom(inner, rng, 6) if inner[0] == "var" else "(%s)" % expr_to_eom(inner, rng)
+        s, p = body + "'", 5
+    elif kind == "neg":
+        # ^ binds tighter than unary minus: -x^2 is -(x^2)
+        s, p = "-" + expr_to_eom(e[1], rng, 4), 3
+    elif kind == "pow":
+        # right-associative: a^b^c is a^(b^c); the base must be a primary
+        s, p = expr_to_eom(e[1], rng, 5) + "^" + expr_to_eom(e[2], rng, 4), 4
+    else:
+        p = PREC[kind]
+        op = {"add": " + ", "sub": " - ", "mul": "*", "div": "/"}[kind]
+        left = expr_to_eom(e[1], rng, p)
+        right = expr_to_eom(e[2], rng, p + 1)
+        s = left + op + right
+    # a unary minus is only written first in an operand of + or - (left side)
+    needs = p < min_prec or (kind == "neg" and min_prec > 1)
+    if needs or (rng is not None and p < 6 and rng.random() < 0.08):
+        return "(" + s + ")"
+    return s
+
+
+def to_eom(m, keep=None):
+    """The model's .eom text.  keep: indices of m.terms to write (all if None)."""
+    rng = random.Random(m.seed * 7919 + 1)
+    out = ["# differential-test model, seed %d (tests/differential/eomgen.py)" % m.seed]
+    if m.use_model_stmt:
+        out.append("model %s" % m.name)
+    out.append("coord %s" % ", ".join(m.coords))
+    for name, default in m.params:
+        out.append("param %s = %s" % (name, expr_to_eom(default, rng)))
+    for name, text in m.consts:
+        out.append("const %s = %s" % (name, text))
+    if m.inputs:
+        out.append("input %s" % ", ".join(m.inputs))
+    for name, e in m.lets:
+        out.append("let %s = %s" % (name, expr_to_eom(e, rng)))
+    for i, (kind, target, e, _) in enumerate(m.terms):
+        if keep is not None and i not in keep:
+            continue
+        if kind == "force":
+            out.append("force %s = %s" % (target, expr_to_eom(e, rng)))
+        else:
+            out.append("%s %s" % (kind, expr_to_eom(e, rng)))
+    return "\n".join(out) + "\n"

@@ -1,0 +1,233 @@
+"""reference.py — the independent side of the differential tests: SymPy core.
+
+From the same energy expressions eomgen.py prints as .eom text, derive the
+equations of motion with nothing but sympy.diff, the Euler–Lagrange equations
+with Rayleigh dissipation
+
+    d/dt (dL/dq'_i) - dL/dq_i + dD/dq'_i = Q_i,   L = T - V + (lagrangian terms)
+
+(Goldstein, Poole, Safko, "Classical Mechanics", 3rd ed., 2002, sections 1.4
+and 1.5, eq. 1.70 for the dissipation function; section numbers from memory),
+where d/dt of g(q, q', t) is expanded by the chain rule
+sum_k dg/dq_k q'_k + dg/dq'_k q''_k + dg/dt.  M is the coefficient of q'' and
+f the rest, moved to the right-hand side, so M q'' = f.
+
+Values are evaluated with mpmath at 40 significant digits, so the reference's
+own rounding is far below the 1e-10 tolerance.  The Jacobians of the state
+derivative come from central differences in that precision (step 1e-15,
+truncation error ~1e-30), a method that shares nothing with eomc's symbolic
+Jacobians.
+"""
+
+import random
+
+import mpmath
+import sympy
+
+DPS = 40
+
+
+class Reference:
+    """M, f, T, V of one model as SymPy expressions and mpmath functions."""
+
+    def __init__(self, m, keep=None):
+        self.m = m
+        n = len(m.coords)
+        self.n = n
+        self.q = sympy.symbols("q0:%d" % n, real=True)
+        self.qd = sympy.symbols("qd0:%d" % n, real=True)
+        self.t = sympy.Symbol("t", real=True)
+        self.p = sympy.symbols("p0:%d" % len(m.params), real=True) if m.params else ()
+        self.u = sympy.symbols("u0:%d" % len(m.inputs), real=True) if m.inputs else ()
+        self.env = {}
+        for i, c in enumerate(m.coords):
+            self.env[c] = self.q[i]
+        for i, (name, _) in enumerate(m.params):
+            self.env[name] = self.p[i]
+        for name, text in m.consts:
+            self.env[name] = sympy.Rational(text)
+        for i, name in enumerate(m.inputs):
+            self.env[name] = self.u[i]
+        for name, e in m.lets:
+            self.env[name] = self.to_sympy(e)
+        T = V = Lx = D = sympy.Integer(0)
+        Q = [sympy.Integer(0)] * n
+        for idx, (kind, target, e, _) in enumerate(m.terms):
+            if keep is not None and idx not in keep:
+                continue
+            x = self.to_sympy(e)
+            if kind == "kinetic":
+                T += x
+            elif kind == "potential":
+                V += x
+            elif kind == "lagrangian":
+                Lx += x
+            elif kind == "dissipation":
+                D += x
+            elif kind == "force":
+                i = m.coords.index(target)
+                Q[i] += x
+        self.T, self.V = T, V
+        self.timed_energy = self.t in (T.free_symbols | V.free_symbols)
+        self.M, self.f = self.euler_lagrange(T - V + Lx, D, Q)
+        self.param_defaults = self.eval_defaults()
+        args = list(self.q) + list(self.qd) + [self.t] + list(self.u) + list(self.p)
+        self.fn_M = sympy.lambdify(args, self.M, modules="mpmath")
+        self.fn_f = sympy.lambdify(args, self.f, modules="mpmath")
+        self.fn_TV = sympy.lambdify(args, [self.T, self.V], modules="mpmath")
+
+    def rate(self, x):
+        """Total time derivative of an expression free of rates."""
+        d = sympy.diff(x, self.t)
+        for i in range(self.n):
+            d += sympy.diff(x, self.q[i]) * self.qd[i]
+        return d
+
+    def to_sympy(self, e):
+        k = e[0]
+        if k == "num":
+            return sympy.Rational(e[1])
+        if k == "var":
+            return self.env[e[1]]
+        if k == "t":
+            return self.t
+        if k == "pi":
+            return sympy.pi
+        if k == "rate":
+            inner = e[1]
+            if inner[0] == "var" and inner[1] in self.m.coords:
+                return self.qd[self.m.coords.index(inner[1])]
+            return self.rate(self.to_sympy(inner))
+        if k == "neg":
+            return -self.to_sympy(e[1])
+        if k == "call":
+            args = [self.to_sympy(a) for a in e[2]]
+            fn = {"sin": sympy.sin, "cos": sympy.cos, "tan": sympy.tan, "asin": sympy.asin,
+                  "acos": sympy.acos, "atan": sympy.atan, "atan2": sympy.atan2,
+                  "exp": sympy.exp, "log": sympy.log, "sqrt": sympy.sqrt, "abs": sympy.Abs,
+                  "sinh": sympy.sinh, "cosh": sympy.cosh, "tanh": sympy.tanh}[e[1]]
+            return fn(*args)
+        a, b = self.to_sympy(e[1]), self.to_sympy(e[2])
+        if k == "add":
+            return a + b
+        if k == "sub":
+            return a - b
+        if k == "mul":
+            return a * b
+        if k == "div":
+            return a / b
+        if k == "pow":
+            return a ** b
+        raise ValueError("unknown node %r" % (k,))
+
+    def euler_lagrange(self, L, D, Q):
+        """M and f of d/dt(dL/dq'_i) - dL/dq_i + dD/dq'_i = Q_i.
+
+        With p_i = dL/dq'_i, the chain rule gives d/dt p_i =
+        sum_j dp_i/dq'_j q''_j + sum_k dp_i/dq_k q'_k + dp_i/dt, so
+        M_ij = dp_i/dq'_j and f_i = dL/dq_i - sum_k dp_i/dq_k q'_k - dp_i/dt
+        - dD/dq'_i + Q_i."""
+        n = self.n
+        M, f = [], []
+        for i in range(n):
+            pi = sympy.diff(L, self.qd[i])
+            M.append([sympy.diff(pi, self.qd[j]) for j in range(n)])
+            fi = sympy.diff(L, self.q[i]) - sympy.diff(pi, self.t) - sympy.diff(D, self.qd[i]) + Q[i]
+            for k in range(n):
+                fi -= sympy.diff(pi, self.q[k]) * self.qd[k]
+            f.append(fi)
+        # abs' = sign and sign' = 2 DiracDelta: zero where the generator
+        # evaluates (every abs argument stays >= 0.2).
+        M = [[x.replace(sympy.DiracDelta, lambda *a: sympy.Integer(0)) for x in row] for row in M]
+        f = [x.replace(sympy.DiracDelta, lambda *a: sympy.Integer(0)) for x in f]
+        for row in M:
+            for x in row:
+                # the generator only writes energies quadratic in the rates
+                assert not (x.free_symbols & (set(self.qd) | {self.t})), x
+        return M, f
+
+    def eval_defaults(self):
+        """Param defaults: numbers or expressions of earlier params."""
+        vals = {}
+        out = []
+        for name, e in self.m.params:
+            x = self.to_sympy(e).subs(vals)
+            v = float(x.evalf(30))
+            vals[self.env[name]] = sympy.Float(v, 30)
+            out.append(v)
+        return out
+
+    # ------------------------------------------------------------ numerics
+
+    def args(self, pt, q=None, qd=None, u=None):
+        q = pt["q"] if q is None else q
+        qd = pt["qd"] if qd is None else qd
+        u = pt["u"] if u is None else u
+        return [mpmath.mpf(x) for x in list(q) + list(qd) + [pt["t"]] + list(u) + list(pt["p"])]
+
+    def accel(self, pt, q=None, qd=None, u=None):
+        a = self.args(pt, q, qd, u)
+        M = mpmath.matrix(self.fn_M(*a))
+        f = mpmath.matrix(self.fn_f(*a))
+        return M, f, mpmath.lu_solve(M, f)
+
+    def evaluate(self, pt):
+        """Every reference value at one sample point (floats)."""
+        with mpmath.workdps(DPS):
+            n, nu = self.n, len(self.u)
+            M, f, qdd = self.accel(pt)
+            T, V = self.fn_TV(*self.args(pt))
+            fu0 = mpmath.matrix(self.fn_f(*self.args(pt, u=[0] * nu)))
+            inv = M * mpmath.matrix(pt["qdd"]) - fu0
+            # d qdd / d(q, qd, u) by central differences
+            h = mpmath.mpf("1e-15")
+            cols = []
+            for j in range(2 * n + nu):
+                vec = [list(pt["q"]), list(pt["qd"]), list(pt["u"])]
+                which, idx = (0, j) if j < n else (1, j - n) if j < 2 * n else (2, j - 2 * n)
+                plus = [list(v) for v in vec]
+                minus = [list(v) for v in vec]
+                plus[which][idx] = mpmath.mpf(plus[which][idx]) + h
+                minus[which][idx] = mpmath.mpf(minus[which][idx]) - h
+                ap = self.accel(pt, *plus)[2]
+                am = self.accel(pt, *minus)[2]
+                cols.append([(ap[i] - am[i]) / (2 * h) for i in range(n)])
+            N = 2 * n
+            A = [[0.0] * N for _ in range(N)]
+            B = [[0.0] * nu for _ in range(N)]
+            for i in range(n):
+                A[i][n + i] = 1.0
+                for j in range(N):
+                    A[n + i][j] = float(cols[j][i])
+                for j in range(nu):
+                    B[n + i][j] = float(cols[N + j][i])
+            return {
+                "mass": [float(M[i, j]) for i in range(n) for j in range(n)],
+                "forcing": [float(f[i]) for i in range(n)],
+                "accel": [float(qdd[i]) for i in range(n)],
+                # P_energy has no t argument: energies that depend on time
+                # are not comparable (eomc documents NaN for them).
+                "energy": None if self.timed_energy else [float(T), float(V)],
+                "inverse": [float(inv[i]) for i in range(n)],
+                "rhs": [float(x) for x in pt["qd"]] + [float(qdd[i]) for i in range(n)],
+                "jacA": [x for row in A for x in row],
+                "jacB": [x for row in B for x in row],
+                "defaults": list(self.param_defaults),
+            }
+
+
+def sample_points(m, count, seed):
+    """Random states, inputs and params inside the generator's safe domain."""
+    rng = random.Random(seed * 104729 + 17)
+    n, nu, npar = len(m.coords), len(m.inputs), len(m.params)
+    pts = []
+    for _ in range(count):
+        pts.append({
+            "t": round(rng.uniform(0, 3), 6),
+            "q": [round(rng.uniform(-1.5, 1.5), 6) for _ in range(n)],
+            "qd": [round(rng.uniform(-2, 2), 6) for _ in range(n)],
+            "qdd": [round(rng.uniform(-2, 2), 6) for _ in range(n)],
+            "u": [round(rng.uniform(-2, 2), 6) for _ in range(nu)],
+            "p": [round(rng.uniform(0.5, 2), 6) for _ in range(npar)],
+        })
+    return pts
