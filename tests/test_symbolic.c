@@ -349,6 +349,162 @@ START_TEST(vector_lets_match_scalar_form) {
 }
 END_TEST
 
+/* The pendulum's T written directly in the coordinate rates (the closed
+** form of Taylor, 2005, section 11.4, from memory) and with rates of
+** unnamed expressions: three routes through the core, one answer. */
+START_TEST(rate_forms_agree) {
+  static const char *const texts[] = {
+    "coord a, b\nparam m1 = 1.2\nparam m2 = 0.7\nparam l1 = 0.9\nparam l2 = 0.6\n"
+    "param g = 9.81\n"
+    "kinetic (m1 + m2)/2*l1^2*a'^2 + m2/2*l2^2*b'^2 + m2*l1*l2*a'*b'*cos(a - b)\n"
+    "potential -(m1 + m2)*g*l1*cos(a) - m2*g*l2*cos(b)\n",
+    "coord a, b\nparam m1 = 1.2\nparam m2 = 0.7\nparam l1 = 0.9\nparam l2 = 0.6\n"
+    "param g = 9.81\n"
+    "kinetic m1/2*((l1*sin(a))'^2 + (l1*cos(a))'^2)\n"
+    "kinetic m2/2*((l1*sin(a) + l2*sin(b))'^2 + (l1*cos(a) + l2*cos(b))'^2)\n"
+    "potential -(m1 + m2)*g*l1*cos(a) - m2*g*l2*cos(b)\n",
+  };
+  Derived ref;
+  derive_ok(&ref, double_pendulum);
+  for (size_t k = 0; k < sizeof texts / sizeof texts[0]; k++) {
+    Derived d;
+    derive_ok(&d, texts[k]);
+    State s;
+    for (int trial = 0; trial < 10; trial++) {
+      random_state(&ref, &s);
+      double M1[4], f1[2], M2[4], f2[2];
+      mass_forcing(&ref, &s, M1, f1);
+      mass_forcing(&d, &s, M2, f2);
+      for (int i = 0; i < 4; i++) assert_close(M2[i], M1[i], 1e-12, "M");
+      for (int i = 0; i < 2; i++) assert_close(f2[i], f1[i], 1e-12, "f");
+    }
+    derived_free(&d);
+  }
+  derived_free(&ref);
+}
+END_TEST
+
+/* The bead on the spinning hoop again, now from its position in the
+** inertial frame: the let depends on t explicitly (Marion, 1970, prob. 7-18). */
+START_TEST(explicit_time_dependence) {
+  Derived d;
+  derive_ok(&d,
+            "coord q\n"
+            "param m = 0.1\n"
+            "param R = 0.5\n"
+            "param w = 6\n"
+            "param g = 9.81\n"
+            "let r = [R*sin(q)*cos(w*t), R*sin(q)*sin(w*t), -R*cos(q)]\n"
+            "kinetic m/2*dot(r', r')\n"
+            "potential m*g*r[3]\n");
+  State s;
+  for (int trial = 0; trial < 10; trial++) {
+    random_state(&d, &s);
+    double R = s.p[param_index(&d, "R")], w = s.p[param_index(&d, "w")],
+           g = s.p[param_index(&d, "g")], q = s.q[0];
+    double M, f;
+    mass_forcing(&d, &s, &M, &f);
+    assert_close(f / M, w * w * sin(q) * cos(q) - g / R * sin(q), 1e-13, "q''");
+  }
+  derived_free(&d);
+}
+END_TEST
+
+/* Charged particle in a uniform magnetic field B along z: the velocity-
+** dependent potential L += e v.A with A = B/2 (-y, x, 0) gives the Lorentz
+** force m x'' = e B y', m y'' = -e B x' (Goldstein, Poole and Safko,
+** Classical Mechanics, 3rd ed., 2002, section 1.5). */
+START_TEST(velocity_dependent_potential) {
+  Derived d;
+  derive_ok(&d,
+            "coord x, y\n"
+            "param m = 2\n"
+            "param e = 0.5\n"
+            "param B = 3\n"
+            "kinetic m/2*(x'^2 + y'^2)\n"
+            "lagrangian e*B/2*(x*y' - y*x')\n");
+  State s;
+  for (int trial = 0; trial < 10; trial++) {
+    random_state(&d, &s);
+    double m = s.p[param_index(&d, "m")], e = s.p[param_index(&d, "e")],
+           B = s.p[param_index(&d, "B")];
+    double M[4], f[2];
+    mass_forcing(&d, &s, M, f);
+    assert_close(M[0], m, 1e-14, "M11");
+    assert_close(M[1], 0, 1e-14, "M12");
+    assert_close(f[0], e * B * s.qd[1], 1e-13, "f1");
+    assert_close(f[1], -e * B * s.qd[0], 1e-13, "f2");
+  }
+  derived_free(&d);
+}
+END_TEST
+
+/* A damper on the stretch of a let: D = c/2 (y' - x')^2 pulls the rates
+** together with forces -+c (y' - x') (common practice). */
+START_TEST(dissipation_through_a_let) {
+  Derived d;
+  derive_ok(&d,
+            "coord x, y\n"
+            "param m = 1\n"
+            "param c = 2\n"
+            "let s = y - x\n"
+            "kinetic m/2*(x'^2 + y'^2)\n"
+            "dissipation c/2*s'^2\n");
+  State s;
+  for (int trial = 0; trial < 10; trial++) {
+    random_state(&d, &s);
+    double c = s.p[param_index(&d, "c")];
+    double M[4], f[2];
+    mass_forcing(&d, &s, M, f);
+    assert_close(f[0], c * (s.qd[1] - s.qd[0]), 1e-14, "f1");
+    assert_close(f[1], -c * (s.qd[1] - s.qd[0]), 1e-14, "f2");
+  }
+  derived_free(&d);
+}
+END_TEST
+
+/* Outputs through the matrix built-ins.  dh(theta, d, a, alpha) is the
+** standard Denavit-Hartenberg transform rotz(theta) transz(d) transx(a)
+** rotx(alpha) (Spong, Hutchinson and Vidyasagar, Robot Modeling and
+** Control, 2006, section 3.2): its position is (a cos theta, a sin theta, d)
+** and its rotation's (3,3) entry cos alpha. */
+START_TEST(outputs_and_matrix_builtins) {
+  Derived d;
+  derive_ok(&d,
+            "coord x, y\n"
+            "param m = 1\n"
+            "param l = 0.3\n"
+            "kinetic m/2*(x'^2 + y'^2)\n"
+            "output px = pos(dh(x, 0.4, l, 0.2))[1]\n"
+            "output pz = pos(dh(x, 0.4, l, 0.2))[3]\n"
+            "output r33 = rot(dh(x, 0.4, l, 0.2))[3, 3]\n"
+            "output r12 = rot(dh(x, 0.4, l, 0.2))[1, 2]\n"
+            "output nc = norm(cross([1, 0, 0], [0, y, 0]))\n"
+            "output tr = transpose([[1, x], [y, 2]])[1, 2]\n"
+            "output dg = diag(x, y, 3)[2, 2]\n"
+            "output rz = (rotx(x)*roty(y)*[0, 0, 1])[2]\n"
+            "output sp = x'*y + t\n");
+  ck_assert_int_eq(d.sys.ny, 9);
+  State s;
+  random_state(&d, &s);
+  double l = s.p[param_index(&d, "l")], x = s.q[0], y = s.q[1];
+  double *v = eval_graph(&d.sys.g, &s);
+  const int *o = d.sys.outputs;
+  assert_close(v[o[0]], l * cos(x), 1e-14, "px");
+  assert_close(v[o[1]], 0.4, 1e-14, "pz");
+  assert_close(v[o[2]], cos(0.2), 1e-14, "r33");
+  assert_close(v[o[3]], -sin(x) * cos(0.2), 1e-14, "r12");
+  assert_close(v[o[4]], fabs(y), 1e-14, "nc");
+  assert_close(v[o[5]], y, 1e-14, "tr");
+  assert_close(v[o[6]], y, 1e-14, "dg");
+  /* rotx(x) roty(y) e3 = (sin y, -sin x cos y, cos x cos y) */
+  assert_close(v[o[7]], -sin(x) * cos(y), 1e-14, "rz");
+  assert_close(v[o[8]], s.qd[0] * y + s.t, 1e-14, "sp");
+  free(v);
+  derived_free(&d);
+}
+END_TEST
+
 /* Damped oscillator driven by an input: Rayleigh's dissipation function
 ** D = c q'^2 / 2 gives the generalized force -c q' (Goldstein, Poole and
 ** Safko, Classical Mechanics, 3rd ed., 2002, section 1.5). */
@@ -594,6 +750,20 @@ START_TEST(time_limit_is_an_error) {
 }
 END_TEST
 
+/* Statements the core does not derive yet are errors at their line. */
+START_TEST(unsupported_statement_is_an_error) {
+  Derived d;
+  derive(&d,
+         "coord x\n"
+         "param m = 1\n"
+         "kinetic m/2*x'^2\n"
+         "body b mass m at [x, 0, 0]\n");
+  ck_assert_int_eq(d.status, 1);
+  ck_assert_msg(has_error(&d, 4, "not supported yet"), "error on line 4 expected");
+  derived_free(&d);
+}
+END_TEST
+
 Suite *symbolic_suite(void) {
   Suite *s = suite_create("symbolic");
   TCase *tc = tcase_create("closed forms");
@@ -605,6 +775,11 @@ Suite *symbolic_suite(void) {
   tcase_add_test(tc, damped_driven_oscillator);
   tcase_add_test(tc, planar_chain_mass_matrix);
   tcase_add_test(tc, vector_lets_match_scalar_form);
+  tcase_add_test(tc, rate_forms_agree);
+  tcase_add_test(tc, explicit_time_dependence);
+  tcase_add_test(tc, velocity_dependent_potential);
+  tcase_add_test(tc, dissipation_through_a_let);
+  tcase_add_test(tc, outputs_and_matrix_builtins);
   suite_add_tcase(s, tc);
   tc = tcase_create("derivatives and graph");
   tcase_set_timeout(tc, 120);
@@ -616,6 +791,7 @@ Suite *symbolic_suite(void) {
   tcase_add_test(tc, non_quadratic_lagrangian_is_an_error);
   tcase_add_test(tc, cancelling_rate_terms_are_accepted);
   tcase_add_test(tc, time_limit_is_an_error);
+  tcase_add_test(tc, unsupported_statement_is_an_error);
   suite_add_tcase(s, tc);
   return s;
 }
