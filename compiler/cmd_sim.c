@@ -13,6 +13,7 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <sys/stat.h>
 #include <time.h>
 #include <unistd.h>
 
@@ -209,7 +210,10 @@ static int copy_to_stdout(const char *path) {
 ** stdout, or a scratch file (copied to stdout at the end) when a plot needs
 ** the data in a file. */
 static FILE *open_csv(const SimArgs *a, char **tmp_path) {
+  struct stat st;
   *tmp_path = NULL;
+  if (a->out && stat(a->out, &st) == 0 && !S_ISREG(st.st_mode))
+    return fopen(a->out, "w"); /* /dev/null, a pipe: nothing to rename */
   if (a->out) {
     size_t len = strlen(a->out) + 32;
     *tmp_path = malloc(len);
@@ -315,7 +319,7 @@ int cmd_sim(int argc, char **argv) {
     goto out;
   }
   /* The rows so far are kept even after a failure. */
-  if (a.out && rename(tmp_csv, a.out) != 0) {
+  if (a.out && tmp_csv && rename(tmp_csv, a.out) != 0) {
     fprintf(stderr, "eomc sim: error: cannot write %s: %s\n", a.out, strerror(errno));
     rc = EXIT_RUN;
     goto out;
@@ -329,8 +333,8 @@ int cmd_sim(int argc, char **argv) {
           action_total(&so));
   rc = 0;
   if (st != EOM_OK) {
-    fprintf(stderr, "eomc sim: error: integration failed (%s) %s\n",
-            eom_status_text((eom_status)st), rep.message);
+    fprintf(stderr, "eomc sim: error: integration failed %s\n",
+            rep.message[0] ? rep.message : eom_status_text((eom_status)st));
     if (a.out) fprintf(stderr, "eomc sim: note: %ld rows up to t = %.10g kept in %s\n", so.rows,
                        so.t_last, a.out);
     rc = EXIT_RUN;
@@ -341,6 +345,11 @@ int cmd_sim(int argc, char **argv) {
   }
   if (a.plot) {
     const char *data = a.out ? a.out : tmp_csv;
+    if (a.out && !tmp_csv) {
+      fprintf(stderr, "eomc sim: error: --plot needs -o to name a regular file (or no -o)\n");
+      rc = EXIT_RUN;
+      goto out;
+    }
     if (plot_svg(m, data, a.plot, err, sizeof err) != 0) {
       fprintf(stderr, "eomc sim: error: %s\n", err);
       rc = EXIT_RUN;

@@ -130,6 +130,27 @@ START_TEST(modes_damped_pair) {
 }
 END_TEST
 
+/* Double pendulum, equal masses and lengths: omega^2 = (g/l)(2 ∓ √2), with
+** shapes (1, √2) and (1, -√2) for (a1, a2) (Kibble & Berkshire, Classical
+** Mechanics, 5th ed., 2004, eq. 11.21).  Its mass matrix is full, so this
+** checks the whole chain: rates of `let`s, coupling, the LDLᵀ solve. */
+START_TEST(modes_twin_pendulum) {
+  char *argv[] = {(char *)eomc(), "modes", model_path("twin_pendulum.eom"), "--at", "a1=0.1",
+                  "--at", "a2=-0.2", "--json", NULL};
+  RunResult r = run_argv(argv);
+  ck_assert_msg(r.status == 0, "status %d: %s", r.status, r.err);
+  double g = 9.81, l = 0.8;
+  ck_assert(fabs(json_number(r.out, "a1", 0)) < 1e-9 && fabs(json_number(r.out, "a2", 0)) < 1e-9);
+  double w1 = json_number(r.out, "omega_rad_s", 0), w2 = json_number(r.out, "omega_rad_s", 1);
+  ck_assert_msg(fabs(w1 * w1 / (g / l * (2 - sqrt(2.0))) - 1) < 1e-9, "omega1 %.12g", w1);
+  ck_assert_msg(fabs(w2 * w2 / (g / l * (2 + sqrt(2.0))) - 1) < 1e-9, "omega2 %.12g", w2);
+  /* Shapes: a2 is the largest entry (1), a1 = ±1/√2. */
+  ck_assert_double_eq_tol(json_number(r.out, "a1", 1), 1 / sqrt(2.0), 1e-8);
+  ck_assert_double_eq_tol(json_number(r.out, "a1", 2), -1 / sqrt(2.0), 1e-8);
+  run_free(&r);
+}
+END_TEST
+
 /* ------------------------------------------------------------- sim */
 
 static int count_lines(const char *s) {
@@ -297,6 +318,34 @@ START_TEST(sim_usage_errors) {
 }
 END_TEST
 
+/* A conservative model conserves T + V (Goldstein, Poole & Safko,
+** Classical Mechanics, 3rd ed., 2002, §2.7): released at large angles the
+** double pendulum moves chaotically, yet dopri at tight tolerance keeps
+** the energy to 1e-7 and implicit midpoint keeps it bounded. */
+START_TEST(sim_energy_conserved) {
+  static const char *const methods[][2] = {{"dopri", "1e-7"}, {"midpoint", "1e-3"}};
+  for (int k = 0; k < 2; k++) {
+    char *argv[] = {(char *)eomc(), "sim", model_path("twin_pendulum.eom"), "--set", "a1=1.2",
+                    "--set", "a2=-0.7", "--set", "a2'=1", "--until", "10", "--step", "0.002",
+                    "--method", (char *)methods[k][0], "--rtol", "1e-11", "--atol", "1e-12",
+                    NULL};
+    RunResult r = run_argv(argv);
+    ck_assert_msg(r.status == 0, "status %d: %s", r.status, r.err);
+    ck_assert(strncmp(r.out, "t,a1,a2,a1',a2',T,V\n", 20) == 0);
+    int n;
+    double *T = csv_column(r.out, 5, &n), *V = csv_column(r.out, 6, &n);
+    ck_assert_int_eq(n, 5001);
+    double E0 = T[0] + V[0], worst = 0;
+    for (int i = 0; i < n; i++) worst = fmax(worst, fabs(T[i] + V[i] - E0) / fabs(E0));
+    ck_assert_msg(worst < atof(methods[k][1]), "%s: energy error %g", methods[k][0], worst);
+    ck_assert(T[n / 2] > 0.01 * fabs(E0)); /* it really moves */
+    free(T);
+    free(V);
+    run_free(&r);
+  }
+}
+END_TEST
+
 /* The second run loads the cached object; a changed model gets its own. */
 START_TEST(sim_cache) {
   char *argv[] = {(char *)eomc(), "sim", model_path("bead_hoop.eom"), "--until", "0.1", NULL};
@@ -362,6 +411,8 @@ static Suite *sim_suite(void) {
   tcase_set_timeout(tc, 120);
   tcase_add_test(tc, modes_bead_on_hoop);
   tcase_add_test(tc, modes_damped_pair);
+  tcase_add_test(tc, modes_twin_pendulum);
+  tcase_add_test(tc, sim_energy_conserved);
   tcase_add_test(tc, sim_csv_columns);
   tcase_add_test(tc, sim_bead_small_oscillation_period);
   tcase_add_test(tc, sim_inputs_settle);
