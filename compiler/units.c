@@ -19,6 +19,7 @@
 
 #include <assert.h>
 #include <math.h>
+#include <stdarg.h>
 #include <stdio.h>
 #include <string.h>
 #include "check.h"
@@ -309,9 +310,13 @@ static Unit any_unit(void) {
   return u;
 }
 
-static void uerror(UnitCheck *uc, SrcLoc loc, const char *fmt, const char *a, const char *b) {
+static void uerror(UnitCheck *uc, SrcLoc loc, const char *fmt, ...) DIAG_PRINTF(3, 4);
+static void uerror(UnitCheck *uc, SrcLoc loc, const char *fmt, ...) {
+  va_list ap;
   uc->nerrors++;
-  diag_error(uc->d, loc, fmt, a, b);
+  va_start(ap, fmt);
+  diag_vreport(uc->d, DIAG_ERROR, loc, fmt, ap);
+  va_end(ap);
 }
 
 /* Constant value of an exponent: numbers, pi and consts only (params may
@@ -371,9 +376,8 @@ static Unit agree(UnitCheck *uc, Unit a, Unit b, SrcLoc loc, const char *what) {
   if (b.kind == UNIT_ANY) return a;
   if (a.kind == UNIT_TRANSFORM || b.kind == UNIT_TRANSFORM) return unknown_unit();
   if (unit_same(a, b)) return a;
-  char fmt[160];
-  snprintf(fmt, sizeof fmt, "%s have different units: %%s and %%s", what);
-  uerror(uc, loc, fmt, unit_format(a, 0, sa, sizeof sa), unit_format(b, 0, sb, sizeof sb));
+  uerror(uc, loc, "%s have different units: %s and %s", what, unit_format(a, 0, sa, sizeof sa),
+         unit_format(b, 0, sb, sizeof sb));
   return unknown_unit();
 }
 
@@ -407,7 +411,7 @@ static Unit call_unit(UnitCheck *uc, const Expr *e) {
     if (u.kind != UNIT_KNOWN) return u.kind == UNIT_ANY ? u : unknown_unit();
     if (unit_pow(u, 1, 2, &r) == 0) return r;
     char s[96];
-    uerror(uc, e->loc, "square root of a quantity in %s%s has no unit", unit_format(u, 0, s, sizeof s), "");
+    uerror(uc, e->loc, "square root of a quantity in %s has no unit", unit_format(u, 0, s, sizeof s));
     return unknown_unit();
   }
   if (strcmp(f, "dot") == 0 || strcmp(f, "cross") == 0) {
@@ -452,7 +456,7 @@ static Unit pow_unit(UnitCheck *uc, const Expr *e) {
   Unit base = expr_unit(uc, e->args[0]);
   Unit ex = expr_unit(uc, e->args[1]);
   if (ex.kind == UNIT_KNOWN && !unit_is_dimensionless(ex)) {
-    uerror(uc, e->loc, "exponent must be dimensionless, not %s%s", unit_format(ex, 0, s, sizeof s), "");
+    uerror(uc, e->loc, "exponent must be dimensionless, not %s", unit_format(ex, 0, s, sizeof s));
     return unknown_unit();
   }
   if (base.kind != UNIT_KNOWN) return base.kind == UNIT_ANY ? base : unknown_unit();
@@ -468,8 +472,8 @@ static Unit pow_unit(UnitCheck *uc, const Expr *e) {
     return unknown_unit();
   }
   if (unit_is_dimensionless(base)) return unit_dimensionless();
-  uerror(uc, e->loc, "the exponent of a quantity in %s must be a constant number%s",
-         unit_format(base, 0, s, sizeof s), "");
+  uerror(uc, e->loc, "the exponent of a quantity in %s must be a constant number",
+         unit_format(base, 0, s, sizeof s));
   return unknown_unit();
 }
 
