@@ -262,6 +262,16 @@ static int eval_const(const Expr *e, int allow_params, double *v, const Expr **b
   return 0;
 }
 
+/* Does `e` use a param or const whose own value was in error (NaN)?  Then
+** a bad result is a follow-on error and is not reported again. */
+static int uses_failed_value(const Expr *e) {
+  if (e->kind == EX_NAME && e->ref && (e->ref->kind == DECL_PARAM || e->ref->kind == DECL_CONST))
+    return isnan(e->ref->number);
+  for (int i = 0; i < e->nargs; i++)
+    if (uses_failed_value(e->args[i])) return 1;
+  return 0;
+}
+
 /* Why `bad` (from eval_const) is not constant, for a message. */
 static const char *why_not_constant(const Expr *bad, char *buf, size_t n) {
   if (bad->kind == EX_NAME && bad->ref)
@@ -510,7 +520,7 @@ static int check_index_value(Checker *c, const Expr *ix, int n, int *ok) {
     return 0;
   }
   if (!eval_const(ix, 0, &v, &bad) || v != floor(v)) {
-    diag_error(c->d, ix->loc, "an index must be a constant integer");
+    if (!uses_failed_value(ix)) diag_error(c->d, ix->loc, "an index must be a constant integer");
     *ok = 0;
     return 0;
   }
@@ -689,6 +699,7 @@ static void check_default(Checker *c, Decl *dc) {
   const Expr *bad = NULL;
   double v;
   assert(dc->value);
+  dc->number = NAN;   /* until the value is known good */
   Info r = check_expr(c, dc->value);
   if (is_err(r.shape)) return;
   const char *what = dc->kind == DECL_PARAM ? "default of param" : "value of const";
@@ -707,7 +718,8 @@ static void check_default(Checker *c, Decl *dc) {
     return;
   }
   if (!isfinite(v)) {
-    diag_error(c->d, dc->value->loc, "%s '%s' is not a finite number", what, dc->name);
+    if (!uses_failed_value(dc->value))
+      diag_error(c->d, dc->value->loc, "%s '%s' is not a finite number", what, dc->name);
     return;
   }
   dc->number = v;
@@ -767,7 +779,8 @@ static void check_initial(Checker *c, Stmt *s) {
     return;
   }
   if (!isfinite(v)) {
-    diag_error(c->d, s->e[0]->loc, "the initial value of '%s' is not a finite number", q->name);
+    if (!uses_failed_value(s->e[0]))
+      diag_error(c->d, s->e[0]->loc, "the initial value of '%s' is not a finite number", q->name);
     return;
   }
   if (s->rate) ci->qd0 = v;

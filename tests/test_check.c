@@ -329,6 +329,13 @@ START_TEST(errors_do_not_cascade) {
   ck_assert_int_eq(c->d.nerrors, 1);
   ck_assert_ptr_nonnull(strstr(c->d.msgs[0].text, "undefined name 'zz'"));
   unload(c);
+  /* A param whose default failed makes no more errors where it is used. */
+  c = load("coord x\nparam a = zz\nparam b = 1/(a - a)\nconst n = 2/0\nlet v = [x, x]\n"
+           "initial x = b\nkinetic a*b*x'^2 + v[n]\n");
+  ck_assert_int_eq(c->d.nerrors, 2);
+  ck_assert_int_eq(c->d.msgs[0].loc.line, 2);
+  ck_assert_int_eq(c->d.msgs[1].loc.line, 4);
+  unload(c);
   /* A let in error does not make later uses of it errors. */
   c = load("coord x\nlet v = [x, 1] + 1\nkinetic v*x'^2\npotential v[3]\n");
   ck_assert_int_eq(c->d.nerrors, 1);
