@@ -47,6 +47,13 @@ static double max_abs(size_t n, const double *v) {
 }
 
 /* Scale a real shape so its largest entry is +1. */
+/* Eigenvalues this small relative to the largest are zero: K (or the state
+** matrix) from finite differences carries errors near 1e-10 of its size, and
+** a double zero eigenvalue of the state matrix (a free coordinate) splits by
+** about the square root of rounding. */
+#define NEUTRAL_UNDAMPED 1e-9
+#define NEUTRAL_DAMPED 1e-7
+
 static void normalize_real(int n, double *v) {
   int big = 0;
   for (int i = 1; i < n; i++)
@@ -111,7 +118,7 @@ static int undamped(int nq, const double *M, const double *K, ModalResult *out, 
     }
     for (int i = 0; i < nq; i++) md->shape[i] = a[(size_t)j * nq + i]; /* column j */
     normalize_real(nq, md->shape);
-    if (fabs(w[j]) <= 1e-12 * scale) {
+    if (fabs(w[j]) <= NEUTRAL_UNDAMPED * scale) {
       md->kind = MODE_NEUTRAL;
     } else if (w[j] > 0) {
       md->kind = MODE_OSCILLATING;
@@ -206,7 +213,8 @@ static int damped(int nq, const double *M, const double *C, const double *K, Mod
       md->omega = hypot(wr[j], wi[j]);
       md->omega_d = wi[j];
       md->zeta = -wr[j] / md->omega;
-      md->kind = wr[j] > 1e-12 * scale ? MODE_UNSTABLE : MODE_OSCILLATING;
+      md->kind = wr[j] > NEUTRAL_DAMPED * scale ? MODE_UNSTABLE : MODE_OSCILLATING;
+      if (md->omega <= NEUTRAL_DAMPED * scale) md->kind = MODE_NEUTRAL; /* a split zero */
       md->rate = md->kind == MODE_UNSTABLE ? wr[j] : 0;
       md->omega2 = md->omega * md->omega;
       j++;
@@ -214,7 +222,7 @@ static int damped(int nq, const double *M, const double *C, const double *K, Mod
       const double *v = vr + (size_t)j * n;
       for (int i = 0; i < nq; i++) md->shape[i] = v[i];
       normalize_real(nq, md->shape);
-      if (fabs(wr[j]) <= 1e-12 * scale) {
+      if (fabs(wr[j]) <= NEUTRAL_DAMPED * scale) {
         md->kind = MODE_NEUTRAL;
       } else if (wr[j] > 0) {
         md->kind = MODE_UNSTABLE;

@@ -7,6 +7,12 @@
 ** exact at the solution (the term (dM/dq)·q'' vanishes there) and so keeps
 ** quadratic convergence; central differences of f stand in when that product
 ** is unusable.  A backtracking line search on max|f| widens the basin.
+**
+** When df/dq is singular the model has free directions (a cart on rails, a
+** free-floating pair): the step is then the Levenberg–Marquardt one,
+** (JᵀJ + mu I) dq = -Jᵀ f with a small mu, which leaves the free coordinates
+** where they are and still solves for the others (Nocedal & Wright,
+** Numerical Optimization, 2nd ed., 2006, §10.3).
 */
 #include <assert.h>
 #include <float.h>
@@ -59,6 +65,33 @@ static int forcing_dq_model(const struct eom_model *m, const double *p, const do
   return all_finite(nq * nq, J) ? 0 : -1;
 }
 
+/* dq = -(JᵀJ + mu I)⁻¹ Jᵀ f for a singular J (row-major nq x nq); work is
+** nq x nq.  mu is 1e-9 of the largest diagonal: small enough that the step
+** is the least-squares one in the directions J sees, large enough that
+** rounding moves the free ones by ~1e-7 of the step only.  Returns -1
+** when J is zero. */
+static int levenberg_marquardt_step(int nq, const double *J, const double *f, double *work,
+                                    double *dq, int *piv) {
+  double diag = 0;
+  for (int i = 0; i < nq; i++)
+    for (int j = 0; j < nq; j++) {
+      double s = 0;
+      for (int k = 0; k < nq; k++) s += J[k * nq + i] * J[k * nq + j];
+      work[i * nq + j] = s;
+      if (i == j) diag = fmax(diag, s);
+    }
+  if (!(diag > 0) || !isfinite(diag)) return -1;
+  for (int i = 0; i < nq; i++) work[i * nq + i] += 1e-9 * diag;
+  if (dense_lu(nq, work, piv) != 0) return -1;
+  for (int i = 0; i < nq; i++) {
+    double s = 0;
+    for (int k = 0; k < nq; k++) s += J[k * nq + i] * f[k];
+    dq[i] = -s;
+  }
+  dense_lu_solve(nq, work, piv, dq);
+  return 0;
+}
+
 static void state_text(const struct eom_model *m, const double *q, char *buf, size_t cap) {
   size_t len = 0;
   buf[0] = '\0';
@@ -85,7 +118,7 @@ int eom_equilibrium(const struct eom_model *m, const double *p, const double *u,
   }
   int nq = m->nq, n = 2 * nq, nu = m->nu;
   size_t nqq = (size_t)nq * nq;
-  double *buf = calloc(9 * (size_t)nq + 2 * nqq + (size_t)n * n + (size_t)n * nu +
+  double *buf = calloc(9 * (size_t)nq + 3 * nqq + (size_t)n * n + (size_t)n * nu +
                            (size_t)nu + 1, sizeof(double));
   int *piv = calloc((size_t)nq + 1, sizeof(int));
   if (!buf || !piv) {
@@ -96,6 +129,7 @@ int eom_equilibrium(const struct eom_model *m, const double *p, const double *u,
   }
   double *qd = buf, *f = qd + nq, *dq = f + nq, *qt = dq + nq, *f1 = qt + nq, *f2 = f1 + nq;
   double *x = f2 + nq, *J = x + n, *M = J + nqq, *A = M + nqq, *B = A + (size_t)n * n;
+  double *Jcopy = B + (size_t)n * nu + (size_t)nu;
   if (!u) u = B + (size_t)n * nu; /* no inputs given: all zero */
   char where[256];
   int st = EOM_ENEWTON;
@@ -112,19 +146,20 @@ int eom_equilibrium(const struct eom_model *m, const double *p, const double *u,
       st = EOM_ENEWTON;
       goto out;
     }
-    if (forcing_dq_model(m, p, u, t, q, J, M, x, A, B) != 0 || dense_lu(nq, J, piv) != 0) {
+    if (forcing_dq_model(m, p, u, t, q, J, M, x, A, B) != 0)
       forcing_dq_fd(m, p, u, t, q, qd, J, qt, f1, f2);
-      if (dense_lu(nq, J, piv) != 0) {
-        state_text(m, q, where, sizeof where);
-        snprintf(rep->message, sizeof rep->message,
-                 "df/dq is singular at %s (residual %.3g): the equilibrium is not isolated, "
-                 "or a coordinate feels no restoring force", where, res);
-        st = EOM_ESINGULAR;
-        goto out;
-      }
+    memcpy(Jcopy, J, nqq * sizeof(double));
+    if (dense_lu(nq, J, piv) == 0) {
+      for (int i = 0; i < nq; i++) dq[i] = -f[i];
+      dense_lu_solve(nq, J, piv, dq);
+    } else if (levenberg_marquardt_step(nq, Jcopy, f, J, dq, piv) != 0) {
+      state_text(m, q, where, sizeof where);
+      snprintf(rep->message, sizeof rep->message,
+               "df/dq vanishes at %s (residual %.3g): no coordinate feels a restoring force",
+               where, res);
+      st = EOM_ESINGULAR;
+      goto out;
     }
-    for (int i = 0; i < nq; i++) dq[i] = -f[i];
-    dense_lu_solve(nq, J, piv, dq);
     double step = max_abs(nq, dq);
     if (step <= tol * (1 + max_abs(nq, q))) {
       /* Converged: the remaining correction is negligible; take it. */

@@ -266,3 +266,40 @@ const struct eom_model tm_vanishing_mass = {
     .mass = vm_mass, .forcing = vm_forcing, .accel = vm_accel, .rhs = vm_rhs,
     .energy = vm_energy,
 };
+
+/* ---------------------------------------------------------------- free pair
+** m -k- m, no walls. */
+static void fp_mass(const double *q, const double *p, double *M) {
+  (void)q;
+  M[0] = p[0], M[1] = 0, M[2] = 0, M[3] = p[0];
+}
+static void fp_forcing(double t, const double *q, const double *qd, const double *u,
+                       const double *p, double *f) {
+  (void)t, (void)qd, (void)u;
+  f[0] = -p[1] * (q[0] - q[1]);
+  f[1] = -p[1] * (q[1] - q[0]);
+}
+ACCEL_VIA(fp, 2)
+static void fp_jacobian(double t, const double *x, const double *u, const double *p, double *A,
+                        double *B) {
+  (void)t, (void)x, (void)u, (void)B;
+  double w = p[1] / p[0];
+  const double J[16] = {0, 0, 1, 0, /**/ 0, 0, 0, 1, /**/ -w, w, 0, 0, /**/ w, -w, 0, 0};
+  memcpy(A, J, sizeof J);
+}
+static void fp_energy(const double *q, const double *qd, const double *p, double *T,
+                      double *V) {
+  *T = 0.5 * p[0] * (qd[0] * qd[0] + qd[1] * qd[1]);
+  *V = 0.5 * p[1] * (q[1] - q[0]) * (q[1] - q[0]);
+}
+static const char *const fp_params[] = {"m", "k"};
+static const double fp_defaults[] = {3.0, 12.0};
+const struct eom_model tm_free_pair = {
+    .abi = EOM_MODEL_ABI, .name = "free_pair", .hash = "0",
+    .nq = 2, .nu = 0, .np = 2, .ny = 0, .nc = 0,
+    .coord_names = chain_coords, .coord_units = pend_blank, .coord_descs = pend_blank,
+    .param_names = fp_params, .param_units = pend_blank, .param_descs = pend_blank,
+    .param_defaults = fp_defaults, .q0 = zeros, .qd0 = zeros,
+    .mass = fp_mass, .forcing = fp_forcing, .accel = fp_accel, .rhs = fp_rhs,
+    .jacobian = fp_jacobian, .energy = fp_energy,
+};

@@ -19,6 +19,9 @@ extern const struct eom_model tm_oscillator;
 /* Double pendulum, equal masses and lengths: coords th1, th2; params m, l, g.
 ** It has no jacobian, so the runtime's finite differences are exercised. */
 extern const struct eom_model tm_double_pendulum;
+/* Two masses joined by one spring and nothing else: coords x1, x2; params
+** m, k.  Free to translate, so df/dq is singular. */
+extern const struct eom_model tm_free_pair;
 /* A coordinate whose mass 1 - x vanishes at x = 1: accel() must fail there. */
 extern const struct eom_model tm_vanishing_mass;
 

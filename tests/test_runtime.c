@@ -611,6 +611,28 @@ START_TEST(modes_unstable_direction) {
 }
 END_TEST
 
+/* Two masses on one spring, free to translate: the translation is a neutral
+** mode (omega = 0) and the stretch oscillates at sqrt(k / mu) with the
+** reduced mass mu = m/2 (common practice).  Newton must find a rest state
+** although df/dq is singular, keeping the free coordinate where it began. */
+START_TEST(modes_free_pair_neutral) {
+  const double p[] = {3.0, 12.0};
+  double q[2] = {0.5, 0.9};
+  ModalResult r;
+  analyse(&tm_free_pair, p, q, &r);
+  ck_assert_double_eq_tol(q[0], q[1], 1e-12);
+  double centre = q[0] + q[1];
+  ck_assert_double_eq_tol(centre, 1.4, 1e-6); /* the free coordinate stays */
+  ck_assert_int_eq(r.nmodes, 2);
+  ck_assert_int_eq(r.modes[0].kind, MODE_OSCILLATING);
+  ck_assert_double_eq_tol(r.modes[0].omega, sqrt(12.0 / 1.5), 1e-12);
+  ck_assert_int_eq(r.modes[1].kind, MODE_NEUTRAL);
+  ck_assert_double_eq_tol(r.modes[1].shape[0], 1, 1e-9);
+  ck_assert_double_eq_tol(r.modes[1].shape[1], 1, 1e-9);
+  modal_free(&r);
+}
+END_TEST
+
 /* Linearization away from rest: K from differences of f must match the
 ** analytic -df/dq of the Kepler forcing at a moving state. */
 START_TEST(linearize_moving_state) {
@@ -658,6 +680,7 @@ static Suite *runtime_suite(void) {
   tcase_add_test(tm, modes_damping_ratio);
   tcase_add_test(tm, modes_unstable_direction);
   tcase_add_test(tm, linearize_moving_state);
+  tcase_add_test(tm, modes_free_pair_neutral);
   suite_add_tcase(s, tm);
   return s;
 }

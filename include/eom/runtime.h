@@ -116,11 +116,12 @@ int eom_dynamics(const struct eom_model *m, const double *p, double t, const dou
 
 /* Newton on f(t, q, 0, u) = 0 from the guess in q (nq entries), with the
 ** M-independent residual f and a backtracking line search on max|f|.
-** Converged when the Newton update is below tol * (1 + max|q|); tol 0:
-** 1e-10, max_iter 0: 100.  Returns EOM_OK, EOM_ENEWTON (no convergence),
-** EOM_ESINGULAR (df/dq singular: the equilibrium is not isolated) or
-** EOM_EINVAL (constrained models are not supported); rep->residual is the
-** final max|f| and rep->steps the iterations. */
+** Where df/dq is singular (free coordinates) the least-squares step leaves
+** the free coordinates at their guess.  Converged when the update is below
+** tol * (1 + max|q|); tol 0: 1e-10, max_iter 0: 100.  Returns EOM_OK,
+** EOM_ENEWTON (no convergence), EOM_ESINGULAR (df/dq is zero) or EOM_EINVAL
+** (constrained models are not supported); rep->residual is the final
+** max|f| and rep->steps the iterations. */
 int eom_equilibrium(const struct eom_model *m, const double *p, const double *u, double t,
                     double *q, double tol, int max_iter, struct eom_report *rep);
 
