@@ -12,6 +12,7 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <sys/wait.h>
 
 #include "check.h"
 #include "parse.h"
@@ -532,6 +533,65 @@ START_TEST(unused_warnings) {
 }
 END_TEST
 
+/* ------------------------------------------------------------ eomc check */
+
+#ifndef SRCDIR
+#define SRCDIR "."
+#endif
+#ifndef BUILDDIR
+#define BUILDDIR "."
+#endif
+
+/* Run `eomc check ARGS`; returns the exit status, stdout in `out`. */
+static int run_check(const char *args, char *out, size_t n) {
+  const char *eomc = getenv("EOMC") ? getenv("EOMC") : BUILDDIR "/eomc";
+  char cmd[4096];
+  snprintf(cmd, sizeof cmd, "'%s' check %s 2>/dev/null", eomc, args);
+  FILE *p = popen(cmd, "r");
+  ck_assert_ptr_nonnull(p);
+  size_t len = fread(out, 1, n - 1, p);
+  out[len] = '\0';
+  int st = pclose(p);
+  ck_assert(WIFEXITED(st));
+  return WEXITSTATUS(st);
+}
+
+START_TEST(check_command_summary) {
+  static char out[1 << 16];
+  ck_assert_int_eq(run_check("'" SRCDIR "/examples/seat_rig.eom'", out, sizeof out), 0);
+  static const char *const want[] = {
+    "model seat_rig",
+    "coordinates (1):",
+    "z  [m]  initial 0.02  seat travel from static rest, up",
+    "parameters (3):",
+    "k = 42000  [N/m]",
+    "c = 1150   [N*s/m]  damper coefficient",
+    "inputs (1):",
+    "F  [N]  actuator force on the seat pan, up",
+    "outputs (2):",
+    "spring_force  [N]",
+    "terms (4):",
+    "line 23    potential",
+    "line 25    force on z",
+    "units: checked",
+  };
+  for (size_t i = 0; i < sizeof want / sizeof want[0]; i++)
+    ck_assert_msg(strstr(out, want[i]) != NULL, "summary lacks '%s':\n%s", want[i], out);
+}
+END_TEST
+
+START_TEST(check_command_statuses) {
+  char out[4096];
+  ck_assert_int_eq(run_check("'" SRCDIR "/tests/bad/s_unit_potential_is_force.eom'", out, sizeof out), 1);
+  ck_assert_str_eq(out, "");
+  ck_assert_int_eq(run_check("'" SRCDIR "/no/such/model.eom'", out, sizeof out), 2);
+  ck_assert_int_eq(run_check("--frobnicate", out, sizeof out), 2);
+  ck_assert_int_eq(run_check("", out, sizeof out), 2);
+  ck_assert_int_eq(run_check("--help", out, sizeof out), 0);
+  ck_assert_ptr_nonnull(strstr(out, "usage: eomc check"));
+}
+END_TEST
+
 int main(void) {
   Suite *s = suite_create("check");
   TCase *tc = tcase_create("names");
@@ -582,6 +642,10 @@ int main(void) {
   tcase_add_test(tc, model_needs_coordinates_and_energy);
   tcase_add_test(tc, model_arrays_and_terms);
   tcase_add_test(tc, unused_warnings);
+  suite_add_tcase(s, tc);
+  tc = tcase_create("command");
+  tcase_add_test(tc, check_command_summary);
+  tcase_add_test(tc, check_command_statuses);
   suite_add_tcase(s, tc);
   SRunner *sr = srunner_create(s);
   srunner_run_all(sr, CK_NORMAL);
