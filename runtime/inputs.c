@@ -97,6 +97,12 @@ static char *next_field(char **cursor) {
   return s;
 }
 
+/* Did fgets stop before the end of the line (a line longer than the buffer)? */
+static int truncated(const char *line, FILE *f) {
+  size_t len = strlen(line);
+  return len > 0 && line[len - 1] != '\n' && !feof(f);
+}
+
 static int blank_or_comment(const char *line) {
   while (isspace((unsigned char)*line)) line++;
   return *line == '\0' || *line == '#';
@@ -116,12 +122,17 @@ int eom_inputs_load_csv(eom_inputs *in, const char *path, const char *const *nam
     return EOM_EINPUT;
   }
   /* Header: t, then input names. */
+  line[0] = '\0';
   while (fgets(line, sizeof line, f)) {
     lineno++;
+    if (truncated(line, f)) {
+      snprintf(err, errlen, "%s:%d: line longer than %zu bytes", path, lineno, sizeof line - 2);
+      goto out;
+    }
     if (!blank_or_comment(line)) break;
     line[0] = '\0';
   }
-  if (line[0] == '\0' || lineno == 0) {
+  if (line[0] == '\0' || blank_or_comment(line)) {
     snprintf(err, errlen, "%s: empty table (a header line `t,INPUT,...` is needed)", path);
     goto out;
   }
@@ -153,6 +164,10 @@ int eom_inputs_load_csv(eom_inputs *in, const char *path, const char *const *nam
   /* Rows of numbers. */
   while (fgets(line, sizeof line, f)) {
     lineno++;
+    if (truncated(line, f)) {
+      snprintf(err, errlen, "%s:%d: line longer than %zu bytes", path, lineno, sizeof line - 2);
+      goto out;
+    }
     if (blank_or_comment(line)) continue;
     if (nrows == cap) {
       cap = cap ? 2 * cap : 64;

@@ -480,6 +480,20 @@ START_TEST(inputs_table_errors) {
     unlink(path);
     free(path);
   }
+  /* A line longer than the reader's buffer is an error, not two lines. */
+  char *text = malloc(20000);
+  strcpy(text, "t,F\n0,");
+  size_t len = strlen(text);
+  memset(text + len, '1', 12000);
+  strcpy(text + len + 12000, "\n1,2\n");
+  char err[256] = "", *path = write_temp(text);
+  eom_inputs *in = eom_inputs_new(1);
+  ck_assert_int_eq(eom_inputs_load_csv(in, path, names, err, sizeof err), EOM_EINPUT);
+  ck_assert_msg(strstr(err, ":2: line longer") != NULL, "%s", err);
+  eom_inputs_free(in);
+  unlink(path);
+  free(path);
+  free(text);
 }
 END_TEST
 
