@@ -272,6 +272,7 @@ int cmd_modes(int argc, char **argv) {
     rc = EXIT_RUN;
     goto unload;
   }
+  if (lin.message[0]) fprintf(stderr, "eomc modes: %s\n", lin.message);
   if (modal_analyze(m->nq, mats, mats + nn, mats + 2 * nn, &mr, err, sizeof err) != 0) {
     fprintf(stderr, "eomc modes: error: %s\n", err);
     rc = EXIT_RUN;

@@ -86,7 +86,7 @@ int sim_rhs(SimContext *c, double t, const double *x, double *xdot) {
 int sim_jacobian(SimContext *c, double t, const double *x, double *A) {
   const struct eom_model *m = c->m;
   int n = c->n;
-  if (m->jacobian && m->nc == 0) {
+  if (m->jacobian && m->nc == 0 && !c->jacobian_by_fd) {
     load_inputs(c, t);
     m->jacobian(t, x, c->u, c->p, A, c->jac_b);
     return EOM_OK;
@@ -106,6 +106,30 @@ int sim_jacobian(SimContext *c, double t, const double *x, double *A) {
     for (int i = 0; i < n; i++) A[i * n + j] = (c->fd_f1[i] - c->fd_f2[i]) / (2 * delta);
   }
   return EOM_OK;
+}
+
+int sim_distrust_jacobian(SimContext *c, double t, const double *x) {
+  const struct eom_model *m = c->m;
+  int n = c->n;
+  if (!m->jacobian || m->nc > 0 || c->jacobian_by_fd) return 0;
+  double *a = malloc(2 * (size_t)n * (size_t)n * sizeof(double));
+  if (!a) return 0;
+  double *d = a + (size_t)n * n, diff = 0, scale = 1e-300;
+  int switched = 0;
+  if (sim_jacobian(c, t, x, a) == EOM_OK) {
+    c->jacobian_by_fd = 1;
+    if (sim_jacobian(c, t, x, d) == EOM_OK) {
+      for (int i = 0; i < n * n; i++) {
+        diff = fmax(diff, fabs(a[i] - d[i]));
+        scale = fmax(scale, fabs(d[i]));
+      }
+      /* Differences are good to ~1e-10 relative; far worse is a wrong jacobian. */
+      switched = !(diff <= 1e-6 * scale);
+    }
+    c->jacobian_by_fd = switched;
+  }
+  free(a);
+  return switched;
 }
 
 /* Append printf-style text to buf (of size cap, holding len bytes). */

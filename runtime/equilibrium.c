@@ -136,6 +136,9 @@ int eom_equilibrium(const struct eom_model *m, const double *p, const double *u,
 
   m->forcing(t, q, qd, u, p, f);
   double res = max_abs(nq, f);
+  /* Away from the solution M·(dq''/dq) is only an approximation of df/dq;
+  ** when it gives no descent, switch to differences for good. */
+  int use_fd = 0;
   for (int it = 0; it < max_iter; it++) {
     rep->steps = it;
     rep->residual = res;
@@ -146,8 +149,8 @@ int eom_equilibrium(const struct eom_model *m, const double *p, const double *u,
       st = EOM_ENEWTON;
       goto out;
     }
-    if (forcing_dq_model(m, p, u, t, q, J, M, x, A, B) != 0)
-      forcing_dq_fd(m, p, u, t, q, qd, J, qt, f1, f2);
+    int used_model = !use_fd && forcing_dq_model(m, p, u, t, q, J, M, x, A, B) == 0;
+    if (!used_model) forcing_dq_fd(m, p, u, t, q, qd, J, qt, f1, f2);
     memcpy(Jcopy, J, nqq * sizeof(double));
     if (dense_lu(nq, J, piv) == 0) {
       for (int i = 0; i < nq; i++) dq[i] = -f[i];
@@ -172,10 +175,15 @@ int eom_equilibrium(const struct eom_model *m, const double *p, const double *u,
     }
     /* Backtrack until max|f| decreases; take the shortest step if none does. */
     double alpha = 1;
+    int retry = 0;
     for (;;) {
       for (int i = 0; i < nq; i++) qt[i] = q[i] + alpha * dq[i];
       m->forcing(t, qt, qd, u, p, f1);
       double rt = max_abs(nq, f1);
+      if (!(rt <= (1 - 1e-4 * alpha) * res) && alpha < 1.0 / 64 && used_model) {
+        use_fd = retry = 1;
+        break;
+      }
       if (rt <= (1 - 1e-4 * alpha) * res || alpha < 1.0 / 64) {
         memcpy(q, qt, (size_t)nq * sizeof(double));
         memcpy(f, f1, (size_t)nq * sizeof(double));
@@ -184,6 +192,7 @@ int eom_equilibrium(const struct eom_model *m, const double *p, const double *u,
       }
       alpha /= 2;
     }
+    if (retry) continue;
   }
   rep->steps = max_iter;
   rep->residual = res;

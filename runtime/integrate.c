@@ -120,6 +120,12 @@ static int guarded_step(SimContext *c, const Method *m, double t, double h, doub
   int st = m->step(c, t, h, x, work);
   if (st != EOM_ENEWTON) return st;
   memcpy(x, backup, (size_t)c->n * sizeof(double));
+  /* A wrong generated jacobian also stalls Newton: check it once. */
+  if (sim_distrust_jacobian(c, t, x)) {
+    st = m->step(c, t, h, x, work);
+    if (st != EOM_ENEWTON) return st;
+    memcpy(x, backup, (size_t)c->n * sizeof(double));
+  }
   if (h / 2 < hmin) {
     char what[128];
     snprintf(what, sizeof what, "the %s Newton iteration does not converge even with h = %.3g",

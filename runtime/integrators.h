@@ -25,6 +25,7 @@ typedef struct SimContext {
   int *piv;                 /* 3n: pivots for the implicit methods */
   double rtol, atol;
   double t_good;            /* time of the last accepted state */
+  int jacobian_by_fd;       /* the model's jacobian proved wrong: use differences */
   struct eom_report *rep;   /* never NULL inside the runtime */
 } SimContext;
 
@@ -41,6 +42,9 @@ void simctx_free(SimContext *c);
 int sim_rhs(SimContext *c, double t, const double *x, double *xdot);
 /* A = d xdot/dx at (t, x): the model's jacobian, or central differences. */
 int sim_jacobian(SimContext *c, double t, const double *x, double *A);
+/* Compare the model's jacobian with central differences at (t, x); when
+** they disagree, use differences from now on.  Returns 1 when it switched. */
+int sim_distrust_jacobian(SimContext *c, double t, const double *x);
 
 /* Record a failure in c->rep: "at t = T: WHAT; state q1 = ..., q1' = ...". */
 int sim_fail(SimContext *c, int status, double t, const double *x, const char *what);

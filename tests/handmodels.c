@@ -303,3 +303,20 @@ const struct eom_model tm_free_pair = {
     .mass = fp_mass, .forcing = fp_forcing, .accel = fp_accel, .rhs = fp_rhs,
     .jacobian = fp_jacobian, .energy = fp_energy,
 };
+
+/* ---------------------------------------------------------------- bad jacobian */
+static void bad_jacobian(double t, const double *x, const double *u, const double *p, double *A,
+                         double *B) {
+  pend_jacobian(t, x, u, p, A, B);
+  A[2] = -A[2];
+}
+const struct eom_model tm_pendulum_bad_jacobian = {
+    .abi = EOM_MODEL_ABI, .name = "pendulum_bad_jacobian", .hash = "0",
+    .nq = 1, .nu = 1, .np = 3, .ny = 0, .nc = 0,
+    .coord_names = pend_coords, .coord_units = pend_blank, .coord_descs = pend_blank,
+    .param_names = pend_params, .param_units = pend_blank, .param_descs = pend_blank,
+    .param_defaults = pend_defaults, .input_names = pend_inputs, .input_units = pend_blank,
+    .q0 = zeros, .qd0 = zeros,
+    .mass = pend_mass, .forcing = pend_forcing, .accel = pend_accel, .rhs = pend_rhs,
+    .jacobian = bad_jacobian, .energy = pend_energy,
+};

@@ -22,6 +22,9 @@ extern const struct eom_model tm_double_pendulum;
 /* Two masses joined by one spring and nothing else: coords x1, x2; params
 ** m, k.  Free to translate, so df/dq is singular. */
 extern const struct eom_model tm_free_pair;
+/* The pendulum with a jacobian of the wrong sign, as a broken generator
+** might write it: the runtime must not trust it. */
+extern const struct eom_model tm_pendulum_bad_jacobian;
 /* A coordinate whose mass 1 - x vanishes at x = 1: accel() must fail there. */
 extern const struct eom_model tm_vanishing_mass;
 

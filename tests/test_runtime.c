@@ -647,6 +647,35 @@ START_TEST(modes_free_pair_neutral) {
 }
 END_TEST
 
+/* A model whose jacobian is wrong (here: the sign of d q''/dq) must not
+** mislead the equilibrium search or the linearization: both fall back to
+** differences of the forcing, and the linearization says so. */
+START_TEST(untrusted_jacobian) {
+  const double p[] = {1.0, 2.0, 9.81}, u[] = {3.0};
+  double q[1] = {0.9}, qd[1] = {0}, M[1], C[1], K[1];
+  struct eom_report rep;
+  ck_assert_int_eq(eom_equilibrium(&tm_pendulum_bad_jacobian, p, u, 0, q, 0, 0, &rep), EOM_OK);
+  ck_assert_double_eq_tol(q[0], asin(3.0 / (9.81 * 2.0)), 1e-10);
+  ck_assert_int_eq(eom_linearize(&tm_pendulum_bad_jacobian, p, u, 0, q, qd, M, C, K, &rep),
+                   EOM_OK);
+  ck_assert_ptr_nonnull(strstr(rep.message, "warning"));
+  ck_assert_double_eq_tol(K[0], 9.81 * 2.0 * cos(q[0]), 1e-7); /* m g L cos(theta) */
+  ck_assert_double_eq_tol(C[0], 0, 1e-9);
+  /* The implicit methods still integrate it correctly. */
+  double x[2] = {0.5, 0}, y[2] = {0.5, 0};
+  const double p0[] = {1.0, 2.0, 9.81};
+  ck_assert_int_eq(run(&tm_pendulum_bad_jacobian, p0, NULL, x, "radau5", 2, 0.01, 1e-10, 1e-12,
+                       NULL, NULL, &rep), EOM_OK);
+  ck_assert_int_eq(run(&tm_pendulum, p0, NULL, y, "dopri", 2, 0, 1e-12, 1e-13, NULL, NULL, &rep),
+                   EOM_OK);
+  ck_assert_msg(fabs(x[0] - y[0]) < 1e-8, "radau5 %.12g, dopri %.12g", x[0], y[0]);
+  /* The correct jacobian gives the same K without a warning. */
+  ck_assert_int_eq(eom_linearize(&tm_pendulum, p, u, 0, q, qd, M, C, K, &rep), EOM_OK);
+  ck_assert_str_eq(rep.message, "");
+  ck_assert_double_eq_tol(K[0], 9.81 * 2.0 * cos(q[0]), 1e-12);
+}
+END_TEST
+
 /* Linearization away from rest: K from differences of f must match the
 ** analytic -df/dq of the Kepler forcing at a moving state. */
 START_TEST(linearize_moving_state) {
@@ -695,6 +724,7 @@ static Suite *runtime_suite(void) {
   tcase_add_test(tm, modes_unstable_direction);
   tcase_add_test(tm, linearize_moving_state);
   tcase_add_test(tm, modes_free_pair_neutral);
+  tcase_add_test(tm, untrusted_jacobian);
   suite_add_tcase(s, tm);
   return s;
 }

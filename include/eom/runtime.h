@@ -128,8 +128,11 @@ int eom_equilibrium(const struct eom_model *m, const double *p, const double *u,
 /* Linearize M q'' = f about (q, qd): M there (nq x nq), C = -df/dqd and
 ** K = -df/dq (row-major).  C comes from the model's jacobian (exact: M does
 ** not depend on qd); so does K where q'' = 0 (an equilibrium), otherwise K
-** is central differences of forcing().  Any of M, C, K may be NULL.
-** Returns EOM_OK, EOM_EMASS, EOM_ENOMEM or EOM_EINVAL (constraints). */
+** is central differences of forcing().  A jacobian that disagrees with
+** central differences of forcing() is not trusted: the differences are
+** used and rep->message holds a warning (status still EOM_OK).  Any of M,
+** C, K may be NULL.  Returns EOM_OK, EOM_EMASS, EOM_ENOMEM or EOM_EINVAL
+** (constraints). */
 int eom_linearize(const struct eom_model *m, const double *p, const double *u, double t,
                   const double *q, const double *qd, double *M, double *C, double *K,
                   struct eom_report *rep);
