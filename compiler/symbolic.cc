@@ -337,6 +337,15 @@ class Derivation {
   std::vector<Term> kinetic_, potential_, lagrangian_, dissipation_;
   std::vector<ex> force_;  /* Q_i */
 
+  struct Body {
+    const Stmt *stmt;
+    ex mass;
+    Val pos;
+  };
+  std::vector<Body> bodies_;
+  std::vector<std::pair<const Stmt *, Val>> gravity_;
+  std::vector<std::pair<const Stmt *, ex>> constraints_;  /* phi = 0, one per entry */
+
   void tick(const char *step);
   ex totald(const ex &e);
   Val rate(const Val &v);
@@ -353,6 +362,13 @@ class Derivation {
   ex scalar(const Expr *x, const char *what);
 
   void collect_terms();
+  Val vec3(const Expr *x, const char *what);
+  Val mat3(const Expr *x, const char *what);
+  void add_body(const Stmt *s);
+  void add_force_at(const Stmt *s);
+  void add_torque(const Stmt *s);
+  void add_constraint(const Stmt *s);
+  bool depends_on_rates(const ex &e);
   void check_no_qdd(const ex &L);
   void check_quadratic(const std::vector<std::vector<ex>> &M);
   bool nonzero_somewhere(const ex &e, const ex &scale);
@@ -801,6 +817,11 @@ void Derivation::collect_terms() {
           force_[k] = force_[k] + scalar(s->e[0], "a generalized force");
           break;
         }
+        case ST_BODY: add_body(s); break;
+        case ST_FORCE_AT: add_force_at(s); break;
+        case ST_TORQUE: add_torque(s); break;
+        case ST_GRAVITY: gravity_.push_back({s, vec3(s->e[0], "gravity")}); break;
+        case ST_CONSTRAINT: add_constraint(s); break;
         default:
           throw SymError{s->loc, fmt("'%s' statements are not supported yet",
                                      ast_stmt_keyword(s->kind))};
@@ -809,6 +830,116 @@ void Derivation::collect_terms() {
       /* GiNaC's own errors: e.g. a division by zero met while simplifying */
       throw SymError{s->loc, fmt("cannot evaluate this statement: %s", e.what())};
     }
+  }
+  /* gravity acts on every body, wherever the statements stand */
+  for (const auto &g : gravity_)
+    for (const Body &b : bodies_) {
+      exvector terms;
+      for (int c = 0; c < 3; c++) terms.push_back(g.second.a[c] * b.pos.a[c]);
+      potential_.push_back({g.first, -b.mass * add(terms)});
+    }
+}
+
+Val Derivation::vec3(const Expr *x, const char *what) {
+  Val v = eval(x);
+  if (!v.vector() || v.size() != 3)
+    throw SymError{x->loc, fmt("%s must be a 3-vector, not %s", what, shape_name(v).c_str())};
+  return v;
+}
+
+Val Derivation::mat3(const Expr *x, const char *what) {
+  Val v = eval(x);
+  if (v.rows != 3 || v.cols != 3)
+    throw SymError{x->loc, fmt("%s must be a 3x3 matrix, not %s", what, shape_name(v).c_str())};
+  return v;
+}
+
+/* Does e contain a rate (of a coordinate or, through an atom, of anything)? */
+bool Derivation::depends_on_rates(const ex &e) {
+  for (int i = 0; i < nq_; i++)
+    if (!dqd_[i](e).is_zero() || !dqdd_[i](e).is_zero()) return true;
+  for (Deriver &d : dw_)
+    if (!d(e).is_zero()) return true;
+  return false;
+}
+
+/* T += m/2 |P'|^2 + w.(I w)/2 with w the body-frame angular velocity,
+** skew(w) = R^T R' (R maps body axes to world axes). */
+void Derivation::add_body(const Stmt *s) {
+  Body b{s, scalar(s->e[0], "a body's mass"), vec3(s->e[1], "a body's position")};
+  Val v = rate(b.pos);
+  exvector terms;
+  for (int c = 0; c < 3; c++) terms.push_back(pow(v.a[c], 2));
+  ex T = b.mass / 2 * add(terms);
+  if (s->e[2] || s->e[3]) {
+    if (!s->e[2] || !s->e[3])
+      throw SymError{s->loc, "a rotating body needs both 'orient' and 'inertia'"};
+    Val R = mat3(s->e[2], "an orientation");
+    Val I = eval(s->e[3]);
+    if (I.vector() && I.size() == 3) { /* principal moments */
+      Val d(3, 3);
+      for (int c = 0; c < 3; c++) d.at(c, c) = I.a[c];
+      I = d;
+    }
+    if (I.rows != 3 || I.cols != 3)
+      throw SymError{s->e[3]->loc, fmt("an inertia must be a 3x3 matrix or the 3 principal "
+                                       "moments, not %s", shape_name(I).c_str())};
+    Val Rd = rate(R);
+    auto S = [&](int i, int j) {  /* (R^T R')_ij */
+      exvector t;
+      for (int k = 0; k < 3; k++) t.push_back(R.at(k, i) * Rd.at(k, j));
+      return ex(add(t));
+    };
+    ex w[3] = {S(2, 1), S(0, 2), S(1, 0)};
+    exvector rot;
+    for (int i = 0; i < 3; i++)
+      for (int j = 0; j < 3; j++)
+        if (!I.at(i, j).is_zero()) rot.push_back(w[i] * I.at(i, j) * w[j]);
+    T = T + add(rot) / 2;
+  }
+  kinetic_.push_back({s, T});
+  bodies_.push_back(b);
+}
+
+/* Q_i += F . dP/dq_i */
+void Derivation::add_force_at(const Stmt *s) {
+  Val F = eval(s->e[0]), P = eval(s->e[1]);
+  if (!F.vector() || !P.vector() || F.size() != P.size() || F.scalar())
+    throw SymError{s->loc, fmt("a force and its point must be vectors of one length, not %s "
+                               "and %s", shape_name(F).c_str(), shape_name(P).c_str())};
+  for (int i = 0; i < nq_; i++) {
+    exvector terms{force_[i]};
+    for (int c = 0; c < F.size(); c++) terms.push_back(F.a[c] * dq_[i](P.a[c]));
+    force_[i] = add(terms);
+  }
+}
+
+/* Q_i += TAU . w_i, with skew(w_i) = dR/dq_i R^T the world-frame angular
+** velocity per unit rate of q_i. */
+void Derivation::add_torque(const Stmt *s) {
+  Val tau = vec3(s->e[0], "a torque");
+  Val R = mat3(s->e[1], "an orientation");
+  for (int i = 0; i < nq_; i++) {
+    auto W = [&](int r, int c) {  /* (dR/dq_i R^T)_rc */
+      exvector t;
+      for (int k = 0; k < 3; k++) t.push_back(dq_[i](R.at(r, k)) * R.at(c, k));
+      return ex(add(t));
+    };
+    force_[i] = force_[i] + tau.a[0] * W(2, 1) + tau.a[1] * W(0, 2) + tau.a[2] * W(1, 0);
+  }
+}
+
+void Derivation::add_constraint(const Stmt *s) {
+  Val a = eval(s->e[0]), b = eval(s->e[1]);
+  if (a.rows != b.rows || a.cols != b.cols)
+    throw SymError{s->loc, fmt("the sides of a constraint are %s and %s", shape_name(a).c_str(),
+                               shape_name(b).c_str())};
+  for (int k = 0; k < a.size(); k++) {
+    ex phi = a.a[k] - b.a[k];
+    if (depends_on_rates(phi))
+      throw SymError{s->loc, "a constraint must not depend on rates (only holonomic "
+                             "constraints are supported)"};
+    constraints_.push_back({s, phi});
   }
 }
 
@@ -962,6 +1093,16 @@ void Derivation::run(EomSystem *out) {
     inv[i] = add(terms);
   }
 
+  /* constraints: phi, G = dphi/dq and gamma = -(phi'' at q'' = 0), so that G q'' = gamma */
+  const int nc = (int)constraints_.size();
+  std::vector<ex> phi(nc), G((size_t)nc * n), gamma(nc);
+  for (int c = 0; c < nc; c++) {
+    phi[c] = constraints_[c].second;
+    for (int j = 0; j < n; j++) G[(size_t)c * n + j] = dq_[j](phi[c]);
+    gamma[c] = -zero_qdd(totald(totald(phi[c])));
+    tick("deriving the constraints");
+  }
+
   std::vector<ex> outs;
   std::vector<SrcLoc> out_locs;
   for (int i = 0; i < m_->noutputs; i++) {
@@ -991,6 +1132,11 @@ void Derivation::run(EomSystem *out) {
   int h_T = b.add_root(unatom(T), kinetic_.empty() ? none : kinetic_[0].stmt->loc);
   int h_V = b.add_root(unatom(V), potential_.empty() ? none : potential_[0].stmt->loc);
   for (size_t i = 0; i < outs.size(); i++) h_out.push_back(b.add_root(outs[i], out_locs[i]));
+  std::vector<int> h_phi, h_G, h_gamma;
+  for (int c = 0; c < nc; c++) h_phi.push_back(b.add_root(phi[c], constraints_[c].first->loc));
+  for (int c = 0; c < nc; c++)
+    for (int j = 0; j < n; j++) h_G.push_back(b.add_root(G[(size_t)c * n + j], none));
+  for (int c = 0; c < nc; c++) h_gamma.push_back(b.add_root(gamma[c], none));
   tick("building the expression graph");
 
   std::vector<int> roots;
@@ -1011,10 +1157,10 @@ void Derivation::run(EomSystem *out) {
   out->energy_T = roots[h_T];
   out->energy_V = roots[h_V];
   out->outputs = place(h_out, outs.size());
-  out->nc = 0;
-  out->constraint = alloc_roots(0);
-  out->constraint_jacobian = alloc_roots(0);
-  out->constraint_gamma = alloc_roots(0);
+  out->nc = nc;
+  out->constraint = place(h_phi, nc);
+  out->constraint_jacobian = place(h_G, (size_t)nc * n);
+  out->constraint_gamma = place(h_gamma, nc);
 }
 
 }  // namespace
