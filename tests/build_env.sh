@@ -11,6 +11,8 @@
 # fail MESSAGE; run_logged LOG CMD...; newer_than MARKER PATH... (prints the
 # paths modified after MARKER).
 
+# The variables set here are for the scripts that source this file.
+# shellcheck disable=SC2034
 set -eu
 
 : "${BUILDDIR:?BUILDDIR must name the configured build tree}"
