@@ -174,7 +174,9 @@ struct IrBuilder::Impl {
 
   int num(double v) {
     if (!std::isfinite(v))
-      throw SymError{loc, "the equations contain a non-finite constant (division by zero?)"};
+      throw SymError{loc, "the equations contain a constant that is not a finite real number "
+                          "(a square root or logarithm of a negative number, or a division "
+                          "by zero)"};
     if (v == 0) v = 0;  /* -0 and 0 are one node */
     TNode n = blank(IR_NUM);
     n.num = v;

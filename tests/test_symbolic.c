@@ -741,38 +741,66 @@ END_TEST
 
 /* ------------------------------------------------------------ exact derivatives */
 
-/* dM/dq, df/dq, df/dqd against central differences of M and f. */
+/* dM/dq, df/dq, df/dqd, df/du against central differences of M and f,
+** on the pendulum and on a damped, driven body in a gimbal. */
 START_TEST(derivatives_match_finite_differences) {
-  Derived d;
-  derive_ok(&d, double_pendulum);
+  static const char gimbal[] =
+    "coord a, b\n"
+    "param A = 0.3\n"
+    "param B = 0.5\n"
+    "param C = 0.9\n"
+    "param c = 0.2\n"
+    "input u1\n"
+    "body rotor mass 1.5 at [0.1*cos(a), 0, 0.2*sin(b)] orient rotz(a)*rotx(b) "
+    "inertia diag(A, B, C)\n"
+    "gravity [0, 0, -9.81]\n"
+    "dissipation c/2*(a'^2 + a'*b' + b'^2)\n"
+    "force a = u1*cos(b)*b'\n";
+  const char *const texts[] = {double_pendulum, gimbal};
   const int n = 2;
   const double h = 1e-6;
-  State s;
-  for (int trial = 0; trial < 5; trial++) {
-    random_state(&d, &s);
-    double *v = eval_graph(&d.sys.g, &s);
-    for (int k = 0; k < n; k++) {
-      double Mp[4], Mm[4], fp[2], fm[2];
-      State a = s, b = s;
-      a.q[k] += h, b.q[k] -= h;
-      mass_forcing(&d, &a, Mp, fp);
-      mass_forcing(&d, &b, Mm, fm);
-      for (int ij = 0; ij < n * n; ij++)
-        assert_close(v[d.sys.dmass_dq[k * n * n + ij]], (Mp[ij] - Mm[ij]) / (2 * h), 1e-7,
-                     "dM/dq");
-      for (int i = 0; i < n; i++)
-        assert_close(v[d.sys.dforcing_dq[i * n + k]], (fp[i] - fm[i]) / (2 * h), 1e-7, "df/dq");
-      a = s, b = s;
-      a.qd[k] += h, b.qd[k] -= h;
-      mass_forcing(&d, &a, Mp, fp);
-      mass_forcing(&d, &b, Mm, fm);
-      for (int i = 0; i < n; i++)
-        assert_close(v[d.sys.dforcing_dqd[i * n + k]], (fp[i] - fm[i]) / (2 * h), 1e-7,
-                     "df/dqd");
+  for (size_t m = 0; m < sizeof texts / sizeof texts[0]; m++) {
+    Derived d;
+    derive_ok(&d, texts[m]);
+    ck_assert_int_eq(d.sys.nq, n);
+    State s;
+    for (int trial = 0; trial < 5; trial++) {
+      random_state(&d, &s);
+      double *v = eval_graph(&d.sys.g, &s);
+      for (int k = 0; k < n; k++) {
+        double Mp[4], Mm[4], fp[2], fm[2];
+        State a = s, b = s;
+        a.q[k] += h, b.q[k] -= h;
+        mass_forcing(&d, &a, Mp, fp);
+        mass_forcing(&d, &b, Mm, fm);
+        for (int ij = 0; ij < n * n; ij++)
+          assert_close(v[d.sys.dmass_dq[k * n * n + ij]], (Mp[ij] - Mm[ij]) / (2 * h), 1e-7,
+                       "dM/dq");
+        for (int i = 0; i < n; i++)
+          assert_close(v[d.sys.dforcing_dq[i * n + k]], (fp[i] - fm[i]) / (2 * h), 1e-7,
+                       "df/dq");
+        a = s, b = s;
+        a.qd[k] += h, b.qd[k] -= h;
+        mass_forcing(&d, &a, Mp, fp);
+        mass_forcing(&d, &b, Mm, fm);
+        for (int i = 0; i < n; i++)
+          assert_close(v[d.sys.dforcing_dqd[i * n + k]], (fp[i] - fm[i]) / (2 * h), 1e-7,
+                       "df/dqd");
+      }
+      for (int k = 0; k < d.sys.nu; k++) {
+        double Mp[4], Mm[4], fp[2], fm[2];
+        State a = s, b = s;
+        a.u[k] += h, b.u[k] -= h;
+        mass_forcing(&d, &a, Mp, fp);
+        mass_forcing(&d, &b, Mm, fm);
+        for (int i = 0; i < n; i++)
+          assert_close(v[d.sys.dforcing_du[i * d.sys.nu + k]], (fp[i] - fm[i]) / (2 * h), 1e-7,
+                       "df/du");
+      }
+      free(v);
     }
-    free(v);
+    derived_free(&d);
   }
-  derived_free(&d);
 }
 END_TEST
 
@@ -864,6 +892,22 @@ START_TEST(non_quadratic_lagrangian_is_an_error) {
 }
 END_TEST
 
+/* The same through the rate of a let: the check sees through atoms. */
+START_TEST(non_quadratic_through_a_let_is_an_error) {
+  Derived d;
+  derive(&d,
+         "coord x\n"
+         "param m = 1\n"
+         "let s = sin(x)\n"
+         "kinetic m/2*x'^2\n"
+         "potential x^2\n"
+         "lagrangian s'^2*s'^2*m\n");
+  ck_assert_int_eq(d.status, 1);
+  ck_assert_msg(has_error(&d, 6, "not quadratic"), "error on line 6 expected");
+  derived_free(&d);
+}
+END_TEST
+
 /* Terms that cancel are not a dependence: structurally (GiNaC cancels
 ** x'^3 - x'^3) and only numerically (sin^2 + cos^2 - 1 stays). */
 START_TEST(cancelling_rate_terms_are_accepted) {
@@ -939,6 +983,7 @@ Suite *symbolic_suite(void) {
   suite_add_tcase(s, tc);
   tc = tcase_create("errors");
   tcase_add_test(tc, non_quadratic_lagrangian_is_an_error);
+  tcase_add_test(tc, non_quadratic_through_a_let_is_an_error);
   tcase_add_test(tc, cancelling_rate_terms_are_accepted);
   tcase_add_test(tc, time_limit_is_an_error);
   tcase_add_test(tc, body_without_inertia_is_an_error);
