@@ -13,7 +13,9 @@
 **     depend on GiNaC's term order (which moves with address randomisation).
 **  3. Number the nodes depth first from the roots, in root order: the
 **     numbering depends only on the roots' content.
-** Constants are folded along the way (x*0, x+0, x*1, f(number)).
+** Along the way constants are folded (x*0, x+0, x*1, f(number)), sums are
+** factored greedily (a*x + a*y -> a*(x + y), see factor_sum) and given a
+** canonical sign (x - y and y - x share one node).
 */
 #include "symbolic_internal.h"
 
@@ -382,13 +384,12 @@ struct IrBuilder::Impl {
   }
 
   int div(int a, int b) {
-    double va, vb;
+    double vb;
     if (is_num(b, &vb)) {
       if (vb == 0) throw SymError{loc, "the equations divide by zero"};
       return scale(1 / vb, a);
     }
     if (is_num_value(a, 0)) return num(0);
-    (void)va;
     TNode n = blank(IR_DIV);
     n.args = {a, b};
     return intern(n);

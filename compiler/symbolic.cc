@@ -3,16 +3,22 @@
 **
 ** The model's expressions become GiNaC expressions over symbols for t, q,
 ** q', q'', u and p; constants are folded to exact rationals.  Then, with
-** L = T - V + (lagrangian terms) and D the dissipation function,
-**   M_ij = d2L/dq'_i dq'_j
-**   f_i  = dL/dq_i - sum_j d2L/dq'_i dq_j q'_j - d2L/dq'_i dt - dD/dq'_i + Q_i
-** plus the exact derivatives the generated Jacobian needs, and everything is
-** handed to ir_build.cc as the roots of one IrGraph.
+** L = T - V + (lagrangian terms), D the dissipation function and Q the
+** generalized forces, the Euler-Lagrange expressions
+**   E_i = d/dt dL/dq'_i - dL/dq_i
+** are linear in q'': M_ij = dE_i/dq''_j and f_i = Q_i - dD/dq'_i - E_i(q'' = 0).
+** Rates of lets are kept as symbols ("atoms") while differentiating, which
+** keeps E free of the terms that cancel in the textbook form (see Atom).
+** Also derived: the exact dM/dq, df/dq, df/dq', df/du the generated
+** Jacobian needs, the inverse dynamics, T and V (T: kinetic terms and
+** bodies; V: potential terms and gravity; lagrangian terms count in
+** neither), outputs and constraints.  Everything is handed to ir_build.cc
+** as the roots of one IrGraph.
 **
 ** Speed comes from never expanding (products of sums stay as they are) and
 ** from differentiating with a memo per variable: GiNaC shares subtrees, and
 ** its own ex::diff walks a shared subtree once per path to it, while the
-** Deriver below walks each distinct node once per variable.
+** Deriver below walks each distinct node containing its variable once.
 */
 #include "symbolic_internal.h"  /* first: wraps the C headers in extern "C" */
 
