@@ -878,7 +878,7 @@ static void check_constraint(Checker *c, Stmt *s) {
 static void check_statement(Checker *c, Stmt *s, int position) {
   char what[160];
   Unit u;
-  const Unit *shared = NULL;
+  Unit *shared = NULL;   /* `coord a, b [m]`: one unit for the whole list */
   c->nundefined = 0;
   switch (s->kind) {
   case ST_MODEL:
@@ -888,13 +888,12 @@ static void check_statement(Checker *c, Stmt *s, int position) {
   case ST_COORD: case ST_INPUT:
     if (s->kind == ST_COORD) c->has_coord_stmt = 1;
     if (s->ndecls > 0 && s->decls[0]->unit && unit_parse(s->decls[0]->unit, c->d, &u) == 0) {
-      Unit *p = arena_alloc(c->ast->arena, sizeof *p);
-      *p = u;
-      shared = p;
+      shared = arena_alloc(c->ast->arena, sizeof *shared);
+      *shared = u;
     }
     for (int i = 0; i < s->ndecls; i++) {
       declare(c, s->decls[i], SHAPE_SCALAR);
-      s->decls[i]->dim = (Unit *)shared;
+      s->decls[i]->dim = shared;
     }
     break;
   case ST_PARAM: case ST_CONST:
