@@ -33,7 +33,7 @@ typedef struct Model {
 /* Check `ast`; fill `m` (allocated in ast->arena).  Returns the number of errors. */
 int check_model(Ast *ast, Diag *d, Model *m);
 
-/* Built-in functions: name, number of arguments (-1: variadic). */
+/* Built-in functions: name, number of arguments (-1: variadic, -2: not a built-in). */
 int check_builtin_arity(const char *name);
 
 /* Is `s` a reserved word of the model language? */
