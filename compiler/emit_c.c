@@ -28,8 +28,11 @@
 #endif
 
 /* A printed expression larger than this many nodes gets its subexpressions
-** hoisted into temporaries, so no single statement becomes enormous. */
+** hoisted into temporaries, so no single statement becomes enormous.  With
+** --no-cse the limit is far higher: a hoisted node is shared by all its
+** users, which is the very sharing --no-cse is there to leave out. */
 #define MAX_INLINE_NODES 400
+#define MAX_INLINE_NODES_NO_CSE 200000
 /* Integer powers up to this are written as products; larger ones call pow. */
 #define MAX_POW_PRODUCT 8
 
@@ -267,17 +270,17 @@ static void fn_analyse(Emitter *E) {
     if ((x->op == IR_POW && small_int(E, x->args[1], &k) && (k >= 2 || k <= -2)) ||
         (x->op == IR_CALL && x->fn == IRF_SIGN))
       if (!is_leaf(E, x->args[0])) E->tempno[x->args[0]] = 0;
-    int size = 1;
+    long size = 1;
     for (int a = 0; a < x->nargs; a++) {
       int arg = x->args[a];
       size += E->tempno[arg] >= 0 ? 1 : E->size[arg];
     }
-    if (size > MAX_INLINE_NODES) {
+    if (size > (E->no_cse ? MAX_INLINE_NODES_NO_CSE : MAX_INLINE_NODES)) {
       size = 1 + x->nargs;
       for (int a = 0; a < x->nargs; a++)
         if (!is_leaf(E, x->args[a])) E->tempno[x->args[a]] = 0;
     }
-    E->size[n] = size;
+    E->size[n] = (int)size;
   }
   for (int n = 0; n <= hi; n++)
     if (E->uses[n] && E->tempno[n] >= 0) E->tempno[n] = E->ntemps++;
