@@ -320,3 +320,66 @@ const struct eom_model tm_pendulum_bad_jacobian = {
     .mass = pend_mass, .forcing = pend_forcing, .accel = pend_accel, .rhs = pend_rhs,
     .jacobian = bad_jacobian, .energy = pend_energy,
 };
+
+/* ---------------------------------------------------------------- Cartesian pendulum
+** M q'' = f + G^T lambda with G = dphi/dq = [2x, 2y] and G q'' = gamma =
+** -2 (x'^2 + y'^2); lambda from the Schur complement G M^-1 G^T. */
+static void cp_mass(const double *q, const double *p, double *M) {
+  (void)q;
+  M[0] = p[0], M[1] = 0, M[2] = 0, M[3] = p[0];
+}
+static void cp_forcing(double t, const double *q, const double *qd, const double *u,
+                       const double *p, double *f) {
+  (void)t, (void)q, (void)qd, (void)u;
+  f[0] = 0;
+  f[1] = -p[0] * p[2];
+}
+static int cp_accel(double t, const double *q, const double *qd, const double *u,
+                    const double *p, double *qdd) {
+  /* Unconstrained: free fall (what accel() of a constrained model gives). */
+  double f[2];
+  cp_forcing(t, q, qd, u, p, f);
+  qdd[0] = f[0] / p[0];
+  qdd[1] = f[1] / p[0];
+  return 0;
+}
+static void cp_constraint(const double *q, const double *p, double *phi) {
+  phi[0] = q[0] * q[0] + q[1] * q[1] - p[1] * p[1];
+}
+static void cp_constraint_jacobian(const double *q, const double *p, double *G) {
+  (void)p;
+  G[0] = 2 * q[0], G[1] = 2 * q[1];
+}
+static int cp_accel_constrained(double t, const double *q, const double *qd, const double *u,
+                                const double *p, double *qdd, double *lambda) {
+  double f[2], G[2], m = p[0];
+  cp_forcing(t, q, qd, u, p, f);
+  cp_constraint_jacobian(q, p, G);
+  double gamma = -2 * (qd[0] * qd[0] + qd[1] * qd[1]);
+  double s = (G[0] * G[0] + G[1] * G[1]) / m;
+  if (!(s > 0)) return 1;
+  lambda[0] = (gamma - (G[0] * f[0] + G[1] * f[1]) / m) / s;
+  qdd[0] = (f[0] + G[0] * lambda[0]) / m;
+  qdd[1] = (f[1] + G[1] * lambda[0]) / m;
+  return 0;
+}
+static void cp_rhs(double t, const double *x, const double *u, const double *p, double *xdot) {
+  double lambda;
+  memcpy(xdot, x + 2, 2 * sizeof(double));
+  cp_accel_constrained(t, x, x + 2, u, p, xdot + 2, &lambda);
+}
+static void cp_energy(const double *q, const double *qd, const double *p, double *T, double *V) {
+  *T = 0.5 * p[0] * (qd[0] * qd[0] + qd[1] * qd[1]);
+  *V = p[0] * p[2] * q[1];
+}
+static const char *const cp_coords[] = {"x", "y"};
+const struct eom_model tm_cartesian_pendulum = {
+    .abi = EOM_MODEL_ABI, .name = "cartesian_pendulum", .hash = "0",
+    .nq = 2, .nu = 0, .np = 3, .ny = 0, .nc = 1,
+    .coord_names = cp_coords, .coord_units = pend_blank, .coord_descs = pend_blank,
+    .param_names = pend_params, .param_units = pend_blank, .param_descs = pend_blank,
+    .param_defaults = pend_defaults, .q0 = zeros, .qd0 = zeros,
+    .mass = cp_mass, .forcing = cp_forcing, .accel = cp_accel, .rhs = cp_rhs,
+    .jacobian = NULL, .energy = cp_energy, .constraint = cp_constraint,
+    .constraint_jacobian = cp_constraint_jacobian, .accel_constrained = cp_accel_constrained,
+};

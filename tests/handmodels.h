@@ -25,6 +25,9 @@ extern const struct eom_model tm_free_pair;
 /* The pendulum with a jacobian of the wrong sign, as a broken generator
 ** might write it: the runtime must not trust it. */
 extern const struct eom_model tm_pendulum_bad_jacobian;
+/* The simple pendulum in Cartesian coordinates x, y of the bob, held on
+** the circle x^2 + y^2 = L^2 by a constraint (nc = 1); params m, L, g. */
+extern const struct eom_model tm_cartesian_pendulum;
 /* A coordinate whose mass 1 - x vanishes at x = 1: accel() must fail there. */
 extern const struct eom_model tm_vanishing_mass;
 

@@ -145,6 +145,32 @@ START_TEST(kepler_period_and_angular_momentum) {
 }
 END_TEST
 
+/* A constrained model is integrated through accel_constrained(): the
+** Cartesian pendulum must follow the same angle as the pendulum in its
+** angle coordinate, and stay on its circle (index-1 form, constraint drift
+** only at the level of the integration error). */
+START_TEST(constrained_model_follows_angle_model) {
+  static const char *const methods[] = {"dopri", "radau5", "midpoint", "rk4"};
+  static const double tols[] = {1e-8, 1e-6, 1e-4, 1e-6};
+  const double p[] = {1.0, 1.5, 9.81}, theta0 = 1.0;
+  double ref[2] = {theta0, 0};
+  struct eom_report rep;
+  ck_assert_int_eq(run(&tm_pendulum, p, NULL, ref, "dopri", 3, 0, 1e-12, 1e-13, NULL, NULL, &rep),
+                   EOM_OK);
+  for (int k = 0; k < 4; k++) {
+    double x[4] = {p[1] * sin(theta0), -p[1] * cos(theta0), 0, 0};
+    int st = run(&tm_cartesian_pendulum, p, NULL, x, methods[k], 3, 0.001, 1e-11, 1e-12, NULL,
+                 NULL, &rep);
+    ck_assert_msg(st == EOM_OK, "%s: %s", methods[k], rep.message);
+    double theta = atan2(x[0], -x[1]);
+    ck_assert_msg(fabs(theta - ref[0]) < tols[k], "%s: theta %.12g, want %.12g", methods[k], theta,
+                  ref[0]);
+    ck_assert_msg(fabs(hypot(x[0], x[1]) - p[1]) < tols[k], "%s: off the circle by %g",
+                  methods[k], hypot(x[0], x[1]) - p[1]);
+  }
+}
+END_TEST
+
 /* ------------------------------------------------------------- order */
 
 /* Error at t = 2 of the oscillator x'' = -x from (1, 0) with fixed steps h. */
@@ -702,6 +728,7 @@ static Suite *runtime_suite(void) {
   tcase_add_test(tc, dopri_dense_output);
   tcase_add_test(tc, kepler_period_and_angular_momentum);
   tcase_add_test(tc, integrator_orders);
+  tcase_add_test(tc, constrained_model_follows_angle_model);
   tcase_add_test(tc, dopri_tolerance_proportionality);
   tcase_add_test(tc, midpoint_energy_bounded);
   tcase_add_test(tc, midpoint_pendulum_no_drift);
