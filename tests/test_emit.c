@@ -124,6 +124,7 @@ static void fixture_free(Fixture *f) {
   free(f->b.g.nodes);
   free(f->s.mass); free(f->s.forcing); free(f->s.dmass_dq); free(f->s.dforcing_dq);
   free(f->s.dforcing_dqd); free(f->s.dforcing_du); free(f->s.inverse); free(f->s.outputs);
+  free(f->s.constraint); free(f->s.constraint_jacobian); free(f->s.constraint_gamma);
 }
 
 /* Mass–spring–damper with a force input:  m x'' = -k x - c x' + F. */
@@ -414,6 +415,82 @@ START_TEST(test_clang_and_prefix) {
 }
 END_TEST
 
+/* A pendulum written in Cartesian coordinates with one holonomic constraint
+** x^2 + y^2 = L^2:  M = m I, f = [0, -m g], G = [2x, 2y] and, from the second
+** time derivative of the constraint, G q'' = -2 (x'^2 + y'^2).  With
+** M q'' = f + G^T lambda:  lambda = (m gamma - G f)/(G G^T)  (derived here
+** from the two equations), and the tangential acceleration of the bob is
+** -g sin(theta) (any mechanics text: the simple pendulum). */
+static void build_cartesian_pendulum(Fixture *f) {
+  B *b = &f->b;
+  memset(f, 0, sizeof *f);
+  fixture_alloc(f, 2, 0, 3, 0);
+  f->m.name = "cp";
+  f->coords[0] = decl(f, 0, DECL_COORD, "x", 0, NULL);
+  f->coords[1] = decl(f, 1, DECL_COORD, "y", 0, NULL);
+  f->params[0] = decl(f, 2, DECL_PARAM, "m", 0.8, NULL);
+  f->params[1] = decl(f, 3, DECL_PARAM, "g", 9.81, NULL);
+  f->params[2] = decl(f, 4, DECL_PARAM, "L", 1.2, NULL);
+  int x = var(b, IRV_Q, 0), y = var(b, IRV_Q, 1), xd = var(b, IRV_QD, 0), yd = var(b, IRV_QD, 1);
+  int m = var(b, IRV_P, 0), g = var(b, IRV_P, 1), L = var(b, IRV_P, 2);
+  f->s.mass[0] = f->s.mass[3] = m;
+  f->s.forcing[1] = neg(b, mul2(b, m, g));
+  f->s.dforcing_dq[0] = f->zero;
+  f->s.inverse[0] = mul2(b, m, var(b, IRV_QDD, 0));
+  f->s.inverse[1] = add2(b, mul2(b, m, var(b, IRV_QDD, 1)), mul2(b, m, g));
+  f->s.energy_T = mul3(b, num(b, 0.5), m, add2(b, powr(b, xd, 2), powr(b, yd, 2)));
+  f->s.energy_V = mul3(b, m, g, y);
+  f->s.nc = 1;
+  f->m.nconstraints = 1;
+  f->s.constraint = ints(1);
+  f->s.constraint_jacobian = ints(2);
+  f->s.constraint_gamma = ints(1);
+  f->s.constraint[0] = add3(b, powr(b, x, 2), powr(b, y, 2), neg(b, powr(b, L, 2)));
+  f->s.constraint_jacobian[0] = mul2(b, num(b, 2), x);
+  f->s.constraint_jacobian[1] = mul2(b, num(b, 2), y);
+  f->s.constraint_gamma[0] = mul2(b, num(b, -2), add2(b, powr(b, xd, 2), powr(b, yd, 2)));
+  f->s.g = b->g;
+}
+
+static const char constrained_driver[] =
+  "#include <stdio.h>\n#include <math.h>\n#include <eom/model.h>\n#include \"cp.h\"\n"
+  "int main(void) {\n"
+  "  double p[cp_NP], q[2], qd[2], qdd[2], lam[1], phi[1], G[2];\n"
+  "  double th = 0.7, w = -1.3, L;\n"
+  "  cp_default_params(p); L = p[2];\n"
+  "  q[0] = L*sin(th); q[1] = -L*cos(th); qd[0] = L*cos(th)*w; qd[1] = L*sin(th)*w;\n"
+  "  if (cp_accel_constrained(0.0, q, qd, 0, p, qdd, lam) != 0) return 1;\n"
+  "  cp_constraint(q, p, phi); cp_constraint_jacobian(q, p, G);\n"
+  "  printf(\"%.17g %.17g %.17g %.17g %.17g %.17g\\n\", qdd[0], qdd[1], lam[0], phi[0], G[0], G[1]);\n"
+  "  printf(\"%d %d\\n\", cp_model.nc, cp_model.accel_constrained != 0);\n"
+  "  q[0] = q[1] = 0.0;   /* G = 0: the constraint gives no direction */\n"
+  "  printf(\"%d\\n\", cp_accel_constrained(0.0, q, qd, 0, p, qdd, lam));\n"
+  "  return 0;\n}\n";
+
+START_TEST(test_constraints) {
+  Fixture f;
+  build_cartesian_pendulum(&f);
+  char *out = compile_and_run(&f, NULL, 0, constrained_driver, cc());
+  double v[6];
+  ck_assert_int_eq(sscanf(out, "%lf %lf %lf %lf %lf %lf", &v[0], &v[1], &v[2], &v[3], &v[4], &v[5]), 6);
+  const double m = 0.8, g = 9.81, L = 1.2, th = 0.7, w = -1.3;
+  double x = L * sin(th), y = -L * cos(th), xd = L * cos(th) * w, yd = L * sin(th) * w;
+  double gamma = -2 * (xd * xd + yd * yd), Gf = 2 * y * -m * g, GG = 4 * (x * x + y * y);
+  double lam = (m * gamma - Gf) / GG;
+  ck_assert_double_eq_tol(v[2], lam, 1e-12);
+  ck_assert_double_eq_tol(v[0], 2 * x * lam / m, 1e-12);
+  ck_assert_double_eq_tol(v[1], -g + 2 * y * lam / m, 1e-12);
+  /* tangential acceleration along (cos th, sin th) is L th'' = -g sin th */
+  ck_assert_double_eq_tol(v[0] * cos(th) + v[1] * sin(th), -g * sin(th), 1e-12);
+  ck_assert_double_eq_tol(v[3], 0.0, 1e-15);
+  ck_assert_double_eq_tol(v[4], 2 * x, 1e-15);
+  ck_assert_double_eq_tol(v[5], 2 * y, 1e-15);
+  ck_assert_ptr_nonnull(strstr(out, "\n1 1\n2\n"));
+  free(out);
+  fixture_free(&f);
+}
+END_TEST
+
 /* Byte-identical output, unchanged files keep their mtime, bad directories. */
 START_TEST(test_files) {
   Fixture f;
@@ -487,6 +564,7 @@ static Suite *emit_suite(void) {
   tcase_add_test(tc, test_oscillator);
   tcase_add_test(tc, test_double_pendulum);
   tcase_add_test(tc, test_clang_and_prefix);
+  tcase_add_test(tc, test_constraints);
   tcase_add_test(tc, test_files);
   tcase_add_test(tc, test_nonfinite_constant);
   suite_add_tcase(s, tc);
