@@ -113,6 +113,8 @@ typedef struct Emitter {
   int *roots;            /* the function's roots */
   int nroots, roots_cap;
   unsigned vars;         /* VAR_BIT of every variable kind the roots read */
+  unsigned missing;      /* ... that the function's signature does not pass */
+  unsigned fixed;        /* ... of those, mentioned but shown not to matter: zero locals */
   int ntemps;
 
   /* The LDLᵀ pattern: slot[i*nq + j] (j <= i) is the index in the packed
@@ -719,15 +721,132 @@ static const Param P_QD = {IRV_QD, "const double *qd", "qd"};
 static const Param P_U = {IRV_U, "const double *u", "u"};
 static const Param P_P = {IRV_P, "const double *p", "p"};
 
+/* ------------------------------------------------------------------ numeric independence */
+
+static double eval_call(IrFn fn, const double *a) {
+  switch (fn) {
+  case IRF_SIN: return sin(a[0]);
+  case IRF_COS: return cos(a[0]);
+  case IRF_TAN: return tan(a[0]);
+  case IRF_ASIN: return asin(a[0]);
+  case IRF_ACOS: return acos(a[0]);
+  case IRF_ATAN: return atan(a[0]);
+  case IRF_ATAN2: return atan2(a[0], a[1]);
+  case IRF_EXP: return exp(a[0]);
+  case IRF_LOG: return log(a[0]);
+  case IRF_SQRT: return sqrt(a[0]);
+  case IRF_ABS: return fabs(a[0]);
+  case IRF_SINH: return sinh(a[0]);
+  case IRF_COSH: return cosh(a[0]);
+  case IRF_TANH: return tanh(a[0]);
+  case IRF_SIGN: return (double)((a[0] > 0) - (a[0] < 0));
+  }
+  return NAN;
+}
+
+/* Value of every node 0..hi for the variable values vals[IrVar]. */
+static void eval_graph(const Emitter *E, int hi, double *const vals[6], double *v) {
+  for (int n = 0; n <= hi; n++) {
+    const IrNode *x = &E->g->nodes[n];
+    double a[2] = {0, 0}, r;
+    switch (x->op) {
+    case IR_NUM: r = x->num; break;
+    case IR_VAR: r = vals[x->var][x->var == IRV_T ? 0 : x->index]; break;
+    case IR_ADD: r = 0; for (int i = 0; i < x->nargs; i++) r += v[x->args[i]]; break;
+    case IR_MUL: r = 1; for (int i = 0; i < x->nargs; i++) r *= v[x->args[i]]; break;
+    case IR_NEG: r = -v[x->args[0]]; break;
+    case IR_DIV: r = v[x->args[0]] / v[x->args[1]]; break;
+    case IR_POW: r = pow(v[x->args[0]], v[x->args[1]]); break;
+    case IR_CALL:
+      for (int i = 0; i < x->nargs && i < 2; i++) a[i] = v[x->args[i]];
+      r = eval_call(x->fn, a);
+      break;
+    default: r = NAN; break;
+    }
+    v[n] = r;
+  }
+}
+
+static double lcg_uniform(unsigned long *s) {   /* in [-1, 1), deterministic */
+  *s = (*s * 6364136223846793005UL + 1442695040888963407UL) & 0xffffffffffffUL;
+  return (double)(*s >> 16) / 16777216.0 * 2.0 - 1.0;
+}
+
+/* Do the function's roots, which mention the variables in `vars` (t, u),
+** give the same values whatever those are?  Symbolic results can mention t
+** without depending on it (cos(w t)^2 + sin(w t)^2 left unsimplified), so
+** evaluate at random states with several values of `vars` and compare. */
+static int independent_of(const Emitter *E, unsigned vars) {
+  const EomSystem *s = E->s;
+  int hi = 0, compared = 0, ok = 1;
+  unsigned long seed = 12345;
+  for (int i = 0; i < E->nroots; i++) hi = E->roots[i] > hi ? E->roots[i] : hi;
+  double t[1], *q = calloc((size_t)s->nq + 1, sizeof(double)), *qd = calloc((size_t)s->nq + 1, sizeof(double)),
+         *qdd = calloc((size_t)s->nq + 1, sizeof(double)), *u = calloc((size_t)s->nu + 1, sizeof(double)),
+         *p = calloc((size_t)s->np + 1, sizeof(double)), *v0 = malloc(((size_t)hi + 1) * sizeof(double)),
+         *v1 = malloc(((size_t)hi + 1) * sizeof(double));
+  double *const vals[6] = {t, q, qd, qdd, u, p};
+  assert(q && qd && qdd && u && p && v0 && v1);
+  for (int sample = 0; ok && sample < 4; sample++) {
+    for (int i = 0; i < s->nq; i++) {
+      q[i] = 1.5 * lcg_uniform(&seed);
+      qd[i] = 2.0 * lcg_uniform(&seed);
+      qdd[i] = 2.0 * lcg_uniform(&seed);
+    }
+    for (int i = 0; i < s->np; i++) {
+      double d = E->m->params[i]->number;
+      p[i] = d != 0.0 ? d * (1.0 + 0.2 * lcg_uniform(&seed)) : 0.5 * lcg_uniform(&seed);
+    }
+    for (int i = 0; i < s->nu; i++) u[i] = lcg_uniform(&seed);
+    t[0] = 5.0 * lcg_uniform(&seed);
+    eval_graph(E, hi, vals, v0);
+    for (int alt = 0; ok && alt < 3; alt++) {
+      if (vars & VAR_BIT(IRV_T)) t[0] = 10.0 * lcg_uniform(&seed);
+      if (vars & VAR_BIT(IRV_U))
+        for (int i = 0; i < s->nu; i++) u[i] = 3.0 * lcg_uniform(&seed);
+      eval_graph(E, hi, vals, v1);
+      for (int i = 0; i < E->nroots; i++) {
+        double a = v0[E->roots[i]], b = v1[E->roots[i]];
+        if (!isfinite(a) || !isfinite(b)) continue;
+        if (fabs(a - b) > 1e-9 * fmax(1.0, fabs(a))) ok = 0;
+        compared++;
+      }
+    }
+  }
+  free(q), free(qd), free(qdd), free(u), free(p), free(v0), free(v1);
+  return ok && compared > 0;
+}
+
+/* After fn_analyse: 0 when the function can be written (variables that are
+** mentioned but do not matter become zero locals), 1 when it must write NaN. */
+static int resolve_missing(Emitter *E, unsigned allowed) {
+  E->missing = E->vars & ~allowed;
+  E->fixed = 0;
+  if (!E->missing) return 0;
+  if (E->missing & ~(VAR_BIT(IRV_T) | VAR_BIT(IRV_U))) return 1;
+  if (!independent_of(E, E->missing)) return 1;
+  E->fixed = E->missing;
+  return 0;
+}
+
+/* The zero locals resolve_missing() decided on. */
+static void emit_fixed_locals(Emitter *E) {
+  if (!E->fixed) return;
+  fprintf(E->out, "  /* The expressions below mention %s but do not depend on it (checked\n"
+                  "  ** numerically when the code was generated): any value will do. */\n",
+          var_list(E->fixed));
+  if (E->fixed & VAR_BIT(IRV_T)) fprintf(E->out, "  const double t = 0.0;\n");
+  if (E->fixed & VAR_BIT(IRV_U)) fprintf(E->out, "  const double u[%d] = {0.0};\n", E->s->nu);
+}
+
 /* The quantity reads a variable the SPEC signature does not pass (e.g. a
 ** mass matrix that depends on t): the function writes NaN rather than a
 ** value computed at a made-up time.  The header says so. */
 static void emit_nan_body(Emitter *E, const Param *ps, int nps, const char *what,
                           const char *fill) {
-  unsigned missing = E->vars;
   E->vars = 0;
   fprintf(E->out, "  /* %s depends on %s, which this signature does not pass: NaN. */\n", what,
-          var_list(missing));
+          var_list(E->missing));
   emit_unused(E, ps, nps);
   fputs(fill, E->out);
 }
@@ -740,12 +859,13 @@ static void emit_mass(Emitter *E) {
   add_lower(E, E->s->mass);
   fn_analyse(E);
   emit_signature(E, "void", "mass", ps, NPARAMS(ps), 0);
-  if (needs_missing(E, VAR_BIT(IRV_Q) | VAR_BIT(IRV_P))) {
+  if (resolve_missing(E, VAR_BIT(IRV_Q) | VAR_BIT(IRV_P))) {
     char fill[128];
     snprintf(fill, sizeof fill, "  int i;\n  for (i = 0; i < %d; i++) M[i] = NAN;\n", nq * nq);
     emit_nan_body(E, ps, NPARAMS(ps), "M", fill);
   } else {
     emit_unused(E, ps, NPARAMS(ps));
+    emit_fixed_locals(E);
     emit_temps(E);
     for (int i = 0; i < nq; i++)
       for (int j = 0; j <= i; j++) {
@@ -932,12 +1052,13 @@ static void emit_inverse(Emitter *E) {
   add_roots(E, E->s->inverse, E->s->nq);
   fn_analyse(E);
   emit_signature(E, "void", "inverse", ps, NPARAMS(ps), 0);
-  if (needs_missing(E, allowed)) {
+  if (resolve_missing(E, allowed)) {
     char fill[128];
     snprintf(fill, sizeof fill, "  int i;\n  for (i = 0; i < %d; i++) Q[i] = NAN;\n", E->s->nq);
     emit_nan_body(E, ps, NPARAMS(ps), "Q", fill);
   } else {
     emit_unused(E, ps, NPARAMS(ps));
+    emit_fixed_locals(E);
     emit_temps(E);
     for (int i = 0; i < E->s->nq; i++) {
       snprintf(lhs, sizeof lhs, "Q[%d]", i);
@@ -954,10 +1075,11 @@ static void emit_energy(Emitter *E) {
   add_root(E, E->s->energy_V);
   fn_analyse(E);
   emit_signature(E, "void", "energy", ps, NPARAMS(ps), 0);
-  if (needs_missing(E, VAR_BIT(IRV_Q) | VAR_BIT(IRV_QD) | VAR_BIT(IRV_P))) {
+  if (resolve_missing(E, VAR_BIT(IRV_Q) | VAR_BIT(IRV_QD) | VAR_BIT(IRV_P))) {
     emit_nan_body(E, ps, NPARAMS(ps), "the energy", "  *T = NAN;\n  *V = NAN;\n");
   } else {
     emit_unused(E, ps, NPARAMS(ps));
+    emit_fixed_locals(E);
     emit_temps(E);
     emit_assign(E, "*T", E->s->energy_T);
     emit_assign(E, "*V", E->s->energy_V);
@@ -991,12 +1113,13 @@ static void emit_constraint(Emitter *E) {
   add_roots(E, E->s->constraint, nc);
   fn_analyse(E);
   emit_signature(E, "void", "constraint", ps, NPARAMS(ps), 0);
-  if (needs_missing(E, VAR_BIT(IRV_Q) | VAR_BIT(IRV_P))) {
+  if (resolve_missing(E, VAR_BIT(IRV_Q) | VAR_BIT(IRV_P))) {
     char fill[128];
     snprintf(fill, sizeof fill, "  int i;\n  for (i = 0; i < %d; i++) phi[i] = NAN;\n", nc);
     emit_nan_body(E, ps, NPARAMS(ps), "phi", fill);
   } else {
     emit_unused(E, ps, NPARAMS(ps));
+    emit_fixed_locals(E);
     emit_temps(E);
     for (int i = 0; i < nc; i++) {
       snprintf(lhs, sizeof lhs, "phi[%d]", i);
@@ -1014,12 +1137,13 @@ static void emit_constraint_jacobian(Emitter *E) {
   add_roots(E, E->s->constraint_jacobian, nc * nq);
   fn_analyse(E);
   emit_signature(E, "void", "constraint_jacobian", ps, NPARAMS(ps), 0);
-  if (needs_missing(E, VAR_BIT(IRV_Q) | VAR_BIT(IRV_P))) {
+  if (resolve_missing(E, VAR_BIT(IRV_Q) | VAR_BIT(IRV_P))) {
     char fill[128];
     snprintf(fill, sizeof fill, "  int i;\n  for (i = 0; i < %d; i++) G[i] = NAN;\n", nc * nq);
     emit_nan_body(E, ps, NPARAMS(ps), "G", fill);
   } else {
     emit_unused(E, ps, NPARAMS(ps));
+    emit_fixed_locals(E);
     emit_temps(E);
     for (int i = 0; i < nc * nq; i++) {
       snprintf(lhs, sizeof lhs, "G[%d]", i);

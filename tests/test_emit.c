@@ -491,6 +491,36 @@ START_TEST(test_constraints) {
 }
 END_TEST
 
+/* A mass matrix that really depends on t cannot be written by P_mass(q, p):
+** it writes NaN, while P_accel (which has t) still solves. */
+static const char timevarying_driver[] =
+  "#include <stdio.h>\n#include <math.h>\n#include \"tv.h\"\n"
+  "int main(void) {\n"
+  "  double p[tv_NP], x[2] = {0.1, 0.0}, u[1] = {0.0}, M[1], a[1];\n"
+  "  tv_default_params(p);\n"
+  "  tv_mass(x, p, M);\n"
+  "  if (tv_accel(0.5, x, x + 1, u, p, a) != 0) return 1;\n"
+  "  printf(\"%d %.17g\\n\", isnan(M[0]) != 0, a[0]);\n"
+  "  return 0;\n}\n";
+
+START_TEST(test_time_dependent_mass) {
+  Fixture f;
+  build_oscillator(&f, "tv", NULL);
+  B *b = &f.b;
+  /* M = m (2 + sin t) */
+  f.s.mass[0] = mul2(b, var(b, IRV_P, 0), add2(b, num(b, 2.0), call(b, IRF_SIN, var(b, IRV_T, 0))));
+  f.s.g = b->g;
+  char *out = compile_and_run(&f, NULL, 0, timevarying_driver, cc());
+  int isnan_m;
+  double a;
+  ck_assert_int_eq(sscanf(out, "%d %lf", &isnan_m, &a), 2);
+  ck_assert_int_eq(isnan_m, 1);
+  ck_assert_double_eq_tol(a, (-50.0 * 0.1) / (2.0 * (2.0 + sin(0.5))), 1e-14);
+  free(out);
+  fixture_free(&f);
+}
+END_TEST
+
 /* Byte-identical output, unchanged files keep their mtime, bad directories. */
 START_TEST(test_files) {
   Fixture f;
@@ -565,6 +595,7 @@ static Suite *emit_suite(void) {
   tcase_add_test(tc, test_double_pendulum);
   tcase_add_test(tc, test_clang_and_prefix);
   tcase_add_test(tc, test_constraints);
+  tcase_add_test(tc, test_time_dependent_mass);
   tcase_add_test(tc, test_files);
   tcase_add_test(tc, test_nonfinite_constant);
   suite_add_tcase(s, tc);

@@ -324,7 +324,7 @@ END_TEST
 ** whatever the time (the model is written in the non-rotating frame). */
 START_TEST(test_rotating_hoop) {
   Built b = build_model("tests/models/rotating_hoop.eom", "rotating_hoop", NULL, cc());
-  const double R = 0.4, w = 6, g = 9.81;
+  const double m = 0.05, R = 0.4, w = 6, g = 9.81;
   const double st[][3] = {{0.0, 0.3, 0.0}, {0.37, 1.2, -2.0}, {2.5, -2.7, 0.4}, {11.0, 0.01, 5.0}};
   char input[1024] = "";
   for (int k = 0; k < 4; k++) {
@@ -334,8 +334,13 @@ START_TEST(test_rotating_hoop) {
   }
   char *out = drive(&b, input);
   for (int k = 0; k < 4; k++) {
-    double q = st[k][1];
+    double q = st[k][1], qd = st[k][2];
     CHECK_REL(get1(out, k, "qdd", 0), w * w * sin(q) * cos(q) - g / R * sin(q), 1e-12);
+    /* T = 1/2 m R^2 (q'^2 + w^2 sin^2 q), V = -m g R cos q: the expressions
+    ** mention t (as cos^2(w t) + sin^2(w t)) but do not depend on it. */
+    CHECK_REL(get1(out, k, "M", 0), m * R * R, 1e-13);
+    CHECK_REL(get1(out, k, "TV", 0), 0.5 * m * R * R * (qd * qd + w * w * sin(q) * sin(q)), 1e-12);
+    CHECK_REL(get1(out, k, "TV", 1), -m * g * R * cos(q), 1e-13);
     check_jacobian(out, k, 2, 0);
   }
   free(out);
