@@ -310,7 +310,16 @@ struct IrBuilder::Impl {
   }
 
   /* The sum of already factored parts. */
-  int make_sum(std::vector<int> rest) {
+  int make_sum(std::vector<int> parts) {
+    /* factoring can leave numbers among the parts: 2*x - 2*x is x*(2 - 2) */
+    double c = 0;
+    std::vector<int> rest;
+    for (int a : parts) {
+      double v;
+      if (is_num(a, &v)) c += v;
+      else rest.push_back(a);
+    }
+    if (c != 0) rest.push_back(num(c));
     if (rest.empty()) return num(0);
     if (rest.size() == 1) return rest[0];
     /* x - y and y - x are one node (and a NEG): GiNaC picks either sign for
@@ -341,16 +350,53 @@ struct IrBuilder::Impl {
 
   /* Product of non-numeric factors, no coefficient. */
   int product(const std::vector<int> &factors) {
-    if (factors.empty()) return num(1);
-    if (factors.size() == 1) return factors[0];
+    /* products are flat, so that (a*b)*c and a*(b*c) are one node, and
+    ** repeated factors are powers: x * x^2 is x^3 */
+    std::vector<std::pair<int, double>> powers;  /* base, exponent */
+    auto push = [&](int a) {
+      const TNode &n = nodes[a];
+      double k;
+      if (n.op == IR_POW && is_num(n.args[1], &k)) powers.push_back({n.args[0], k});
+      else powers.push_back({a, 1});
+    };
+    for (int a : factors) {
+      double v;
+      int x;
+      assert(!is_num(a) && nodes[a].op != IR_NEG && !scaled(a, &v, &x));
+      (void)v, (void)x;
+      if (nodes[a].op == IR_MUL)
+        for (int b : std::vector<int>(nodes[a].args)) push(b);
+      else
+        push(a);
+    }
+    std::sort(powers.begin(), powers.end());
+    std::vector<int> flat;
+    for (size_t i = 0; i < powers.size();) {
+      size_t j = i;
+      double k = 0;
+      for (; j < powers.size() && powers[j].first == powers[i].first; j++) k += powers[j].second;
+      int f = pow_num(powers[i].first, k);
+      assert(!is_num(f));
+      if (nodes[f].op == IR_MUL)  /* b^(n + 1/2) = b^n * sqrt(b) */
+        for (int b : std::vector<int>(nodes[f].args)) flat.push_back(b);
+      else
+        flat.push_back(f);
+      i = j;
+    }
+    if (flat.size() == 1) return flat[0];
+    if (flat.empty()) return num(1);
     TNode n = blank(IR_MUL);
-    n.args = factors;
+    n.args = flat;
     return intern(n);
   }
 
   /* c * x with the coefficient kept outside x, so x is shared. */
   int scale(double c, int x) {
     double v;
+    int y;
+    /* one normal form for c*x: x carries no sign and no coefficient */
+    if (nodes[x].op == IR_NEG) c = -c, x = nodes[x].args[0];
+    if (scaled(x, &v, &y)) c *= v, x = y;
     if (c == 0 || is_num_value(x, 0)) return num(0);
     if (is_num(x, &v)) return num(c * v);
     if (c == 1) return x;
@@ -383,16 +429,31 @@ struct IrBuilder::Impl {
     return scale(c, product(rest));
   }
 
-  int div(int a, int b) {
-    double vb;
-    if (is_num(b, &vb)) {
-      if (vb == 0) throw SymError{loc, "the equations divide by zero"};
-      return scale(1 / vb, a);
+  /* x = c * core, with core unsigned and free of a numeric coefficient
+  ** (a number has core 1). */
+  int strip(int x, double *c) {
+    double v;
+    int y;
+    if (is_num(x, &v)) {
+      *c *= v;
+      return num(1);
     }
-    if (is_num_value(a, 0)) return num(0);
+    if (nodes[x].op == IR_NEG) *c = -*c, x = nodes[x].args[0];
+    if (scaled(x, &v, &y)) *c *= v, x = y;
+    return x;
+  }
+
+  int div(int a, int b) {
+    double ca = 1, cb = 1;
+    a = strip(a, &ca);
+    b = strip(b, &cb);
+    if (cb == 0) throw SymError{loc, "the equations divide by zero"};
+    if (ca == 0) return num(0);
+    /* signs and coefficients go outside: (-2a)/(3b) is -2/3 * (a/b) */
+    if (is_num_value(b, 1)) return scale(ca / cb, a);
     TNode n = blank(IR_DIV);
     n.args = {a, b};
-    return intern(n);
+    return scale(ca / cb, intern(n));
   }
 
   int call(IrFn fn, const std::vector<int> &args) {
@@ -400,6 +461,16 @@ struct IrBuilder::Impl {
     std::vector<double> v(args.size());
     for (size_t i = 0; i < args.size(); i++) constant = constant && is_num(args[i], &v[i]);
     if (constant) return num(eval_fn(fn, v.data()));
+    if (args.size() == 1 && negative(args[0])) {
+      /* f(-x) by parity: one node for sin(a - b) and sin(b - a) */
+      int x = neg(args[0]);
+      switch (fn) {
+        case IRF_COS: case IRF_COSH: case IRF_ABS: return call(fn, {x});
+        case IRF_SIN: case IRF_TAN: case IRF_ASIN: case IRF_ATAN: case IRF_SINH:
+        case IRF_TANH: case IRF_SIGN: return neg(call(fn, {x}));
+        default: break;
+      }
+    }
     TNode n = blank(IR_CALL);
     n.fn = fn;
     n.args = args;
@@ -413,6 +484,12 @@ struct IrBuilder::Impl {
     if (is_num(base, &v)) return num(std::pow(v, k));
     if (k == 0.5) return call(IRF_SQRT, {base});
     if (k < 0) return div(num(1), pow_num(base, -k));
+    if (k == std::floor(k)) {
+      /* (c x)^k = c^k x^k for integer k: no sign or coefficient inside */
+      double c = 1;
+      int x = strip(base, &c);
+      if (c != 1) return scale(std::pow(c, k), pow_num(x, k));
+    }
     /* b^(n + 1/2) = b^n * sqrt(b): the sqrt node is shared with its other uses */
     if (k - std::floor(k) == 0.5 && k < 8)
       return mul({pow_num(base, std::floor(k)), call(IRF_SQRT, {base})});

@@ -840,6 +840,78 @@ START_TEST(graph_is_deterministic) {
 }
 END_TEST
 
+/* FNV-1a digest of a derived system's graph and roots. */
+static void fnv(uint64_t *h, uint64_t v) {
+  for (int b = 0; b < 8; b++, v >>= 8) *h = (*h ^ (v & 0xff)) * 1099511628211ULL;
+}
+
+static uint64_t graph_digest(const EomSystem *s) {
+  uint64_t h = 1469598103934665603ULL;
+  for (int i = 0; i < s->g.nnodes; i++) {
+    const IrNode *n = &s->g.nodes[i];
+    uint64_t bits;
+    memcpy(&bits, &n->num, sizeof bits);
+    fnv(&h, (uint64_t)n->op);
+    fnv(&h, (uint64_t)n->nargs);
+    if (n->op == IR_NUM) fnv(&h, bits);
+    if (n->op == IR_VAR) fnv(&h, (uint64_t)n->var * 1000003u + (uint64_t)n->index);
+    if (n->op == IR_CALL) fnv(&h, (uint64_t)n->fn);
+    for (int k = 0; k < n->nargs; k++) fnv(&h, (uint64_t)n->args[k]);
+  }
+  for (int i = 0; i < s->nq * s->nq; i++) {
+    fnv(&h, (uint64_t)s->mass[i]);
+    fnv(&h, (uint64_t)s->dforcing_dq[i]);
+    fnv(&h, (uint64_t)s->dforcing_dqd[i]);
+  }
+  for (int i = 0; i < s->nq; i++) {
+    fnv(&h, (uint64_t)s->forcing[i]);
+    fnv(&h, (uint64_t)s->inverse[i]);
+  }
+  fnv(&h, (uint64_t)s->energy_T);
+  fnv(&h, (uint64_t)s->energy_V);
+  return h;
+}
+
+static const char rotating_arm[] =
+  "coord a, b, c\n"
+  "param A = 0.3\n"
+  "param B = 0.5\n"
+  "param C = 0.9\n"
+  "param l = 0.4\n"
+  "let R1 = rotz(a)\n"
+  "let R2 = R1*roty(b)\n"
+  "let R3 = R2*rotz(c)\n"
+  "body b1 mass 1 at R1*[l, 0, 0] orient R1 inertia diag(A, B, C)\n"
+  "body b2 mass 2 at R1*[l, 0, 0] + R2*[l, 0, 0] orient R2 inertia diag(B, A, C)\n"
+  "body b3 mass 1 at R1*[l, 0, 0] + R2*[l, 0, 0] + R3*[0, l, 0] orient R3 "
+  "inertia diag(C, B, A)\n"
+  "gravity [0, 0, -9.81]\n";
+
+/* GiNaC orders terms by hashes seeded from addresses, which move from one
+** run to the next (address randomisation): derive the same model in fresh
+** processes (this program re-run with --graph-digest) and compare. */
+START_TEST(graph_is_deterministic_across_runs) {
+  char *path = write_temp_model(rotating_arm);
+  char first[64] = "", line[64], self[4096];
+  ssize_t len = readlink("/proc/self/exe", self, sizeof self - 1);
+  ck_assert_int_gt((int)len, 0);
+  self[len] = 0;
+  for (int run = 0; run < 3; run++) {
+    char cmd[8192];
+    snprintf(cmd, sizeof cmd, "'%s' --graph-digest '%s'", self, path);
+    FILE *p = popen(cmd, "r");
+    ck_assert_ptr_nonnull(p);
+    ck_assert_ptr_nonnull(fgets(line, sizeof line, p));
+    ck_assert_int_eq(pclose(p), 0);
+    ck_assert_int_eq((int)strlen(line), 17);  /* 16 hex digits and a newline */
+    if (run == 0) strcpy(first, line);
+    ck_assert_str_eq(line, first);
+  }
+  remove_temp_model(path);
+  free(path);
+}
+END_TEST
+
 /* Hash-consing: no two nodes are equal, sums/products carry >= 2 arguments,
 ** no foldable constants remain, and each sin/cos argument has one node. */
 START_TEST(graph_is_hash_consed) {
@@ -979,6 +1051,7 @@ Suite *symbolic_suite(void) {
   tcase_set_timeout(tc, 120);
   tcase_add_test(tc, derivatives_match_finite_differences);
   tcase_add_test(tc, graph_is_deterministic);
+  tcase_add_test(tc, graph_is_deterministic_across_runs);
   tcase_add_test(tc, graph_is_hash_consed);
   suite_add_tcase(s, tc);
   tc = tcase_create("errors");
@@ -991,7 +1064,19 @@ Suite *symbolic_suite(void) {
   return s;
 }
 
-int main(void) {
+int main(int argc, char **argv) {
+  if (argc == 3 && strcmp(argv[1], "--graph-digest") == 0) {
+    /* the child of graph_is_deterministic_across_runs */
+    Frontend fe;
+    EomSystem sys;
+    SymOptions opt = {0, 0};
+    if (frontend_load(&fe, argv[2]) != 0 || sym_derive(&fe.model, &opt, &fe.diag, &sys) != 0)
+      return 1;
+    printf("%016llx\n", (unsigned long long)graph_digest(&sys));
+    sym_free(&sys);
+    frontend_free(&fe);
+    return 0;
+  }
   SRunner *sr = srunner_create(symbolic_suite());
   srunner_run_all(sr, CK_NORMAL);
   int failed = srunner_ntests_failed(sr);
