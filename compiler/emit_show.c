@@ -154,13 +154,43 @@ static void put_var(Show *S, Text *t, const IrNode *x) {
   else put(t, name);
 }
 
-static void put_number(Text *t, double v) {
+/* A simple fraction n/d (d <= 12) that equals v, as GiNaC's rationals arrive
+** here as doubles: 1/3 reads better than 0.3333333333333333. */
+static int as_fraction(double v, long *num, long *den) {
+  if (v == floor(v) || !(fabs(v) < 1e6)) return 0;
+  for (long d = 2; d <= 12; d++) {
+    double n = v * d;
+    if (fabs(n - floor(n + 0.5)) <= 1e-12 * fabs(n)) {
+      *num = (long)floor(n + 0.5);
+      *den = d;
+      return 1;
+    }
+  }
+  return 0;
+}
+
+/* Returns the precedence of what it printed. */
+static int put_number_in(Text *t, double v, int latex) {
   char buf[64];
+  long n, d;
+  if (as_fraction(v, &n, &d)) {
+    if (latex) {
+      putf(t, "%s\\frac{%ld}{%ld}", n < 0 ? "-" : "", labs(n), d);
+      return n < 0 ? PR_ADD : PR_ATOM;
+    }
+    putf(t, "%ld/%ld", n, d);
+    return n < 0 ? PR_ADD : PR_MUL;
+  }
   for (int prec = 12; prec <= 17; prec++) {
     snprintf(buf, sizeof buf, "%.*g", prec, v);
     if (strtod(buf, NULL) == v) break;
   }
   put(t, buf);
+  return v < 0 ? PR_ADD : PR_ATOM;
+}
+
+static void put_number(Text *t, double v) {
+  (void)put_number_in(t, v, 0);
 }
 
 /* ------------------------------------------------------------------ expressions */
@@ -263,7 +293,7 @@ static int put_product(Show *S, Text *t, int n) {
   Text num = {0}, den = {0};
   int wrote = 0;
   if (coef != 1.0 || !nnum) {
-    put_number(&num, coef);
+    put_number_in(&num, coef, S->latex);
     wrote = 1;
   }
   for (int a = 0; a < x->nargs; a++) {
@@ -350,7 +380,7 @@ static int put_mag(Show *S, Text *t, int n) {
     return PR_ATOM;
   }
   switch (x->op) {
-  case IR_NUM: put_number(t, fabs(x->num)); return PR_ATOM;
+  case IR_NUM: return put_number_in(t, fabs(x->num), S->latex);
   case IR_VAR: put_var(S, t, x); return PR_ATOM;
   case IR_NEG: return put_mag(S, t, x->args[0]);
   case IR_ADD: return put_sum(S, t, n);
