@@ -486,7 +486,10 @@ static int yyreport_syntax_error(const yypcontext_t *yyctx, ParseCtx *ctx) {
   } else if (want_name && is_keyword(found)) {
     diag_error(ctx->diag, where, "%s is a reserved word and cannot be used as a name", f);
   } else if (want_expr && !want_end && !had_ops) {
-    if (found_end)
+    if (sym_char(found) == '*' && lx->before_last.kind == '*' &&
+        lx->before_last.start + 1 == lx->last.start)
+      diag_error(ctx->diag, where, "unexpected '**': a power is written with '^', as in x^2");
+    else if (found_end)
       diag_error(ctx->diag, where, "expected an expression%s", after);
     else
       diag_error(ctx->diag, where, "expected an expression%s, found %s", after, f);

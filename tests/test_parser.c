@@ -507,6 +507,7 @@ START_TEST(error_messages) {
   expect_error("x = 2\n", 1, 1, "at the start of a statement");
   expect_error("param m = 1.5 kg\n", 1, 15, "(a unit goes in brackets: [kg])");
   expect_error("let v = [1 2]\n", 1, 12, "unexpected number '2' after '1' (expected an operator, ']' or ',')");
+  expect_error("kinetic x**2\n", 1, 11, "a power is written with '^'");
   expect_error("kinetic 2x^2\n", 1, 10, "unexpected name 'x' after '2' (a product needs '*': 2*x)");
   expect_error("param x 2\n", 1, 9, "expected '=' after 'x', found number '2'");
   expect_error("coord\n", 1, 6, "expected a name after 'coord'");
