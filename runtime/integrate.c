@@ -88,6 +88,8 @@ void sampler_init(Sampler *s, double t0, double t_end, double dt, eom_sample_fn 
 
 double sampler_next(const Sampler *s) {
   if (s->every_step || s->done) return INFINITY;
+  /* Without an extra end sample the last grid point is t_end itself. */
+  if (s->k == s->kmax && !s->end_extra) return s->t_end;
   if (s->k <= s->kmax) return fmin(s->t0 + (double)s->k * s->dt, s->t_end);
   return s->t_end;  /* end_extra */
 }

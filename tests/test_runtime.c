@@ -429,6 +429,19 @@ START_TEST(sample_grid) {
     ck_assert_int_eq(eom_simulate(&tm_oscillator, NULL, NULL, x, &o, count_samples, &cnt, &rep),
                      EOM_OK);
     ck_assert_int_eq(cnt.n, 11);
+    /* 0.3 / 0.1 and 0.7 / 0.1 are not whole numbers in binary: still exactly
+    ** 4 and 8 samples, the last at t_end. */
+    static const double ends[] = {0.3, 0.7};
+    for (int e = 0; e < 2; e++) {
+      o.t_end = ends[e];
+      cnt.n = 0;
+      x[0] = 1, x[1] = 0;
+      ck_assert_int_eq(eom_simulate(&tm_oscillator, NULL, NULL, x, &o, count_samples, &cnt, &rep),
+                       EOM_OK);
+      ck_assert_int_eq(cnt.n, e ? 8 : 4);
+      ck_assert_double_eq(cnt.last_t, ends[e]);
+    }
+    o.t_end = 1;
     x[0] = 1, x[1] = 0;
     ck_assert_int_eq(eom_simulate(&tm_oscillator, NULL, NULL, x, &o, stop_at_half, NULL, &rep),
                      EOM_ESTOPPED);
