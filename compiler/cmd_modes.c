@@ -3,7 +3,8 @@
 ** print the natural frequencies and mode shapes (text or JSON).
 **
 ** Newton starts from the model's initial coordinates with --at overrides;
-** the inputs are held at their --set constants (default 0).  Undamped
+** the inputs are held at their --set constants (default 0) and forces that
+** depend on time explicitly are taken at t = 0.  Undamped
 ** models give K v = omega^2 M v; with damping, the state matrix's
 ** eigenvalues give natural frequencies and damping ratios (modal.c).
 */
@@ -85,13 +86,15 @@ static void print_json(FILE *f, const struct eom_model *m, const double *q,
     fputs(", \"omega_rad_s\": ", f);
     json_num(f, osc || (r->damped && md->kind == MODE_UNSTABLE && md->omega_d > 0) ? md->omega : NAN);
     fputs(", \"frequency_hz\": ", f);
-    json_num(f, osc ? md->omega_d / TWO_PI : NAN);
+    json_num(f, osc ? md->omega / TWO_PI : NAN);
     fputs(", \"period_s\": ", f);
     json_num(f, osc && md->omega_d > 0 ? TWO_PI / md->omega_d : NAN);
     fputs(", \"damping_ratio\": ", f);
     json_num(f, r->damped && md->omega_d > 0 ? md->zeta : (r->damped ? NAN : 0.0));
     fputs(", \"damped_omega_rad_s\": ", f);
     json_num(f, r->damped && md->omega_d > 0 ? md->omega_d : NAN);
+    fputs(", \"damped_frequency_hz\": ", f);
+    json_num(f, r->damped && md->omega_d > 0 ? md->omega_d / TWO_PI : NAN);
     fputs(", \"rate_per_s\": ", f);
     json_num(f, md->kind == MODE_UNSTABLE || md->kind == MODE_DECAYING ? md->rate : NAN);
     fputs(", \"shape\": {", f);
@@ -278,6 +281,11 @@ int cmd_modes(int argc, char **argv) {
     rc = EXIT_RUN;
     goto unload;
   }
+  /* Print Newton's leftovers (1e-30 where the answer is 0) as 0. */
+  double qscale = 0;
+  for (int i = 0; i < m->nq; i++) qscale = fmax(qscale, fabs(q[i]));
+  for (int i = 0; i < m->nq; i++)
+    if (fabs(q[i]) < 1e-14 * fmax(1.0, qscale)) q[i] = 0;
   if (json) print_json(stdout, m, q, &eq, &mr);
   else print_text(stdout, m, q, &eq, &mr);
   if (fflush(stdout) != 0) rc = EXIT_RUN;

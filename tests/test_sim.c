@@ -117,6 +117,13 @@ START_TEST(modes_damped_pair) {
   ck_assert_double_eq_tol(json_number(r.out, "damping_ratio", 0), c / (2 * sqrt(k * m)), 1e-12);
   ck_assert_double_eq_tol(json_number(r.out, "damping_ratio", 1), c / (2 * sqrt(3 * k * m)),
                           1e-12);
+  /* Damped frequency omega sqrt(1 - zeta^2) (common practice). */
+  double z1 = c / (2 * sqrt(k * m)), w1 = sqrt(k / m);
+  ck_assert_double_eq_tol(json_number(r.out, "damped_omega_rad_s", 0), w1 * sqrt(1 - z1 * z1),
+                          1e-9);
+  ck_assert_double_eq_tol(json_number(r.out, "frequency_hz", 0), w1 / (2 * PI), 1e-9);
+  ck_assert_double_eq_tol(json_number(r.out, "period_s", 0), 2 * PI / (w1 * sqrt(1 - z1 * z1)),
+                          1e-9);
   run_free(&r);
   /* Without the dampers: the symmetric problem, shapes (1, 1) and (1, -1). */
   char *argv2[] = {(char *)eomc(), "modes", model_path("damped_pair.eom"), "--set", "c=0", NULL};
@@ -309,6 +316,17 @@ START_TEST(sim_usage_errors) {
   r = run_argv(argv2);
   ck_assert_msg(r.status == 1, "status %d: %s", r.status, r.err);
   ck_assert_ptr_nonnull(strstr(r.err, "error"));
+  run_free(&r);
+  /* Help is not an error and names the options. */
+  char *argv4[] = {(char *)eomc(), "sim", "--help", NULL};
+  r = run_argv(argv4);
+  ck_assert_int_eq(r.status, 0);
+  ck_assert(strstr(r.out, "--until") && strstr(r.out, "--inputs") && strstr(r.out, "NAME'="));
+  run_free(&r);
+  char *argv5[] = {(char *)eomc(), "modes", "--help", NULL};
+  r = run_argv(argv5);
+  ck_assert_int_eq(r.status, 0);
+  ck_assert(strstr(r.out, "--at") && strstr(r.out, "--json"));
   run_free(&r);
   char *argv3[] = {(char *)eomc(), "modes", model_path("bead_hoop.eom"), "--at", "w=1", NULL};
   r = run_argv(argv3);
