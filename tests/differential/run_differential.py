@@ -258,7 +258,7 @@ def run_batch(cases, opts, pool, label):
 
 def still_fails(c0, keep, kind, opts, pool):
     c = Case(c0.seed, keep, opts.points, c0.max_coords)
-    run_batch([c], opts, pool, "shrink-%d" % seed)
+    run_batch([c], opts, pool, "shrink-%d" % c0.seed)
     return c.failure if c.failure and c.failure[0] == kind else None
 
 

@@ -87,6 +87,7 @@ for target in $FUZZ_TARGETS; do
   echo "fuzz: running fuzz_$target for $FUZZ_SECONDS s"
   # detect_leaks: the front end owns its memory in arenas; a leak is a bug.
   ASAN_OPTIONS=detect_leaks=1:allocator_may_return_null=1 \
+  LSAN_OPTIONS=suppressions=$SRCDIR/tests/fuzz/lsan.supp:print_suppressions=0 \
   "$FUZZ_WORK/fuzz_$target" -max_total_time="$FUZZ_SECONDS" -timeout=20 -rss_limit_mb=2048 \
     -max_len=8192 -dict="$SRCDIR/tests/fuzz/eom.dict" -print_final_stats=1 \
     -artifact_prefix="$FUZZ_WORK/crashes/$target-" "$corpus" "$seeds" \
