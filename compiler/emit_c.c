@@ -1358,25 +1358,46 @@ static void emit_header(Emitter *E) {
   fprintf(o, "\n#ifdef __cplusplus\n}\n#endif\n#endif\n");
 }
 
+/* C99 promises string literals of 4095 bytes only (5.2.4.1): a longer model
+** string becomes a char array initialized byte by byte. */
+#define MAX_STRING_LITERAL 4000
+
+static void emit_long_string(Emitter *E, const char *ident, const char *text) {
+  FILE *o = E->out;
+  fprintf(o, "static const char %s[] = {", ident);
+  for (size_t i = 0; text[i]; i++) fprintf(o, "%s%d", i % 20 ? ", " : (i ? ",\n  " : "\n  "), (unsigned char)text[i]);
+  fputs(", 0\n};\n", o);
+}
+
 static void emit_string_table(Emitter *E, const char *name, Decl **ds, int n, int field) {
   FILE *o = E->out;
-  if (!n) return;
-  fprintf(o, "static const char *const %s_%s[%d] = {", E->P, name, n);
+  char **texts = calloc((size_t)n + 1, sizeof *texts);
+  char ident[600];
+  assert(texts);
+  if (!n) {
+    free(texts);
+    return;
+  }
   for (int i = 0; i < n; i++) {
-    const char *text = "";
-    if (field == 0) text = ds[i]->name;
-    else if (field == 2) text = ds[i]->desc ? ds[i]->desc : "";
-    fputs(i ? ",\n  " : "\n  ", o);
-    if (field == 1) {
-      Buf u = {0};
-      unit_text(&u, ds[i]->unit);
-      put_c_string(o, u.s ? u.s : "");
-      free(u.s);
-    } else {
-      put_c_string(o, text);
+    Buf b = {0};
+    if (field == 0) buf_put(&b, ds[i]->name);
+    else if (field == 2) buf_put(&b, ds[i]->desc ? ds[i]->desc : "");
+    else unit_text(&b, ds[i]->unit);
+    texts[i] = b.s ? b.s : calloc(1, 1);
+    if (strlen(texts[i]) > MAX_STRING_LITERAL) {
+      snprintf(ident, sizeof ident, "%s_%s_%d", E->P, name, i);
+      emit_long_string(E, ident, texts[i]);
     }
   }
+  fprintf(o, "static const char *const %s_%s[%d] = {", E->P, name, n);
+  for (int i = 0; i < n; i++) {
+    fputs(i ? ",\n  " : "\n  ", o);
+    if (strlen(texts[i]) > MAX_STRING_LITERAL) fprintf(o, "%s_%s_%d", E->P, name, i);
+    else put_c_string(o, texts[i]);
+    free(texts[i]);
+  }
   fputs("\n};\n", o);
+  free(texts);
 }
 
 static void emit_double_table(Emitter *E, const char *name, const double *v, int n) {
@@ -1571,7 +1592,12 @@ int emit_c_to_dir(const Model *m, const EomSystem *s, const EmitOptions *o, cons
   const char *P = o->prefix ? o->prefix : m->name;
   char hname[512], cname[512];
   if (fs_check_dir(dir, err, errlen) != 0) return -1;
-  if (!is_c_identifier(P) || strlen(P) > 400) {
+  if (P && strlen(P) > 200) {
+    snprintf(err, errlen, "the model name is %zu characters long: too long for the file names %.20s....h/.c "
+             "(at most 200; use --prefix)", strlen(P), P);
+    return -1;
+  }
+  if (!is_c_identifier(P)) {
     snprintf(err, errlen, "the prefix '%s' is not a C identifier", P ? P : "");
     return -1;
   }
