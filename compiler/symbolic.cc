@@ -376,7 +376,7 @@ class Derivation {
   void add_constraint(const Stmt *s);
   bool depends_on_rates(const ex &e);
   void check_no_qdd(const ex &L);
-  void check_quadratic(const std::vector<std::vector<ex>> &M);
+  void check_mass(std::vector<std::vector<ex>> &M);
   bool nonzero_somewhere(const ex &e, const ex &scale);
 };
 
@@ -983,28 +983,51 @@ void Derivation::check_no_qdd(const ex &L) {
   }
 }
 
-/* M must not depend on the rates: L quadratic in q'. */
-void Derivation::check_quadratic(const std::vector<std::vector<ex>> &M) {
+/* The generated mass function takes q and p only: M must not depend on
+** q' (L quadratic in the rates), t or u.  A dependence GiNaC shows but
+** that cancels numerically (sin^2 + cos^2 - 1) is removed by setting the
+** variable to 0, which leaves the value of M unchanged. */
+void Derivation::check_mass(std::vector<std::vector<ex>> &M) {
+  struct Banned {
+    ex var;
+    Deriver *d;
+    std::string what;
+  };
+  std::vector<Banned> banned;
+  for (int k = 0; k < nq_; k++)
+    banned.push_back({qd_[k], &dqd_[k], fmt("the rate %s'", m_->coords[k]->name)});
+  banned.push_back({t_, &dt_, "the time t"});
+  for (int k = 0; k < nu_; k++)
+    banned.push_back({u_[k], &du_[k], fmt("the input '%s'", m_->inputs[k]->name)});
+  exmap cancelled;
   for (int i = 0; i < nq_; i++)
     for (int j = i; j < nq_; j++)
-      for (int k = 0; k < nq_; k++) {
-        ex d = dqd_[k](M[i][j]);
-        if (d.is_zero() || !nonzero_somewhere(d, M[i][j])) continue;
-        /* name the first term whose own second derivative depends on q'_k */
+      for (const Banned &v : banned) {
+        ex d = (*v.d)(M[i][j]);
+        if (d.is_zero()) continue;
+        if (!nonzero_somewhere(d, M[i][j])) {
+          cancelled[v.var] = 0;
+          continue;
+        }
+        bool rate = false;
+        for (int k = 0; k < nq_; k++) rate = rate || v.var.is_equal(qd_[k]);
+        std::string msg = rate ? "the Lagrangian is not quadratic in the rates: "
+                               : "the mass matrix must depend on coordinates and params only: ";
+        /* name the first term whose own second derivative depends on it */
         for (const auto *terms : {&kinetic_, &lagrangian_, &potential_})
           for (const Term &t : *terms) {
-            ex e = unatom(t.e);
-            ex dt = dqd_[k](dqd_[j](dqd_[i](e)));
-            if (!dt.is_zero() && nonzero_somewhere(dt, dqd_[j](dqd_[i](e))))
+            ex e = dqd_[j](dqd_[i](unatom(t.e)));
+            ex de = (*v.d)(e);
+            if (!de.is_zero() && nonzero_somewhere(de, e))
               throw SymError{t.stmt->loc,
-                             fmt("the Lagrangian is not quadratic in the rates: this term makes "
-                                 "the mass matrix depend on %s'",
-                                 m_->coords[k]->name)};
+                             msg + "this term makes the mass matrix depend on " + v.what};
           }
-        throw SymError{kNoLoc, fmt("the Lagrangian is not quadratic in the rates: the mass "
-                                         "matrix depends on %s'",
-                                         m_->coords[k]->name)};
+        throw SymError{kNoLoc, msg + "the mass matrix depends on " + v.what};
       }
+  if (cancelled.empty()) return;
+  Subst clean(cancelled);
+  for (int i = 0; i < nq_; i++)
+    for (int j = i; j < nq_; j++) M[i][j] = M[j][i] = clean(M[i][j]);
 }
 
 static int *alloc_roots(size_t n) {
@@ -1057,7 +1080,7 @@ void Derivation::run(EomSystem *out) {
     for (int j = i; j < n; j++) M[i][j] = M[j][i] = dqdd_[j](E[i]);
     tick("deriving the mass matrix");
   }
-  check_quadratic(M);
+  check_mass(M);
   exmap no_accel;
   for (const ex &a : qdd_) no_accel[a] = 0;
   Subst zero_qdd(no_accel);

@@ -189,6 +189,15 @@ static void mass_forcing(const Derived *d, const State *s, double *M, double *f)
   free(v);
 }
 
+/* Does the value of node `root` read variable kind `var`? */
+static int uses_var(const IrGraph *g, int root, IrVar var) {
+  const IrNode *n = &g->nodes[root];
+  if (n->op == IR_VAR) return n->var == var;
+  for (int k = 0; k < n->nargs; k++)
+    if (uses_var(g, n->args[k], var)) return 1;
+  return 0;
+}
+
 /* Is there an error reported on source line `line` containing `text`? */
 static int has_error(const Derived *d, int line, const char *text) {
   for (int i = 0; i < d->fe.diag.nmsgs; i++) {
@@ -994,6 +1003,23 @@ START_TEST(cancelling_rate_terms_are_accepted) {
   double M, f;
   mass_forcing(&d, &s, &M, &f);
   assert_close(M, s.p[0], 1e-12, "M");
+  /* the generated mass function has no q': the graph of M must not use it */
+  ck_assert(!uses_var(&d.sys.g, d.sys.mass[0], IRV_QD));
+  derived_free(&d);
+}
+END_TEST
+
+/* The mass function takes q and p only: a kinetic term that makes M
+** depend on time is an error at its line. */
+START_TEST(time_dependent_mass_is_an_error) {
+  Derived d;
+  derive(&d,
+         "coord x\n"
+         "param m = 1\n"
+         "kinetic m/2*x'^2\n"
+         "kinetic m*t*x'^2\n");
+  ck_assert_int_eq(d.status, 1);
+  ck_assert_msg(has_error(&d, 4, "time"), "error on line 4 expected");
   derived_free(&d);
 }
 END_TEST
@@ -1058,6 +1084,7 @@ Suite *symbolic_suite(void) {
   tcase_add_test(tc, non_quadratic_lagrangian_is_an_error);
   tcase_add_test(tc, non_quadratic_through_a_let_is_an_error);
   tcase_add_test(tc, cancelling_rate_terms_are_accepted);
+  tcase_add_test(tc, time_dependent_mass_is_an_error);
   tcase_add_test(tc, time_limit_is_an_error);
   tcase_add_test(tc, body_without_inertia_is_an_error);
   suite_add_tcase(s, tc);
