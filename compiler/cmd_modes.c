@@ -176,7 +176,7 @@ int cmd_modes(int argc, char **argv) {
   const char *model = NULL;
   char **at = calloc((size_t)argc + 1, sizeof(char *)), **set = calloc((size_t)argc + 1, sizeof(char *));
   int nat = 0, nset = 0, json = 0, rc = 0;
-  char err[1024];
+  char err[1024] = "";
   if (!at || !set) {
     free(at);
     free(set);
@@ -244,11 +244,6 @@ int cmd_modes(int argc, char **argv) {
       rc = EXIT_USAGE;
       goto unload;
     }
-  if (m->nc > 0) {
-    fputs("eomc modes: error: models with constraints are not supported yet\n", stderr);
-    rc = EXIT_RUN;
-    goto unload;
-  }
   if (m->nq == 0) {
     fputs("eomc modes: error: the model has no coordinates\n", stderr);
     rc = EXIT_RUN;
@@ -263,21 +258,31 @@ int cmd_modes(int argc, char **argv) {
     goto unload;
   }
   size_t nn = (size_t)m->nq * (size_t)m->nq;
-  mats = malloc(3 * nn * sizeof(double));
+  int nr = 0;
+  mats = malloc(4 * nn * sizeof(double));
   memset(qd, 0, (size_t)m->nq * sizeof(double));
   if (!mats) {
     fputs("eomc modes: out of memory\n", stderr);
     rc = EXIT_RUN;
     goto unload;
   }
-  if (eom_linearize(m, rv.p, rv.u, 0, q, qd, mats, mats + nn, mats + 2 * nn, &lin) != EOM_OK) {
+  /* Small motions in tangent coordinates (the model's own without constraints). */
+  double *N = mats + 3 * nn;
+  if (eom_linearize_tangent(m, rv.p, rv.u, 0, q, N, &nr, mats, mats + nn, mats + 2 * nn, &lin) !=
+      EOM_OK) {
     fprintf(stderr, "eomc modes: error: linearization failed: %s\n", lin.message);
     rc = EXIT_RUN;
     goto unload;
   }
   if (lin.message[0]) fprintf(stderr, "eomc modes: %s\n", lin.message);
-  if (modal_analyze(m->nq, mats, mats + nn, mats + 2 * nn, &mr, err, sizeof err) != 0) {
-    fprintf(stderr, "eomc modes: error: %s\n", err);
+  if (nr == 0) {
+    fputs("eomc modes: error: the constraints leave no freedom to move\n", stderr);
+    rc = EXIT_RUN;
+    goto unload;
+  }
+  if (modal_analyze(nr, mats, mats + nn, mats + 2 * nn, &mr, err, sizeof err) != 0 ||
+      (m->nc > 0 && modal_expand(&mr, m->nq, N) != 0)) {
+    fprintf(stderr, "eomc modes: error: %s\n", m->nc > 0 && !err[0] ? "out of memory" : err);
     rc = EXIT_RUN;
     goto unload;
   }

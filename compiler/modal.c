@@ -246,6 +246,51 @@ out:
   return rc;
 }
 
+int modal_expand(ModalResult *r, int nq, const double *N) {
+  int nr = r->nq;
+  assert(nq >= nr && N);
+  for (int k = 0; k < r->nmodes; k++) {
+    Mode *md = &r->modes[k];
+    double *re = calloc((size_t)nq, sizeof(double)), *im = calloc((size_t)nq, sizeof(double));
+    double *shape = malloc((size_t)nq * sizeof(double));
+    double *phase = md->phase ? malloc((size_t)nq * sizeof(double)) : NULL;
+    if (!re || !im || !shape || (md->phase && !phase)) {
+      free(re), free(im), free(shape), free(phase);
+      return -1;
+    }
+    for (int i = 0; i < nq; i++)
+      for (int b = 0; b < nr; b++) {
+        double a = md->phase ? md->phase[b] / DEGREES_PER_RADIAN : 0;
+        re[i] += N[i * nq + b] * md->shape[b] * cos(a);
+        im[i] += N[i * nq + b] * md->shape[b] * sin(a);
+      }
+    if (!phase) {
+      memcpy(shape, re, (size_t)nq * sizeof(double));
+      normalize_real(nq, shape);
+    } else {
+      int big = 0;
+      for (int i = 1; i < nq; i++)
+        if (hypot(re[i], im[i]) > hypot(re[big], im[big]) * (1 + 1e-9)) big = i;
+      double ref = hypot(re[big], im[big]), arg = atan2(im[big], re[big]);
+      for (int i = 0; i < nq; i++) {
+        double mod = hypot(re[i], im[i]);
+        shape[i] = ref > 0 ? mod / ref : 0;
+        double ph = mod > 1e-13 * ref ? (atan2(im[i], re[i]) - arg) * DEGREES_PER_RADIAN : 0;
+        while (ph > 180) ph -= 360;
+        while (ph <= -180) ph += 360;
+        phase[i] = fabs(ph) < 1e-9 ? 0 : ph;
+        if (shape[i] < 1e-13) shape[i] = 0;
+      }
+    }
+    free(re), free(im);
+    free(md->shape), free(md->phase);
+    md->shape = shape;
+    md->phase = phase;
+  }
+  r->nq = nq;
+  return 0;
+}
+
 int modal_analyze(int nq, const double *M, const double *C, const double *K, ModalResult *out,
                   char *err, size_t errlen) {
   assert(nq > 0 && M && K && out);

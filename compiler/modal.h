@@ -39,4 +39,9 @@ int modal_analyze(int nq, const double *M, const double *C, const double *K, Mod
                   char *err, size_t errlen);
 void modal_free(ModalResult *r);
 
+/* Map shapes from r->nq tangent coordinates z to nq model coordinates
+** v = N z (N row-major nq x nq, columns 0..r->nq-1 used), renormalized as
+** above.  Returns 0, or -1 when out of memory (r unchanged). */
+int modal_expand(ModalResult *r, int nq, const double *N);
+
 #endif

@@ -70,7 +70,7 @@ static int forcing_dq_model(const struct eom_model *m, const double *p, const do
 ** is the least-squares one in the directions J sees, large enough that
 ** rounding moves the free ones by ~1e-7 of the step only.  Returns -1
 ** when J is zero. */
-static int levenberg_marquardt_step(int nq, const double *J, const double *f, double *work,
+int least_squares_step(int nq, const double *J, const double *f, double *work,
                                     double *dq, int *piv) {
   double diag = 0;
   for (int i = 0; i < nq; i++)
@@ -92,7 +92,7 @@ static int levenberg_marquardt_step(int nq, const double *J, const double *f, do
   return 0;
 }
 
-static void state_text(const struct eom_model *m, const double *q, char *buf, size_t cap) {
+void describe_coords(const struct eom_model *m, const double *q, char *buf, size_t cap) {
   size_t len = 0;
   buf[0] = '\0';
   for (int i = 0; i < m->nq && len + 1 < cap; i++) {
@@ -111,11 +111,7 @@ int eom_equilibrium(const struct eom_model *m, const double *p, const double *u,
   if (!p) p = m->param_defaults;
   if (tol <= 0) tol = 1e-10;
   if (max_iter <= 0) max_iter = 100;
-  if (m->nc > 0) {
-    snprintf(rep->message, sizeof rep->message,
-             "equilibria of models with constraints are not supported");
-    return rep->status = EOM_EINVAL;
-  }
+  if (m->nc > 0) return constrained_equilibrium(m, p, u, t, q, tol, max_iter, rep);
   int nq = m->nq, n = 2 * nq, nu = m->nu;
   size_t nqq = (size_t)nq * nq;
   double *buf = calloc(9 * (size_t)nq + 3 * nqq + (size_t)n * n + (size_t)n * nu +
@@ -143,7 +139,7 @@ int eom_equilibrium(const struct eom_model *m, const double *p, const double *u,
     rep->steps = it;
     rep->residual = res;
     if (!isfinite(res)) {
-      state_text(m, q, where, sizeof where);
+      describe_coords(m, q, where, sizeof where);
       snprintf(rep->message, sizeof rep->message,
                "the generalized force is not finite at %s", where);
       st = EOM_ENEWTON;
@@ -155,8 +151,8 @@ int eom_equilibrium(const struct eom_model *m, const double *p, const double *u,
     if (dense_lu(nq, J, piv) == 0) {
       for (int i = 0; i < nq; i++) dq[i] = -f[i];
       dense_lu_solve(nq, J, piv, dq);
-    } else if (levenberg_marquardt_step(nq, Jcopy, f, J, dq, piv) != 0) {
-      state_text(m, q, where, sizeof where);
+    } else if (least_squares_step(nq, Jcopy, f, J, dq, piv) != 0) {
+      describe_coords(m, q, where, sizeof where);
       snprintf(rep->message, sizeof rep->message,
                "df/dq vanishes at %s (residual %.3g): no coordinate feels a restoring force",
                where, res);
@@ -196,7 +192,7 @@ int eom_equilibrium(const struct eom_model *m, const double *p, const double *u,
   }
   rep->steps = max_iter;
   rep->residual = res;
-  state_text(m, q, where, sizeof where);
+  describe_coords(m, q, where, sizeof where);
   snprintf(rep->message, sizeof rep->message,
            "no equilibrium found after %d Newton iterations; last point %s, residual max|f| = %.3g",
            max_iter, where, res);

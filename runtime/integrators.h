@@ -92,6 +92,18 @@ size_t radau5_work(int n);
 /* Adaptive Dormand–Prince run with dense output at the sample times. */
 int dopri_run(SimContext *c, const struct eom_sim_options *o, Sampler *s, double *x);
 
+/* dx = -(JᵀJ + mu I)⁻¹ Jᵀ f for a singular square J (n x n, row-major);
+** work n x n.  Returns -1 when J is zero. */
+int least_squares_step(int n, const double *J, const double *f, double *work, double *dx,
+                       int *piv);
+/* "q1 = 0.1, q2 = 0.2" into buf. */
+void describe_coords(const struct eom_model *m, const double *q, char *buf, size_t cap);
+
+/* Equilibria and tangent-space linearization of models with constraints
+** (constrained.c); eom_equilibrium() hands over when nc > 0. */
+int constrained_equilibrium(const struct eom_model *m, const double *p, const double *u, double t,
+                            double *q, double tol, int max_iter, struct eom_report *rep);
+
 /* Dense LU with partial pivoting.  dense_lu returns 0, or -1 when singular. */
 int dense_lu(int n, double *a, int *piv);
 void dense_lu_solve(int n, const double *lu, const int *piv, double *b);

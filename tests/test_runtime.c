@@ -715,6 +715,52 @@ START_TEST(untrusted_jacobian) {
 }
 END_TEST
 
+/* The pendulum as a bob at (x, y) held on a circle by a constraint: rest at
+** the bottom (0, -L), one mode at sqrt(g/L) (the simple pendulum, common
+** practice) moving along x; the rod tension is what makes it stiff, so
+** this checks the multiplier term of the tangent stiffness.  Hung from the
+** top it is an unstable direction with rate sqrt(g/L). */
+START_TEST(modes_constrained_pendulum) {
+  const double p[] = {0.7, 1.5, 9.81};
+  double q[2] = {0.4, -1.2}, N[4], M[4], C[4], K[4];
+  int nr;
+  char err[256];
+  struct eom_report rep;
+  ModalResult r;
+  ck_assert_int_eq(eom_equilibrium(&tm_cartesian_pendulum, p, NULL, 0, q, 0, 0, &rep), EOM_OK);
+  ck_assert_double_eq_tol(q[0], 0, 1e-10);
+  ck_assert_double_eq_tol(q[1], -1.5, 1e-10);
+  ck_assert_int_eq(eom_linearize_tangent(&tm_cartesian_pendulum, p, NULL, 0, q, N, &nr, M, C, K,
+                                         &rep), EOM_OK);
+  ck_assert_int_eq(nr, 1);
+  ck_assert_int_eq(modal_analyze(nr, M, C, K, &r, err, sizeof err), 0);
+  ck_assert_int_eq(modal_expand(&r, 2, N), 0);
+  ck_assert_int_eq(r.modes[0].kind, MODE_OSCILLATING);
+  ck_assert_double_eq_tol(r.modes[0].omega, sqrt(9.81 / 1.5), 1e-7);
+  ck_assert_double_eq_tol(r.modes[0].shape[0], 1, 1e-9);
+  ck_assert_double_eq_tol(r.modes[0].shape[1], 0, 1e-7);
+  modal_free(&r);
+  q[0] = 0.3, q[1] = 1.3;
+  ck_assert_int_eq(eom_equilibrium(&tm_cartesian_pendulum, p, NULL, 0, q, 0, 0, &rep), EOM_OK);
+  ck_assert_double_eq_tol(q[1], 1.5, 1e-10);
+  ck_assert_int_eq(eom_linearize_tangent(&tm_cartesian_pendulum, p, NULL, 0, q, N, &nr, M, C, K,
+                                         &rep), EOM_OK);
+  ck_assert_int_eq(modal_analyze(nr, M, C, K, &r, err, sizeof err), 0);
+  ck_assert_int_eq(r.modes[0].kind, MODE_UNSTABLE);
+  ck_assert_double_eq_tol(r.modes[0].rate, sqrt(9.81 / 1.5), 1e-7);
+  modal_free(&r);
+  /* Without constraints the tangent space is the whole space. */
+  double qc[2] = {0, 0};
+  const double pc[] = {2.0, 8.0, 0.0};
+  ck_assert_int_eq(eom_linearize_tangent(&tm_chain, pc, NULL, 0, qc, N, &nr, M, C, K, &rep),
+                   EOM_OK);
+  ck_assert_int_eq(nr, 2);
+  ck_assert_double_eq(N[0], 1);
+  ck_assert_double_eq(N[1], 0);
+  ck_assert_double_eq_tol(K[0], 16.0, 1e-12);
+}
+END_TEST
+
 /* Linearization away from rest: K from differences of f must match the
 ** analytic -df/dq of the Kepler forcing at a moving state. */
 START_TEST(linearize_moving_state) {
@@ -765,6 +811,7 @@ static Suite *runtime_suite(void) {
   tcase_add_test(tm, linearize_moving_state);
   tcase_add_test(tm, modes_free_pair_neutral);
   tcase_add_test(tm, untrusted_jacobian);
+  tcase_add_test(tm, modes_constrained_pendulum);
   suite_add_tcase(s, tm);
   return s;
 }

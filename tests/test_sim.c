@@ -158,6 +158,36 @@ START_TEST(modes_twin_pendulum) {
 }
 END_TEST
 
+static double *csv_column(const char *csv, int col, int *n);
+
+/* A constrained model: the lamp on its cable is a simple pendulum,
+** omega = sqrt(g/L) (common practice), swinging along x at the bottom; the
+** simulation keeps it on its circle. */
+START_TEST(constrained_hanging_lamp) {
+  char *argv[] = {(char *)eomc(), "modes", model_path("hanging_lamp.eom"), "--json", NULL};
+  RunResult r = run_argv(argv);
+  ck_assert_msg(r.status == 0, "status %d: %s", r.status, r.err);
+  double g = 9.81, L = 1.2;
+  ck_assert_double_eq_tol(json_number(r.out, "y", 0), -L, 1e-9);
+  ck_assert_double_eq_tol(json_number(r.out, "omega_rad_s", 0), sqrt(g / L), 1e-7);
+  ck_assert_double_eq_tol(json_number(r.out, "x", 1), 1, 1e-9);
+  ck_assert_double_eq_tol(json_number(r.out, "y", 1), 0, 1e-7);
+  run_free(&r);
+  char *argv2[] = {(char *)eomc(), "sim", model_path("hanging_lamp.eom"), "--until", "5",
+                   "--step", "0.01", "--rtol", "1e-10", "--atol", "1e-12", NULL};
+  r = run_argv(argv2);
+  ck_assert_msg(r.status == 0, "status %d: %s", r.status, r.err);
+  int n;
+  double *x = csv_column(r.out, 1, &n), *y = csv_column(r.out, 2, &n);
+  double worst = 0;
+  for (int i = 0; i < n; i++) worst = fmax(worst, fabs(hypot(x[i], y[i]) - L));
+  ck_assert_msg(worst < 1e-6, "off the circle by %g", worst);
+  free(x);
+  free(y);
+  run_free(&r);
+}
+END_TEST
+
 /* ------------------------------------------------------------- sim */
 
 static int count_lines(const char *s) {
@@ -430,6 +460,7 @@ static Suite *sim_suite(void) {
   tcase_add_test(tc, modes_bead_on_hoop);
   tcase_add_test(tc, modes_damped_pair);
   tcase_add_test(tc, modes_twin_pendulum);
+  tcase_add_test(tc, constrained_hanging_lamp);
   tcase_add_test(tc, sim_energy_conserved);
   tcase_add_test(tc, sim_csv_columns);
   tcase_add_test(tc, sim_bead_small_oscillation_period);

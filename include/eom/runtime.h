@@ -117,11 +117,13 @@ int eom_dynamics(const struct eom_model *m, const double *p, double t, const dou
 /* Newton on f(t, q, 0, u) = 0 from the guess in q (nq entries), with the
 ** M-independent residual f and a backtracking line search on max|f|.
 ** Where df/dq is singular (free coordinates) the least-squares step leaves
-** the free coordinates at their guess.  Converged when the update is below
-** tol * (1 + max|q|); tol 0: 1e-10, max_iter 0: 100.  Returns EOM_OK,
-** EOM_ENEWTON (no convergence), EOM_ESINGULAR (df/dq is zero) or EOM_EINVAL
-** (constrained models are not supported); rep->residual is the final
-** max|f| and rep->steps the iterations. */
+** the free coordinates at their guess.  With constraints (nc > 0) it solves
+** f + Gᵀλ = 0, phi(q) = 0 for q and the multipliers λ together (G =
+** dphi/dq).  Converged when the update is below tol * (1 + max|q|); tol 0:
+** 1e-10, max_iter 0: 100.  Returns EOM_OK, EOM_ENEWTON (no convergence),
+** EOM_ESINGULAR (singular equations: df/dq is zero) or EOM_EINVAL (a
+** constrained model without its constraint functions); rep->residual is
+** the final max-norm residual and rep->steps the iterations. */
 int eom_equilibrium(const struct eom_model *m, const double *p, const double *u, double t,
                     double *q, double tol, int max_iter, struct eom_report *rep);
 
@@ -132,10 +134,22 @@ int eom_equilibrium(const struct eom_model *m, const double *p, const double *u,
 ** central differences of forcing() is not trusted: the differences are
 ** used and rep->message holds a warning (status still EOM_OK).  Any of M,
 ** C, K may be NULL.  Returns EOM_OK, EOM_EMASS, EOM_ENOMEM or EOM_EINVAL
-** (constraints). */
+** (constraints: use eom_linearize_tangent). */
 int eom_linearize(const struct eom_model *m, const double *p, const double *u, double t,
                   const double *q, const double *qd, double *M, double *C, double *K,
                   struct eom_report *rep);
+
+/* Small motions about a static equilibrium q on the constraint surface:
+** tangent coordinates z with q = q* + N z, N's nr columns orthonormal and
+** tangent to phi(q) = 0 (N = I, nr = nq without constraints).  Writes N
+** (nq x nq storage, row-major, columns 0..nr-1 used) and the nr x nr
+** matrices Mr = NᵀMN, Cr = -Nᵀ(df/dqd)N and Kr = -Nᵀ d(f + Gᵀλ)/dq N, the
+** last with the constraint force's multipliers held at the equilibrium.
+** Each output needs nq*nq doubles.  Returns EOM_OK or a status with
+** rep->message (as eom_linearize). */
+int eom_linearize_tangent(const struct eom_model *m, const double *p, const double *u, double t,
+                          const double *q, double *N, int *nr, double *Mr, double *Cr,
+                          double *Kr, struct eom_report *rep);
 
 /* d xdot/dx at (t, x, u) (2nq x 2nq): the model's jacobian, or central
 ** differences of eom_dynamics() when the model has none or has constraints. */
