@@ -1154,8 +1154,12 @@ void Derivation::run(EomSystem *out) {
   for (const ex &e : f) h_f.push_back(b.add_root(e, none));
   tick("building the expression graph");
   for (const ex &e : dM) h_dM.push_back(b.add_root(e, none));
-  for (const ex &e : dfdq) h_dfdq.push_back(b.add_root(e, none));
-  for (const ex &e : dfdqd) h_dfdqd.push_back(b.add_root(e, none));
+  tick("building the expression graph");
+  for (size_t k = 0; k < dfdq.size(); k++) {
+    h_dfdq.push_back(b.add_root(dfdq[k], none));
+    h_dfdqd.push_back(b.add_root(dfdqd[k], none));
+    if (k % n == 0) tick("building the expression graph");
+  }
   for (const ex &e : dfdu) h_dfdu.push_back(b.add_root(e, none));
   for (const ex &e : inv) h_inv.push_back(b.add_root(e, none));
   int h_T = b.add_root(unatom(T), kinetic_.empty() ? none : kinetic_[0].stmt->loc);
