@@ -76,6 +76,15 @@ static char *compile_and_run(const char *dir, const char *prefix, const char *dr
   ck_assert_msg(r.status == 0, "generated C does not compile with -std=c99 -pedantic -Wall -Wextra -Werror %s:\n%.3000s",
                 extra_flag ? extra_flag : "", r.err);
   run_free(&r);
+  /* SPEC §2: clean under clang too, when configure found it. */
+  const char *clang = getenv("CLANG");
+  if (clang && *clang) {
+    char *argv_clang[] = {(char *)clang, "-std=c99", "-pedantic", "-Wall", "-Wextra", "-Werror", inc,
+                          (char *)(extra_flag ? extra_flag : "-O0"), "-fsyntax-only", csrc, NULL};
+    r = run_argv(argv_clang);
+    ck_assert_msg(r.status == 0, "generated C is not clean under clang -std=c99 -pedantic -Werror:\n%.3000s", r.err);
+    run_free(&r);
+  }
   char *argv2[] = {exe, NULL};
   r = run_argv(argv2);
   ck_assert_msg(r.status == 0, "driver status %d: %s", r.status, r.err);
@@ -100,6 +109,8 @@ static void read_values(const char *out, const char *label, double *v, int count
 static void assert_close(double got, double want, double rel, const char *what) {
   ck_assert_msg(fabs(got - want) <= rel * fabs(want) + 1e-300, "%s = %.17g, expected %.17g", what, got, want);
 }
+
+static const char good_model_text[] = "coord x\nparam k = 4\nkinetic x'^2/2\npotential k*x^2/2\n";
 
 /* ------------------------------------------------- names C or libm also use */
 
@@ -482,14 +493,59 @@ START_TEST(descriptions_escape_safely) {
 }
 END_TEST
 
-/* ------------------------------------------------------ output directories */
+/* A 5,000-character description: longer than the 4095-character string
+** literal C99 5.2.4.1 guarantees.  Either a clear error, or C that compiles
+** under -pedantic -Werror and hands the text back whole. */
+START_TEST(long_description) {
+  char *d = repeat('d', 5000);
+  size_t n = 5000 + 200;
+  char *text = malloc(n);
+  snprintf(text, n, "coord x \"%s\"\nkinetic x'^2/2\n", d);
+  char *dir = make_temp_dir();
+  RunResult r = gen_text(dir, dir, text, NULL);
+  ck_assert_msg(r.status == 0 || (r.status == 1 && strstr(r.err, "error:")), "status %d: %.500s", r.status, r.err);
+  if (r.status == 0) {
+    const char *driver =
+      "#include <stdio.h>\n#include <string.h>\n#include <eom/model.h>\n#include \"hostile.h\"\n"
+      "int main(void) {\n"
+      "  printf(\"length %lu\\n\", (unsigned long)strlen(hostile_model.coord_descs[0]));\n"
+      "  return 0;\n}\n";
+    char *out = compile_and_run(dir, "hostile", driver, NULL);
+    ck_assert_msg(strstr(out, "length 5000") != NULL, "%s", out);
+    free(out);
+  }
+  run_free(&r);
+  remove_tree(dir);
+  free(dir);
+  free(text);
+  free(d);
+}
+END_TEST
 
-static const char good_model[] = "coord x\nparam k = 4\nkinetic x'^2/2\npotential k*x^2/2\n";
+/* --prefix must be a C identifier: anything else is a usage error. */
+START_TEST(invalid_prefix_rejected) {
+  static const char *const bad[] = {"1abc", "a b", "a-b", "", "x;y", "\xc3\xa9t\xc3\xa9"};
+  for (int i = 0; i < 6; i++) {
+    char *dir = make_temp_dir();
+    char *model = write_file(dir, "m.eom", good_model_text, strlen(good_model_text));
+    char *argv[] = {(char *)eomc(), "gen", model, "-o", dir, "--prefix", (char *)bad[i], NULL};
+    RunResult r = run_argv(argv);
+    ck_assert_msg(r.status == 2 && strstr(r.err, "--prefix"), "--prefix '%s': status %d: %s", bad[i], r.status, r.err);
+    ck_assert_int_eq(count_entries(dir), 1);
+    run_free(&r);
+    free(model);
+    remove_tree(dir);
+    free(dir);
+  }
+}
+END_TEST
+
+/* ------------------------------------------------------ output directories */
 
 START_TEST(missing_output_directory) {
   char *dir = make_temp_dir();
   char *missing = path_join(dir, "no/such/dir");
-  RunResult r = gen_text(dir, missing, good_model, NULL);
+  RunResult r = gen_text(dir, missing, good_model_text, NULL);
   ck_assert_msg(r.status != 0 && r.status < 128, "status %d", r.status);
   ck_assert_msg(strstr(r.err, "no/such/dir") && strstr(r.err, "error"), "%s", r.err);
   struct stat st;
@@ -498,7 +554,7 @@ START_TEST(missing_output_directory) {
   run_free(&r);
   /* A regular file where the directory should be. */
   char *file = write_file(dir, "plain", "x", 1);
-  r = gen_text(dir, file, good_model, NULL);
+  r = gen_text(dir, file, good_model_text, NULL);
   ck_assert_msg(r.status != 0 && r.status < 128 && strstr(r.err, "error"), "status %d: %s", r.status, r.err);
   ck_assert_int_eq(count_entries(dir), 2);
   run_free(&r);
@@ -517,12 +573,12 @@ START_TEST(read_only_output_directory) {
   ck_assert_int_eq(mkdir(ro, 0555), 0);
   chmod(ro, 0555);
   if (geteuid() != 0) {
-    RunResult r = gen_text(dir, ro, good_model, NULL);
+    RunResult r = gen_text(dir, ro, good_model_text, NULL);
     ck_assert_msg(r.status != 0 && r.status < 128 && strstr(r.err, "error"), "status %d: %s", r.status, r.err);
     ck_assert_int_eq(count_entries(ro), 0);
     run_free(&r);
   }
-  RunResult r = gen_text(dir, "/proc/self", good_model, NULL);
+  RunResult r = gen_text(dir, "/proc/self", good_model_text, NULL);
   ck_assert_msg(r.status != 0 && r.status < 128 && strstr(r.err, "error"), "status %d: %s", r.status, r.err);
   run_free(&r);
   chmod(ro, 0755);
@@ -632,6 +688,8 @@ int main(void) {
   tc = tcase_create("text");
   tcase_set_timeout(tc, 120);
   tcase_add_test(tc, descriptions_escape_safely);
+  tcase_add_test(tc, long_description);
+  tcase_add_test(tc, invalid_prefix_rejected);
   suite_add_tcase(s, tc);
   tc = tcase_create("files");
   tcase_set_timeout(tc, 120);

@@ -38,6 +38,8 @@ class Model:
         self.lets = []       # (name, expr)
         self.terms = []      # (kind, target coord name or None, expr, essential)
         self.timed_lets = set()  # lets whose value depends on t
+        self.outputs = []    # (name, expr)
+        self.initial = []    # (coord name, is_rate, number_text)
 
     def kinds_of_names(self):
         k = {}
@@ -302,6 +304,14 @@ def generate(seed, max_coords=4):
         if m.inputs and rng.random() < 0.7:
             e = ("add", e, ("mul", ("var", rng.choice(m.inputs)), g.expr(1, {"q", "p"})))
         m.terms.append(("force", c, e, False))
+    # Outputs of anything, and a default initial state for some coordinates.
+    for name in pick_names(rng, rng.randint(0, 2), "out", used, tricky):
+        m.outputs.append((name, g.expr(2, everything)))
+    for c in m.coords:
+        if rng.random() < 0.3:
+            m.initial.append((c, False, number_text(rng, 0.1, 1.0)))
+        if rng.random() < 0.2:
+            m.initial.append((c, True, number_text(rng, 0.1, 1.0)))
     return m
 
 
@@ -369,4 +379,8 @@ def to_eom(m, keep=None):
             out.append("force %s = %s" % (target, expr_to_eom(e, rng)))
         else:
             out.append("%s %s" % (kind, expr_to_eom(e, rng)))
+    for name, e in m.outputs:
+        out.append("output %s = %s" % (name, expr_to_eom(e, rng)))
+    for c, rate, text in m.initial:
+        out.append("initial %s%s = %s" % (c, "'" if rate else "", text))
     return "\n".join(out) + "\n"

@@ -71,10 +71,16 @@ class Reference:
         self.timed_energy = self.t in (T.free_symbols | V.free_symbols)
         self.M, self.f = self.euler_lagrange(T - V + Lx, D, Q)
         self.param_defaults = self.eval_defaults()
+        self.outputs = [self.to_sympy(e) for _, e in m.outputs]
+        self.q0 = [0.0] * n
+        self.qd0 = [0.0] * n
+        for c, rate, text in m.initial:
+            (self.qd0 if rate else self.q0)[m.coords.index(c)] = float(text)
         args = list(self.q) + list(self.qd) + [self.t] + list(self.u) + list(self.p)
         self.fn_M = sympy.lambdify(args, self.M, modules="mpmath")
         self.fn_f = sympy.lambdify(args, self.f, modules="mpmath")
         self.fn_TV = sympy.lambdify(args, [self.T, self.V], modules="mpmath")
+        self.fn_y = sympy.lambdify(args, self.outputs, modules="mpmath")
 
     def rate(self, x):
         """Total time derivative of an expression free of rates."""
@@ -213,6 +219,8 @@ class Reference:
                 "jacA": [x for row in A for x in row],
                 "jacB": [x for row in B for x in row],
                 "defaults": list(self.param_defaults),
+                "outputs": [float(y) for y in self.fn_y(*self.args(pt))],
+                "initial": list(self.q0) + list(self.qd0),
             }
 
 

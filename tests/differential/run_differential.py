@@ -43,7 +43,8 @@ import eomgen  # noqa: E402
 import reference  # noqa: E402
 
 REL_TOL = 1e-10
-QUANTITIES = ["mass", "forcing", "accel", "energy", "inverse", "rhs", "jacA", "jacB", "defaults"]
+QUANTITIES = ["mass", "forcing", "accel", "energy", "inverse", "rhs", "jacA", "jacB", "defaults",
+              "outputs", "initial"]
 CFLAGS = ["-std=c99", "-pedantic", "-Wall", "-Wextra", "-Werror", "-O0"]
 
 
@@ -95,15 +96,16 @@ def driver_code(cases):
         N = 2 * n
         out.append("static void run_%s(void) {" % P)
         out.append("  int k, i, rc;")
-        out.append("  double M[%d], f[%d], qdd[%d], TV[2], Q[%d], x[%d], xdot[%d], A[%d], B[%d];"
-                   % (n * n, n, n, n, N, N, N * N, max(1, N * nu)))
+        ny = len(m.outputs)
+        out.append("  double M[%d], f[%d], qdd[%d], TV[2], Q[%d], x[%d], xdot[%d], A[%d], B[%d], y[%d], x0[%d];"
+                   % (n * n, n, n, n, N, N, N * N, max(1, N * nu), max(1, ny), N))
         for name, key, width in (("q", "q", n), ("qd", "qd", n), ("qa", "qdd", n),
                                  ("u", "u", nu), ("p", "p", npar)):
             rows = ", ".join(c_array(pt[key]) for pt in c.points)
             out.append("  static const double %s[%d][%d] = {%s};" % (name, len(c.points), max(1, width), rows))
         out.append("  static const double t[%d] = %s;" % (len(c.points), c_array([pt["t"] for pt in c.points])))
-        out.append('  if (%s_NQ != %d || %s_NU != %d || %s_NP != %d || %s_model.nq != %d) {'
-                   % (P, n, P, nu, P, npar, P, n))
+        out.append('  if (%s_NQ != %d || %s_NU != %d || %s_NP != %d || %s_NY != %d || %s_model.nq != %d) {'
+                   % (P, n, P, nu, P, npar, P, len(m.outputs), P, n))
         out.append('    printf("%s sizes %%d %%d %%d\\n", %s_NQ, %s_NU, %s_NP);' % (P, P, P, P))
         out.append("    return;")
         out.append("  }")
@@ -126,6 +128,11 @@ def driver_code(cases):
         out.append('    put("%s", k, "jacA", A, %d);' % (P, N * N))
         out.append('    put("%s", k, "jacB", B, %d);' % (P, N * nu))
         out.append('    put("%s", k, "defaults", %s_model.param_defaults, %d);' % (P, P, npar))
+        out.append("    %s_outputs(t[k], q[k], qd[k], u[k], p[k], y);" % P)
+        out.append('    put("%s", k, "outputs", y, %d);' % (P, ny))
+        out.append("    for (i = 0; i < %d; i++) { x0[i] = %s_model.q0[i]; x0[%d + i] = %s_model.qd0[i]; }"
+                   % (n, P, n, P))
+        out.append('    put("%s", k, "initial", x0, %d);' % (P, N))
         out.append("  }")
         out.append("}")
     out.append("int main(void) {")
