@@ -21,6 +21,7 @@
 
 #include <algorithm>
 #include <cassert>
+#include <cfloat>
 #include <cmath>
 #include <cstdint>
 #include <cstdlib>
@@ -504,7 +505,15 @@ struct IrBuilder::Impl {
     if (!x.is_real())
       throw SymError{loc, "the equations contain a complex number (e.g. sqrt or log of a "
                           "negative constant)"};
-    return x.to_double();
+    double d = x.to_double();
+    if (std::fabs(d) < DBL_MIN && !x.is_zero()) {
+      /* CLN flushes values below the normal range to 0: 1e-320 must stay
+      ** a (subnormal) 1e-320, so read it back from its decimal text */
+      std::ostringstream os;
+      os << x.evalf();
+      d = std::strtod(os.str().c_str(), nullptr);
+    }
+    return d;
   }
 
   int translate(const ex &e) {

@@ -518,6 +518,32 @@ START_TEST(outputs_and_matrix_builtins) {
 }
 END_TEST
 
+/* Literals are exact rationals in the core and must come back as the
+** doubles they were, subnormal ones included (IEEE 754 binary64). */
+START_TEST(literals_round_trip) {
+  Derived d;
+  derive_ok(&d,
+            "coord x\n"
+            "param k = 3\n"
+            "kinetic x'^2/2\n"
+            "force x = 1e-320*k + 0.1*k + 1e300*1e-290*x + 2.5e-310\n");
+  State s;
+  random_state(&d, &s);
+  double *v = eval_graph(&d.sys.g, &s);
+  double k = s.p[0];
+  double want = 1e-320 * k + 0.1 * k + 1e10 * s.q[0] + 2.5e-310;
+  assert_close(v[d.sys.forcing[0]], want, 1e-15, "f");
+  /* the subnormal parts alone, where a flush to zero would show */
+  s.q[0] = 0;
+  s.p[0] = 0;
+  free(v);
+  v = eval_graph(&d.sys.g, &s);
+  ck_assert_msg(v[d.sys.forcing[0]] == 2.5e-310, "got %g", v[d.sys.forcing[0]]);
+  free(v);
+  derived_free(&d);
+}
+END_TEST
+
 /* ------------------------------------------------------------ bodies */
 
 /* A point body on a rod under `gravity`: q'' = -(g/l) sin q (common practice). */
@@ -1067,6 +1093,7 @@ Suite *symbolic_suite(void) {
   tcase_add_test(tc, velocity_dependent_potential);
   tcase_add_test(tc, dissipation_through_a_let);
   tcase_add_test(tc, outputs_and_matrix_builtins);
+  tcase_add_test(tc, literals_round_trip);
   tcase_add_test(tc, body_point_pendulum);
   tcase_add_test(tc, body_physical_pendulum);
   tcase_add_test(tc, body_gimbal_rotation);
