@@ -18,6 +18,19 @@ EOMC = os.environ.get("EOMC", "./eomc")
 SRCDIR = os.environ.get("SRCDIR", ".")
 
 
+def real_binary():
+    """In a build tree ./eomc is libtool's wrapper script, which costs a
+    fork and a shell before eomc starts: time the program itself, the way
+    it runs once installed."""
+    top = os.path.dirname(os.path.abspath(EOMC))
+    real = os.path.join(top, ".libs", "eomc")
+    if not os.path.exists(real):
+        return EOMC, {}
+    libs = os.path.join(top, "runtime", ".libs")
+    path = os.environ.get("LD_LIBRARY_PATH")
+    return real, {"LD_LIBRARY_PATH": libs + (":" + path if path else "")}
+
+
 def run(argv, env):
     t0 = time.perf_counter()
     p = subprocess.run(argv, env=env, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE)
@@ -31,14 +44,15 @@ def first_line(text):
 
 def main():
     models = sorted(glob.glob(os.path.join(SRCDIR, "examples", "*.eom")))
-    print("\neomc sim")
+    eomc, extra_env = real_binary()
+    print("\neomc sim (%s)" % eomc)
     print("%-20s %10s %10s  %s" % ("model", "cold ms", "warm ms", "simulated s per wall s"))
     methods = ["dopri", "rk4", "midpoint", "radau5"]
     with tempfile.TemporaryDirectory(prefix="eomc-bench-sim-") as tmp:
         for path in models:
             name = os.path.splitext(os.path.basename(path))[0]
-            env = dict(os.environ, EOMC_CACHE_DIR=os.path.join(tmp, "cache-" + name))
-            tiny = [EOMC, "sim", path, "--until", "1e-6", "-o", os.devnull]
+            env = dict(os.environ, EOMC_CACHE_DIR=os.path.join(tmp, "cache-" + name), **extra_env)
+            tiny = [eomc, "sim", path, "--until", "1e-6", "-o", os.devnull]
             cold, st, err = run(tiny, env)
             if st != 0:
                 print("%-20s sim failed: %s" % (name, first_line(err)))
@@ -46,8 +60,8 @@ def main():
             warm = min(run(tiny, env)[0] for _ in range(5))
             speeds = []
             for method in methods:
-                until = 20.0
-                argv = [EOMC, "sim", path, "--until", str(until), "--step", "0.001",
+                until = 100.0
+                argv = [eomc, "sim", path, "--until", str(until), "--step", "0.01",
                         "--method", method, "-o", os.devnull]
                 dt, st, err = run(argv, env)
                 if st != 0:
@@ -55,7 +69,8 @@ def main():
                     continue
                 speeds.append("%s %.0f" % (method, until / max(dt - warm, 1e-6)))
             print("%-20s %10.1f %10.1f  %s" % (name, 1000 * cold, 1000 * warm, ", ".join(speeds)))
-    print("(warm start-up target: < 50 ms; speed includes writing 20,001 CSV rows)")
+    print("(warm start-up target: < 50 ms; speed: 100 s simulated, 10,001 CSV rows written;")
+    print(" the fixed-step methods step at 0.01 s)")
 
 
 if __name__ == "__main__":

@@ -1,8 +1,8 @@
 /*
 ** csv.c — write simulation samples as CSV: a header naming every column
 ** (t, coordinates, rates as name', outputs, T, V) and one row per sample.
-** Each number is printed in the shortest of %.15g, %.16g and %.17g that
-** reads back as the same double.
+** Each number is printed as %.15g when that reads back as the same double
+** (short and readable for round values), else as %.17g (always exact).
 */
 #include <assert.h>
 #include <stdio.h>
@@ -13,10 +13,8 @@
 
 static void put_number(FILE *f, const char *sep, double v) {
   char buf[40];
-  for (int digits = 15; digits <= 17; digits++) {
-    snprintf(buf, sizeof buf, "%.*g", digits, v);
-    if (digits == 17 || strtod(buf, NULL) == v) break;
-  }
+  snprintf(buf, sizeof buf, "%.15g", v);
+  if (strtod(buf, NULL) != v) snprintf(buf, sizeof buf, "%.17g", v);
   fputs(sep, f);
   fputs(buf, f);
 }
