@@ -69,7 +69,8 @@ int eom_inputs_set_constant(eom_inputs *in, int j, double value);
 ** or EOM_EINPUT with a message "FILE:LINE: ..." in err. */
 int eom_inputs_load_csv(eom_inputs *in, const char *path, const char *const *names,
                         char *err, size_t errlen);
-/* u(t) into u[nu]; in may be NULL (all inputs zero). */
+/* u(t) into u[nu].  With in NULL there is nothing to evaluate and u is
+** left as it is (eom_simulate passes zeros then). */
 void eom_inputs_eval(const eom_inputs *in, double t, double *u);
 
 /* ------------------------------------------------------------- simulation */
@@ -77,14 +78,16 @@ void eom_inputs_eval(const eom_inputs *in, double t, double *u);
 struct eom_sim_options {
   const char *method;  /* "dopri" (when NULL), "rk4", "radau5" or "midpoint" */
   double t0, t_end;
-  double step;         /* fixed-step methods: largest step (0: sample_dt, or
+  double step;         /* fixed-step methods: largest step, shortened so that
+                          equal steps land on every sample (0: sample_dt, or
                           span/1000); dopri: first trial step (0: automatic) */
   double sample_dt;    /* time between samples; 0: a sample after every step */
   double rtol, atol;   /* dopri error tolerances; implicit methods: Newton
                           tolerance (defaults 1e-8 and 1e-10) */
   double h_min;        /* smallest step before EOM_ESTEP (0: automatic) */
   long max_steps;      /* 0: no limit */
-  int fixed_step;      /* dopri: steps of exactly `step`, no error control */
+  int fixed_step;      /* dopri: fixed steps as the fixed-step methods take
+                          them, no error control (for order studies) */
 };
 
 void eom_sim_options_init(struct eom_sim_options *o);
