@@ -11,8 +11,9 @@
 ** where λ* stays at its equilibrium value: the λ·(d²phi/dq²) part is the
 ** stiffness the constraint force adds (a pendulum's rod tension).  The
 ** terms from the change of N with q multiply f + Gᵀλ*, which is zero.
-** (Géradin & Cardona, Flexible Multibody Dynamics, 2001, §7.2; Hairer &
-** Wanner, Solving ODEs II, §VII.1 for the index-3 structure.)
+** (Standard constrained linearization; Hairer & Wanner, Solving ODEs II,
+** 2nd ed., 1996, ch. VII for the structure of constrained mechanical
+** systems; the chapter is from memory.)
 ** This file uses only the model's mass, forcing, constraint and
 ** constraint_jacobian, so it does not depend on how accel_constrained signs λ.
 */

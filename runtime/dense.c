@@ -1,7 +1,8 @@
 /*
 ** dense.c — LU factorization with partial pivoting for the small dense
 ** Newton matrices of the implicit integrators and the equilibrium search.
-** (Golub & Van Loan, Matrix Computations, 4th ed., 2013, §3.4.)
+** (Golub & Van Loan, Matrix Computations, 4th ed., 2013, §3.4; section
+** from memory.)
 */
 #include <assert.h>
 #include <math.h>

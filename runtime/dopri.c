@@ -7,7 +7,8 @@
 ** factor beta = 0.04) and the dense-output formula follow Hairer, Nørsett &
 ** Wanner, Solving Ordinary Differential Equations I, 2nd ed., 1993:
 ** Table II.5.2 (the tableau), §II.4 (automatic step size control, starting
-** step), §II.6 (dense output).  The last stage is evaluated at the new
+** step), §II.6 (dense output); table and section numbers from memory, the
+** coefficients checked by the order and dense-output tests.  The last stage is evaluated at the new
 ** point, so it is reused as the first stage of the next step (FSAL).
 */
 #include <assert.h>

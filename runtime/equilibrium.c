@@ -12,7 +12,7 @@
 ** free-floating pair): the step is then the Levenberg–Marquardt one,
 ** (JᵀJ + mu I) dq = -Jᵀ f with a small mu, which leaves the free coordinates
 ** where they are and still solves for the others (Nocedal & Wright,
-** Numerical Optimization, 2nd ed., 2006, §10.3).
+** Numerical Optimization, 2nd ed., 2006, §10.3; section from memory).
 */
 #include <assert.h>
 #include <float.h>

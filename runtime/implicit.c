@@ -6,10 +6,12 @@
 **            symplectic and symmetric, so for conservative models the
 **            energy error stays bounded over long runs, and quadratic
 **            invariants (linear models) are kept exactly (Hairer, Lubich &
-**            Wanner, Geometric Numerical Integration, 2nd ed., 2006, §VI.4, §IV.2).
+**            Wanner, Geometric Numerical Integration, 2nd ed., 2006, §VI.4,
+**            §IV.2; sections from memory).
 **  radau5    Radau IIA with three stages, order 5, stiffly accurate and
 **            L-stable, for stiff models (Hairer & Wanner, Solving Ordinary
-**            Differential Equations II, 2nd ed., 1996, §IV.5, Table 5.6).
+**            Differential Equations II, 2nd ed., 1996, §IV.5, Table 5.6; the
+**            table number from memory, the coefficients checked by the order test).
 **
 ** The Newton iteration stops when the update is a thousandth of the
 ** tolerance; when it fails to converge the step returns EOM_ENEWTON and the

@@ -1,7 +1,7 @@
 /*
 ** rk4.c — the classic fourth-order Runge–Kutta step (fixed step size).
 ** (Hairer, Nørsett & Wanner, Solving Ordinary Differential Equations I,
-** 2nd ed., 1993, §II.1, Table 1.2 left.)
+** 2nd ed., 1993, §II.1; section from memory.)
 */
 #include <assert.h>
 

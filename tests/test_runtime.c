@@ -108,7 +108,7 @@ END_TEST
 
 /* Kepler's third law, period 2 pi sqrt(a^3 / mu), and the conservation of
 ** angular momentum m r^2 phi' (Goldstein, Poole & Safko, Classical
-** Mechanics, 3rd ed., 2002, §3.7-3.8).  Start at periapsis r = a(1 - e)
+** Mechanics, 3rd ed., 2002, §3.7-3.8, sections from memory).  Start at periapsis r = a(1 - e)
 ** with speed sqrt(mu (1 + e) / (a (1 - e))) (vis-viva). */
 typedef struct Ang {
   double h0, max_dev;
@@ -191,7 +191,7 @@ static double fixed_error(const char *method, double h) {
 }
 
 /* A method of order p divides the global error by 2^p per halving of h
-** (Hairer, Nørsett & Wanner, Solving ODEs I, 2nd ed., 1993, §II.3):
+** (Hairer, Nørsett & Wanner, Solving ODEs I, 2nd ed., 1993, §II.3, from memory):
 ** dopri 5 -> 32, radau5 5 -> 32, rk4 4 -> 16, midpoint 2 -> 4. */
 START_TEST(integrator_orders) {
   static const struct {
@@ -266,7 +266,7 @@ static double energy_drift(const struct eom_model *m, const double *p, double *x
 
 /* Implicit midpoint keeps quadratic invariants, so the energy of a linear
 ** oscillator stays at its start up to rounding (Hairer, Lubich & Wanner,
-** Geometric Numerical Integration, 2nd ed., 2006, §IV.2, Thm 2.1); RK4 is not
+** Geometric Numerical Integration, 2nd ed., 2006, §IV.2, from memory); RK4 is not
 ** symplectic and its energy drifts (ibid. §I.1).  10^6 steps of h = 0.1. */
 START_TEST(midpoint_energy_bounded) {
   const double p[] = {1.0, 1.0, 0.0};
@@ -279,7 +279,7 @@ START_TEST(midpoint_energy_bounded) {
 END_TEST
 
 /* On the nonlinear pendulum the midpoint energy error oscillates but does
-** not grow (ibid. §IX.8, long-time energy conservation): the worst error in
+** not grow (ibid. §IX.8, from memory: long-time energy conservation): the worst error in
 ** the last tenth of a long run is no larger than over the first tenth. */
 START_TEST(midpoint_pendulum_no_drift) {
   const double p[] = {1.0, 1.0, 9.81};
@@ -297,7 +297,7 @@ END_TEST
 ** s = (-c ± sqrt(c^2 - 4k)) / 2, one near -1e4, one near -1e-4 (closed
 ** form, common practice).  At h = 0.01, h s = -100 lies outside RK4's
 ** stability region, which must fail cleanly, while the L-stable Radau IIA
-** (Hairer & Wanner, Solving ODEs II, 2nd ed., 1996, §IV.3) follows the slow
+** (Hairer & Wanner, Solving ODEs II, 2nd ed., 1996, §IV.3, from memory) follows the slow
 ** solution. */
 START_TEST(stiff_radau5_vs_rk4) {
   const double p[] = {1.0, 1.0, 1e4};

@@ -60,8 +60,8 @@ static double json_number(const char *text, const char *key, int k) {
 /* ------------------------------------------------------------- modes */
 
 /* Bead on a hoop spinning at w: off-bottom equilibrium cos(theta0) = g / (w^2 R)
-** and small oscillations there at w sin(theta0) (Marion & Thornton,
-** Classical Dynamics of Particles and Systems, 5th ed., 2004, prob. 7-18). */
+** and small oscillations there at w sin(theta0) (Marion, Classical
+** Dynamics of Particles and Systems, prob. 7-18). */
 START_TEST(modes_bead_on_hoop) {
   char *argv[] = {(char *)eomc(), "modes", model_path("bead_hoop.eom"), "--at", "theta=1",
                   "--json", NULL};
@@ -247,7 +247,7 @@ static double *csv_column(const char *csv, int col, int *n) {
 }
 
 /* The bead released near its off-bottom equilibrium oscillates at
-** w sin(theta0) (Marion & Thornton, prob. 7-18): measure the period from
+** w sin(theta0) (Marion, Classical Dynamics, prob. 7-18): measure the period from
 ** the upward crossings of theta0 in the CSV. */
 START_TEST(sim_bead_small_oscillation_period) {
   double g = 9.81, R = 0.5, w = 7, theta0 = acos(g / (w * w * R));
@@ -367,7 +367,7 @@ START_TEST(sim_usage_errors) {
 END_TEST
 
 /* A conservative model conserves T + V (Goldstein, Poole & Safko,
-** Classical Mechanics, 3rd ed., 2002, §2.7): released at large angles the
+** Classical Mechanics, 3rd ed., 2002, §2.7, section from memory): released at large angles the
 ** double pendulum moves chaotically, yet dopri at tight tolerance keeps
 ** the energy to 1e-7 and implicit midpoint keeps it bounded. */
 START_TEST(sim_energy_conserved) {
