@@ -88,8 +88,12 @@ void sampler_init(Sampler *s, double t0, double t_end, double dt, eom_sample_fn 
 
 double sampler_next(const Sampler *s) {
   if (s->every_step || s->done) return INFINITY;
-  /* Without an extra end sample the last grid point is t_end itself. */
+  /* Without an extra end sample the last grid point is t_end itself, and
+  ** the grid divides the span evenly: t0 + span*k/kmax gives the correctly
+  ** rounded 0.3 where t0 + k*dt would give 0.30000000000000004. */
   if (s->k == s->kmax && !s->end_extra) return s->t_end;
+  if (!s->end_extra && s->kmax > 0)
+    return s->t0 + (s->t_end - s->t0) * (double)s->k / (double)s->kmax;
   if (s->k <= s->kmax) return fmin(s->t0 + (double)s->k * s->dt, s->t_end);
   return s->t_end;  /* end_extra */
 }

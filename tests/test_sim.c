@@ -213,6 +213,8 @@ START_TEST(sim_csv_columns) {
   double t, x1, x2;
   ck_assert_int_eq(sscanf(row, "%lf,%lf,%lf", &t, &x1, &x2), 3);
   ck_assert(t == 0 && x1 == 0.05 && x2 == 0);
+  /* Sample times print as written: 0.3, not 0.30000000000000004. */
+  ck_assert_msg(strstr(csv, "\n0.3,") && strstr(csv, "\n0.7,") && strstr(csv, "\n1,"), "%s", csv);
   /* Every row has 8 fields. */
   for (const char *p = row; *p; p = strchr(p, '\n') + 1) {
     int commas = 0;
