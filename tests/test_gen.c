@@ -320,7 +320,8 @@ START_TEST(test_atwood) {
 END_TEST
 
 /* Bead on a hoop spinning at w about its vertical diameter (Marion,
-** Classical Dynamics, 1970, prob. 7-18): q'' = w^2 sin q cos q - (g/R) sin q,
+** Classical Dynamics, 1970, prob. 7-18 — the problem number as cited in
+** issue 3, from memory): q'' = w^2 sin q cos q - (g/R) sin q,
 ** whatever the time (the model is written in the non-rotating frame). */
 START_TEST(test_rotating_hoop) {
   Built b = build_model("tests/models/rotating_hoop.eom", "rotating_hoop", NULL, cc());
@@ -349,7 +350,8 @@ START_TEST(test_rotating_hoop) {
 END_TEST
 
 /* Compound Atwood machine, 2 DOF (Brizard, An Introduction to Lagrangian
-** Mechanics, §2.3.4).  With depths x of m1 and y of m2 below the movable
+** Mechanics, §2.3.4 — section as cited in issue 3, from memory; the closed
+** form below is derived here).  With depths x of m1 and y of m2 below the movable
 ** pulley (see the model file), T = 1/2 m1 x'^2 + 1/2 m2 (y' - x')^2 +
 ** 1/2 m3 (x' + y')^2 and V = -g (m1 x + m2 (y - x) + m3 (-x - y)) + const, so
 **   M = [m1 + m2 + m3, m3 - m2; m3 - m2, m2 + m3],  f = g [m1 - m2 - m3, m2 - m3]
