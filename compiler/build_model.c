@@ -151,10 +151,28 @@ static int generate(Frontend *fe, const char *path, const char *dir) {
   return rc;
 }
 
+/* The directory holding eom/model.h: the one configured at build time, or,
+** for an installed eomc whose source tree is gone, PREFIX/include beside
+** PREFIX/bin/eomc.  Writes it into buf (size cap). */
+static void include_dir(char *buf, size_t cap) {
+  char probe[8300], exe[4096];
+  snprintf(buf, cap, "%s", EOMC_INCLUDEDIR);
+  snprintf(probe, sizeof probe, "%s/eom/model.h", EOMC_INCLUDEDIR);
+  if (access(probe, R_OK) == 0) return;
+  ssize_t n = readlink("/proc/self/exe", exe, sizeof exe - 1);
+  if (n <= 0) return;
+  exe[n] = '\0';
+  char *slash = strrchr(exe, '/');
+  if (!slash) return;
+  *slash = '\0';                    /* PREFIX/bin */
+  snprintf(probe, sizeof probe, "%s/../include/eom/model.h", exe);
+  if (access(probe, R_OK) == 0) snprintf(buf, cap, "%s/../include", exe);
+}
+
 /* cc -shared -fPIC -O2 -I<include> -o so.tmp P.c -lm, then rename. */
 static int compile(const char *dir, const char *prefix, const char *cc_env, const char *so_path) {
   char *cc = strdup(cc_env);
-  char *src = NULL, tmp[64];
+  char *src = NULL, tmp[64], inc[4200];
   char *argv[MAX_CC_WORDS + 16];
   int rc = EXIT_RUN;
   if (!cc) goto out;
@@ -171,8 +189,10 @@ static int compile(const char *dir, const char *prefix, const char *cc_env, cons
   snprintf(tmp, sizeof tmp, "model.so.tmp.%ld", (long)getpid());
   tmp_path = join(dir, tmp);
   if (!tmp_path) goto out;
-  const char *tail[] = {"-std=c99", "-O2", "-fPIC", "-shared", "-I" EOMC_INCLUDEDIR,
-                        "-o", tmp_path, src, "-lm", NULL};
+  memcpy(inc, "-I", 3);
+  include_dir(inc + 2, sizeof inc - 2);
+  const char *tail[] = {"-std=c99", "-O2", "-fPIC", "-shared", inc, "-o", tmp_path, src, "-lm",
+                        NULL};
   for (size_t i = 0; i < sizeof tail / sizeof tail[0]; i++) argv[n++] = (char *)tail[i];
   int status = run_program(argv);
   if (status != 0) {
