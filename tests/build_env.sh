@@ -19,6 +19,11 @@ set -eu
 : "${SRCDIR:?SRCDIR must name the source tree}"
 MAKE=${MAKE:-make}
 CC=${CC:-cc}
+# The flags the tree was built with (a sanitizer build needs them to link
+# programs against its instrumented runtime); the example projects read them
+# from the environment too.
+CFLAGS=${CFLAGS:-}
+LDFLAGS=${LDFLAGS:-}
 
 tmp=$(mktemp -d "${TMPDIR:-/tmp}/eomc-build-test.XXXXXX")
 trap 'rm -rf "$tmp"' EXIT
@@ -69,7 +74,7 @@ PKG_CONFIG_PATH=$pcdir
 PKG_CONFIG_SYSROOT_DIR=$stage
 LD_LIBRARY_PATH=$libdir${LD_LIBRARY_PATH:+:$LD_LIBRARY_PATH}
 EOMC=$bindir/eomc
-export PKG_CONFIG_PATH PKG_CONFIG_SYSROOT_DIR LD_LIBRARY_PATH EOMC CC
+export PKG_CONFIG_PATH PKG_CONFIG_SYSROOT_DIR LD_LIBRARY_PATH EOMC CC CFLAGS LDFLAGS
 
 # Copy one of the example build projects (and the model and program they
 # share) to a writable place: the source tree may be read-only (distcheck).
