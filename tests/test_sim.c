@@ -303,6 +303,38 @@ START_TEST(sim_inputs_settle) {
 }
 END_TEST
 
+/* A stiff mount, m z'' + c z' + k z = 0 with roots s = (-c ± sqrt(c^2 - 4km))
+** / 2m near -50 and -19950 (closed form, common practice): at a step of 1 ms
+** radau5 follows the slow decay, rk4 blows up and must say so (exit 3). */
+START_TEST(sim_stiff_radau5) {
+  double m = 1, k = 1e6, c = 2e4, z0 = 0.01;
+  double d = sqrt(c * c - 4 * k * m), s1 = (-c + d) / (2 * m), s2 = (-c - d) / (2 * m);
+  double A = -s2 / (s1 - s2) * z0, B = z0 - A;
+  char *argv[] = {(char *)eomc(), "sim", model_path("stiff_mount.eom"), "--until", "0.1",
+                  "--step", "0.001", "--method", "radau5", "--rtol", "1e-10", "--atol", "1e-14",
+                  NULL};
+  RunResult r = run_argv(argv);
+  ck_assert_msg(r.status == 0, "status %d: %s", r.status, r.err);
+  int n;
+  double *t = csv_column(r.out, 0, &n), *z = csv_column(r.out, 1, &n);
+  ck_assert_int_eq(n, 101);
+  for (int i = 10; i < n; i++) {
+    double exact = A * exp(s1 * t[i]) + B * exp(s2 * t[i]);
+    ck_assert_msg(fabs(z[i] - exact) < 1e-4 * fabs(exact), "t %g: z %.10g, exact %.10g", t[i],
+                  z[i], exact);
+  }
+  free(t);
+  free(z);
+  run_free(&r);
+  char *argv2[] = {(char *)eomc(), "sim", model_path("stiff_mount.eom"), "--until", "0.1",
+                   "--step", "0.001", "--method", "rk4", NULL};
+  r = run_argv(argv2);
+  ck_assert_msg(r.status == 3, "status %d: %s", r.status, r.err);
+  ck_assert_ptr_nonnull(strstr(r.err, "non-finite"));
+  run_free(&r);
+}
+END_TEST
+
 /* accel() fails where the mass matrix stops being positive definite: exit 3,
 ** a message naming the time and state, and the rows so far kept. */
 START_TEST(sim_failure_keeps_rows) {
@@ -468,6 +500,7 @@ static Suite *sim_suite(void) {
   tcase_add_test(tc, sim_bead_small_oscillation_period);
   tcase_add_test(tc, sim_inputs_settle);
   tcase_add_test(tc, sim_failure_keeps_rows);
+  tcase_add_test(tc, sim_stiff_radau5);
   tcase_add_test(tc, sim_usage_errors);
   tcase_add_test(tc, sim_cache);
   tcase_add_test(tc, sim_plot_svg);
