@@ -134,6 +134,16 @@ START_TEST(modes_damped_pair) {
   ck_assert_ptr_nonnull(strstr(r.out, "Hz"));
   ck_assert_ptr_nonnull(strstr(r.out, "period"));
   run_free(&r);
+  /* A steady push F on the first cart moves the equilibrium to K x = (F, 0):
+  ** x1 = 2F/(3k), x2 = F/(3k) (statics, common practice); the modes stay. */
+  char *argv3[] = {(char *)eomc(), "modes", model_path("damped_pair.eom"), "--set", "F=60",
+                   "--json", NULL};
+  r = run_argv(argv3);
+  ck_assert_msg(r.status == 0, "status %d: %s", r.status, r.err);
+  ck_assert_double_eq_tol(json_number(r.out, "x1", 0), 2 * 60 / (3 * k), 1e-10);
+  ck_assert_double_eq_tol(json_number(r.out, "x2", 0), 60 / (3 * k), 1e-10);
+  ck_assert_double_eq_tol(json_number(r.out, "omega_rad_s", 0), sqrt(k / m), 1e-9);
+  run_free(&r);
 }
 END_TEST
 
