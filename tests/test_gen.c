@@ -437,6 +437,67 @@ START_TEST(test_cart_double_pendulum) {
 }
 END_TEST
 
+/* A pendulum in Cartesian coordinates held by x^2 + y^2 = L^2: with
+** M q'' = f + G^T lambda and G q'' = gamma = -2 (x'^2 + y'^2), the
+** multiplier is lambda = (m gamma - G f)/(G G^T) (derived here from those two
+** equations) and the tangential acceleration is -g sin(theta) (the simple
+** pendulum; common practice). */
+START_TEST(test_constrained_pendulum) {
+  char *dir = make_temp_dir(), *model = model_path("tests/models/cartesian_pendulum.eom");
+  RunResult r = run_eomc("gen", model, "-o", dir, NULL, NULL, NULL);
+  ck_assert_msg(r.status == 0, "%s", r.err);
+  run_free(&r);
+  const char *src =
+    "#include <stdio.h>\n#include <math.h>\n#include <eom/model.h>\n#include \"cartesian_pendulum.h\"\n"
+    "int main(void) {\n"
+    "  const struct eom_model *m = &cartesian_pendulum_model;\n"
+    "  double p[cartesian_pendulum_NP], q[2], qd[2], qdd[2], lam[cartesian_pendulum_NC], phi[1], G[2];\n"
+    "  double th = 0.7, w = -1.3, L;\n"
+    "  cartesian_pendulum_default_params(p); L = p[cartesian_pendulum_P_L];\n"
+    "  q[0] = L*sin(th); q[1] = -L*cos(th); qd[0] = L*cos(th)*w; qd[1] = L*sin(th)*w;\n"
+    "  if (m->accel_constrained == 0 || m->accel_constrained(0.0, q, qd, 0, p, qdd, lam) != 0) return 1;\n"
+    "  m->constraint(q, p, phi); m->constraint_jacobian(q, p, G);\n"
+    "  printf(\"%.17g %.17g %.17g %.17g %.17g %.17g %d\\n\", qdd[0], qdd[1], lam[0], phi[0], G[0], G[1], m->nc);\n"
+    "  return 0;\n}\n";
+  char *drv = write_file(dir, "d.c", src, strlen(src));
+  char csrc[4200], exe[4200], inc[4200], dinc[4200];
+  snprintf(csrc, sizeof csrc, "%s/cartesian_pendulum.c", dir);
+  snprintf(exe, sizeof exe, "%s/d", dir);
+  snprintf(inc, sizeof inc, "-I%s/include", srcdir());
+  snprintf(dinc, sizeof dinc, "-I%s", dir);
+  char *argv[] = {(char *)cc(), "-std=c99", "-pedantic", "-Wall", "-Wextra", "-Werror", inc, dinc,
+                  csrc, drv, "-o", exe, "-lm", NULL};
+  r = run_argv(argv);
+  ck_assert_msg(r.status == 0, "%s", r.err);
+  run_free(&r);
+  char *argv2[] = {exe, NULL};
+  r = run_argv(argv2);
+  ck_assert_msg(r.status == 0, "driver: %d", r.status);
+  double v[6];
+  int nc;
+  ck_assert_int_eq(sscanf(r.out, "%lf %lf %lf %lf %lf %lf %d", &v[0], &v[1], &v[2], &v[3], &v[4], &v[5], &nc), 7);
+  const double m = 0.8, g = 9.81, L = 1.2, th = 0.7, w = -1.3;
+  double x = L * sin(th), y = -L * cos(th), xd = L * cos(th) * w, yd = L * sin(th) * w;
+  double Gx = 2 * x, Gy = 2 * y, gamma = -2 * (xd * xd + yd * yd);
+  double lam = (m * gamma - Gy * (-m * g)) / (Gx * Gx + Gy * Gy);
+  ck_assert_int_eq(nc, 1);
+  /* the sign of phi and G is the generator's choice: compare through G */
+  double sG = v[4] * Gx > 0 ? 1.0 : -1.0;
+  CHECK_REL(v[4], sG * Gx, 1e-14);
+  CHECK_REL(v[5], sG * Gy, 1e-14);
+  CHECK_REL(v[3], 0.0, 1e-14);
+  CHECK_REL(v[2] * sG, lam, 1e-12);
+  CHECK_REL(v[0] * cos(th) + v[1] * sin(th), -g * sin(th), 1e-12);
+  CHECK_REL(v[0], Gx * lam / m, 1e-12);
+  CHECK_REL(v[1], -g + Gy * lam / m, 1e-12);
+  run_free(&r);
+  free(drv);
+  free(model);
+  remove_tree(dir);
+  free(dir);
+}
+END_TEST
+
 /* M not positive definite: P_accel returns nonzero and writes nothing,
 ** P_rhs writes NaN. */
 START_TEST(test_not_positive_definite) {
@@ -814,6 +875,7 @@ static Suite *gen_suite(void) {
   tcase_add_test(phys, test_driven_oscillator);
   tcase_add_test(phys, test_cart_double_pendulum);
   tcase_add_test(phys, test_not_positive_definite);
+  tcase_add_test(phys, test_constrained_pendulum);
   suite_add_tcase(s, phys);
   TCase *code = tcase_create("code");
   tcase_set_timeout(code, 600);
