@@ -268,10 +268,11 @@ static void fn_analyse(Emitter *E) {
       continue;
     }
     if (!E->no_cse && E->uses[n] > 1) E->tempno[n] = 0;
-    /* A power written as a product, and sign(), repeat their argument. */
-    if ((x->op == IR_POW && small_int(E, x->args[1], &k) && (k >= 2 || k <= -2)) ||
-        (x->op == IR_CALL && x->fn == IRF_SIGN))
-      if (!is_leaf(E, x->args[0])) E->tempno[x->args[0]] = 0;
+    /* A power written as a product, and sign(), repeat their argument:
+    ** computed once, unless --no-cse asks for every use in full. */
+    int repeats = (x->op == IR_POW && small_int(E, x->args[1], &k) && (k >= 2 || k <= -2)) ||
+                  (x->op == IR_CALL && x->fn == IRF_SIGN);
+    if (repeats && !E->no_cse && !is_leaf(E, x->args[0])) E->tempno[x->args[0]] = 0;
     long size = 1;
     for (int a = 0; a < x->nargs; a++) {
       int arg = x->args[a];
@@ -352,7 +353,8 @@ static const char *fn_c_name(IrFn fn) {
   return NULL;
 }
 
-/* base^k for 2 <= k <= MAX_POW_PRODUCT as k-1 multiplications. */
+/* base^k for 2 <= k <= MAX_POW_PRODUCT as k-1 multiplications (the base is a
+** leaf or a temporary, or with --no-cse any expression, parenthesized). */
 static void put_repeat(Emitter *E, Buf *b, int base, int k) {
   for (int i = 0; i < k; i++) {
     if (i) buf_put(b, "*");
