@@ -16,6 +16,7 @@
 #include <string.h>
 #include <sys/stat.h>
 #include "emit_c.h"
+#include "hash.h"
 #include "testutil.h"
 
 /* ------------------------------------------------------------------ a tiny IR builder */
@@ -587,6 +588,18 @@ START_TEST(test_nonfinite_constant) {
 }
 END_TEST
 
+/* FNV-1a 64-bit test vectors (Fowler, Noll, Vo, "FNV hash" reference
+** page, test vectors for "" and "a" — from memory). */
+START_TEST(test_hash) {
+  char hex[HASH_HEX_LEN + 1];
+  hash_hex("", 0, hex);
+  ck_assert_str_eq(hex, "cbf29ce484222325");
+  hash_hex("a", 1, hex);
+  ck_assert_str_eq(hex, "af63dc4c8601ec8c");
+  ck_assert_uint_eq(hash_fnv1a64("foobar", 6), UINT64_C(0x85944171f73967e8));
+}
+END_TEST
+
 static Suite *emit_suite(void) {
   Suite *s = suite_create("emit");
   TCase *tc = tcase_create("core");
@@ -597,6 +610,7 @@ static Suite *emit_suite(void) {
   tcase_add_test(tc, test_constraints);
   tcase_add_test(tc, test_time_dependent_mass);
   tcase_add_test(tc, test_files);
+  tcase_add_test(tc, test_hash);
   tcase_add_test(tc, test_nonfinite_constant);
   suite_add_tcase(s, tc);
   return s;
