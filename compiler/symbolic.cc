@@ -33,6 +33,7 @@
 #include <unordered_map>
 
 #include "symbolic.h"
+#include "constraint_rank.h"
 
 using namespace GiNaC;
 
@@ -1210,7 +1211,8 @@ extern "C" int sym_derive(const Model *m, const SymOptions *opt, Diag *d, EomSys
   try {
     eomsym::Derivation dv(m, opt);
     dv.run(out);
-    return 0;
+    /* Dependent constraint equations make the multipliers non-unique. */
+    return out->nc > 0 && constraint_rank_check(m, out, d) != 0;
   } catch (const eomsym::SymError &e) {
     diag_error(d, e.loc, "%s", e.msg.c_str());
   } catch (const std::bad_alloc &) {
