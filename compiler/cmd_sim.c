@@ -44,6 +44,16 @@ static const char sim_usage[] =
   "  -o OUT.csv         write the CSV there (default: standard output)\n"
   "  --plot OUT.svg     plot coordinates, energies and phase portraits (gnuplot)\n"
   "\n"
+  "models with constraints (the CSV adds lambda1.., the multipliers; the\n"
+  "generalized constraint force is +G^T lambda with G = dphi/dq):\n"
+  "  --baumgarte A,B    Baumgarte gains in 1/s: G q'' = gamma - 2A phi' - B^2 phi\n"
+  "                     (default 10,10; 0,0 turns the term off)\n"
+  "  --no-projection    do not project q and q' back onto the constraints after\n"
+  "                     each step\n"
+  "  --no-initial-fix   start from the initial state as given (default: moved\n"
+  "                     onto the constraints by Gauss-Newton first)\n"
+  "  --constraint-tol E max|phi| the projections aim for (default 1e-12)\n"
+  "\n"
   "Cache: $EOMC_CACHE_DIR, else $XDG_CACHE_HOME/eomc, else ~/.cache/eomc.\n"
   "Compiler: $CC (default cc).\n"
   "exit status: 0 success, 1 model error, 2 usage error, 3 run failure\n";
@@ -53,7 +63,21 @@ typedef struct SimArgs {
   double until, step, rtol, atol;
   char **sets;
   int nsets;
+  /* constraints */
+  double alpha, beta, constraint_tol;
+  int no_projection, no_initial_fix;
 } SimArgs;
+
+/* "A,B": two numbers >= 0 separated by a comma; 0 or -1. */
+static int parse_gains(const char *v, double *a, double *b) {
+  char buf[128];
+  const char *comma = strchr(v, ',');
+  if (!comma || (size_t)(comma - v) >= sizeof buf) return -1;
+  memcpy(buf, v, (size_t)(comma - v));
+  buf[comma - v] = '\0';
+  if (parse_number(buf, a) != 0 || parse_number(comma + 1, b) != 0) return -1;
+  return *a >= 0 && *b >= 0 ? 0 : -1;
+}
 
 static int usage_error(const char *fmt, const char *arg) {
   fputs("eomc sim: ", stderr);
@@ -76,6 +100,7 @@ static int parse_args(int argc, char **argv, SimArgs *a) {
   memset(a, 0, sizeof *a);
   a->method = "dopri";
   a->until = 10;
+  a->alpha = a->beta = -1; /* the runtime's defaults */
   a->sets = calloc((size_t)argc + 1, sizeof(char *));
   if (!a->sets) return usage_error("%s", "out of memory");
   for (int i = 1; i < argc; i++) {
@@ -91,6 +116,18 @@ static int parse_args(int argc, char **argv, SimArgs *a) {
     else if ((v = option_value(argc, argv, &i, "--inputs"))) a->inputs = v;
     else if ((v = option_value(argc, argv, &i, "--plot"))) a->plot = v;
     else if ((v = option_value(argc, argv, &i, "-o"))) a->out = v;
+    else if ((v = option_value(argc, argv, &i, "--constraint-tol"))) num = &a->constraint_tol;
+    else if (strcmp(arg, "--no-projection") == 0) {
+      a->no_projection = 1;
+      continue;
+    } else if (strcmp(arg, "--no-initial-fix") == 0) {
+      a->no_initial_fix = 1;
+      continue;
+    } else if ((v = option_value(argc, argv, &i, "--baumgarte"))) {
+      if (parse_gains(v, &a->alpha, &a->beta) != 0)
+        return usage_error("'--baumgarte' needs two numbers >= 0, e.g. 10,10 (got '%s')", v);
+      continue;
+    }
     else if (arg[0] == '-' && arg[1] != '\0') return usage_error("unknown option '%s'", arg);
     else if (a->model) return usage_error("more than one model file ('%s')", arg);
     else {
@@ -304,6 +341,10 @@ int cmd_sim(int argc, char **argv) {
   o.step = strcmp(a.method, "dopri") == 0 ? 0 : a.step;
   if (a.rtol > 0) o.rtol = a.rtol;
   if (a.atol > 0) o.atol = a.atol;
+  if (a.alpha >= 0) o.baumgarte_alpha = a.alpha, o.baumgarte_beta = a.beta;
+  o.no_projection = a.no_projection;
+  o.no_initial_fix = a.no_initial_fix;
+  o.constraint_tol = a.constraint_tol;
 
   eom_csv_write_header(csv, m);
   int st = eom_simulate(m, rv.p, in, rv.x, &o, on_sample, &so, &rep);

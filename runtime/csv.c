@@ -1,10 +1,14 @@
 /*
 ** csv.c — write simulation samples as CSV: a header naming every column
-** (t, coordinates, rates as name', outputs, T, V) and one row per sample.
+** (t, coordinates, rates as name', outputs, T, V and, for a model with
+** constraints, the multipliers lambda1..lambdaNC) and one row per sample.
+** The multipliers are those of accel_constrained at the sample: the
+** generalized constraint force is +Gᵀλ (G = dphi/dq, phi = left - right).
 ** Each number is printed as %.15g when that reads back as the same double
 ** (short and readable for round values), else as %.17g (always exact).
 */
 #include <assert.h>
+#include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -25,7 +29,10 @@ int eom_csv_write_header(FILE *f, const struct eom_model *m) {
   for (int i = 0; i < m->nq; i++) fprintf(f, ",%s", m->coord_names[i]);
   for (int i = 0; i < m->nq; i++) fprintf(f, ",%s'", m->coord_names[i]);
   for (int i = 0; i < m->ny; i++) fprintf(f, ",%s", m->output_names[i]);
-  fputs(",T,V\n", f);
+  fputs(",T,V", f);
+  if (m->accel_constrained)
+    for (int k = 0; k < m->nc; k++) fprintf(f, ",lambda%d", k + 1);
+  fputc('\n', f);
   return ferror(f) ? -1 : 0;
 }
 
@@ -47,6 +54,23 @@ int eom_csv_write_row(FILE *f, const struct eom_model *m, const double *p, doubl
   if (m->energy) m->energy(x, x + m->nq, p, &T, &V);
   put_number(f, ",", T);
   put_number(f, ",", V);
+  if (m->nc > 0 && m->accel_constrained) {
+    double *qdd = malloc(((size_t)m->nq + (size_t)m->nc + (size_t)m->nu + 1) * sizeof(double));
+    if (!qdd) {
+      if (y != y_small) free(y);
+      return -1;
+    }
+    double *lambda = qdd + m->nq, *zeros = lambda + m->nc;
+    if (!u) {
+      memset(zeros, 0, ((size_t)m->nu + 1) * sizeof(double));
+      u = zeros;
+    }
+    /* NaN when the saddle-point system is singular there. */
+    if (m->accel_constrained(t, x, x + m->nq, u, p, qdd, lambda) != 0)
+      for (int k = 0; k < m->nc; k++) lambda[k] = NAN;
+    for (int k = 0; k < m->nc; k++) put_number(f, ",", lambda[k]);
+    free(qdd);
+  }
   fputc('\n', f);
   if (y != y_small) free(y);
   return ferror(f) ? -1 : 0;

@@ -233,6 +233,12 @@ int dopri_run(SimContext *c, const struct eom_sim_options *o, Sampler *smp, doub
       }
       memcpy(x, s.y1, (size_t)n * sizeof(double));
       memcpy(s.k1, s.k7, (size_t)n * sizeof(double));
+      if (c->cs_project) {
+        /* Back onto the constraints; the moved state needs its own slope. */
+        if ((st = stabilize_project(c, t_new, x, 10, "projecting onto the constraints")) ||
+            (st = sim_rhs(c, t_new, x, s.k1)))
+          goto done;
+      }
       t = t_new;
       rep->steps++;
       c->t_good = t;

@@ -50,7 +50,9 @@ void simctx_free(SimContext *c) {
   free(c->fd_f1);
   free(c->fd_f2);
   free(c->piv);
+  free(c->cs_work);
   c->piv = NULL;
+  c->cs_work = c->cs_sample = NULL;
   c->u = c->lambda = c->jac_b = c->fd_x = c->fd_f1 = c->fd_f2 = NULL;
 }
 
@@ -78,8 +80,13 @@ int sim_rhs(SimContext *c, double t, const double *x, double *xdot) {
   load_inputs(c, t);
   c->rep->rhs_evals++;
   memcpy(xdot, x + nq, (size_t)nq * sizeof(double));
-  if (model_accel(m, c->p, t, x, c->u, xdot + nq, c->lambda) != 0)
-    return sim_fail(c, EOM_EMASS, t, x, "the mass matrix is not positive definite");
+  int bad = model_accel(m, c->p, t, x, c->u, xdot + nq, c->lambda);
+  /* accel_constrained: 1 for M, 2 for G M^-1 G^T (dependent constraints). */
+  if (bad == 2 && m->nc > 0)
+    return sim_fail(c, EOM_ESINGULAR, t, x,
+                    "the constraints are dependent here (G M^-1 G^T is singular)");
+  if (bad != 0) return sim_fail(c, EOM_EMASS, t, x, "the mass matrix is not positive definite");
+  if (c->cs_active) return stabilize_baumgarte(c, t, x, xdot + nq);
   return EOM_OK;
 }
 

@@ -37,6 +37,8 @@ void eom_sim_options_init(struct eom_sim_options *o) {
   o->t_end = 1.0;
   o->rtol = 1e-8;
   o->atol = 1e-10;
+  o->baumgarte_alpha = 10;
+  o->baumgarte_beta = 10;
 }
 
 typedef struct Method {
@@ -101,6 +103,11 @@ double sampler_next(const Sampler *s) {
 static int sampler_deliver(SimContext *c, Sampler *s, double t, const double *x) {
   s->last_t = t;
   if (!s->fn) return EOM_OK;
+  /* Interpolated samples of a constrained run go out on the constraints too. */
+  if (c->cs_active && c->cs_project) {
+    stabilize_sample(c, x, c->cs_sample);
+    x = c->cs_sample;
+  }
   if (c->u_fixed) {
     if (c->m->nu > 0) memcpy(c->u, c->u_fixed, (size_t)c->m->nu * sizeof(double));
   } else
@@ -184,6 +191,9 @@ static int fixed_run(SimContext *c, const Method *m, const struct eom_sim_option
                       "the state became non-finite in the step from here");
         goto done;
       }
+      if (c->cs_project &&
+          (st = stabilize_project(c, t_next, x, 10, "projecting onto the constraints")))
+        goto restore;
       t = t_next;
       c->t_good = t;
       rep->steps++;
@@ -220,9 +230,11 @@ int eom_simulate(const struct eom_model *m, const double *p, const eom_inputs *i
     return rep->status = EOM_EINVAL;
   }
   if (!(o->t_end > o->t0) || !isfinite(o->t_end) || !isfinite(o->t0) || m->nq <= 0 ||
-      !m->accel || o->sample_dt < 0 || o->step < 0 || o->rtol < 0 || o->atol < 0) {
+      !m->accel || o->sample_dt < 0 || o->step < 0 || o->rtol < 0 || o->atol < 0 ||
+      !(o->baumgarte_alpha >= 0) || !(o->baumgarte_beta >= 0) || !(o->constraint_tol >= 0)) {
     snprintf(rep->message, sizeof rep->message,
-             "invalid run: need t_end > t0, finite times, steps >= 0 and a model with coordinates");
+             "invalid run: need t_end > t0, finite times, steps, gains and tolerances >= 0 "
+             "and a model with coordinates");
     return rep->status = EOM_EINVAL;
   }
   if (simctx_init(&c, m, p, in, rep) != EOM_OK) {
@@ -236,6 +248,13 @@ int eom_simulate(const struct eom_model *m, const double *p, const eom_inputs *i
   int st;
   if (!all_finite(c.n, x)) {
     st = sim_fail(&c, EOM_ENONFINITE, o->t0, x, "the initial state is not finite");
+  } else if ((st = stabilize_init(&c, o, x)) != EOM_OK) {
+    snprintf(rep->message, sizeof rep->message, "out of memory");
+  } else if (c.cs_active && !o->no_initial_fix &&
+             (st = stabilize_project(&c, o->t0, x, 50,
+                                     "the initial state is not on the constraints and "
+                                     "cannot be put there")) != EOM_OK) {
+    /* x is the user's state: the failed sample below shows it. */
   } else if ((st = sampler_emit(&c, &s, o->t0, x)) == EOM_OK) {
     if (meth->step)
       st = fixed_run(&c, meth, o, &s, x);

@@ -27,6 +27,13 @@ typedef struct SimContext {
   double t_good;            /* time of the last accepted state */
   int jacobian_by_fd;       /* the model's jacobian proved wrong: use differences */
   struct eom_report *rep;   /* never NULL inside the runtime */
+  /* Constraint upkeep (stabilize.c); all zero when off. */
+  int cs_active;            /* nc > 0 and phi can be evaluated: stabilize */
+  int cs_project;           /* project q, q' after each accepted step */
+  double cs_alpha, cs_beta; /* Baumgarte gains (1/s) */
+  double cs_tol;            /* max|phi| the projection aims for */
+  double *cs_work;          /* scratch of stabilize.c */
+  double *cs_sample;        /* n: a sample projected onto the constraints */
 } SimContext;
 
 /* Allocate the scratch of c for model m (everything else set by the caller).
@@ -103,6 +110,21 @@ void describe_coords(const struct eom_model *m, const double *q, char *buf, size
 ** (constrained.c); eom_equilibrium() hands over when nc > 0. */
 int constrained_equilibrium(const struct eom_model *m, const double *p, const double *u, double t,
                             double *q, double tol, int max_iter, struct eom_report *rep);
+
+/* Constraint upkeep of constrained models (stabilize.c).  stabilize_init
+** reads the options and checks at the state x that phi can be evaluated
+** (a constraint with explicit t cannot: then everything here is off).
+** EOM_OK or EOM_ENOMEM. */
+int stabilize_init(SimContext *c, const struct eom_sim_options *o, const double *x);
+/* Put x = [q; q'] on phi(q) = 0, G q' = 0 by minimum-norm Gauss–Newton
+** steps (at most max_iter); on failure x is unchanged and c->rep says
+** `when` it happened.  EOM_OK, EOM_ENEWTON or EOM_ESINGULAR. */
+int stabilize_project(SimContext *c, double t, double *x, int max_iter, const char *when);
+/* out = x projected as above when projection is on (else a copy); -1
+** (out = x) when the projection fails.  For samples: reports nothing. */
+int stabilize_sample(SimContext *c, const double *x, double *out);
+/* Add the Baumgarte term to qdd (and c->lambda) at state x. */
+int stabilize_baumgarte(SimContext *c, double t, const double *x, double *qdd);
 
 /* Dense LU with partial pivoting.  dense_lu returns 0, or -1 when singular. */
 int dense_lu(int n, double *a, int *piv);

@@ -88,6 +88,16 @@ struct eom_sim_options {
   long max_steps;      /* 0: no limit */
   int fixed_step;      /* dopri: fixed steps as the fixed-step methods take
                           them, no error control (for order studies) */
+  /* Models with constraints (nc > 0), see docs/runtime.md: */
+  int no_initial_fix;  /* 1: start from x as given; default: Gauss–Newton
+                          first moves q onto phi(q) = 0 and q' onto G q' = 0
+                          (minimum-norm changes) */
+  int no_projection;   /* 1: no projection of q, q' back onto the
+                          constraints after each accepted step */
+  double baumgarte_alpha, baumgarte_beta;  /* gains in 1/s of the Baumgarte
+                          term: G q'' = gamma - 2 alpha phi' - beta^2 phi;
+                          eom_sim_options_init sets 10 and 10; 0, 0: none */
+  double constraint_tol;  /* max|phi| the projections aim for (0: 1e-12) */
 };
 
 void eom_sim_options_init(struct eom_sim_options *o);
@@ -161,9 +171,10 @@ int eom_state_matrix(const struct eom_model *m, const double *p, double t, const
 
 /* ---------------------------------------------------------------- CSV out */
 
-/* Header line: t, coordinates, rates (name'), outputs, T, V. */
+/* Header line: t, coordinates, rates (name'), outputs, T, V and, with
+** constraints, lambda1..lambdaNC (the multipliers: constraint force Gᵀλ). */
 int eom_csv_write_header(FILE *f, const struct eom_model *m);
-/* One row for (t, x, u); outputs and energies are evaluated here. */
+/* One row for (t, x, u); outputs, energies and multipliers are evaluated here. */
 int eom_csv_write_row(FILE *f, const struct eom_model *m, const double *p, double t,
                       const double *x, const double *u);
 

@@ -1,0 +1,283 @@
+/*
+** stabilize.c — keep a simulation of a constrained model on its
+** constraints phi(q) = 0.
+**
+** The index-1 form M q'' = f + Gᵀλ, G q'' = gamma only fixes the second
+** derivative of phi, so rounding and truncation errors make phi and phi'
+** drift away from zero.  Two remedies, both on by default:
+**
+**  - Baumgarte stabilization (J. Baumgarte, Stabilization of constraints
+**    and integrals of motion in dynamical systems, Comput. Methods Appl.
+**    Mech. Eng. 1 (1972) 1–16): the acceleration constraint becomes
+**    G q'' = gamma - 2 alpha phi' - beta² phi, so a deviation decays like a
+**    damped oscillator instead of growing.  The generated accel_constrained
+**    solves for gamma; the extra right-hand side delta is added here by the
+**    range-space update q'' += M⁻¹Gᵀ mu, λ += mu with (G M⁻¹ Gᵀ) mu = delta.
+**  - Projection after every accepted step: Gauss–Newton on phi(q) = 0 with
+**    minimum-norm corrections dq = -Gᵀ (G Gᵀ)⁻¹ phi, then the rates are
+**    projected onto G q' = 0 the same way.  The same projection puts the
+**    user's initial guess on the constraints before the run.
+**
+** The descriptor's constraint() takes no time, so a constraint that depends
+** on t explicitly evaluates to NaN there; such models are integrated through
+** accel_constrained alone (stabilization is off, see docs/runtime.md).
+*/
+#include <assert.h>
+#include <float.h>
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "integrators.h"
+
+/* Cholesky a = L Lᵀ in place (lower triangle) of a symmetric n x n matrix.
+** Returns -1 when a pivot is not clearly positive relative to the largest
+** diagonal entry: the matrix is singular to working precision (for G Gᵀ:
+** the constraints are dependent). */
+static int cholesky(int n, double *a) {
+  double big = 0;
+  for (int i = 0; i < n; i++) big = fmax(big, fabs(a[i * n + i]));
+  if (!(big > 0) || !isfinite(big)) return -1;
+  for (int j = 0; j < n; j++) {
+    double d = a[j * n + j];
+    for (int k = 0; k < j; k++) d -= a[j * n + k] * a[j * n + k];
+    if (!(d > 1e-13 * big)) return -1;
+    d = sqrt(d);
+    a[j * n + j] = d;
+    for (int i = j + 1; i < n; i++) {
+      double s = a[i * n + j];
+      for (int k = 0; k < j; k++) s -= a[i * n + k] * a[j * n + k];
+      a[i * n + j] = s / d;
+    }
+  }
+  return 0;
+}
+
+static void cholesky_solve(int n, const double *l, double *b) {
+  for (int i = 0; i < n; i++) {
+    double s = b[i];
+    for (int k = 0; k < i; k++) s -= l[i * n + k] * b[k];
+    b[i] = s / l[i * n + i];
+  }
+  for (int i = n - 1; i >= 0; i--) {
+    double s = b[i];
+    for (int k = i + 1; k < n; k++) s -= l[k * n + i] * b[k];
+    b[i] = s / l[i * n + i];
+  }
+}
+
+static double max_abs(int n, const double *v, int *where) {
+  double m = 0;
+  int w = 0;
+  for (int i = 0; i < n; i++) {
+    if (!isfinite(v[i])) {
+      if (where) *where = i;
+      return INFINITY;
+    }
+    if (fabs(v[i]) > m) m = fabs(v[i]), w = i;
+  }
+  if (where) *where = w;
+  return m;
+}
+
+/* S = G Gᵀ (nc x nc), factored; -1 when G loses rank. */
+static int factor_ggt(int nq, int nc, const double *G, double *S) {
+  for (int a = 0; a < nc; a++)
+    for (int b = 0; b <= a; b++) {
+      double s = 0;
+      for (int i = 0; i < nq; i++) s += G[a * nq + i] * G[b * nq + i];
+      S[a * nc + b] = S[b * nc + a] = s;
+    }
+  return cholesky(nc, S);
+}
+
+/* v -= Gᵀ (G Gᵀ)⁻¹ r, with S the factored G Gᵀ; r (nc) is overwritten.
+** The minimum-norm change of v that removes r from G v. */
+static void subtract_min_norm(int nq, int nc, const double *G, const double *S, double *r,
+                              double *v) {
+  cholesky_solve(nc, S, r);
+  for (int i = 0; i < nq; i++) {
+    double s = 0;
+    for (int k = 0; k < nc; k++) s += G[k * nq + i] * r[k];
+    v[i] -= s;
+  }
+}
+
+int stabilize_init(SimContext *c, const struct eom_sim_options *o, const double *x) {
+  const struct eom_model *m = c->m;
+  int nq = m->nq, nc = m->nc;
+  c->cs_active = 0;
+  if (nc <= 0 || !m->constraint || !m->constraint_jacobian) return EOM_OK;
+  size_t size = (size_t)nq * nq + 2 * (size_t)nc * nq + (size_t)nc * nc + 3 * (size_t)nc +
+                3 * (size_t)nq + (size_t)c->n;
+  c->cs_work = calloc(size + (size_t)c->n, sizeof(double));
+  if (!c->cs_work) return EOM_ENOMEM;
+  c->cs_sample = c->cs_work + size;
+  /* A time-dependent constraint has no value without t: see the header. */
+  m->constraint(x, c->p, c->cs_work);
+  for (int k = 0; k < nc; k++)
+    if (isnan(c->cs_work[k])) return EOM_OK;
+  c->cs_active = 1;
+  c->cs_project = !o->no_projection;
+  c->cs_alpha = o->baumgarte_alpha;
+  c->cs_beta = o->baumgarte_beta;
+  c->cs_tol = o->constraint_tol > 0 ? o->constraint_tol : 1e-12;
+  return EOM_OK;
+}
+
+/* Scratch of the stabilizer: M (nq x nq), G and Y (nc x nq), S (nc x nc),
+** phi, r, mu (nc), dq, q_old, y (nq), a state copy (n). */
+typedef struct Scratch {
+  double *M, *G, *Y, *S, *phi, *r, *mu, *dq, *q_old, *y, *x;
+} Scratch;
+
+static Scratch scratch(const SimContext *c) {
+  int nq = c->m->nq, nc = c->m->nc;
+  Scratch s;
+  s.M = c->cs_work;
+  s.G = s.M + (size_t)nq * nq;
+  s.Y = s.G + (size_t)nc * nq;
+  s.S = s.Y + (size_t)nc * nq;
+  s.phi = s.S + (size_t)nc * nc;
+  s.r = s.phi + nc;
+  s.mu = s.r + nc;
+  s.dq = s.mu + nc;
+  s.q_old = s.dq + nq;
+  s.y = s.q_old + nq;
+  s.x = s.y + nq;
+  return s;
+}
+
+/* Gauss–Newton on phi(q) = 0 from q, then the rates onto G q' = 0.
+** Returns EOM_OK, EOM_ENEWTON (no convergence within max_iter) or
+** EOM_ESINGULAR (G loses rank); *res and *worst give max|phi| and the
+** equation where it is largest. */
+static int project(SimContext *c, double *x, int max_iter, double *res, int *worst) {
+  const struct eom_model *m = c->m;
+  int nq = m->nq, nc = m->nc;
+  Scratch s = scratch(c);
+  double *q = x, *qd = x + nq;
+  m->constraint(q, c->p, s.phi);
+  double r = max_abs(nc, s.phi, worst);
+  int converged = r <= c->cs_tol;
+  for (int it = 0; !converged && it < max_iter; it++) {
+    if (!isfinite(r)) break;
+    m->constraint_jacobian(q, c->p, s.G);
+    if (factor_ggt(nq, nc, s.G, s.S) != 0) {
+      *res = r;
+      return EOM_ESINGULAR;
+    }
+    memcpy(s.q_old, q, (size_t)nq * sizeof(double));
+    memset(s.dq, 0, (size_t)nq * sizeof(double));
+    memcpy(s.r, s.phi, (size_t)nc * sizeof(double));
+    subtract_min_norm(nq, nc, s.G, s.S, s.r, s.dq); /* dq = -Gᵀ(GGᵀ)⁻¹phi */
+    /* Halve the step while it makes things worse (a far initial guess). */
+    double step = 1, r_new = INFINITY;
+    for (int half = 0; half < 30; half++, step /= 2) {
+      for (int i = 0; i < nq; i++) q[i] = s.q_old[i] + step * s.dq[i];
+      m->constraint(q, c->p, s.phi);
+      r_new = max_abs(nc, s.phi, worst);
+      if (r_new < r) break;
+    }
+    double dq_max = step * max_abs(nq, s.dq, NULL), q_max = max_abs(nq, q, NULL);
+    int stalled = !(r_new < r);
+    if (stalled) { /* keep the best point */
+      memcpy(q, s.q_old, (size_t)nq * sizeof(double));
+      m->constraint(q, c->p, s.phi);
+      max_abs(nc, s.phi, worst);
+    } else {
+      r = r_new;
+    }
+    converged = r <= c->cs_tol;
+    /* At rounding level further steps cannot help: accept when phi is
+    ** small on the constraint's own scale (large terms that cancel). */
+    if (!converged && (dq_max <= 8 * DBL_EPSILON * (1 + q_max) || stalled)) {
+      converged = r <= 1e4 * c->cs_tol;
+      break;
+    }
+  }
+  *res = r;
+  if (!converged) return EOM_ENEWTON;
+  /* Rates: the minimum-norm change that makes G q' = 0. */
+  m->constraint_jacobian(q, c->p, s.G);
+  if (factor_ggt(nq, nc, s.G, s.S) != 0) return EOM_ESINGULAR;
+  for (int k = 0; k < nc; k++) {
+    double v = 0;
+    for (int i = 0; i < nq; i++) v += s.G[k * nq + i] * qd[i];
+    s.r[k] = v;
+  }
+  subtract_min_norm(nq, nc, s.G, s.S, s.r, qd);
+  return EOM_OK;
+}
+
+int stabilize_project(SimContext *c, double t, double *x, int max_iter, const char *when) {
+  if (!c->cs_active) return EOM_OK;
+  Scratch s = scratch(c);
+  int n = c->n, worst = 0;
+  double res = 0;
+  memcpy(s.x, x, (size_t)n * sizeof(double));
+  int st = project(c, x, max_iter, &res, &worst);
+  if (st == EOM_OK) return EOM_OK;
+  memcpy(x, s.x, (size_t)n * sizeof(double));
+  char what[256];
+  if (st == EOM_ESINGULAR)
+    snprintf(what, sizeof what,
+             "%s: the constraints are dependent here (G = dphi/dq loses rank; max|phi| = %.3g)",
+             when, res);
+  else
+    snprintf(what, sizeof what,
+             "%s: Gauss-Newton did not bring the coordinates onto the constraints in %d "
+             "iterations (max|phi| = %.3g, largest in constraint equation %d)",
+             when, max_iter, res, worst + 1);
+  return sim_fail(c, st, t, x, what);
+}
+
+int stabilize_sample(SimContext *c, const double *x, double *out) {
+  int worst;
+  double res;
+  memcpy(out, x, (size_t)c->n * sizeof(double));
+  if (!c->cs_active || !c->cs_project) return 0;
+  if (project(c, out, 10, &res, &worst) != EOM_OK) {
+    memcpy(out, x, (size_t)c->n * sizeof(double));
+    return -1;
+  }
+  return 0;
+}
+
+int stabilize_baumgarte(SimContext *c, double t, const double *x, double *qdd) {
+  const struct eom_model *m = c->m;
+  int nq = m->nq, nc = m->nc;
+  if (!c->cs_active || (c->cs_alpha == 0 && c->cs_beta == 0)) return EOM_OK;
+  Scratch s = scratch(c);
+  const double *q = x, *qd = x + nq;
+  m->constraint(q, c->p, s.phi);
+  m->constraint_jacobian(q, c->p, s.G);
+  /* delta = -2 alpha phi' - beta² phi with phi' = G q' (scleronomic). */
+  for (int k = 0; k < nc; k++) {
+    double v = 0;
+    for (int i = 0; i < nq; i++) v += s.G[k * nq + i] * qd[i];
+    s.mu[k] = -2 * c->cs_alpha * v - c->cs_beta * c->cs_beta * s.phi[k];
+  }
+  m->mass(q, c->p, s.M);
+  if (cholesky(nq, s.M) != 0)
+    return sim_fail(c, EOM_EMASS, t, x, "the mass matrix is not positive definite");
+  for (int k = 0; k < nc; k++) { /* row k of Yᵀ = M⁻¹ (row k of G) */
+    memcpy(s.Y + (size_t)k * nq, s.G + (size_t)k * nq, (size_t)nq * sizeof(double));
+    cholesky_solve(nq, s.M, s.Y + (size_t)k * nq);
+  }
+  for (int a = 0; a < nc; a++)
+    for (int b = 0; b <= a; b++) {
+      double v = 0;
+      for (int i = 0; i < nq; i++) v += s.G[a * nq + i] * s.Y[b * nq + i];
+      s.S[a * nc + b] = s.S[b * nc + a] = v;
+    }
+  if (cholesky(nc, s.S) != 0)
+    return sim_fail(c, EOM_ESINGULAR, t, x,
+                    "the constraints are dependent here (G M^-1 G^T is singular)");
+  cholesky_solve(nc, s.S, s.mu);
+  for (int i = 0; i < nq; i++)
+    for (int k = 0; k < nc; k++) qdd[i] += s.Y[k * nq + i] * s.mu[k];
+  for (int k = 0; k < nc; k++) c->lambda[k] += s.mu[k];
+  return EOM_OK;
+}
