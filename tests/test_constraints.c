@@ -1,0 +1,519 @@
+/*
+** test_constraints.c — holonomic constraints end to end: `eomc sim`,
+** `eomc modes` and `eomc gen` on the constrained examples (Cartesian
+** pendulum, compressor slider-crank, barrier four-bar) and on small models
+** written here, checked against closed-form mechanics: the angle pendulum,
+** the rod tension, the slider-crank position formula, the Grashof
+** condition and the four-bar's limit angles by the law of cosines.
+** The binary is $EOMC, the sources $SRCDIR; generated objects go to a
+** private cache directory ($EOMC_CACHE_DIR).
+*/
+#include <check.h>
+#include <math.h>
+#include <stdarg.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "testutil.h"
+
+static const double PI = 3.141592653589793238462643383279502884;
+static char *cache_dir, *work_dir;
+
+static const char *eomc(void) { return env_or("EOMC", "./eomc"); }
+
+static char *example(const char *name) {
+  static char buf[4][4096];
+  static int k;
+  k = (k + 1) % 4;
+  snprintf(buf[k], sizeof buf[k], "%s/examples/%s", env_or("SRCDIR", "."), name);
+  return buf[k];
+}
+
+static char *work_path(const char *name) {
+  static char buf[4][4096];
+  static int k;
+  k = (k + 1) % 4;
+  snprintf(buf[k], sizeof buf[k], "%s/%s", work_dir, name);
+  return buf[k];
+}
+
+static void setup(void) {
+  cache_dir = make_temp_dir();
+  work_dir = make_temp_dir();
+  setenv("EOMC_CACHE_DIR", cache_dir, 1);
+}
+
+static void teardown(void) {
+  remove_tree(cache_dir);
+  remove_tree(work_dir);
+  free(cache_dir);
+  free(work_dir);
+}
+
+/* ------------------------------------------------------------ CSV tables */
+
+typedef struct Table {
+  int ncols, nrows;
+  char **names;
+  double *v; /* nrows x ncols */
+} Table;
+
+static void table_free(Table *t) {
+  for (int i = 0; i < t->ncols; i++) free(t->names[i]);
+  free(t->names);
+  free(t->v);
+  memset(t, 0, sizeof *t);
+}
+
+static Table read_csv(const char *path) {
+  Table t = {0, 0, NULL, NULL};
+  char *text = read_file(path, NULL);
+  ck_assert_msg(text != NULL, "cannot read %s", path);
+  char *line = strtok(text, "\n");
+  ck_assert(line != NULL);
+  for (char *s = line; s; s = strchr(s, ',') ? strchr(s, ',') + 1 : NULL) t.ncols++;
+  t.names = calloc((size_t)t.ncols, sizeof(char *));
+  char *s = line;
+  for (int i = 0; i < t.ncols; i++) {
+    size_t n = strcspn(s, ",");
+    t.names[i] = malloc(n + 1);
+    memcpy(t.names[i], s, n);
+    t.names[i][n] = '\0';
+    s += n + 1;
+  }
+  int cap = 64;
+  t.v = malloc((size_t)cap * t.ncols * sizeof(double));
+  while ((line = strtok(NULL, "\n"))) {
+    if (t.nrows == cap) {
+      cap *= 2;
+      t.v = realloc(t.v, (size_t)cap * t.ncols * sizeof(double));
+    }
+    char *p = line;
+    for (int i = 0; i < t.ncols; i++) {
+      char *end;
+      t.v[(size_t)t.nrows * t.ncols + i] = strtod(p, &end);
+      ck_assert_msg(end != p, "bad number in row %d of %s", t.nrows + 1, path);
+      p = *end == ',' ? end + 1 : end;
+    }
+    t.nrows++;
+  }
+  free(text);
+  return t;
+}
+
+static int col(const Table *t, const char *name) {
+  for (int i = 0; i < t->ncols; i++)
+    if (strcmp(t->names[i], name) == 0) return i;
+  ck_abort_msg("no column %s", name);
+  return -1;
+}
+
+static double at(const Table *t, int row, int c) { return t->v[(size_t)row * t->ncols + c]; }
+
+/* Run `eomc sim MODEL -o OUT ARGS... NULL`; must succeed. */
+static Table sim(const char *model, const char *out, ...) {
+  char *argv[64];
+  int n = 0;
+  argv[n++] = (char *)eomc();
+  argv[n++] = "sim";
+  argv[n++] = (char *)model;
+  argv[n++] = "-o";
+  argv[n++] = (char *)out;
+  va_list ap;
+  va_start(ap, out);
+  for (char *a; (a = va_arg(ap, char *)) != NULL && n < 63;) argv[n++] = a;
+  va_end(ap);
+  argv[n] = NULL;
+  RunResult r = run_argv(argv);
+  ck_assert_msg(r.status == 0, "eomc sim %s: status %d\n%s", model, r.status, r.err);
+  run_free(&r);
+  return read_csv(out);
+}
+
+static char *setf(const char *name, double v) {
+  static char buf[16][128];
+  static int k;
+  k = (k + 1) % 16;
+  snprintf(buf[k], sizeof buf[k], "--set=%s=%.17g", name, v);
+  return buf[k];
+}
+
+/* ------------------------------------------------------------ pendulum */
+
+/* The Cartesian pendulum example and a pendulum written with its swing angle
+** are the same Lagrangian system in two sets of coordinates (common
+** practice), so x = L sin(theta), y = -L cos(theta) at all times. */
+static const char angle_pendulum[] =
+  "# the tool bag of examples/cartesian_pendulum.eom, by its swing angle\n"
+  "coord theta [rad]\n"
+  "param m = 0.65 [kg]\nparam L = 0.85 [m]\nparam g = 9.81 [m/s^2]\n"
+  "kinetic 1/2*m*L^2*theta'^2\n"
+  "potential -m*g*L*cos(theta)\n"
+  "initial theta = 0.6\n";
+
+START_TEST(cartesian_matches_angle_pendulum) {
+  const double L = 0.85, th0 = 0.6;
+  char *angle_model = write_file(work_dir, "angle_pendulum.eom", angle_pendulum,
+                                 strlen(angle_pendulum));
+  Table a = sim(angle_model, work_path("angle.csv"), "--until", "10", "--step", "0.01",
+                "--rtol", "1e-12", "--atol", "1e-13", NULL);
+  Table c = sim(example("cartesian_pendulum.eom"), work_path("cart.csv"), "--until", "10",
+                "--step", "0.01", "--rtol", "1e-12", "--atol", "1e-13",
+                setf("x", L * sin(th0)), setf("y", -L * cos(th0)), NULL);
+  ck_assert_int_eq(a.nrows, 1001);
+  ck_assert_int_eq(c.nrows, a.nrows);
+  int th = col(&a, "theta"), thd = col(&a, "theta'");
+  int x = col(&c, "x"), y = col(&c, "y"), xd = col(&c, "x'"), yd = col(&c, "y'");
+  double worst = 0, worst_rate = 0;
+  for (int i = 0; i < a.nrows; i++) {
+    ck_assert(at(&a, i, 0) == at(&c, i, 0));
+    double theta = at(&a, i, th), w = at(&a, i, thd);
+    worst = fmax(worst, fabs(at(&c, i, x) - L * sin(theta)));
+    worst = fmax(worst, fabs(at(&c, i, y) + L * cos(theta)));
+    worst_rate = fmax(worst_rate, fabs(at(&c, i, xd) - L * cos(theta) * w));
+    worst_rate = fmax(worst_rate, fabs(at(&c, i, yd) - L * sin(theta) * w));
+  }
+  ck_assert_msg(worst < 1e-8, "positions differ by %.3g", worst);
+  ck_assert_msg(worst_rate < 1e-7, "rates differ by %.3g", worst_rate);
+  table_free(&a);
+  table_free(&c);
+  free(angle_model);
+}
+END_TEST
+
+/* Rod tension of a pendulum, T = m (g cos(theta) + L theta'^2) (the radial
+** equation of motion; common textbook result).  With phi = x^2 + y^2 - L^2
+** the constraint force is +G^T lambda = 2 lambda (x, y), which must be the
+** tension pulling the bag towards the anchor: -T (x, y)/L, so T = -2 L lambda
+** and lambda < 0 (our sign convention, docs/language.md). */
+START_TEST(pendulum_rod_tension_from_lambda) {
+  const double m = 0.65, L = 0.85, g = 9.81;
+  Table c = sim(example("cartesian_pendulum.eom"), work_path("cart.csv"), "--until", "4",
+                "--step", "0.01", NULL);
+  int x = col(&c, "x"), y = col(&c, "y"), xd = col(&c, "x'"), yd = col(&c, "y'");
+  int lam = col(&c, "lambda1");
+  ck_assert_int_eq(lam, c.ncols - 1);
+  for (int i = 0; i < c.nrows; i++) {
+    double X = at(&c, i, x), Y = at(&c, i, y), Xd = at(&c, i, xd), Yd = at(&c, i, yd);
+    double theta = atan2(X, -Y), w = (X * Yd - Y * Xd) / (L * L);
+    double tension = m * (g * cos(theta) + L * w * w), l = at(&c, i, lam);
+    ck_assert_msg(l < 0, "lambda %.17g at row %d", l, i);
+    ck_assert_msg(fabs(-2 * L * l - tension) <= 1e-9 * tension, "row %d: -2 L lambda %.17g, T %.17g",
+                  i, -2 * L * l, tension);
+    /* the force vector itself: +G^T lambda against -T r/L */
+    ck_assert(fabs(2 * l * X + tension * X / L) <= 1e-9 * tension);
+    ck_assert(fabs(2 * l * Y + tension * Y / L) <= 1e-9 * tension);
+  }
+  table_free(&c);
+}
+END_TEST
+
+/* Small swings of a pendulum: omega = sqrt(g / L) (common textbook result),
+** through the tangent-space linearization of the Cartesian model. */
+START_TEST(pendulum_modes_on_the_constraint) {
+  char *argv[] = {(char *)eomc(), "modes", example("cartesian_pendulum.eom"), "--at", "x=0",
+                  "--at", "y=-0.8", "--json", NULL};
+  RunResult r = run_argv(argv);
+  ck_assert_msg(r.status == 0, "status %d: %s", r.status, r.err);
+  const char *s = strstr(r.out, "\"omega_rad_s\": ");
+  ck_assert_msg(s != NULL, "%s", r.out);
+  double omega = strtod(s + strlen("\"omega_rad_s\": "), NULL);
+  ck_assert_msg(fabs(omega - sqrt(9.81 / 0.85)) < 1e-7 * omega, "omega %.12g", omega);
+  ck_assert_msg(strstr(s + 1, "\"omega_rad_s\": ") == NULL, "one mode only:\n%s", r.out);
+  run_free(&r);
+}
+END_TEST
+
+/* --------------------------------------------------------------- four-bar */
+
+typedef struct Linkage {
+  double a, b, c, e; /* ground, crank, coupler, rocker */
+} Linkage;
+
+static double loop_residual(const Linkage *k, double t2, double t3, double t4) {
+  double rx = k->b * cos(t2) + k->c * cos(t3) - k->a - k->e * cos(t4);
+  double ry = k->b * sin(t2) + k->c * sin(t3) - k->e * sin(t4);
+  return fmax(fabs(rx), fabs(ry));
+}
+
+/* The barrier linkage driven by its motor for 20 s: the loop-closure
+** residual, computed here from the link lengths, stays below 1e-10.  Without
+** projection the Baumgarte term alone holds it far closer than no
+** correction at all (Baumgarte, 1972, Comput. Methods Appl. Mech. Eng. 1). */
+START_TEST(fourbar_residual_stays_small) {
+  const Linkage k = {0.30, 0.08, 0.32, 0.18};
+  const char *model = example("barrier_fourbar.eom"), *out = work_path("bar.csv");
+  Table t[3];
+  t[0] = sim(model, out, "--until", "20", "--step", "0.01", "--set", "tau=5", NULL);
+  t[1] = sim(model, out, "--until", "20", "--step", "0.01", "--set", "tau=5",
+             "--no-projection", NULL);
+  t[2] = sim(model, out, "--until", "20", "--step", "0.01", "--set", "tau=5",
+             "--no-projection", "--baumgarte", "0,0", NULL);
+  double worst[3] = {0, 0, 0};
+  for (int run = 0; run < 3; run++) {
+    int t2 = col(&t[run], "th2"), t3 = col(&t[run], "th3"), t4 = col(&t[run], "th4");
+    for (int i = 0; i < t[run].nrows; i++)
+      worst[run] = fmax(worst[run], loop_residual(&k, at(&t[run], i, t2), at(&t[run], i, t3),
+                                                  at(&t[run], i, t4)));
+  }
+  /* the motor really turns the crank: many revolutions */
+  int t2 = col(&t[0], "th2");
+  ck_assert_msg(at(&t[0], t[0].nrows - 1, t2) - at(&t[0], 0, t2) > 10 * 2 * PI, "crank %.6g",
+                at(&t[0], t[0].nrows - 1, t2));
+  ck_assert_msg(worst[0] < 1e-10, "residual %.3g with projection", worst[0]);
+  ck_assert_msg(worst[1] < worst[2] / 10, "Baumgarte only %.3g, none %.3g", worst[1], worst[2]);
+  for (int run = 0; run < 3; run++) table_free(&t[run]);
+}
+END_TEST
+
+/* Consistent coupler and rocker angles for crank angle t2 (the open branch,
+** rocker above the ground line), by the law of cosines. */
+static void close_loop(const Linkage *k, double t2, double *t3, double *t4) {
+  double ax = k->b * cos(t2), ay = k->b * sin(t2);
+  double dx = ax - k->a, dy = ay, d = hypot(dx, dy);
+  double phi = acos((k->e * k->e + d * d - k->c * k->c) / (2 * k->e * d));
+  *t4 = atan2(dy, dx) - phi;
+  if (sin(*t4) < 0) *t4 = atan2(dy, dx) + phi;
+  double bx = k->a + k->e * cos(*t4), by = k->e * sin(*t4);
+  *t3 = atan2(by - ay, bx - ax);
+  ck_assert(loop_residual(k, t2, *t3, *t4) < 1e-14);
+}
+
+/* Grashof's condition (F. Grashof, Theoretische Maschinenlehre, 1883; common
+** practice in mechanism design): with s + l <= p + q and the shortest link
+** as the crank, the crank turns fully; with s + l > p + q no link does, and
+** the crank swings between the angles where coupler and rocker line up,
+** |A - O4| = c + e, i.e. cos(t2) = (a^2 + b^2 - (c + e)^2) / (2 a b). */
+static void grashof_run(const Linkage *k, int expect_full_turn) {
+  double len[4] = {k->a, k->b, k->c, k->e}, s = 1e9, l = 0, sum = 0;
+  for (int i = 0; i < 4; i++) s = fmin(s, len[i]), l = fmax(l, len[i]), sum += len[i];
+  int grashof = s + l <= sum - s - l;
+  ck_assert_int_eq(grashof && s == k->b, expect_full_turn);
+  double t3, t4;
+  close_loop(k, 0.0, &t3, &t4);
+  /* No gravity, motor or drag: the kinetic energy stays and the linkage
+  ** keeps moving through every reachable configuration (the heavy boom on
+  ** the rocker makes that slow: 40 s cover a few cycles). */
+  Table t = sim(example("barrier_fourbar.eom"), work_path("g.csv"), "--until", "40", "--step",
+                "0.002", setf("a", k->a), setf("b", k->b), setf("c", k->c), setf("e", k->e),
+                "--set", "g=0", "--set", "bm=0", "--set", "th2=0", setf("th3", t3),
+                setf("th4", t4), "--set", "th2'=3", NULL);
+  int t2 = col(&t, "th2"), t2d = col(&t, "th2'");
+  double lo = 1e9, hi = -1e9;
+  int sign_changes = 0;
+  for (int i = 0; i < t.nrows; i++) {
+    lo = fmin(lo, at(&t, i, t2));
+    hi = fmax(hi, at(&t, i, t2));
+    if (i > 0 && at(&t, i, t2d) * at(&t, i - 1, t2d) < 0) sign_changes++;
+  }
+  if (expect_full_turn) {
+    ck_assert_msg(hi - lo > 2 * PI, "crank range %.6g", hi - lo);
+    ck_assert_int_eq(sign_changes, 0);
+  } else {
+    double limit = acos((k->a * k->a + k->b * k->b - (k->c + k->e) * (k->c + k->e)) /
+                        (2 * k->a * k->b));
+    ck_assert_msg(hi - lo < 2 * PI, "crank range %.6g", hi - lo);
+    ck_assert_msg(sign_changes >= 2, "the crank reversed %d times", sign_changes);
+    ck_assert_msg(hi <= limit + 1e-7 && hi > limit - 2e-3, "max %.10g, limit %.10g", hi, limit);
+    ck_assert_msg(lo >= -limit - 1e-7 && lo < -limit + 2e-3, "min %.10g, limit %.10g", lo, -limit);
+  }
+  table_free(&t);
+}
+
+START_TEST(grashof_crank_rocker_turns_fully) {
+  const Linkage k = {0.30, 0.08, 0.32, 0.18}; /* 0.08 + 0.32 <= 0.30 + 0.18 */
+  grashof_run(&k, 1);
+}
+END_TEST
+
+START_TEST(non_grashof_crank_swings_between_limits) {
+  const Linkage k = {0.30, 0.25, 0.26, 0.27}; /* 0.25 + 0.30 > 0.26 + 0.27 */
+  grashof_run(&k, 0);
+}
+END_TEST
+
+/* ----------------------------------------------------------- slider-crank */
+
+/* Piston position of a slider-crank with the piston pin on the crank axis:
+** x = r cos(theta) + sqrt(L^2 - r^2 sin^2(theta)) (common kinematics result). */
+START_TEST(slider_crank_piston_position) {
+  const double r = 0.021, L = 0.078;
+  Table t = sim(example("compressor_slider_crank.eom"), work_path("sc.csv"), "--until", "0.5",
+                "--step", "0.0005", "--set", "tau=0.08", NULL);
+  int th = col(&t, "theta"), x = col(&t, "x");
+  ck_assert(at(&t, t.nrows - 1, th) > 4 * 2 * PI); /* several revolutions */
+  double worst = 0;
+  for (int i = 0; i < t.nrows; i++) {
+    double s = sin(at(&t, i, th));
+    worst = fmax(worst, fabs(at(&t, i, x) - (r * cos(at(&t, i, th)) + sqrt(L * L - r * r * s * s))));
+  }
+  ck_assert_msg(worst < 1e-9 * (r + L), "piston off by %.3g m", worst);
+  ck_assert_int_eq(col(&t, "lambda2"), t.ncols - 1);
+  table_free(&t);
+}
+END_TEST
+
+/* ------------------------------------------------------------ failures */
+
+static RunResult run_model(const char *verb, const char *name, const char *text) {
+  char *path = write_file(work_dir, name, text, strlen(text));
+  char *argv[] = {(char *)eomc(), (char *)verb, path, "-o",
+                  strcmp(verb, "gen") == 0 ? work_dir : work_path("out.csv"), NULL};
+  RunResult r = run_argv(argv);
+  free(path);
+  return r;
+}
+
+/* A constraint that repeats others is an error at its line naming theirs;
+** so is one that contradicts another (parallel gradients, x = 0.1 and
+** 2x = 0.5: no solution, and the multipliers are not unique). */
+START_TEST(dependent_constraints_are_named) {
+  static const char redundant[] =
+    "coord a, b, c\n"                              /* 1 */
+    "param m = 2\n"                                /* 2 */
+    "kinetic m/2*(a'^2 + b'^2 + c'^2)\n"           /* 3 */
+    "constraint a + b = 1\n"                       /* 4 */
+    "constraint b - c = 0\n"                       /* 5 */
+    "potential m*9.81*c\n"                         /* 6 */
+    "constraint a + 2*b - c = 1\n"                 /* 7 */
+    "initial a = 0.5\ninitial b = 0.5\ninitial c = 0.5\n";
+  const char *verbs[] = {"gen", "sim"};
+  for (int v = 0; v < 2; v++) {
+    RunResult r = run_model(verbs[v], "redundant.eom", redundant);
+    ck_assert_msg(r.status == 1, "%s: status %d\n%s", verbs[v], r.status, r.err);
+    ck_assert_msg(strstr(r.err, "redundant.eom:7:1: error:") != NULL, "%s", r.err);
+    ck_assert_msg(strstr(r.err, "lines 4 and 5") != NULL, "%s", r.err);
+    ck_assert_msg(strstr(r.err, "redundant or conflicting") != NULL, "%s", r.err);
+    run_free(&r);
+  }
+  static const char conflicting[] =
+    "coord x, y\n"
+    "kinetic 1/2*(x'^2 + y'^2)\n"
+    "constraint x = 0.1\n"
+    "potential y^2\n"
+    "constraint 2*x = 0.5\n";
+  RunResult r = run_model("gen", "conflicting.eom", conflicting);
+  ck_assert_int_eq(r.status, 1);
+  ck_assert_msg(strstr(r.err, "conflicting.eom:5:1: error: this constraint depends on the "
+                              "constraint at line 3") != NULL, "%s", r.err);
+  run_free(&r);
+  /* independent constraints pass */
+  static const char fine[] =
+    "coord x, y\n"
+    "kinetic 1/2*(x'^2 + y'^2)\n"
+    "constraint x = 0.1\n"
+    "constraint x + y = 0.5\n";
+  r = run_model("gen", "fine.eom", fine);
+  ck_assert_msg(r.status == 0, "%s", r.err);
+  run_free(&r);
+}
+END_TEST
+
+/* Constraints that cannot hold: the Gauss–Newton start fails and says so. */
+START_TEST(unreachable_constraint_reports_gauss_newton) {
+  static const char model[] =
+    "coord x, y\n"
+    "kinetic 1/2*(x'^2 + y'^2)\n"
+    "constraint x^2 + y^2 = -1\n"
+    "initial x = 0.3\n";
+  RunResult r = run_model("sim", "unreachable.eom", model);
+  ck_assert_msg(r.status == 3, "status %d\n%s", r.status, r.err);
+  ck_assert_msg(strstr(r.err, "initial state is not on the constraints") != NULL, "%s", r.err);
+  ck_assert_msg(strstr(r.err, "Gauss-Newton did not bring") != NULL, "%s", r.err);
+  run_free(&r);
+}
+END_TEST
+
+/* Without the initial fix the run starts from the state as given: a
+** pendulum released off its circle keeps the error (Baumgarte pulls it
+** back slowly), with it the first row is on the circle. */
+START_TEST(initial_fix_and_options) {
+  Table fixed = sim(example("cartesian_pendulum.eom"), work_path("f.csv"), "--until", "0.1",
+                    "--step", "0.05", "--set", "x=0.5", "--set", "y=-0.75", NULL);
+  double x = at(&fixed, 0, col(&fixed, "x")), y = at(&fixed, 0, col(&fixed, "y"));
+  ck_assert_msg(fabs(x * x + y * y - 0.85 * 0.85) < 1e-12, "x %.17g y %.17g", x, y);
+  /* minimum-norm: the correction is along the gradient (x, y), so the
+  ** direction from the anchor is kept */
+  ck_assert(fabs(atan2(x, -y) - atan2(0.5, 0.75)) < 1e-12);
+  Table raw = sim(example("cartesian_pendulum.eom"), work_path("r.csv"), "--until", "0.1",
+                  "--step", "0.05", "--set", "x=0.5", "--set", "y=-0.75", "--no-initial-fix",
+                  "--no-projection", "--baumgarte", "0,0", NULL);
+  ck_assert(at(&raw, 0, col(&raw, "x")) == 0.5);
+  ck_assert(at(&raw, 0, col(&raw, "y")) == -0.75);
+  table_free(&fixed);
+  table_free(&raw);
+  char *argv[] = {(char *)eomc(), "sim", example("cartesian_pendulum.eom"), "--baumgarte", "3",
+                  NULL};
+  RunResult r = run_argv(argv);
+  ck_assert_int_eq(r.status, 2);
+  ck_assert_ptr_nonnull(strstr(r.err, "--baumgarte"));
+  run_free(&r);
+}
+END_TEST
+
+/* The generated accel_constrained refuses a configuration where G loses
+** rank: the Cartesian pendulum at the anchor, where G = (2x, 2y) = 0. */
+START_TEST(accel_constrained_reports_rank_loss) {
+  char *argv[] = {(char *)eomc(), "gen", example("cartesian_pendulum.eom"), "-o", work_dir, NULL};
+  RunResult r = run_argv(argv);
+  ck_assert_msg(r.status == 0, "%s", r.err);
+  run_free(&r);
+  static const char driver[] =
+    "#include <stdio.h>\n#include \"cartesian_pendulum.h\"\n"
+    "int main(void) {\n"
+    "  double p[cartesian_pendulum_NP], q[2] = {0, 0}, qd[2] = {0, 0}, qdd[2], lam[1];\n"
+    "  double q1[2] = {0.3, -0.795}, qd1[2] = {0.1, 0.2};\n"
+    "  cartesian_pendulum_default_params(p);\n"
+    "  printf(\"%d %d\\n\", cartesian_pendulum_accel_constrained(0, q, qd, NULL, p, qdd, lam),\n"
+    "         cartesian_pendulum_accel_constrained(0, q1, qd1, NULL, p, qdd, lam));\n"
+    "  return 0;\n}\n";
+  char *drv = write_file(work_dir, "drv.c", driver, strlen(driver));
+  char inc[4200], dinc[4200], csrc[4200], exe[4200];
+  snprintf(inc, sizeof inc, "-I%s/include", env_or("SRCDIR", "."));
+  snprintf(dinc, sizeof dinc, "-I%s", work_dir);
+  snprintf(csrc, sizeof csrc, "%s/cartesian_pendulum.c", work_dir);
+  snprintf(exe, sizeof exe, "%s/drv", work_dir);
+  char *cc[] = {(char *)env_or("CC", "cc"), "-std=c99", "-pedantic", "-Wall", "-Wextra", "-Werror",
+                inc, dinc, csrc, drv, "-o", exe, "-lm", NULL};
+  r = run_argv(cc);
+  ck_assert_msg(r.status == 0, "%s", r.err);
+  run_free(&r);
+  char *run[] = {exe, NULL};
+  r = run_argv(run);
+  int at_anchor = -1, regular = -1;
+  ck_assert_int_eq(sscanf(r.out, "%d %d", &at_anchor, &regular), 2);
+  ck_assert_int_ne(at_anchor, 0);
+  ck_assert_int_eq(regular, 0);
+  run_free(&r);
+  free(drv);
+}
+END_TEST
+
+static Suite *constraints_suite(void) {
+  Suite *s = suite_create("constraints");
+  TCase *tc = tcase_create("end to end");
+  tcase_add_checked_fixture(tc, setup, teardown);
+  tcase_set_timeout(tc, 300);
+  tcase_add_test(tc, cartesian_matches_angle_pendulum);
+  tcase_add_test(tc, pendulum_rod_tension_from_lambda);
+  tcase_add_test(tc, pendulum_modes_on_the_constraint);
+  tcase_add_test(tc, fourbar_residual_stays_small);
+  tcase_add_test(tc, grashof_crank_rocker_turns_fully);
+  tcase_add_test(tc, non_grashof_crank_swings_between_limits);
+  tcase_add_test(tc, slider_crank_piston_position);
+  tcase_add_test(tc, dependent_constraints_are_named);
+  tcase_add_test(tc, unreachable_constraint_reports_gauss_newton);
+  tcase_add_test(tc, initial_fix_and_options);
+  tcase_add_test(tc, accel_constrained_reports_rank_loss);
+  suite_add_tcase(s, tc);
+  return s;
+}
+
+int main(void) {
+  SRunner *sr = srunner_create(constraints_suite());
+  srunner_run_all(sr, CK_NORMAL);
+  int failed = srunner_ntests_failed(sr);
+  srunner_free(sr);
+  return failed ? EXIT_FAILURE : EXIT_SUCCESS;
+}
