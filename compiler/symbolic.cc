@@ -379,6 +379,9 @@ class Derivation {
   void check_no_qdd(const ex &L);
   void check_mass(std::vector<std::vector<ex>> &M);
   bool nonzero_somewhere(const ex &e, const ex &scale);
+  void derive_control_quantities(const ex &L, const std::vector<std::vector<ex>> &M,
+                                 const std::vector<ex> &dM, const std::vector<ex> &dDdqd,
+                                 const std::vector<ex> &phi, ControlResult *out);
 };
 
 Derivation::Derivation(const Model *m, const SymOptions *opt)
@@ -1133,6 +1136,10 @@ void Derivation::run(EomSystem *out) {
     tick("deriving the constraints");
   }
 
+  ControlResult ctl;
+  derive_control_quantities(L, M, dM, dDdqd, phi, &ctl);
+  tick("deriving the Coriolis matrix, momenta and constants of the motion");
+
   std::vector<ex> outs;
   std::vector<SrcLoc> out_locs;
   for (int i = 0; i < m_->noutputs; i++) {
@@ -1171,6 +1178,11 @@ void Derivation::run(EomSystem *out) {
   for (int c = 0; c < nc; c++)
     for (int j = 0; j < n; j++) h_G.push_back(b.add_root(G[(size_t)c * n + j], none));
   for (int c = 0; c < nc; c++) h_gamma.push_back(b.add_root(gamma[c], none));
+  std::vector<int> h_cor, h_grav, h_mom;
+  for (const ex &e : ctl.coriolis) h_cor.push_back(b.add_root(e, none));
+  for (const ex &e : ctl.gravity) h_grav.push_back(b.add_root(e, none));
+  for (const ex &e : ctl.momenta) h_mom.push_back(b.add_root(e, none));
+  int h_ham = b.add_root(ctl.hamiltonian, none);
   tick("building the expression graph");
 
   std::vector<int> roots;
@@ -1195,6 +1207,44 @@ void Derivation::run(EomSystem *out) {
   out->constraint = place(h_phi, nc);
   out->constraint_jacobian = place(h_G, (size_t)nc * n);
   out->constraint_gamma = place(h_gamma, nc);
+  out->has_split = ctl.split;
+  snprintf(out->split_why, sizeof out->split_why, "%s", ctl.split_why.c_str());
+  out->coriolis = ctl.split ? place(h_cor, (size_t)n * n) : nullptr;
+  out->gravity = ctl.split ? place(h_grav, n) : nullptr;
+  out->momenta = place(h_mom, n);
+  out->hamiltonian = roots[h_ham];
+  out->cyclic = alloc_roots(n);
+  for (int i = 0; i < n; i++) out->cyclic[i] = ctl.cyclic[i];
+  out->energy_conserved = ctl.energy_conserved;
+  snprintf(out->energy_why, sizeof out->energy_why, "%s", ctl.energy_why.c_str());
+}
+
+/* Hand the Lagrangian and the derivation's tools to symbolic_control.cc. */
+void Derivation::derive_control_quantities(const ex &L, const std::vector<std::vector<ex>> &M,
+                                           const std::vector<ex> &dM,
+                                           const std::vector<ex> &dDdqd,
+                                           const std::vector<ex> &phi, ControlResult *out) {
+  ControlInput in;
+  in.nq = nq_;
+  in.nu = nu_;
+  for (int i = 0; i < nq_; i++) in.coord_names.push_back(m_->coords[i]->name);
+  for (int i = 0; i < nu_; i++) in.input_names.push_back(m_->inputs[i]->name);
+  in.qd = qd_;
+  in.L = unatom(L);
+  in.M = M;
+  in.dM = dM;
+  for (const ex &Q : force_) in.force.push_back(unatom(Q));
+  in.dDdqd = dDdqd;
+  in.constraints = phi;
+  in.d_dq = [this](int i, const ex &e) { return dq_[i](e); };
+  in.d_dqd = [this](int i, const ex &e) { return dqd_[i](e); };
+  in.d_du = [this](int i, const ex &e) { return du_[i](e); };
+  in.d_dt = [this](const ex &e) { return dt_(e); };
+  in.substitute = [](const ex &e, const exmap &m) { return Subst(m)(e); };
+  in.nonzero_somewhere = [this](const ex &e, const ex &scale) {
+    return nonzero_somewhere(e, scale);
+  };
+  derive_control(in, out);
 }
 
 }  // namespace
@@ -1238,5 +1288,9 @@ extern "C" void sym_free(EomSystem *s) {
   free(s->constraint);
   free(s->constraint_jacobian);
   free(s->constraint_gamma);
+  free(s->coriolis);
+  free(s->gravity);
+  free(s->momenta);
+  free(s->cyclic);
   memset(s, 0, sizeof *s);
 }

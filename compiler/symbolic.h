@@ -34,6 +34,17 @@ typedef struct EomSystem {
   int *constraint;    /* nc     phi(q, p) (t allowed) */
   int *constraint_jacobian;  /* nc*nq  G = dphi/dq */
   int *constraint_gamma;     /* nc     gamma with G qdd = gamma */
+  /* symbolic_control.cc: M qdd + C qd + g = Q - dD/dqd, momenta, constants
+  ** of the motion */
+  int has_split;             /* L = qd^T M qd / 2 - V(q), free of t and u */
+  char split_why[200];       /* why not, when !has_split */
+  int *coriolis;             /* nq*nq  C(q, qd, p); NULL without the split */
+  int *gravity;              /* nq     g(q, p) = dV/dq; NULL without the split */
+  int *momenta;              /* nq     dL/dqd */
+  int hamiltonian;           /* qd . dL/dqd - L */
+  int *cyclic;               /* nq     1: q_i is cyclic, momenta[i] is conserved */
+  int energy_conserved;      /* 1: the hamiltonian is a constant of the motion */
+  char energy_why[200];      /* why not, when !energy_conserved */
 } EomSystem;
 
 typedef struct SymOptions {

@@ -14,6 +14,7 @@
 
 #include <ginac/ginac.h>
 
+#include <functional>
 #include <map>
 #include <memory>
 #include <string>
@@ -105,6 +106,42 @@ class IrBuilder {
   struct Impl;
   std::unique_ptr<Impl> impl_;
 };
+
+
+/* What symbolic_control.cc needs from the derivation in symbolic.cc: the
+** Lagrangian and its pieces with every atom replaced (in t, q, q', u, p),
+** and the memoised derivatives and numeric probe of the derivation. */
+struct ControlInput {
+  int nq, nu;
+  std::vector<std::string> coord_names, input_names;
+  std::vector<GiNaC::ex> qd;
+  GiNaC::ex L;                                   /* T - V + lagrangian terms */
+  std::vector<std::vector<GiNaC::ex>> M;         /* mass matrix */
+  std::vector<GiNaC::ex> dM;                     /* [k*n*n + i*n + j] = dM_ij/dq_k */
+  std::vector<GiNaC::ex> force;                  /* Q_i from force and torque statements */
+  std::vector<GiNaC::ex> dDdqd;                  /* dD/dq'_i */
+  std::vector<GiNaC::ex> constraints;            /* phi */
+  std::function<GiNaC::ex(int, const GiNaC::ex &)> d_dq, d_dqd, d_du;
+  std::function<GiNaC::ex(const GiNaC::ex &)> d_dt;
+  std::function<GiNaC::ex(const GiNaC::ex &, const GiNaC::exmap &)> substitute;
+  std::function<bool(const GiNaC::ex &, const GiNaC::ex &)> nonzero_somewhere;
+};
+
+/* The split M q'' + C q' + g = Q - dD/dq', momenta, energy function and the
+** constants of the motion (symbolic_control.cc). */
+struct ControlResult {
+  bool split = false;
+  std::string split_why;                 /* when !split */
+  std::vector<GiNaC::ex> coriolis;       /* nq*nq, empty without the split */
+  std::vector<GiNaC::ex> gravity;        /* nq, empty without the split */
+  std::vector<GiNaC::ex> momenta;        /* nq: dL/dq' */
+  GiNaC::ex hamiltonian;                 /* q'.dL/dq' - L */
+  bool energy_conserved = false;
+  std::string energy_why;                /* when !energy_conserved */
+  std::vector<int> cyclic;               /* nq flags */
+};
+
+void derive_control(const ControlInput &in, ControlResult *out);
 
 }  // namespace eomsym
 
