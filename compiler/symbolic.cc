@@ -22,6 +22,7 @@
 */
 #include "symbolic_internal.h"  /* first: wraps the C headers in extern "C" */
 
+#include <array>
 #include <cassert>
 #include <chrono>
 #include <cmath>
@@ -342,6 +343,11 @@ class Derivation {
   std::vector<const Decl *> let_stack_;  /* lets being evaluated (cycle guard) */
 
   std::vector<Term> kinetic_, potential_, lagrangian_, dissipation_;
+  /* Rotating bodies whose orientation depends on q and t only enter the
+  ** equations through their generalized inertia forces (see add_body):
+  ** rot_force_[b][i] is body b's share of E_i, rot_energy_ its part of T. */
+  std::vector<std::vector<ex>> rot_force_;
+  std::vector<ex> rot_energy_;
   std::vector<ex> force_;  /* Q_i */
 
   struct Body {
@@ -372,6 +378,7 @@ class Derivation {
   Val vec3(const Expr *x, const char *what);
   Val mat3(const Expr *x, const char *what);
   void add_body(const Stmt *s);
+  void add_rotation(const Val &R, const Val &I);
   void add_force_at(const Stmt *s);
   void add_torque(const Stmt *s);
   void add_constraint(const Stmt *s);
@@ -874,7 +881,18 @@ bool Derivation::depends_on_rates(const ex &e) {
 }
 
 /* T += m/2 |P'|^2 + w.(I w)/2 with w the body-frame angular velocity,
-** skew(w) = R^T R' (R maps body axes to world axes). */
+** skew(w) = R^T R' (R maps body axes to world axes).
+**
+** The translational part goes into the Lagrangian, where the rate of P is
+** an atom (so it yields J^T m a).  The rotational part, when R depends on q
+** and t only, skips the Lagrangian: with w = sum_j W_j q'_j + W_t and
+** skew(W_j) = R^T dR/dq_j, the body's share of the Euler-Lagrange
+** expression is its generalized inertia force
+**   E_i += W_i . (I w' + w x (I w))
+** (Euler's equations projected on the partial angular velocities; equal to
+** Lagrange's form for holonomic coordinates: Kane and Levinson, Dynamics:
+** Theory and Applications, 1985, ch. 6).  This avoids differentiating
+** through the nine entries of R' and is several times smaller for chains. */
 void Derivation::add_body(const Stmt *s) {
   Body b{s, scalar(s->e[0], "a body's mass"), vec3(s->e[1], "a body's position")};
   Val v = rate(b.pos);
@@ -894,21 +912,87 @@ void Derivation::add_body(const Stmt *s) {
     if (I.rows != 3 || I.cols != 3)
       throw SymError{s->e[3]->loc, fmt("an inertia must be a 3x3 matrix or the 3 principal "
                                        "moments, not %s", shape_name(I).c_str())};
-    Val Rd = rate(R);
-    auto S = [&](int i, int j) {  /* (R^T R')_ij */
-      exvector t;
-      for (int k = 0; k < 3; k++) t.push_back(R.at(k, i) * Rd.at(k, j));
-      return ex(add(t));
-    };
-    ex w[3] = {S(2, 1), S(0, 2), S(1, 0)};
-    exvector rot;
-    for (int i = 0; i < 3; i++)
-      for (int j = 0; j < 3; j++)
-        if (!I.at(i, j).is_zero()) rot.push_back(w[i] * I.at(i, j) * w[j]);
-    T = T + add(rot) / 2;
+    bool rigid_in_q = true;
+    for (const ex &e : R.a) rigid_in_q = rigid_in_q && !depends_on_rates(e);
+    if (rigid_in_q) {
+      add_rotation(R, I);
+    } else {
+      Val Rd = rate(R);
+      auto S = [&](int i, int j) {  /* (R^T R')_ij */
+        exvector t;
+        for (int k = 0; k < 3; k++) t.push_back(R.at(k, i) * Rd.at(k, j));
+        return ex(add(t));
+      };
+      ex w[3] = {S(2, 1), S(0, 2), S(1, 0)};
+      exvector rot;
+      for (int i = 0; i < 3; i++)
+        for (int j = 0; j < 3; j++)
+          if (!I.at(i, j).is_zero()) rot.push_back(w[i] * I.at(i, j) * w[j]);
+      T = T + add(rot) / 2;
+    }
   }
   kinetic_.push_back({s, T});
   bodies_.push_back(b);
+}
+
+/* The rotational share of a body whose orientation R(q, t) has no rates:
+** its generalized inertia forces and its kinetic energy (see add_body). */
+void Derivation::add_rotation(const Val &R, const Val &I) {
+  /* vee(R^T X) for X = dR/dq_j or dR/dt: the body-frame angular velocity
+  ** per unit rate (only the three entries of the skew matrix are needed) */
+  auto vee = [&R](const Val &X, ex out[3]) {
+    static const int pick[3][2] = {{2, 1}, {0, 2}, {1, 0}};
+    for (int c = 0; c < 3; c++) {
+      exvector t;
+      for (int k = 0; k < 3; k++)
+        if (!X.at(k, pick[c][1]).is_zero()) t.push_back(R.at(k, pick[c][0]) * X.at(k, pick[c][1]));
+      out[c] = add(t);
+    }
+  };
+  std::vector<std::array<ex, 3>> W(nq_);
+  exvector wt[3];
+  for (int j = 0; j < nq_; j++) {
+    Val X(3, 3);
+    for (int k = 0; k < 9; k++) X.a[k] = dq_[j](R.a[k]);
+    vee(X, W[j].data());
+    for (int c = 0; c < 3; c++)
+      if (!W[j][c].is_zero()) wt[c].push_back(W[j][c] * qd_[j]);
+  }
+  Val Xt(3, 3);
+  for (int k = 0; k < 9; k++) Xt.a[k] = dt_(R.a[k]);
+  ex Wt[3];
+  vee(Xt, Wt);
+  ex w[3], Iw[3], wdot[3];
+  for (int c = 0; c < 3; c++) {
+    wt[c].push_back(Wt[c]);
+    w[c] = add(wt[c]);
+  }
+  for (int r = 0; r < 3; r++) {
+    exvector t;
+    for (int c = 0; c < 3; c++)
+      if (!I.at(r, c).is_zero()) t.push_back(I.at(r, c) * w[c]);
+    Iw[r] = add(t);
+  }
+  for (int c = 0; c < 3; c++) wdot[c] = totald(w[c]);
+  /* I w' + w x (I w) */
+  ex euler[3];
+  for (int r = 0; r < 3; r++) {
+    exvector t;
+    for (int c = 0; c < 3; c++)
+      if (!I.at(r, c).is_zero()) t.push_back(I.at(r, c) * wdot[c]);
+    int a = (r + 1) % 3, b = (r + 2) % 3;
+    t.push_back(w[a] * Iw[b] - w[b] * Iw[a]);
+    euler[r] = add(t);
+  }
+  std::vector<ex> share(nq_);
+  for (int i = 0; i < nq_; i++) {
+    exvector t;
+    for (int c = 0; c < 3; c++)
+      if (!W[i][c].is_zero()) t.push_back(W[i][c] * euler[c]);
+    share[i] = add(t);
+  }
+  rot_force_.push_back(share);
+  rot_energy_.push_back((w[0] * Iw[0] + w[1] * Iw[1] + w[2] * Iw[2]) / 2);
 }
 
 /* Q_i += F . dP/dq_i */
@@ -1050,6 +1134,7 @@ void Derivation::run(EomSystem *out) {
   for (const Term &t : lagrangian_) Lt.push_back(t.e);
   for (const Term &t : dissipation_) Dt.push_back(t.e);
   ex T = add(Tt), V = add(Vt), D = add(Dt);
+  ex T_rot = add(exvector(rot_energy_.begin(), rot_energy_.end()));
   ex L = T - V + add(Lt);  /* in terms of atoms: F above */
   check_no_qdd(L);
   tick("forming the Lagrangian");
@@ -1066,6 +1151,7 @@ void Derivation::run(EomSystem *out) {
   std::vector<ex> E(n), dDdqd(n);
   for (int i = 0; i < n; i++) {
     exvector terms{totald(dqd_[i](L)), -dq_[i](L)}, dterms{dqd_[i](D)};
+    for (const std::vector<ex> &share : rot_force_) terms.push_back(share[i]);
     for (size_t k = 0; k < K; k++) {
       if (dLdw[k].is_zero() && dDdw[k].is_zero()) continue;
       ex J = dq_[i](atoms_[k].e);  /* = d e_k' / d q'_i */
@@ -1137,7 +1223,7 @@ void Derivation::run(EomSystem *out) {
   }
 
   ControlResult ctl;
-  derive_control_quantities(L, M, dM, dDdqd, phi, &ctl);
+  derive_control_quantities(L + T_rot, M, dM, dDdqd, phi, &ctl);
   tick("deriving the Coriolis matrix, momenta and constants of the motion");
 
   std::vector<ex> outs;
@@ -1170,7 +1256,7 @@ void Derivation::run(EomSystem *out) {
   }
   for (const ex &e : dfdu) h_dfdu.push_back(b.add_root(e, none));
   for (const ex &e : inv) h_inv.push_back(b.add_root(e, none));
-  int h_T = b.add_root(unatom(T), kinetic_.empty() ? none : kinetic_[0].stmt->loc);
+  int h_T = b.add_root(unatom(T + T_rot), kinetic_.empty() ? none : kinetic_[0].stmt->loc);
   int h_V = b.add_root(unatom(V), potential_.empty() ? none : potential_[0].stmt->loc);
   for (size_t i = 0; i < outs.size(); i++) h_out.push_back(b.add_root(outs[i], out_locs[i]));
   std::vector<int> h_phi, h_G, h_gamma;
