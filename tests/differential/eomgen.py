@@ -39,6 +39,7 @@ class Model:
         self.terms = []      # (kind, target coord name or None, expr, essential)
         self.timed_lets = set()  # lets whose value depends on t
         self.outputs = []    # (name, expr)
+        self.vector_lets = set()  # lets whose value is a vector or matrix
         self.initial = []    # (coord name, is_rate, number_text)
 
     def kinds_of_names(self):
@@ -95,11 +96,12 @@ class ExprGen:
         if "p" in allow:
             pool += [("var", n) for n, _ in self.m.params]
             pool += [("var", n) for n, _ in self.m.consts]
+        scalar_lets = [n for n, _ in self.m.lets if n not in self.m.vector_lets]
         if "let" in allow:
-            pool += [("var", n) for n, _ in self.m.lets]
+            pool += [("var", n) for n in scalar_lets]
         elif "qlet" in allow:
             # lets free of time: allowed where M(q) must not depend on t
-            pool += [("var", n) for n, _ in self.m.lets if n not in self.m.timed_lets]
+            pool += [("var", n) for n in scalar_lets if n not in self.m.timed_lets]
         if "u" in allow:
             pool += [("var", n) for n in self.m.inputs]
         if "qd" in allow:
@@ -168,24 +170,96 @@ class ExprGen:
         return self.leaf(allow)
 
 
+def children(e):
+    """Sub-expressions of a node (vectors and matrices hold lists)."""
+    out = []
+    for a in e[1:]:
+        if isinstance(a, tuple):
+            out.append(a)
+        elif isinstance(a, list):
+            for b in a:
+                out.extend(b if isinstance(b, list) else [b])
+    return out
+
+
 def uses_time(e, timed_lets):
     """Does expression e depend on t (directly or through a let)?"""
     if e[0] == "t":
         return True
     if e[0] == "var":
         return e[1] in timed_lets
-    if e[0] == "call":
-        return any(uses_time(a, timed_lets) for a in e[2])
-    return any(uses_time(a, timed_lets) for a in e[1:] if isinstance(a, tuple))
+    return any(uses_time(a, timed_lets) for a in children(e))
 
 
 def uses_coord(e, m):
     """Does expression e mention a coordinate (directly)?"""
     if e[0] == "var":
         return e[1] in m.coords
-    if e[0] == "call":
-        return any(uses_coord(a, m) for a in e[2])
-    return any(uses_coord(a, m) for a in e[1:] if isinstance(a, tuple))
+    return any(uses_coord(a, m) for a in children(e))
+
+
+def add_bodies(rng, m, g, used):
+    """Rigid bodies on the coordinates: orientation a product of elementary
+    rotations, position R*arm + offset, diagonal or full inertia; gravity,
+    forces at points, torques on bodies and potentials of vectors."""
+    params = [("var", n) for n, _ in m.params]
+    points, frames = [], []
+    for b in range(rng.randint(1, 2)):
+        R = None
+        # Kept small: SymPy's side grows fast with nested rotations.
+        for _ in range(rng.randint(1, 2 if len(m.coords) > 1 else 3)):
+            ang = g.leaf({"q", "p"})
+            if not uses_coord(ang, m) and rng.random() < 0.8:
+                ang = ("add", ang, ("var", rng.choice(m.coords)))
+            r = ("call", rng.choice(["rotx", "roty", "rotz"]), [ang])
+            R = r if R is None else ("mul", R, r)
+        rname = pick_names(rng, 1, "R", used, False)[0]
+        m.lets.append((rname, R))
+        m.vector_lets.add(rname)
+        arm = ("vec", [g.leaf({"p"}), num(number_text(rng, 0.1, 1.0)), num("0")])
+        off = ("vec", [g.leaf({"q", "p"}) for _ in range(3)])
+        pname = pick_names(rng, 1, "r", used, False)[0]
+        m.lets.append((pname, ("add", ("mul", ("var", rname), arm), off)))
+        m.vector_lets.add(pname)
+        points.append(("var", pname))
+        frames.append(("var", rname))
+        orient = inertia = None
+        if rng.random() < 0.8:
+            orient = ("var", rname)
+            k = rng.randrange(3)
+            if k == 0:
+                inertia = ("call", "diag", [rng.choice(params), num(number_text(rng, 0.2, 1.0)),
+                                            num(number_text(rng, 0.2, 1.0))])
+            elif k == 1:
+                inertia = ("mul", rng.choice(params), ("call", "diag", [num("1"), num("2"), num("1.5")]))
+            else:  # symmetric, diagonally dominant: positive definite
+                d = num(number_text(rng, 0.05, 0.3))
+                inertia = ("mat", [[num("2"), d, num("0")], [d, num("1.5"), num("0.1")],
+                                   [num("0"), num("0.1"), rng.choice(params)]])
+        name = pick_names(rng, 1, "b", used, False)[0]
+        m.terms.append(("body", name, (rng.choice(params), ("var", pname), orient, inertia), False))
+    if rng.random() < 0.6:
+        m.terms.append(("gravity", None, ("vec", [num("0"), ("neg", rng.choice(params)),
+                                                  num(number_text(rng, 0.1, 1.0))]), False))
+    if rng.random() < 0.4:
+        F = ("vec", [g.expr(1, {"q", "p", "u", "t"}) for _ in range(3)])
+        m.terms.append(("force_at", None, (F, rng.choice(points)), False))
+    if rng.random() < 0.3:
+        tau = ("vec", [g.expr(1, {"q", "p", "u"}) for _ in range(3)])
+        m.terms.append(("torque_on", None, (tau, rng.choice(frames)), False))
+    if rng.random() < 0.5:
+        p = rng.choice(points)
+        k = rng.randrange(3)
+        if k == 0:
+            e = ("mul", rng.choice(params), ("call", "dot", [p, p]))
+        elif k == 1:
+            e = ("pow", ("call", "norm", [("sub", p, ("vec", [num("0"), num("0"), num("2")]))]), num("2"))
+        else:
+            e = ("mul", rng.choice(params), ("index", p, rng.randint(1, 3)))
+        m.terms.append(("potential", None, e, False))
+    if rng.random() < 0.3 and len(points) == 2:
+        c = ("call", "cross", [points[0], points[1]])
+        m.terms.append(("potential", None, ("call", "dot", [c, c]), False))
 
 
 def pick_names(rng, count, stem, used, tricky):
@@ -237,6 +311,8 @@ def generate(seed, max_coords=4):
         if uses_time(e, m.timed_lets):
             m.timed_lets.add(name)
         m.lets.append((name, e))
+
+    bodies = n <= 3 and rng.random() < 0.35
 
     # Kinetic energy: one square per column of a lower-triangular L(q)
     # plus eps/2 |q'|^2, so M = L L^T + eps I is positive definite.
@@ -297,6 +373,8 @@ def generate(seed, max_coords=4):
             term = ("mul", g.expr(1, {"q", "p"}), ("rate", ("var", c)))
             b = term if b is None else ("add", b, term)
         m.terms.append(("dissipation", None, ("mul", num("0.5"), ("pow", b, num("2"))), False))
+    if bodies:
+        add_bodies(rng, m, g, used)
     everything = {"q", "p", "let", "t", "u", "qd"}
     for _ in range(rng.randint(0, 3)):
         c = rng.choice(m.coords)
@@ -334,6 +412,13 @@ def expr_to_eom(e, rng=None, min_prec=0):
         s, p = "pi", 6
     elif kind == "call":
         s, p = "%s(%s)" % (e[1], ", ".join(expr_to_eom(a, rng) for a in e[2])), 6
+    elif kind == "vec":
+        s, p = "[%s]" % ", ".join(expr_to_eom(a, rng) for a in e[1]), 6
+    elif kind == "mat":
+        s, p = "[%s]" % ", ".join("[%s]" % ", ".join(expr_to_eom(a, rng) for a in row) for row in e[1]), 6
+    elif kind == "index":
+        # indexing needs the bracket right after a name: `r1[2]`
+        s, p = "%s[%d]" % (e[1][1], e[2]), 6
     elif kind == "rate":
         inner = e[1]
         body = expr_to_eom(inner, rng, 6) if inner[0] == "var" else "(%s)" % expr_to_eom(inner, rng)
@@ -377,6 +462,18 @@ def to_eom(m, keep=None):
             continue
         if kind == "force":
             out.append("force %s = %s" % (target, expr_to_eom(e, rng)))
+        elif kind == "body":
+            mass, pos, orient, inertia = e
+            line = "body %s mass %s at %s" % (target, expr_to_eom(mass, rng), expr_to_eom(pos, rng))
+            if orient is not None:
+                line += " orient " + expr_to_eom(orient, rng)
+            if inertia is not None:
+                line += " inertia " + expr_to_eom(inertia, rng)
+            out.append(line)
+        elif kind == "force_at":
+            out.append("force %s at %s" % (expr_to_eom(e[0], rng), expr_to_eom(e[1], rng)))
+        elif kind == "torque_on":
+            out.append("torque %s on %s" % (expr_to_eom(e[0], rng), expr_to_eom(e[1], rng)))
         else:
             out.append("%s %s" % (kind, expr_to_eom(e, rng)))
     for name, e in m.outputs:

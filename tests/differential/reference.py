@@ -27,6 +27,28 @@ import sympy
 DPS = 40
 
 
+def rotation(axis):
+    """Right-handed rotation by angle a about a coordinate axis (common practice)."""
+    def r(a):
+        c, s = sympy.cos(a), sympy.sin(a)
+        if axis == "x":
+            return sympy.Matrix([[1, 0, 0], [0, c, -s], [0, s, c]])
+        if axis == "y":
+            return sympy.Matrix([[c, 0, s], [0, 1, 0], [-s, 0, c]])
+        return sympy.Matrix([[c, -s, 0], [s, c, 0], [0, 0, 1]])
+    return r
+
+
+MATRIX_FUNCTIONS = {
+    "rotx": rotation("x"), "roty": rotation("y"), "rotz": rotation("z"),
+    "diag": lambda *a: sympy.diag(*a),
+    "dot": lambda a, b: (a.T * b)[0],
+    "cross": lambda a, b: a.cross(b),
+    "norm": lambda a: sympy.sqrt((a.T * a)[0]),
+    "transpose": lambda a: a.T,
+}
+
+
 class Reference:
     """M, f, T, V of one model as SymPy expressions and mpmath functions."""
 
@@ -52,8 +74,12 @@ class Reference:
             self.env[name] = self.to_sympy(e)
         T = V = Lx = D = sympy.Integer(0)
         Q = [sympy.Integer(0)] * n
+        bodies = []
         for idx, (kind, target, e, _) in enumerate(m.terms):
             if keep is not None and idx not in keep:
+                continue
+            if kind in ("body", "gravity", "force_at", "torque_on"):
+                bodies.append((kind, target, e))
                 continue
             x = self.to_sympy(e)
             if kind == "kinetic":
@@ -67,6 +93,7 @@ class Reference:
             elif kind == "force":
                 i = m.coords.index(target)
                 Q[i] += x
+        T, V, Q = self.rigid_bodies(bodies, T, V, Q)
         self.T, self.V = T, V
         self.timed_energy = self.t in (T.free_symbols | V.free_symbols)
         self.M, self.f = self.euler_lagrange(T - V + Lx, D, Q)
@@ -81,6 +108,44 @@ class Reference:
         self.fn_f = sympy.lambdify(args, self.f, modules="mpmath")
         self.fn_TV = sympy.lambdify(args, [self.T, self.V], modules="mpmath")
         self.fn_y = sympy.lambdify(args, self.outputs, modules="mpmath")
+
+    def rigid_bodies(self, stmts, T, V, Q):
+        """Energies and generalized forces of `body`, `gravity`, `force at`
+        and `torque on`.  A body at P with orientation R: T = 1/2 m P'.P'
+        + 1/2 w.(I w) with w the body-frame angular velocity, the vee of the
+        skew-symmetric R^T R' (world frame: vee of R' R^T); gravity G adds
+        -m G.P; a force F at P adds F.dP/dq_i to Q_i and a torque tau on R
+        adds tau.(d w_world/dq'_i) (virtual work).  R. M. Murray, Z. Li,
+        S. S. Sastry, "A Mathematical Introduction to Robotic Manipulation",
+        1994, section 2.4 (rigid-body velocity; from memory)."""
+        def vee(S):
+            return sympy.Matrix([S[2, 1], S[0, 2], S[1, 0]])
+        masses = []
+        for kind, target, e in stmts:
+            if kind == "body":
+                mass, pos, orient, inertia = e
+                m_, P = self.to_sympy(mass), self.to_sympy(pos)
+                Pd = P.applyfunc(self.rate)
+                T += m_ * (Pd.T * Pd)[0] / 2
+                if orient is not None:
+                    R = self.to_sympy(orient)
+                    w = vee(R.T * R.applyfunc(self.rate))
+                    I = self.to_sympy(inertia) if inertia is not None else sympy.zeros(3, 3)
+                    T += (w.T * I * w)[0] / 2
+                masses.append((m_, P))
+        for kind, target, e in stmts:
+            if kind == "gravity":
+                G = self.to_sympy(e)
+                for m_, P in masses:
+                    V += -m_ * (G.T * P)[0]
+            elif kind == "force_at":
+                F, P = self.to_sympy(e[0]), self.to_sympy(e[1])
+                Q = [Q[i] + (F.T * P.diff(self.q[i]))[0] for i in range(self.n)]
+            elif kind == "torque_on":
+                tau, R = self.to_sympy(e[0]), self.to_sympy(e[1])
+                w = vee(R.applyfunc(self.rate) * R.T)
+                Q = [Q[i] + (tau.T * w.diff(self.qd[i]))[0] for i in range(self.n)]
+        return T, V, Q
 
     def rate(self, x):
         """Total time derivative of an expression free of rates."""
@@ -103,9 +168,18 @@ class Reference:
             inner = e[1]
             if inner[0] == "var" and inner[1] in self.m.coords:
                 return self.qd[self.m.coords.index(inner[1])]
-            return self.rate(self.to_sympy(inner))
+            x = self.to_sympy(inner)
+            return x.applyfunc(self.rate) if isinstance(x, sympy.MatrixBase) else self.rate(x)
+        if k == "vec":
+            return sympy.Matrix([self.to_sympy(a) for a in e[1]])
+        if k == "mat":
+            return sympy.Matrix([[self.to_sympy(a) for a in row] for row in e[1]])
+        if k == "index":
+            return self.to_sympy(e[1])[e[2] - 1]
         if k == "neg":
             return -self.to_sympy(e[1])
+        if k == "call" and e[1] in MATRIX_FUNCTIONS:
+            return MATRIX_FUNCTIONS[e[1]](*[self.to_sympy(a) for a in e[2]])
         if k == "call":
             args = [self.to_sympy(a) for a in e[2]]
             fn = {"sin": sympy.sin, "cos": sympy.cos, "tan": sympy.tan, "asin": sympy.asin,
