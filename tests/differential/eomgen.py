@@ -375,6 +375,13 @@ def generate(seed, max_coords=4):
         m.terms.append(("dissipation", None, ("mul", num("0.5"), ("pow", b, num("2"))), False))
     if bodies:
         add_bodies(rng, m, g, used)
+    if n >= 2 and rng.random() < 0.25:
+        # Holonomic constraints, each solved for its own coordinate so the
+        # constraint Jacobian has full rank at generic states.
+        for c in rng.sample(m.coords, rng.randint(1, min(2, n - 1))):
+            lhs = ("add", ("var", c), ("mul", num(number_text(rng, 0.1, 0.5)), g.expr(1, {"q", "p"})))
+            rhs = g.expr(1, {"q", "p"} | ({"t"} if rng.random() < 0.3 else set()))
+            m.terms.append(("constraint", None, (lhs, rhs), False))
     everything = {"q", "p", "let", "t", "u", "qd"}
     for _ in range(rng.randint(0, 3)):
         c = rng.choice(m.coords)
@@ -470,6 +477,8 @@ def to_eom(m, keep=None):
             if inertia is not None:
                 line += " inertia " + expr_to_eom(inertia, rng)
             out.append(line)
+        elif kind == "constraint":
+            out.append("constraint %s = %s" % (expr_to_eom(e[0], rng), expr_to_eom(e[1], rng)))
         elif kind == "force_at":
             out.append("force %s at %s" % (expr_to_eom(e[0], rng), expr_to_eom(e[1], rng)))
         elif kind == "torque_on":

@@ -75,8 +75,12 @@ class Reference:
         T = V = Lx = D = sympy.Integer(0)
         Q = [sympy.Integer(0)] * n
         bodies = []
+        phi = []
         for idx, (kind, target, e, _) in enumerate(m.terms):
             if keep is not None and idx not in keep:
+                continue
+            if kind == "constraint":
+                phi.append(self.to_sympy(e[0]) - self.to_sympy(e[1]))
                 continue
             if kind in ("body", "gravity", "force_at", "torque_on"):
                 bodies.append((kind, target, e))
@@ -108,6 +112,7 @@ class Reference:
         self.fn_f = sympy.lambdify(args, self.f, modules="mpmath")
         self.fn_TV = sympy.lambdify(args, [self.T, self.V], modules="mpmath")
         self.fn_y = sympy.lambdify(args, self.outputs, modules="mpmath")
+        self.constraints(phi, args)
 
     def rigid_bodies(self, stmts, T, V, Q):
         """Energies and generalized forces of `body`, `gravity`, `force at`
@@ -146,6 +151,25 @@ class Reference:
                 w = vee(R.applyfunc(self.rate) * R.T)
                 Q = [Q[i] + (tau.T * w.diff(self.qd[i]))[0] for i in range(self.n)]
         return T, V, Q
+
+    def constraints(self, phi, args):
+        """phi = lhs - rhs, G = dphi/dq, and gamma with G q'' = gamma from
+        phi'' = 0: with a = G q' + dphi/dt, gamma = -(da/dq q' + da/dt).
+        The constrained accelerations solve M q'' = f + G^T lambda, G q'' =
+        gamma (Lagrange multipliers; Goldstein et al. 2002, section 2.4,
+        from memory)."""
+        self.nc = len(phi)
+        G = [[sympy.diff(c, self.q[j]) for j in range(self.n)] for c in phi]
+        gamma = []
+        for i, c in enumerate(phi):
+            a = sum((G[i][j] * self.qd[j] for j in range(self.n)), sympy.diff(c, self.t))
+            gamma.append(-self.rate(a))
+        # P_constraint has no t argument: time-dependent phi is not
+        # comparable (eomc documents NaN for it); G and gamma still are.
+        self.timed_phi = any(self.t in c.free_symbols for c in phi)
+        self.fn_phi = sympy.lambdify(args, phi, modules="mpmath")
+        self.fn_G = sympy.lambdify(args, G, modules="mpmath")
+        self.fn_gamma = sympy.lambdify(args, gamma, modules="mpmath")
 
     def rate(self, x):
         """Total time derivative of an expression free of rates."""
@@ -281,7 +305,32 @@ class Reference:
                     A[n + i][j] = float(cols[j][i])
                 for j in range(nu):
                     B[n + i][j] = float(cols[N + j][i])
-            return {
+            out = {}
+            if self.nc:
+                a = self.args(pt)
+                nc = self.nc
+                G = mpmath.matrix(self.fn_G(*a))
+                K = mpmath.matrix(n + nc, n + nc)
+                b = mpmath.matrix(n + nc, 1)
+                for i in range(n):
+                    b[i] = f[i]
+                    for j in range(n):
+                        K[i, j] = M[i, j]
+                    for j in range(nc):
+                        K[i, n + j] = -G[j, i]
+                gamma = self.fn_gamma(*a)
+                for i in range(nc):
+                    b[n + i] = gamma[i]
+                    for j in range(n):
+                        K[n + i, j] = G[i, j]
+                sol = mpmath.lu_solve(K, b)
+                out = {
+                    "phi": None if self.timed_phi else [float(v) for v in self.fn_phi(*a)],
+                    "conjac": [float(G[i, j]) for i in range(nc) for j in range(n)],
+                    "accel_c": [float(sol[i]) for i in range(n)],
+                    "lambda": [float(sol[n + i]) for i in range(nc)],
+                }
+            return dict(out, **{
                 "mass": [float(M[i, j]) for i in range(n) for j in range(n)],
                 "forcing": [float(f[i]) for i in range(n)],
                 "accel": [float(qdd[i]) for i in range(n)],
@@ -295,7 +344,7 @@ class Reference:
                 "defaults": list(self.param_defaults),
                 "outputs": [float(y) for y in self.fn_y(*self.args(pt))],
                 "initial": list(self.q0) + list(self.qd0),
-            }
+            })
 
 
 def sample_points(m, count, seed):

@@ -44,7 +44,7 @@ import reference  # noqa: E402
 
 REL_TOL = 1e-10
 QUANTITIES = ["mass", "forcing", "accel", "energy", "inverse", "rhs", "jacA", "jacB", "defaults",
-              "outputs", "initial"]
+              "outputs", "initial", "phi", "conjac", "accel_c", "lambda"]
 CFLAGS = ["-std=c99", "-pedantic", "-Wall", "-Wextra", "-Werror", "-O0"]
 
 
@@ -132,6 +132,22 @@ def driver_code(cases):
         out.append('    put("%s", k, "outputs", y, %d);' % (P, ny))
         out.append("    for (i = 0; i < %d; i++) { x0[i] = %s_model.q0[i]; x0[%d + i] = %s_model.qd0[i]; }"
                    % (n, P, n, P))
+        nc = sum(1 for i, term in enumerate(m.terms)
+                 if term[0] == "constraint" and (c.keep is None or i in c.keep))
+        if nc:
+            out.append("    {")
+            out.append("      double phi[%d], G[%d], qc[%d], lam[%d];" % (nc, nc * n, n, nc))
+            out.append("      if (%s_NC != %d || %s_model.nc != %d) printf(\"%s %%d sizes_nc\\n\", k);"
+                       % (P, nc, P, nc, P))
+            out.append("      %s_constraint(q[k], p[k], phi);" % P)
+            out.append('      put("%s", k, "phi", phi, %d);' % (P, nc))
+            out.append("      %s_constraint_jacobian(q[k], p[k], G);" % P)
+            out.append('      put("%s", k, "conjac", G, %d);' % (P, nc * n))
+            out.append("      rc = %s_accel_constrained(t[k], q[k], qd[k], u[k], p[k], qc, lam);" % P)
+            out.append('      printf("%s %%d accel_c_status %%d\\n", k, rc);' % P)
+            out.append('      put("%s", k, "accel_c", qc, %d);' % (P, n))
+            out.append('      put("%s", k, "lambda", lam, %d);' % (P, nc))
+            out.append("    }")
         out.append('    put("%s", k, "initial", x0, %d);' % (P, N))
         out.append("  }")
         out.append("}")
@@ -169,13 +185,16 @@ def compare(c, results):
     """Check one case's printed results against the reference values."""
     for k, exp in enumerate(c.expected):
         got = results.get(k, {})
-        if "sizes" in got:
+        if "sizes" in got or "sizes_nc" in got:
             return ("values", "sizes NQ/NU/NP printed as %s" % got["sizes"])
         status = got.get("accel_status")
         if status != [0.0]:
             return ("values", "point %d: P_accel returned %s for a positive definite M" % (k, status))
+        if "phi" in exp and got.get("accel_c_status") != [0.0]:
+            return ("values", "point %d: P_accel_constrained returned %s for independent constraints"
+                    % (k, got.get("accel_c_status")))
         for what in QUANTITIES:
-            want = exp[what]
+            want = exp.get(what)
             if want is None:
                 continue
             have = got.get(what)
