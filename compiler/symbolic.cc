@@ -278,11 +278,23 @@ double value_at(const ex &e, Subst &point) {
 
 /* ------------------------------------------------------------ values */
 
+/* One factor of a rotation kept as a product: the turn by `angle` about
+** body axis `axis` (0, 1, 2 for x, y, z), as rotx/roty/rotz make it. */
+struct Turn {
+  int axis;
+  ex angle;
+};
+
 /* A value of the model language: a rows x cols matrix, row-major;
-** a scalar is 1x1 and a vector n x 1. */
+** a scalar is 1x1 and a vector n x 1.  A 3x3 rotation (or the rotation part
+** of a 4x4 transform whose last row is 0 0 0 1) built only from rotx, roty,
+** rotz, dh, rot, transpose and products also remembers its factors in
+** `turns`: a body's angular velocity is then read off the factors, the way
+** recursive algorithms work in link frames (see add_rotation). */
 struct Val {
   int rows, cols;
   std::vector<ex> a;
+  std::shared_ptr<const std::vector<Turn>> turns;  /* null: not known as a product */
   explicit Val(const ex &e) : rows(1), cols(1), a(1, e) {}
   Val(int r, int c) : rows(r), cols(c), a((size_t)r * c, ex(0)) {}
   bool scalar() const { return rows == 1 && cols == 1; }
@@ -291,6 +303,13 @@ struct Val {
   ex &at(int i, int j) { return a[(size_t)i * cols + j]; }
   const ex &at(int i, int j) const { return a[(size_t)i * cols + j]; }
 };
+
+/* Is the last row of a 4x4 transform exactly 0 0 0 1? */
+static bool last_row_is_unit(const Val &T) {
+  assert(T.rows == 4 && T.cols == 4);
+  return T.at(3, 0).is_zero() && T.at(3, 1).is_zero() && T.at(3, 2).is_zero() &&
+         T.at(3, 3).is_equal(ex(1));
+}
 
 std::string shape_name(const Val &v) {
   if (v.scalar()) return "a scalar";
@@ -379,6 +398,8 @@ class Derivation {
   Val mat3(const Expr *x, const char *what);
   void add_body(const Stmt *s);
   void add_rotation(const Val &R, const Val &I);
+  void turn_back(const Turn &f, ex v[3]);
+  bool turns_match(const Val &R);
   void add_force_at(const Stmt *s);
   void add_torque(const Stmt *s);
   void add_constraint(const Stmt *s);
@@ -501,6 +522,7 @@ Val Derivation::eval(const Expr *x) {
       assert(x->op == OP_NEG && x->nargs == 1);
       Val v = eval(x->args[0]);
       for (ex &e : v.a) e = -e;
+      v.turns.reset();
       return v;
     }
     case EX_BINARY: return eval_binary(x);
@@ -590,6 +612,7 @@ Val Derivation::eval_binary(const Expr *x) {
         throw SymError{x->loc, fmt("cannot %s %s and %s", x->op == OP_ADD ? "add" : "subtract",
                                    shape_name(a).c_str(), shape_name(b).c_str())};
       for (int k = 0; k < a.size(); k++) a.a[k] = x->op == OP_ADD ? a.a[k] + b.a[k] : a.a[k] - b.a[k];
+      a.turns.reset();
       return a;
     }
     case OP_MUL: {
@@ -597,6 +620,7 @@ Val Derivation::eval_binary(const Expr *x) {
         Val &s = a.scalar() ? a : b, &v = a.scalar() ? b : a;
         ex c = s.a[0];
         for (ex &e : v.a) e = c * e;
+        v.turns.reset();
         return v;
       }
       if (a.cols != b.rows)
@@ -609,6 +633,11 @@ Val Derivation::eval_binary(const Expr *x) {
           for (int k = 0; k < a.cols; k++) terms.push_back(a.at(i, k) * b.at(k, j));
           r.at(i, j) = add(terms);
         }
+      if (a.turns && b.turns && a.rows == b.rows && (a.rows == 3 || (a.rows == 4 && last_row_is_unit(a) && last_row_is_unit(b)))) {
+        auto t = std::make_shared<std::vector<Turn>>(*a.turns);
+        t->insert(t->end(), b.turns->begin(), b.turns->end());
+        r.turns = t;
+      }
       return r;
     }
     case OP_DIV: {
@@ -616,6 +645,7 @@ Val Derivation::eval_binary(const Expr *x) {
         throw SymError{x->loc, fmt("cannot divide by %s", shape_name(b).c_str())};
       if (b.a[0].is_zero()) throw SymError{x->loc, "division by zero"};
       for (ex &e : a.a) e = e / b.a[0];
+      a.turns.reset();
       return a;
     }
     case OP_POW: {
@@ -684,6 +714,7 @@ Val Derivation::eval_list(const Expr *x) {
 
 static Val rotation(int axis, const ex &a) {
   Val r(3, 3);
+  r.turns = std::make_shared<std::vector<Turn>>(1, Turn{axis, a});
   ex c = cos(a), s = sin(a);
   int i = (axis + 1) % 3, j = (axis + 2) % 3;  /* the plane rotated */
   r.at(axis, axis) = 1;
@@ -766,6 +797,11 @@ Val Derivation::eval_call(const Expr *x) {
     Val r(a.cols, a.rows);
     for (int i = 0; i < a.rows; i++)
       for (int j = 0; j < a.cols; j++) r.at(j, i) = a.at(i, j);
+    if (a.turns && a.rows == 3 && a.cols == 3) { /* the inverse rotation */
+      auto t = std::make_shared<std::vector<Turn>>();
+      for (auto it = a.turns->rbegin(); it != a.turns->rend(); ++it) t->push_back({it->axis, -it->angle});
+      r.turns = t;
+    }
     return r;
   }
   if (strcmp(name, "diag") == 0) {
@@ -792,6 +828,7 @@ Val Derivation::eval_call(const Expr *x) {
     r.at(1, 0) = st, r.at(1, 1) = ct * ca, r.at(1, 2) = -ct * sa, r.at(1, 3) = a * st;
     r.at(2, 1) = sa, r.at(2, 2) = ca, r.at(2, 3) = d;
     r.at(3, 3) = 1;
+    r.turns = std::make_shared<std::vector<Turn>>(std::vector<Turn>{{2, th}, {0, al}});
     return r;
   }
   if (strcmp(name, "pos") == 0 || strcmp(name, "rot") == 0) {
@@ -807,6 +844,7 @@ Val Derivation::eval_call(const Expr *x) {
     Val r(3, 3);
     for (int i = 0; i < 3; i++)
       for (int j = 0; j < 3; j++) r.at(i, j) = T.at(i, j);
+    if (T.turns && last_row_is_unit(T)) r.turns = T.turns;
     return r;
   }
   throw SymError{x->loc, fmt("the function '%s' is not supported yet", name)};
@@ -936,44 +974,77 @@ void Derivation::add_body(const Stmt *s) {
 }
 
 /* The rotational share of a body whose orientation R(q, t) has no rates:
-** its generalized inertia forces and its kinetic energy (see add_body). */
+** its generalized inertia forces and its kinetic energy (see add_body).
+**
+** W_j (skew(W_j) = R^T dR/dq_j) is the body-frame angular velocity per unit
+** rate of q_j.  When R is known as a product of turns F_1 ... F_m about
+** axes e_k by angles th_k, R^T dR/dth_k = S_k^T skew(e_k) S_k with
+** S_k = F_{k+1} ... F_m, so W_j = sum_k dth_k/dq_j S_k^T e_k: each turn's
+** axis carried out to the body frame, the way recursive algorithms work in
+** link frames.  Bodies further out the same chain share these vectors.
+** Otherwise W_j = vee(R^T dR/dq_j) from the entries. */
 void Derivation::add_rotation(const Val &R, const Val &I) {
-  /* vee(R^T X) for X = dR/dq_j or dR/dt: the body-frame angular velocity
-  ** per unit rate (only the three entries of the skew matrix are needed) */
-  auto vee = [&R](const Val &X, ex out[3]) {
-    static const int pick[3][2] = {{2, 1}, {0, 2}, {1, 0}};
-    for (int c = 0; c < 3; c++) {
-      exvector t;
-      for (int k = 0; k < 3; k++)
-        if (!X.at(k, pick[c][1]).is_zero()) t.push_back(R.at(k, pick[c][0]) * X.at(k, pick[c][1]));
-      out[c] = add(t);
-    }
-  };
   std::vector<std::array<ex, 3>> W(nq_);
-  exvector wt[3];
-  for (int j = 0; j < nq_; j++) {
-    Val X(3, 3);
-    for (int k = 0; k < 9; k++) X.a[k] = dq_[j](R.a[k]);
-    vee(X, W[j].data());
-    for (int c = 0; c < 3; c++)
-      if (!W[j][c].is_zero()) wt[c].push_back(W[j][c] * qd_[j]);
+  ex w[3], wdot[3];
+  if (R.turns && turns_match(R)) {
+    const std::vector<Turn> &f = *R.turns;
+    const size_t m = f.size();
+    exvector wt[3];
+    for (size_t k = 0; k < m; k++) {
+      ex th_rate = totald(f[k].angle);
+      if (th_rate.is_zero()) continue;
+      ex v[3] = {0, 0, 0};  /* S_k^T e_k */
+      v[f[k].axis] = 1;
+      for (size_t l = k + 1; l < m; l++) turn_back(f[l], v);
+      for (int j = 0; j < nq_; j++) {
+        ex d = dq_[j](f[k].angle);
+        if (d.is_zero()) continue;
+        for (int c = 0; c < 3; c++) W[j][c] = W[j][c] + d * v[c];
+      }
+      for (int c = 0; c < 3; c++)
+        if (!v[c].is_zero()) wt[c].push_back(th_rate * v[c]);
+    }
+    for (int c = 0; c < 3; c++) w[c] = add(wt[c]);
+    for (int c = 0; c < 3; c++) wdot[c] = totald(w[c]);
+  } else {
+    /* vee(R^T X) for X = dR/dq_j or dR/dt (the three entries of the skew matrix) */
+    auto vee = [&R](const Val &X, ex out[3]) {
+      static const int pick[3][2] = {{2, 1}, {0, 2}, {1, 0}};
+      for (int c = 0; c < 3; c++) {
+        exvector t;
+        for (int k = 0; k < 3; k++)
+          if (!X.at(k, pick[c][1]).is_zero()) t.push_back(R.at(k, pick[c][0]) * X.at(k, pick[c][1]));
+        out[c] = add(t);
+      }
+    };
+    exvector wt[3];
+    for (int j = 0; j < nq_; j++) {
+      Val X(3, 3);
+      for (int k = 0; k < 9; k++) X.a[k] = dq_[j](R.a[k]);
+      vee(X, W[j].data());
+      for (int c = 0; c < 3; c++)
+        if (!W[j][c].is_zero()) wt[c].push_back(W[j][c] * qd_[j]);
+    }
+    Val Xt(3, 3);
+    for (int k = 0; k < 9; k++) Xt.a[k] = dt_(R.a[k]);
+    ex Wt[3];
+    vee(Xt, Wt);
+    for (int c = 0; c < 3; c++) {
+      wt[c].push_back(Wt[c]);
+      w[c] = add(wt[c]);
+    }
+    /* w' = vee(R^T R''): the other half of d/dt R^T R', R'^T R', is symmetric */
+    Val Rdd(3, 3);
+    for (int k = 0; k < 9; k++) Rdd.a[k] = totald(totald(R.a[k]));
+    vee(Rdd, wdot);
   }
-  Val Xt(3, 3);
-  for (int k = 0; k < 9; k++) Xt.a[k] = dt_(R.a[k]);
-  ex Wt[3];
-  vee(Xt, Wt);
-  ex w[3], Iw[3], wdot[3];
-  for (int c = 0; c < 3; c++) {
-    wt[c].push_back(Wt[c]);
-    w[c] = add(wt[c]);
-  }
+  ex Iw[3];
   for (int r = 0; r < 3; r++) {
     exvector t;
     for (int c = 0; c < 3; c++)
       if (!I.at(r, c).is_zero()) t.push_back(I.at(r, c) * w[c]);
     Iw[r] = add(t);
   }
-  for (int c = 0; c < 3; c++) wdot[c] = totald(w[c]);
   /* I w' + w x (I w) */
   ex euler[3];
   for (int r = 0; r < 3; r++) {
@@ -993,6 +1064,43 @@ void Derivation::add_rotation(const Val &R, const Val &I) {
   }
   rot_force_.push_back(share);
   rot_energy_.push_back((w[0] * Iw[0] + w[1] * Iw[1] + w[2] * Iw[2]) / 2);
+}
+
+/* v <- F^T v for one turn F (the inverse turn applied to v). */
+void Derivation::turn_back(const Turn &f, ex v[3]) {
+  int i = (f.axis + 1) % 3, j = (f.axis + 2) % 3;  /* the plane turned */
+  ex c = cos(f.angle), s = sin(f.angle);
+  ex vi = c * v[i] + s * v[j], vj = c * v[j] - s * v[i];
+  v[i] = vi, v[j] = vj;
+}
+
+/* The product of R's turns equals R's entries at a pseudo-random point: a
+** guard on the bookkeeping of `turns` (a mismatch falls back to the entries). */
+bool Derivation::turns_match(const Val &R) {
+  uint64_t state = 0x9e3779b97f4a7c15ULL;
+  auto next = [&state]() {
+    state = state * 6364136223846793005ULL + 1442695040888963407ULL;
+    return 0.35 + (double)(state >> 11) / 9007199254740992.0;
+  };
+  exmap point;
+  point[t_] = next();
+  for (int i = 0; i < nq_; i++) point[q_[i]] = next();
+  for (int i = 0; i < nu_; i++) point[u_[i]] = next();
+  for (int i = 0; i < np_; i++) point[p_[i]] = next();
+  Subst at(point);
+  for (int col = 0; col < 3; col++) {
+    ex v[3] = {0, 0, 0};  /* R e_col = F_1 (F_2 (... F_m e_col)) */
+    v[col] = 1;
+    for (auto it = R.turns->rbegin(); it != R.turns->rend(); ++it) {
+      Turn back{it->axis, -it->angle};
+      turn_back(back, v);
+    }
+    for (int row = 0; row < 3; row++) {
+      double want = value_at(R.at(row, col), at), got = value_at(v[row], at);
+      if (!(std::fabs(want - got) <= 1e-9 * (1 + std::fabs(want)))) return false;
+    }
+  }
+  return true;
 }
 
 /* Q_i += F . dP/dq_i */
