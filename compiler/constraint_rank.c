@@ -10,6 +10,14 @@
 ** Each orthonormal basis vector also keeps its coefficients in terms of the
 ** original rows, so a dependent row is written as a combination of the
 ** earlier rows and the message names exactly the ones that take part.
+**
+** The `initial` values are often only a guess near the constraints (the
+** runtime closes the loop before a run).  Off the constraint surface a
+** redundant equation is only nearly dependent, so the test first moves the
+** guess onto phi = 0 by damped Gauss–Newton (Levenberg–Marquardt), as the
+** run will, and decides the rank there.  Conflicting equations have no
+** common solution; the least-squares point it then stops at is where their
+** gradients line up, which the test catches as well.
 */
 #include "constraint_rank.h"
 
@@ -88,17 +96,116 @@ static void equation_statements(const Model *m, int nc, const Stmt **of) {
   assert(k == nc);
 }
 
-/* "x = 0.3, y = -1.2" for the coordinates' initial values. */
-static void describe_state(const Model *m, char *buf, size_t cap) {
+/* "x = 0.3, y = -1.2" for the coordinate values q. */
+static void describe_state(const Model *m, const double *q, char *buf, size_t cap) {
   size_t len = 0;
   buf[0] = '\0';
   for (int i = 0; i < m->ncoords && len + 1 < cap; i++) {
     int k = snprintf(buf + len, cap - len, "%s%s = %.6g", i ? ", " : "", m->coords[i]->name,
-                     m->q0[i]);
+                     q[i]);
     if (k < 0) break;
     len += (size_t)k;
   }
   if (len >= cap && cap > 4) strcpy(buf + cap - 4, "...");
+}
+
+/* What the refinement works with: the graph, the variable values and the
+** roots of phi and G. */
+typedef struct Eval {
+  const EomSystem *s;
+  const double *vars[6];
+  double *q;      /* nq: the point (vars[IRV_Q]) */
+  double *v;      /* node values 0..hi */
+  int hi;
+} Eval;
+
+/* phi and G at e->q. */
+static void eval_at(Eval *e, double *phi, double *G) {
+  const EomSystem *s = e->s;
+  eval_nodes(&s->g, e->hi, e->vars, e->v);
+  for (int k = 0; k < s->nc; k++) phi[k] = e->v[s->constraint[k]];
+  for (int i = 0; i < s->nc * s->nq; i++) G[i] = e->v[s->constraint_jacobian[i]];
+}
+
+static double max_norm(int n, const double *v) {
+  double m = 0;
+  for (int i = 0; i < n; i++) {
+    if (!isfinite(v[i])) return INFINITY;
+    m = fmax(m, fabs(v[i]));
+  }
+  return m;
+}
+
+/* Solve the symmetric positive definite A x = b (n x n, destroyed) by
+** Cholesky; -1 when a pivot is not positive. */
+static int spd_solve(int n, double *A, double *b) {
+  for (int j = 0; j < n; j++) {
+    double d = A[j * n + j];
+    for (int k = 0; k < j; k++) d -= A[j * n + k] * A[j * n + k];
+    if (!(d > 0)) return -1;
+    d = sqrt(d);
+    A[j * n + j] = d;
+    for (int i = j + 1; i < n; i++) {
+      double t = A[i * n + j];
+      for (int k = 0; k < j; k++) t -= A[i * n + k] * A[j * n + k];
+      A[i * n + j] = t / d;
+    }
+  }
+  for (int i = 0; i < n; i++) {
+    for (int k = 0; k < i; k++) b[i] -= A[i * n + k] * b[k];
+    b[i] /= A[i * n + i];
+  }
+  for (int i = n - 1; i >= 0; i--) {
+    for (int k = i + 1; k < n; k++) b[i] -= A[k * n + i] * b[k];
+    b[i] /= A[i * n + i];
+  }
+  return 0;
+}
+
+/* Move e->q towards phi = 0 by Levenberg–Marquardt steps
+** dq = -Gᵀ (G Gᵀ + mu I)⁻¹ phi (mu keeps the step finite when G loses
+** rank), halved while max|phi| does not drop.  Stops at phi ~ 0, when no
+** step helps, or after a fixed number of iterations; the point is only a
+** better place for the rank test, so failure is not an error. */
+static void approach_constraints(Eval *e, double *phi, double *G, double *A, double *w,
+                                 double *q_old) {
+  int nq = e->s->nq, nc = e->s->nc;
+  eval_at(e, phi, G);
+  double r = max_norm(nc, phi);
+  for (int it = 0; it < 40 && isfinite(r) && r > 1e-14; it++) {
+    double trace = 0;
+    for (int a = 0; a < nc; a++)
+      for (int b = 0; b < nc; b++) {
+        double t = 0;
+        for (int i = 0; i < nq; i++) t += G[a * nq + i] * G[b * nq + i];
+        A[a * nc + b] = t;
+        if (a == b) trace += t;
+      }
+    if (!(trace > 0) || !isfinite(trace)) return;
+    for (int a = 0; a < nc; a++) A[a * nc + a] += 1e-12 * trace / nc;
+    memcpy(w, phi, (size_t)nc * sizeof(double));
+    if (spd_solve(nc, A, w) != 0) return;
+    memcpy(q_old, e->q, (size_t)nq * sizeof(double));
+    double step = 1, r_new = INFINITY;
+    for (int half = 0; half < 30; half++, step /= 2) {
+      for (int i = 0; i < nq; i++) {
+        double d = 0;
+        for (int k = 0; k < nc; k++) d += G[k * nq + i] * w[k];
+        e->q[i] = q_old[i] - step * d;
+      }
+      eval_at(e, phi, G);
+      r_new = max_norm(nc, phi);
+      if (r_new < r) break;
+    }
+    if (!(r_new < (1 - 1e-6) * r)) { /* no progress: keep the better point */
+      if (!(r_new < r)) {
+        memcpy(e->q, q_old, (size_t)nq * sizeof(double));
+        eval_at(e, phi, G);
+      }
+      return;
+    }
+    r = r_new;
+  }
 }
 
 /* Append " N" (or ", N", " and N") for each distinct line in lines[0..n). */
@@ -127,12 +234,18 @@ int constraint_rank_check(const Model *m, const EomSystem *s, Diag *d) {
   double *zeros = calloc((size_t)(nq > s->nu ? nq : s->nu) + 1, sizeof(double));
   const Stmt **of = calloc((size_t)nc, sizeof *of);
   int *lines = calloc((size_t)nc + 1, sizeof(int));
+  double *q = calloc((size_t)nq + 1, sizeof(double)), *q_old = calloc((size_t)nq + 1, sizeof(double));
+  double *phi = calloc((size_t)nc + 1, sizeof(double)), *w = calloc((size_t)nc + 1, sizeof(double));
+  double *A = calloc((size_t)nc * nc + 1, sizeof(double));
   double *v = NULL;
   int hi = 0;
   for (size_t i = 0; i < nqc; i++)
     if (s->constraint_jacobian[i] > hi) hi = s->constraint_jacobian[i];
+  for (int k = 0; k < nc; k++)
+    if (s->constraint[k] > hi) hi = s->constraint[k];
   v = calloc((size_t)hi + 1, sizeof(double));
-  if (!G || !basis || !coef || !comb || !r || !params || !zeros || !of || !lines || !v) {
+  if (!G || !basis || !coef || !comb || !r || !params || !zeros || !of || !lines || !v || !q ||
+      !q_old || !phi || !w || !A) {
     SrcLoc nowhere = {0, 0};
     diag_error(d, nowhere, "out of memory while checking the constraints");
     errors = 1;
@@ -140,22 +253,29 @@ int constraint_rank_check(const Model *m, const EomSystem *s, Diag *d) {
   }
   for (int i = 0; i < s->np; i++) params[i] = m->params[i]->number;
   const double t0 = 0;
-  const double *vars[6];
-  vars[IRV_T] = &t0;
-  vars[IRV_Q] = m->q0;
-  vars[IRV_QD] = m->qd0;
-  vars[IRV_QDD] = zeros;
-  vars[IRV_U] = zeros;
-  vars[IRV_P] = params;
-  eval_nodes(&s->g, hi, vars, v);
-  for (size_t i = 0; i < nqc; i++) {
-    G[i] = v[s->constraint_jacobian[i]];
+  Eval e;
+  e.s = s;
+  e.q = q;
+  e.v = v;
+  e.hi = hi;
+  e.vars[IRV_T] = &t0;
+  e.vars[IRV_Q] = q;
+  e.vars[IRV_QD] = m->qd0;
+  e.vars[IRV_QDD] = zeros;
+  e.vars[IRV_U] = zeros;
+  e.vars[IRV_P] = params;
+  memcpy(q, m->q0, (size_t)nq * sizeof(double));
+  approach_constraints(&e, phi, G, A, w, q_old);
+  eval_at(&e, phi, G);
+  for (size_t i = 0; i < nqc; i++)
     if (!isfinite(G[i])) goto out; /* no verdict here; the run reports it */
-  }
   equation_statements(m, nc, of);
 
   char state[256], which[256];
-  describe_state(m, state, sizeof state);
+  describe_state(m, q, state, sizeof state);
+  int moved = memcmp(q, m->q0, (size_t)nq * sizeof(double)) != 0;
+  const char *where = moved ? "at the initial state moved onto the constraints"
+                             : "at the initial state";
   int nb = 0;
   for (int k = 0; k < nc; k++) {
     const double *row = G + (size_t)k * nq;
@@ -178,9 +298,8 @@ int constraint_rank_check(const Model *m, const EomSystem *s, Diag *d) {
       /* Most often an initial state far from the constraint (a default of
       ** zero): a warning here, and the run's Gauss–Newton start says more. */
       diag_warning(d, st->loc,
-                   "this constraint's gradient dphi/dq is zero at the initial state (%s): it "
-                   "does not fix the coordinates there; give initial values on the constraint",
-                   state);
+                   "this constraint's gradient dphi/dq is zero %s (%s): it does not fix the "
+                   "coordinates there; give initial values on the constraint", where, state);
       continue;
     }
     if (norm > DEPENDENT_REL * norm0) {
@@ -204,15 +323,15 @@ int constraint_rank_check(const Model *m, const EomSystem *s, Diag *d) {
     list_lines(lines, nlines, which, sizeof which);
     if (nlines == 1 && lines[0] == st->loc.line)
       diag_error(d, st->loc,
-                 "the equations of this constraint are dependent at the initial state (%s): "
-                 "redundant or conflicting constraints (the constraint Jacobian dphi/dq loses "
-                 "rank)", state);
+                 "the equations of this constraint are dependent %s (%s): redundant or "
+                 "conflicting constraints (the constraint Jacobian dphi/dq loses rank)",
+                 where, state);
     else
       diag_error(d, st->loc,
-                 "this constraint depends on the constraint%s at line%s %s at the initial "
-                 "state (%s): redundant or conflicting constraints (the constraint Jacobian "
-                 "dphi/dq loses rank); remove one or change the coordinates",
-                 nlines == 1 ? "" : "s", nlines == 1 ? "" : "s", which, state);
+                 "this constraint depends on the constraint%s at line%s %s %s (%s): redundant "
+                 "or conflicting constraints (the constraint Jacobian dphi/dq loses rank); "
+                 "remove one or change the coordinates",
+                 nlines == 1 ? "" : "s", nlines == 1 ? "" : "s", which, where, state);
     errors++;
   }
 out:
@@ -225,6 +344,11 @@ out:
   free(zeros);
   free(of);
   free(lines);
+  free(q);
+  free(q_old);
+  free(phi);
+  free(w);
+  free(A);
   free(v);
   return errors;
 }

@@ -17,7 +17,8 @@
 extern "C" {
 #endif
 
-/* Evaluate G at t = 0, the model's initial q and q', its parameters'
+/* Evaluate G at t = 0, the model's initial q (first moved onto phi = 0
+** by damped Gauss–Newton when it is only near it) and q', its parameters'
 ** defaults and zero inputs; report every constraint equation whose gradient
 ** is a combination of earlier ones as an error at its line, naming the
 ** lines of the equations it depends on (a zero gradient is only a warning:

@@ -398,6 +398,23 @@ START_TEST(dependent_constraints_are_named) {
   ck_assert_msg(strstr(r.err, "conflicting.eom:5:1: error: this constraint depends on the "
                               "constraint at line 3") != NULL, "%s", r.err);
   run_free(&r);
+  /* A four-bar's coupler length written out again beside its two loop
+  ** equations holds on the whole loop, so its gradient is a combination of
+  ** theirs there (the initial guess is only near the loop). */
+  static const char implied[] =
+    "coord th2, th3, th4\n"
+    "param a = 0.30\nparam b = 0.08\nparam c = 0.32\nparam e = 0.18\n"   /* 2-5 */
+    "kinetic 1/2*(th2'^2 + th3'^2 + th4'^2)\n"
+    "let A = [b*cos(th2), b*sin(th2)]\n"
+    "let B = [a + e*cos(th4), e*sin(th4)]\n"
+    "constraint A + c*[cos(th3), sin(th3)] = B\n"                           /* 9 */
+    "constraint dot(B - A, B - A) = c^2\n"                                  /* 10 */
+    "initial th3 = 0.57\ninitial th4 = 1.29\n";
+  r = run_model("gen", "implied.eom", implied);
+  ck_assert_int_eq(r.status, 1);
+  ck_assert_msg(strstr(r.err, "implied.eom:10:1: error: this constraint depends on the "
+                              "constraint at line 9") != NULL, "%s", r.err);
+  run_free(&r);
   /* independent constraints pass */
   static const char fine[] =
     "coord x, y\n"
