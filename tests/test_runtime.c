@@ -171,6 +171,91 @@ START_TEST(constrained_model_follows_angle_model) {
 }
 END_TEST
 
+/* Constraint upkeep (runtime/stabilize.c) on the Cartesian pendulum. */
+
+typedef struct FirstSample {
+  int n;
+  double x[4];
+} FirstSample;
+
+static int keep_first(void *ctx, double t, const double *x, const double *u) {
+  FirstSample *f = ctx;
+  (void)t, (void)u;
+  if (f->n++ == 0) memcpy(f->x, x, sizeof f->x);
+  return 0;
+}
+
+/* A start off the circle is moved onto it (and its rate onto G q' = 0)
+** before the first sample, along the gradient (minimum norm); every
+** method's end state is on the circle to the projection tolerance. */
+START_TEST(constraint_initial_fix_and_projection) {
+  const double p[] = {1.0, 1.5, 9.81};
+  static const char *const methods[] = {"dopri", "radau5", "midpoint", "rk4"};
+  struct eom_sim_options o;
+  eom_sim_options_init(&o);
+  ck_assert(o.baumgarte_alpha == 10 && o.baumgarte_beta == 10);
+  ck_assert(o.no_projection == 0 && o.no_initial_fix == 0 && o.constraint_tol == 0);
+  for (int k = 0; k < 4; k++) {
+    double x[4] = {0.9, -1.3, 0.4, 0.2};
+    FirstSample first = {0, {0}};
+    struct eom_report rep;
+    int st = run(&tm_cartesian_pendulum, p, NULL, x, methods[k], 2, 0.01, 0, 0, keep_first,
+                 &first, &rep);
+    ck_assert_msg(st == EOM_OK, "%s: %s", methods[k], rep.message);
+    const double *f = first.x;
+    ck_assert_msg(fabs(f[0] * f[0] + f[1] * f[1] - p[1] * p[1]) <= 1e-12, "%s", methods[k]);
+    ck_assert(fabs(atan2(f[0], -f[1]) - atan2(0.9, 1.3)) < 1e-12);
+    ck_assert(fabs(f[0] * f[2] + f[1] * f[3]) < 1e-12); /* G q' = 0 */
+    ck_assert_msg(fabs(x[0] * x[0] + x[1] * x[1] - p[1] * p[1]) <= 1e-12, "%s: phi %g",
+                  methods[k], x[0] * x[0] + x[1] * x[1] - p[1] * p[1]);
+    ck_assert(fabs(x[0] * x[2] + x[1] * x[3]) < 1e-10);
+  }
+}
+END_TEST
+
+/* Baumgarte's stabilized constraint phi'' + 2 alpha phi' + beta^2 phi = 0
+** (Baumgarte, Comput. Methods Appl. Mech. Eng. 1, 1972): with alpha = beta
+** it is critically damped, phi(t) = phi0 (1 + alpha t) exp(-alpha t) from
+** rest.  With no projection and no initial fix, a start off the circle
+** must follow that; without the term phi stays (phi'' = 0). */
+START_TEST(baumgarte_decay_follows_its_equation) {
+  const double p[] = {1.0, 1.5, 9.81}, alpha = 4, t_end = 0.8;
+  struct eom_sim_options o;
+  struct eom_report rep;
+  for (int gains = 0; gains < 2; gains++) {
+    double x[4] = {0, -1.5 - 1e-3, 0, 0};
+    double phi0 = x[1] * x[1] - p[1] * p[1];
+    eom_sim_options_init(&o);
+    o.t_end = t_end;
+    o.rtol = 1e-12;
+    o.atol = 1e-14;
+    o.no_projection = 1;
+    o.no_initial_fix = 1;
+    o.baumgarte_alpha = o.baumgarte_beta = gains ? alpha : 0;
+    ck_assert_int_eq(eom_simulate(&tm_cartesian_pendulum, p, NULL, x, &o, NULL, NULL, &rep),
+                     EOM_OK);
+    double phi = x[0] * x[0] + x[1] * x[1] - p[1] * p[1];
+    double want = gains ? phi0 * (1 + alpha * t_end) * exp(-alpha * t_end) : phi0;
+    ck_assert_msg(fabs(phi - want) < 1e-6 * fabs(phi0), "gains %d: phi %.10g, want %.10g", gains,
+                  phi, want);
+  }
+}
+END_TEST
+
+/* A start where G = 0 (the anchor itself) cannot be projected: the run
+** stops before the first step and says why. */
+START_TEST(constraint_start_at_singular_point) {
+  const double p[] = {1.0, 1.5, 9.81};
+  double x[4] = {0, 0, 0, 0};
+  struct eom_report rep;
+  int st = run(&tm_cartesian_pendulum, p, NULL, x, "dopri", 1, 0, 0, 0, NULL, NULL, &rep);
+  ck_assert_int_eq(st, EOM_ESINGULAR);
+  ck_assert_msg(strstr(rep.message, "initial state is not on the constraints") != NULL, "%s",
+                rep.message);
+  ck_assert_msg(strstr(rep.message, "loses rank") != NULL, "%s", rep.message);
+}
+END_TEST
+
 /* ------------------------------------------------------------- order */
 
 /* Error at t = 2 of the oscillator x'' = -x from (1, 0) with fixed steps h. */
@@ -812,6 +897,9 @@ static Suite *runtime_suite(void) {
   tcase_add_test(tm, modes_free_pair_neutral);
   tcase_add_test(tm, untrusted_jacobian);
   tcase_add_test(tm, modes_constrained_pendulum);
+  tcase_add_test(tm, constraint_initial_fix_and_projection);
+  tcase_add_test(tm, baumgarte_decay_follows_its_equation);
+  tcase_add_test(tm, constraint_start_at_singular_point);
   suite_add_tcase(s, tm);
   return s;
 }
