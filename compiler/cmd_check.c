@@ -7,7 +7,9 @@
 #include <stdio.h>
 #include <string.h>
 #include "cmd.h"
+#include "conserved_report.h"
 #include "frontend.h"
+#include "symbolic.h"
 #include "units.h"
 
 static const char check_usage[] =
@@ -16,6 +18,9 @@ static const char check_usage[] =
   "Parse and check a model (names, shapes, time rates, units) and print a\n"
   "summary: coordinates, parameters, inputs, outputs and every energy, force\n"
   "and constraint term with its line.  `-` reads the model from stdin.\n"
+  "Then it derives the equations of motion and says whether the split\n"
+  "M q'' + C q' + g = Q - dD/dq' exists and which quantities are conserved\n"
+  "(momenta of cyclic coordinates, the energy function).\n"
   "\n"
   "options:\n"
   "  -h, --help   this text\n"
@@ -125,6 +130,24 @@ static void print_summary(const Model *m, const char *path, FILE *out) {
   fprintf(out, "units: %s\n", m->has_units ? "checked" : "not checked (not every coordinate and param has one)");
 }
 
+/* Derive the equations of motion and report the M/C/g split and the
+** constants of the motion; a derivation error is a model error. */
+static int print_structure(Frontend *fe, FILE *out) {
+  EomSystem sys;
+  SymOptions so = {0, 0.0};
+  int printed = fe->diag.nmsgs;
+  memset(&sys, 0, sizeof sys);
+  int failed = sym_derive(&fe->model, &so, &fe->diag, &sys) != 0;
+  Diag tail = fe->diag;
+  tail.msgs += printed;
+  tail.nmsgs -= printed;
+  diag_print(&tail, stderr);
+  if (failed) fputs("equations of motion: not derived (see the errors above)\n", out);
+  else report_structure(&fe->model, &sys, out);
+  sym_free(&sys);
+  return failed;
+}
+
 int cmd_check(int argc, char **argv) {
   const char *path = NULL;
   for (int i = 1; i < argc; i++) {
@@ -153,7 +176,10 @@ int cmd_check(int argc, char **argv) {
     return EXIT_USAGE;
   }
   diag_print(&fe.diag, stderr);
-  if (rc == 0) print_summary(&fe.model, path, stdout);
+  if (rc == 0) {
+    print_summary(&fe.model, path, stdout);
+    rc = print_structure(&fe, stdout);
+  }
   frontend_free(&fe);
   return rc == 0 ? 0 : EXIT_MODEL;
 }

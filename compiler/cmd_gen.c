@@ -15,6 +15,7 @@
 #include <stdlib.h>
 #include <string.h>
 #include "cmd.h"
+#include "conserved_report.h"
 #include "depfile.h"
 #include "emit_c.h"
 #include "frontend.h"
@@ -183,6 +184,7 @@ int cmd_gen(int argc, char **argv) {
     frontend_free(&fe);
     return EXIT_MODEL;
   }
+  report_identifiability(&fe.model, &sys, "eomc: note: ", stderr);
 
   char hash[HASH_HEX_LEN + 1];
   hash_hex(fe.src.text, fe.src.len, hash);

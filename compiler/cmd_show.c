@@ -8,6 +8,7 @@
 #include <stdio.h>
 #include <string.h>
 #include "cmd.h"
+#include "conserved_report.h"
 #include "emit_show.h"
 #include "frontend.h"
 #include "symbolic.h"
@@ -76,6 +77,14 @@ int cmd_show(int argc, char **argv) {
     if (show_equations(&fe.model, &sys, latex, stdout) != 0) {
       fputs("eomc: error: cannot write the output\n", stderr);
       rc = EXIT_RUN;
+    } else if (!latex) {
+      /* the split and the constants of the motion, after the equations */
+      putchar('\n');
+      report_structure(&fe.model, &sys, stdout);
+      if (ferror(stdout)) {
+        fputs("eomc: error: cannot write the output\n", stderr);
+        rc = EXIT_RUN;
+      }
     }
   }
   sym_free(&sys);

@@ -19,6 +19,7 @@
 
 #include "build_model.h"
 #include "cmd.h"
+#include "conserved_monitor.h"
 #include "eom/runtime.h"
 #include "plot.h"
 #include "run_values.h"
@@ -167,6 +168,7 @@ typedef struct SimOut {
   int tty;
   double t_end, started, last_draw;
   int drawn;
+  ConservedMonitor *conserved;  /* constants of the motion, watched per sample */
 } SimOut;
 
 static double now_seconds(void) {
@@ -221,6 +223,7 @@ static int on_sample(void *ctx, double t, const double *x, const double *u) {
     return 1;
   }
   if (m->energy) m->energy(x, x + m->nq, s->p, &T, &V);
+  cmon_sample(s->conserved, x, s->p);
   if (s->rows == 0) s->E0 = T + V;
   s->E = T + V;
   s->rows++;
@@ -270,6 +273,7 @@ static FILE *open_csv(const SimArgs *a, char **tmp_path) {
 int cmd_sim(int argc, char **argv) {
   SimArgs a;
   BuiltModel bm;
+  ConservedMonitor cmon;
   RunValues rv;
   char err[1024];
   int rc;
@@ -293,9 +297,10 @@ int cmd_sim(int argc, char **argv) {
   }
   const struct eom_model *m = bm.model;
   eom_inputs *in = NULL;
+  memset(&cmon, 0, sizeof cmon);
   FILE *csv = NULL;
   char *tmp_csv = NULL;
-  if (run_values_init(&rv, m) != 0 || !(in = eom_inputs_new(m->nu))) {
+  if (run_values_init(&rv, m) != 0 || !(in = eom_inputs_new(m->nu)) || cmon_init(&cmon, m) != 0) {
     fprintf(stderr, "eomc sim: error: out of memory\n");
     rc = EXIT_RUN;
     goto out;
@@ -330,6 +335,7 @@ int cmd_sim(int argc, char **argv) {
   so.m = m;
   so.p = rv.p;
   so.csv = csv;
+  so.conserved = &cmon;
   so.tty = isatty(STDERR_FILENO);
   so.t_end = a.until;
   so.started = so.last_draw = now_seconds();
@@ -372,6 +378,7 @@ int cmd_sim(int argc, char **argv) {
           a.method, rep.steps, rep.rejected, rep.rhs_evals, rep.t, so.E0, so.E,
           so.E0 != 0 ? drift / fabs(so.E0) : drift, so.E0 != 0 ? " relative" : "",
           action_total(&so));
+  cmon_report(&cmon, "eomc sim: ", stderr);
   rc = 0;
   if (st != EOM_OK) {
     fprintf(stderr, "eomc sim: error: integration failed %s\n",
@@ -403,6 +410,7 @@ out:
     free(tmp_csv);
   }
   eom_inputs_free(in);
+  cmon_free(&cmon);
   run_values_free(&rv);
   built_model_close(&bm);
   free(a.sets);

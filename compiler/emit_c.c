@@ -13,6 +13,7 @@
 ** and P_ldl_solve, that P_accel, P_jacobian and P_accel_constrained share.
 */
 #include "emit_c.h"
+#include "emit_control.h"
 
 #include <assert.h>
 #include <ctype.h>
@@ -1089,6 +1090,44 @@ static void emit_energy(Emitter *E) {
   fputs("}\n\n", E->out);
 }
 
+/* See emit_control.h. */
+void emit_plain_function(Emitter *E, const char *fname, unsigned args, const char *out,
+                         const int *roots, int n) {
+  static const Param all[] = {{IRV_T, "double t", "t"}, {IRV_Q, "const double *q", "q"},
+                              {IRV_QD, "const double *qd", "qd"},
+                              {IRV_QDD, "const double *qdd", "qdd"},
+                              {IRV_U, "const double *u", "u"}, {IRV_P, "const double *p", "p"}};
+  Param ps[7];
+  char decl[64], lhs[64], fill[160];
+  int nps = 0;
+  unsigned allowed = 0;
+  assert(n >= 1 && strlen(out) < 16);
+  for (int k = 0; k < 6; k++)
+    if (args & (1u << k)) {
+      ps[nps++] = all[k];
+      allowed |= VAR_BIT(all[k].var);
+    }
+  snprintf(decl, sizeof decl, "double *%s", out);
+  ps[nps].var = -1, ps[nps].decl = decl, ps[nps].name = out, nps++;
+  fn_reset(E);
+  add_roots(E, roots, n);
+  fn_analyse(E);
+  emit_signature(E, "void", fname, ps, nps, 0);
+  if (resolve_missing(E, allowed)) {
+    snprintf(fill, sizeof fill, "  int i;\n  for (i = 0; i < %d; i++) %s[i] = NAN;\n", n, out);
+    emit_nan_body(E, ps, nps, out, fill);
+  } else {
+    emit_unused(E, ps, nps);
+    emit_fixed_locals(E);
+    emit_temps(E);
+    for (int i = 0; i < n; i++) {
+      snprintf(lhs, sizeof lhs, "%s[%d]", out, i);
+      emit_assign(E, lhs, roots[i]);
+    }
+  }
+  fputs("}\n\n", E->out);
+}
+
 static void emit_outputs(Emitter *E) {
   const Param ps[] = {P_T, P_Q, P_QD, P_U, P_P, {-1, "double *y", "y"}};
   char lhs[64];
@@ -1356,6 +1395,7 @@ static void emit_header(Emitter *E) {
       "int %s_accel_constrained(double t, const double *q, const double *qd, const double *u,\n"
       "  const double *p, double *qdd, double *lambda);\n",
       P, P, P);
+  emit_control_prototypes(o, m, s, P);
   fprintf(o, "\n#ifndef EOM_NO_DESCRIPTOR\nstruct eom_model;\nextern const struct eom_model %s_model;\n#endif\n", P);
   fprintf(o, "\n#ifdef __cplusplus\n}\n#endif\n#endif\n");
 }
@@ -1463,6 +1503,7 @@ static void emit_descriptor(Emitter *E) {
   emit_string_table(E, "output_names", m->outputs, m->noutputs, 0);
   emit_double_table(E, "q0", q0, s->nq);
   emit_double_table(E, "qd0", qd0, s->nq);
+  emit_control_tables(o, s, P);
   fprintf(o, "\nconst struct eom_model %s_model = {\n", P);
   fprintf(o, "  EOM_MODEL_ABI,\n  ");
   put_c_string(o, P);
@@ -1484,9 +1525,10 @@ static void emit_descriptor(Emitter *E) {
   fprintf(o, "  %s_mass, %s_forcing, %s_accel, %s_rhs, %s_jacobian, %s_inverse, %s_energy, %s_outputs,\n",
           P, P, P, P, P, P, P, P);
   if (s->nc)
-    fprintf(o, "  %s_constraint, %s_constraint_jacobian, %s_accel_constrained\n", P, P, P);
+    fprintf(o, "  %s_constraint, %s_constraint_jacobian, %s_accel_constrained,\n", P, P, P);
   else
-    fprintf(o, "  0, 0, 0\n");
+    fprintf(o, "  0, 0, 0,\n");
+  emit_control_fields(o, s, P);
   fprintf(o, "};\n#endif\n");
   free(q0);
   free(qd0);
@@ -1512,6 +1554,7 @@ static void emit_source(Emitter *E) {
     emit_constraint_jacobian(E);
     emit_accel_constrained(E);
   }
+  emit_control_functions(E, E->out, E->s);
   emit_defaults(E);
   emit_descriptor(E);
 }

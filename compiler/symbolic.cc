@@ -410,6 +410,11 @@ class Derivation {
   void derive_control_quantities(const ex &L, const std::vector<std::vector<ex>> &M,
                                  const std::vector<ex> &dM, const std::vector<ex> &dDdqd,
                                  const std::vector<ex> &phi, ControlResult *out);
+  /* the `identify` parameters: indices in p, and derivatives in them (made
+  ** before any expression, so that the DepCache knows them from the start) */
+  std::vector<int> pi_index_;
+  std::vector<Deriver> dpi_;
+  void derive_regressor_quantities(const std::vector<ex> &inv, RegressorResult *out);
 };
 
 Derivation::Derivation(const Model *m, const SymOptions *opt)
@@ -442,6 +447,13 @@ Derivation::Derivation(const Model *m, const SymOptions *opt)
   for (int i = 0; i < np_; i++) {
     p_.push_back(realsymbol(m->params[i]->name));
     vars_[p_[i]] = VarRef{IRV_P, i};
+  }
+  for (int k = 0; k < m->nidentify; k++) {
+    int j = 0;
+    while (j < np_ && m->params[j] != m->identify[k]) j++;
+    assert(j < np_);
+    pi_index_.push_back(j);
+    dpi_.emplace_back(p_[j], deps_.add_var(p_[j]), &deps_);
   }
   force_.assign(nq_, ex(0));
 }
@@ -1333,6 +1345,9 @@ void Derivation::run(EomSystem *out) {
   ControlResult ctl;
   derive_control_quantities(L + T_rot, M, dM, dDdqd, phi, &ctl);
   tick("deriving the Coriolis matrix, momenta and constants of the motion");
+  RegressorResult reg;
+  derive_regressor_quantities(inv, &reg);
+  tick("deriving the regressor");
 
   std::vector<ex> outs;
   std::vector<SrcLoc> out_locs;
@@ -1377,6 +1392,9 @@ void Derivation::run(EomSystem *out) {
   for (const ex &e : ctl.gravity) h_grav.push_back(b.add_root(e, none));
   for (const ex &e : ctl.momenta) h_mom.push_back(b.add_root(e, none));
   int h_ham = b.add_root(ctl.hamiltonian, none);
+  std::vector<int> h_reg, h_reg0;
+  for (const ex &e : reg.Y) h_reg.push_back(b.add_root(e, none));
+  for (const ex &e : reg.offset) h_reg0.push_back(b.add_root(e, none));
   tick("building the expression graph");
 
   std::vector<int> roots;
@@ -1411,6 +1429,31 @@ void Derivation::run(EomSystem *out) {
   for (int i = 0; i < n; i++) out->cyclic[i] = ctl.cyclic[i];
   out->energy_conserved = ctl.energy_conserved;
   snprintf(out->energy_why, sizeof out->energy_why, "%s", ctl.energy_why.c_str());
+  const int ni = (int)pi_index_.size();
+  out->ni = ni;
+  out->identified = alloc_roots(ni);
+  for (int k = 0; k < ni; k++) out->identified[k] = pi_index_[k];
+  out->regressor = ni ? place(h_reg, (size_t)n * ni) : nullptr;
+  out->regressor_offset = ni ? place(h_reg0, n) : nullptr;
+}
+
+/* The regressor form of the inverse dynamics (symbolic_control.cc). */
+void Derivation::derive_regressor_quantities(const std::vector<ex> &inv, RegressorResult *out) {
+  if (pi_index_.empty()) return;
+  RegressorInput in;
+  in.inverse = inv;
+  for (int j : pi_index_) {
+    in.pi.push_back(p_[j]);
+    in.pi_names.push_back(m_->params[j]->name);
+  }
+  for (const auto *terms : {&kinetic_, &potential_, &lagrangian_, &dissipation_})
+    for (const Term &t : *terms) in.terms.push_back({t.stmt->loc, unatom(t.e)});
+  in.d_dpi = [this](int k, const ex &e) { return dpi_[k](e); };
+  in.substitute = [](const ex &e, const exmap &m) { return Subst(m)(e); };
+  in.nonzero_somewhere = [this](const ex &e, const ex &scale) {
+    return nonzero_somewhere(e, scale);
+  };
+  derive_regressor(in, out);
 }
 
 /* Hand the Lagrangian and the derivation's tools to symbolic_control.cc. */
@@ -1486,5 +1529,8 @@ extern "C" void sym_free(EomSystem *s) {
   free(s->gravity);
   free(s->momenta);
   free(s->cyclic);
+  free(s->identified);
+  free(s->regressor);
+  free(s->regressor_offset);
   memset(s, 0, sizeof *s);
 }

@@ -45,6 +45,11 @@ typedef struct EomSystem {
   int *cyclic;               /* nq     1: q_i is cyclic, momenta[i] is conserved */
   int energy_conserved;      /* 1: the hamiltonian is a constant of the motion */
   char energy_why[200];      /* why not, when !energy_conserved */
+  /* the regressor form P_inverse = Y pi + tau0, pi = the `identify` params */
+  int ni;                    /* identified parameters (0: none) */
+  int *identified;           /* ni     their indices in p */
+  int *regressor;            /* nq*ni  Y(t, q, qd, qdd, p) */
+  int *regressor_offset;     /* nq     tau0: P_inverse at pi = 0 */
 } EomSystem;
 
 typedef struct SymOptions {

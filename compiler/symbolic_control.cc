@@ -132,3 +132,41 @@ void derive_control(const ControlInput &in, ControlResult *out) {
 }
 
 }  // namespace eomsym
+
+/* ------------------------------------------------------------ regressor */
+
+namespace eomsym {
+
+/* Y_ik = dtau_i/dpi_k and tau0 = tau(pi = 0), after checking that tau is
+** linear in pi: every second derivative d2 tau / dpi_k dpi_l vanishes.  On
+** failure the error names the first model term that is not linear. */
+void derive_regressor(const RegressorInput &in, RegressorResult *out) {
+  const int n = (int)in.inverse.size(), ni = (int)in.pi.size();
+  assert((int)in.pi_names.size() == ni);
+  out->Y.assign((size_t)n * ni, ex(0));
+  out->offset.assign(n, ex(0));
+  for (int i = 0; i < n; i++)
+    for (int k = 0; k < ni; k++) out->Y[(size_t)i * ni + k] = in.d_dpi(k, in.inverse[i]);
+  for (int i = 0; i < n; i++)
+    for (int k = 0; k < ni; k++)
+      for (int l = k; l < ni; l++) {
+        const ex &y = out->Y[(size_t)i * ni + k];
+        ex second = in.d_dpi(l, y);
+        if (second.is_zero() || !in.nonzero_somewhere(second, y)) continue;
+        std::string what = k == l ? "'" + in.pi_names[k] + "'"
+                                  : "'" + in.pi_names[k] + "' and '" + in.pi_names[l] + "'";
+        for (const auto &term : in.terms) {
+          ex d = in.d_dpi(l, in.d_dpi(k, term.second));
+          if (!d.is_zero() && in.nonzero_somewhere(d, term.second))
+            throw SymError{term.first, "the dynamics must be linear in the identified parameters: "
+                                       "this term is not linear in " + what};
+        }
+        throw SymError{SrcLoc{0, 0}, "the dynamics must be linear in the identified parameters, "
+                                     "but they are not linear in " + what};
+      }
+  exmap zero;
+  for (const ex &p : in.pi) zero[p] = 0;
+  for (int i = 0; i < n; i++) out->offset[i] = in.substitute(in.inverse[i], zero);
+}
+
+}  // namespace eomsym

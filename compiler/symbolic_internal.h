@@ -143,6 +143,24 @@ struct ControlResult {
 
 void derive_control(const ControlInput &in, ControlResult *out);
 
+/* The regressor form of the inverse dynamics tau = Y pi + tau0 for the
+** parameters pi named by `identify` (symbolic_control.cc); throws SymError
+** naming a term when tau is not linear in pi. */
+struct RegressorInput {
+  std::vector<GiNaC::ex> inverse;                /* tau_i(t, q, qd, qdd, p), u = 0 */
+  std::vector<GiNaC::ex> pi;                     /* the identified parameters' symbols */
+  std::vector<std::string> pi_names;
+  std::vector<std::pair<SrcLoc, GiNaC::ex>> terms;  /* model terms, to name a culprit */
+  std::function<GiNaC::ex(int, const GiNaC::ex &)> d_dpi;
+  std::function<GiNaC::ex(const GiNaC::ex &, const GiNaC::exmap &)> substitute;
+  std::function<bool(const GiNaC::ex &, const GiNaC::ex &)> nonzero_somewhere;
+};
+struct RegressorResult {
+  std::vector<GiNaC::ex> Y;       /* nq*ni */
+  std::vector<GiNaC::ex> offset;  /* nq: tau at pi = 0 */
+};
+void derive_regressor(const RegressorInput &in, RegressorResult *out);
+
 }  // namespace eomsym
 
 #endif

@@ -15,7 +15,7 @@ extern "C" {
 #endif
 
 /* Bumped whenever the layout of struct eom_model changes. */
-#define EOM_MODEL_ABI 1
+#define EOM_MODEL_ABI 2
 
 struct eom_model {
   int abi;                          /* EOM_MODEL_ABI of the generating eomc */
@@ -52,6 +52,17 @@ struct eom_model {
   void (*constraint_jacobian)(const double *q, const double *p, double *G);
   int (*accel_constrained)(double t, const double *q, const double *qd, const double *u,
                            const double *p, double *qdd, double *lambda);
+
+  /* Since ABI 2: M qdd + C qd + g = Q - dD/dqd (coriolis and gravity NULL
+  ** when the model has no such split), the momenta dL/dqd, the energy
+  ** function h = qd.dL/dqd - L, and which of them are constants of the
+  ** motion. */
+  void (*coriolis)(const double *q, const double *qd, const double *p, double *C);
+  void (*gravity)(const double *q, const double *p, double *g);
+  void (*momenta)(const double *q, const double *qd, const double *p, double *pm);
+  void (*hamiltonian)(const double *q, const double *qd, const double *p, double *h);
+  const int *cyclic;                /* nq: 1 when pm[i] is conserved; NULL when none is */
+  int energy_conserved;             /* 1 when h is conserved */
 };
 
 #ifdef __cplusplus
