@@ -158,6 +158,7 @@ START_TEST(write_failure_leaves_old_file) {
   char *dir = make_temp_dir();
   char *path = path_in(dir, "P.d");
   char *missing = path_in(dir, "no/such/dir/P.d");
+  char *sub = path_in(dir, "sub");
   const char *t[] = {"P.h"};
   const char *d[] = {"P.eom"};
   const char *bad[] = {"line\nbreak.eom"};
@@ -171,6 +172,11 @@ START_TEST(write_failure_leaves_old_file) {
   ck_assert_ptr_nonnull(strstr(err, "no/such/dir"));
   ck_assert_int_eq(depfile_write("", t, 1, d, 1, err, sizeof err), -1);
   ck_assert_int_eq(count_entries(dir), 1);
+  /* A directory is not replaced, and no temporary is left next to it. */
+  ck_assert_int_eq(mkdir(sub, 0777), 0);
+  ck_assert_int_eq(depfile_write(sub, t, 1, d, 1, err, sizeof err), -1);
+  ck_assert_int_eq(count_entries(dir), 2);
+  free(sub);
   free(missing);
   free(path);
   remove_tree(dir);
