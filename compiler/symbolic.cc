@@ -283,6 +283,8 @@ double value_at(const ex &e, Subst &point) {
 struct Turn {
   int axis;
   ex angle;
+  bool shift = false;  /* a translation by s instead (steps of a 4x4 transform) */
+  ex s[3];
 };
 
 /* A value of the model language: a rows x cols matrix, row-major;
@@ -295,6 +297,12 @@ struct Val {
   int rows, cols;
   std::vector<ex> a;
   std::shared_ptr<const std::vector<Turn>> turns;  /* null: not known as a product */
+  /* A 3-vector known as a point T * [local; 1] (placed 1) of the transform T
+  ** whose steps are `turns`, or as a direction R * local (placed 2) of the
+  ** rotation R whose turns are `turns`: a body's velocity is then read off
+  ** the steps too (see add_translation). */
+  int placed = 0;
+  ex local[3];
   explicit Val(const ex &e) : rows(1), cols(1), a(1, e) {}
   Val(int r, int c) : rows(r), cols(c), a((size_t)r * c, ex(0)) {}
   bool scalar() const { return rows == 1 && cols == 1; }
@@ -309,6 +317,19 @@ static bool last_row_is_unit(const Val &T) {
   assert(T.rows == 4 && T.cols == 4);
   return T.at(3, 0).is_zero() && T.at(3, 1).is_zero() && T.at(3, 2).is_zero() &&
          T.at(3, 3).is_equal(ex(1));
+}
+
+/* Do the steps of a transform turn like the rotation `turns`? */
+static bool same_turns(const std::vector<Turn> &steps, const std::vector<Turn> &turns) {
+  size_t k = 0;
+  for (const Turn &f : steps) {
+    if (f.shift) continue;
+    if (k == turns.size() || turns[k].shift || turns[k].axis != f.axis ||
+        !turns[k].angle.is_equal(f.angle))
+      return false;
+    k++;
+  }
+  return k == turns.size();
 }
 
 std::string shape_name(const Val &v) {
@@ -359,14 +380,34 @@ class Derivation {
   std::vector<Atom> atoms_;
   std::vector<Deriver> dw_;
   std::unique_ptr<Subst> unatom_;  /* w_k -> e_k' */
+  std::unique_ptr<Subst> zero_qdd_;  /* q'' -> 0 */
   std::vector<const Decl *> let_stack_;  /* lets being evaluated (cycle guard) */
 
   std::vector<Term> kinetic_, potential_, lagrangian_, dissipation_;
+  std::vector<Term> reported_potential_;  /* in V, not in L (gravity on placed bodies) */
   /* Rotating bodies whose orientation depends on q and t only enter the
   ** equations through their generalized inertia forces (see add_body):
   ** rot_force_[b][i] is body b's share of E_i, rot_energy_ its part of T. */
+  /* Bodies whose mass centre is a point of a chain of turns and shifts
+  ** (see finish_placed); `spins`: the body's axes are the chain's last frame. */
+  struct Placed {
+    ex mass;
+    Val pos;
+    bool spins;
+    Val I;
+  };
+  std::vector<Placed> placed_;
+  std::vector<bool> body_placed_;  /* per entry of bodies_ */
+  struct ChainFrame {
+    int parent;
+    Turn step;
+    ex w[3], al[3], v[3], a[3];
+    std::vector<std::array<ex, 6>> J;  /* per coordinate: dw/dq', dv/dq' */
+  };
+  std::vector<ChainFrame> chain_;
+  ex gravity_sum_[3];
   std::vector<std::vector<ex>> rot_force_;
-  std::vector<ex> rot_energy_;
+  std::vector<ex> rot_energy_;  /* with the translational energy of placed points */
   std::vector<ex> force_;  /* Q_i */
 
   struct Body {
@@ -399,6 +440,10 @@ class Derivation {
   void add_body(const Stmt *s);
   void add_rotation(const Val &R, const Val &I);
   void turn_back(const Turn &f, ex v[3]);
+  int chain_frame(const std::vector<Turn> &steps, size_t n);
+  ex no_accel(const ex &e);
+  void finish_placed();
+  bool point_matches(const Val &P);
   bool turns_match(const Val &R);
   void add_force_at(const Stmt *s);
   void add_torque(const Stmt *s);
@@ -535,6 +580,7 @@ Val Derivation::eval(const Expr *x) {
       Val v = eval(x->args[0]);
       for (ex &e : v.a) e = -e;
       v.turns.reset();
+      v.placed = 0;
       return v;
     }
     case EX_BINARY: return eval_binary(x);
@@ -624,7 +670,17 @@ Val Derivation::eval_binary(const Expr *x) {
         throw SymError{x->loc, fmt("cannot %s %s and %s", x->op == OP_ADD ? "add" : "subtract",
                                    shape_name(a).c_str(), shape_name(b).c_str())};
       for (int k = 0; k < a.size(); k++) a.a[k] = x->op == OP_ADD ? a.a[k] + b.a[k] : a.a[k] - b.a[k];
+      if (x->op == OP_ADD && a.placed + b.placed == 3) {
+        Val &pt = a.placed == 1 ? a : b, &dir = a.placed == 1 ? b : a;
+        if (same_turns(*pt.turns, *dir.turns)) { /* T [l; 1] + R v = T [l + v; 1] */
+          a.turns = pt.turns;
+          for (int c = 0; c < 3; c++) a.local[c] = pt.local[c] + dir.local[c];
+          a.placed = 1;
+          return a;
+        }
+      }
       a.turns.reset();
+      a.placed = 0;
       return a;
     }
     case OP_MUL: {
@@ -632,7 +688,12 @@ Val Derivation::eval_binary(const Expr *x) {
         Val &s = a.scalar() ? a : b, &v = a.scalar() ? b : a;
         ex c = s.a[0];
         for (ex &e : v.a) e = c * e;
+        if (v.placed == 2) { /* c (R l) = R (c l) */
+          for (ex &e : v.local) e = c * e;
+          return v;
+        }
         v.turns.reset();
+        v.placed = 0;
         return v;
       }
       if (a.cols != b.rows)
@@ -645,10 +706,16 @@ Val Derivation::eval_binary(const Expr *x) {
           for (int k = 0; k < a.cols; k++) terms.push_back(a.at(i, k) * b.at(k, j));
           r.at(i, j) = add(terms);
         }
-      if (a.turns && b.turns && a.rows == b.rows && (a.rows == 3 || (a.rows == 4 && last_row_is_unit(a) && last_row_is_unit(b)))) {
+      bool square = a.rows == a.cols && b.rows == b.cols && a.rows == b.rows && !a.placed && !b.placed;
+      if (a.turns && b.turns && square &&
+          (a.rows == 3 || (a.rows == 4 && last_row_is_unit(a) && last_row_is_unit(b)))) {
         auto t = std::make_shared<std::vector<Turn>>(*a.turns);
         t->insert(t->end(), b.turns->begin(), b.turns->end());
         r.turns = t;
+      } else if (a.turns && !a.placed && a.rows == 3 && a.cols == 3 && b.rows == 3 && b.cols == 1) {
+        r.turns = a.turns;  /* a direction R v */
+        r.placed = 2;
+        for (int c = 0; c < 3; c++) r.local[c] = b.a[c];
       }
       return r;
     }
@@ -658,6 +725,7 @@ Val Derivation::eval_binary(const Expr *x) {
       if (b.a[0].is_zero()) throw SymError{x->loc, "division by zero"};
       for (ex &e : a.a) e = e / b.a[0];
       a.turns.reset();
+      a.placed = 0;
       return a;
     }
     case OP_POW: {
@@ -809,7 +877,7 @@ Val Derivation::eval_call(const Expr *x) {
     Val r(a.cols, a.rows);
     for (int i = 0; i < a.rows; i++)
       for (int j = 0; j < a.cols; j++) r.at(j, i) = a.at(i, j);
-    if (a.turns && a.rows == 3 && a.cols == 3) { /* the inverse rotation */
+    if (a.turns && !a.placed && a.rows == 3 && a.cols == 3) { /* the inverse rotation */
       auto t = std::make_shared<std::vector<Turn>>();
       for (auto it = a.turns->rbegin(); it != a.turns->rend(); ++it) t->push_back({it->axis, -it->angle});
       r.turns = t;
@@ -840,7 +908,13 @@ Val Derivation::eval_call(const Expr *x) {
     r.at(1, 0) = st, r.at(1, 1) = ct * ca, r.at(1, 2) = -ct * sa, r.at(1, 3) = a * st;
     r.at(2, 1) = sa, r.at(2, 2) = ca, r.at(2, 3) = d;
     r.at(3, 3) = 1;
-    r.turns = std::make_shared<std::vector<Turn>>(std::vector<Turn>{{2, th}, {0, al}});
+    auto steps = std::make_shared<std::vector<Turn>>();
+    steps->push_back(Turn{2, th});
+    Turn shift{0, 0};
+    shift.shift = true, shift.s[0] = a, shift.s[1] = 0, shift.s[2] = d;
+    steps->push_back(shift);
+    steps->push_back(Turn{0, al});
+    r.turns = steps;
     return r;
   }
   if (strcmp(name, "pos") == 0 || strcmp(name, "rot") == 0) {
@@ -848,15 +922,25 @@ Val Derivation::eval_call(const Expr *x) {
     const Val &T = args[0];
     if (T.rows != 4 || T.cols != 4)
       throw SymError{x->args[0]->loc, fmt("%s() needs a 4x4 transform", name)};
+    bool steps = T.turns && !T.placed && last_row_is_unit(T);
     if (name[0] == 'p') {
       Val r(3, 1);
       for (int i = 0; i < 3; i++) r.a[i] = T.at(i, 3);
+      if (steps) {
+        r.turns = T.turns, r.placed = 1;
+        for (int c = 0; c < 3; c++) r.local[c] = 0;
+      }
       return r;
     }
     Val r(3, 3);
     for (int i = 0; i < 3; i++)
       for (int j = 0; j < 3; j++) r.at(i, j) = T.at(i, j);
-    if (T.turns && last_row_is_unit(T)) r.turns = T.turns;
+    if (steps) { /* the turns without the shifts */
+      auto t = std::make_shared<std::vector<Turn>>();
+      for (const Turn &f : *T.turns)
+        if (!f.shift) t->push_back(f);
+      r.turns = t;
+    }
     return r;
   }
   throw SymError{x->loc, fmt("the function '%s' is not supported yet", name)};
@@ -900,11 +984,13 @@ void Derivation::collect_terms() {
   }
   /* gravity acts on every body, wherever the statements stand */
   for (const auto &g : gravity_)
-    for (const Body &b : bodies_) {
+    for (size_t k = 0; k < bodies_.size(); k++) {
+      const Body &b = bodies_[k];
       exvector terms;
       for (int c = 0; c < 3; c++) terms.push_back(g.second.a[c] * b.pos.a[c]);
-      potential_.push_back({g.first, -b.mass * add(terms)});
+      (body_placed_[k] ? reported_potential_ : potential_).push_back({g.first, -b.mass * add(terms)});
     }
+  finish_placed();
 }
 
 Val Derivation::vec3(const Expr *x, const char *what) {
@@ -945,10 +1031,17 @@ bool Derivation::depends_on_rates(const ex &e) {
 ** through the nine entries of R' and is several times smaller for chains. */
 void Derivation::add_body(const Stmt *s) {
   Body b{s, scalar(s->e[0], "a body's mass"), vec3(s->e[1], "a body's position")};
-  Val v = rate(b.pos);
-  exvector terms;
-  for (int c = 0; c < 3; c++) terms.push_back(pow(v.a[c], 2));
-  ex T = b.mass / 2 * add(terms);
+  ex T = 0;
+  /* a direction R l from the origin is the point T [l; 1] of R's turns */
+  bool placed = b.pos.placed != 0 && point_matches(b.pos);
+  for (int c = 0; placed && c < 3; c++) placed = !depends_on_rates(b.pos.a[c]);
+  Placed pb{b.mass, b.pos, false, Val(0)};
+  if (!placed) {
+    Val v = rate(b.pos);
+    exvector terms;
+    for (int c = 0; c < 3; c++) terms.push_back(pow(v.a[c], 2));
+    T = b.mass / 2 * add(terms);
+  }
   if (s->e[2] || s->e[3]) {
     if (!s->e[2] || !s->e[3])
       throw SymError{s->loc, "a rotating body needs both 'orient' and 'inertia'"};
@@ -964,7 +1057,10 @@ void Derivation::add_body(const Stmt *s) {
                                        "moments, not %s", shape_name(I).c_str())};
     bool rigid_in_q = true;
     for (const ex &e : R.a) rigid_in_q = rigid_in_q && !depends_on_rates(e);
-    if (rigid_in_q) {
+    if (placed && R.turns && same_turns(*b.pos.turns, *R.turns) && turns_match(R)) {
+      pb.spins = true;
+      pb.I = I;
+    } else if (rigid_in_q) {
       add_rotation(R, I);
     } else {
       Val Rd = rate(R);
@@ -983,6 +1079,8 @@ void Derivation::add_body(const Stmt *s) {
   }
   kinetic_.push_back({s, T});
   bodies_.push_back(b);
+  if (placed) placed_.push_back(pb);
+  body_placed_.push_back(placed);
 }
 
 /* The rotational share of a body whose orientation R(q, t) has no rates:
@@ -1003,6 +1101,7 @@ void Derivation::add_rotation(const Val &R, const Val &I) {
     const size_t m = f.size();
     exvector wt[3];
     for (size_t k = 0; k < m; k++) {
+      if (f[k].shift) continue;
       ex th_rate = totald(f[k].angle);
       if (th_rate.is_zero()) continue;
       ex v[3] = {0, 0, 0};  /* S_k^T e_k */
@@ -1078,8 +1177,206 @@ void Derivation::add_rotation(const Val &R, const Val &I) {
   rot_energy_.push_back((w[0] * Iw[0] + w[1] * Iw[1] + w[2] * Iw[2]) / 2);
 }
 
+/* The chain of frames of placed bodies, worked outward the way the
+** recursive Newton-Euler algorithm does (Luh, Walker and Paul, 1980): each
+** frame after a step of a transform holds, in its own axes, its angular
+** velocity w and acceleration al, the velocity v and acceleration a of its
+** origin (a includes -G, gravity as a base acceleration), and per
+** coordinate the partial angular and linear velocities.  Frames are shared
+** by every body whose chain passes through them, so the expressions are. */
+/* e with every q'' set to 0 */
+ex Derivation::no_accel(const ex &e) {
+  if (!zero_qdd_) {
+    exmap m;
+    for (const ex &a : qdd_) m[a] = 0;
+    zero_qdd_.reset(new Subst(m));
+  }
+  return (*zero_qdd_)(e);
+}
+
+int Derivation::chain_frame(const std::vector<Turn> &steps, size_t n) {
+  if (chain_.empty()) {
+    ChainFrame root;
+    root.parent = -1;
+    for (int c = 0; c < 3; c++) root.w[c] = root.al[c] = root.v[c] = 0, root.a[c] = -gravity_sum_[c];
+    root.J.assign(nq_, std::array<ex, 6>{0, 0, 0, 0, 0, 0});
+    chain_.push_back(root);
+  }
+  if (n == 0) return 0;
+  int parent = chain_frame(steps, n - 1);
+  const Turn &f = steps[n - 1];
+  for (size_t k = 0; k < chain_.size(); k++) {
+    const ChainFrame &c = chain_[k];
+    if (c.parent != parent || c.step.shift != f.shift) continue;
+    bool same = f.shift ? c.step.s[0].is_equal(f.s[0]) && c.step.s[1].is_equal(f.s[1]) &&
+                              c.step.s[2].is_equal(f.s[2])
+                        : c.step.axis == f.axis && c.step.angle.is_equal(f.angle);
+    if (same) return (int)k;
+  }
+  ChainFrame c = chain_[parent];
+  c.parent = parent;
+  c.step = f;
+  auto cross = [](const ex x[3], const ex y[3], ex out[3]) {
+    ex r[3];
+    for (int i = 0; i < 3; i++) {
+      int a = (i + 1) % 3, b = (i + 2) % 3;
+      r[i] = x[a] * y[b] - x[b] * y[a];
+    }
+    for (int i = 0; i < 3; i++) out[i] = r[i];
+  };
+  if (!f.shift) {
+    ex rate = totald(f.angle), accel = no_accel(totald(rate));
+    for (ex *vec : {c.w, c.al, c.v, c.a}) turn_back(f, vec);
+    ex e[3] = {0, 0, 0}, we[3];
+    e[f.axis] = 1;
+    ex spin[3] = {rate * e[0], rate * e[1], rate * e[2]};
+    cross(c.w, spin, we);  /* (F^T w_parent) x th' e */
+    for (int i = 0; i < 3; i++) {
+      c.al[i] = c.al[i] + accel * e[i] + we[i];
+      c.w[i] = c.w[i] + spin[i];
+    }
+    for (int j = 0; j < nq_; j++) {
+      turn_back(f, &c.J[j][0]);
+      turn_back(f, &c.J[j][3]);
+      ex d = dq_[j](f.angle);
+      if (!d.is_zero()) c.J[j][f.axis] = c.J[j][f.axis] + d;
+    }
+  } else {
+    ex sd[3], sdd[3], wxs[3], axs[3], wxwxs[3], wxsd[3];
+    for (int i = 0; i < 3; i++) sd[i] = totald(f.s[i]), sdd[i] = no_accel(totald(sd[i]));
+    cross(c.w, f.s, wxs);
+    cross(c.al, f.s, axs);
+    cross(c.w, wxs, wxwxs);
+    cross(c.w, sd, wxsd);
+    for (int i = 0; i < 3; i++) {
+      c.v[i] = c.v[i] + wxs[i] + sd[i];
+      c.a[i] = c.a[i] + axs[i] + wxwxs[i] + 2 * wxsd[i] + sdd[i];
+    }
+    for (int j = 0; j < nq_; j++) {
+      ex wj[3] = {c.J[j][0], c.J[j][1], c.J[j][2]}, x[3];
+      cross(wj, f.s, x);
+      for (int i = 0; i < 3; i++) c.J[j][3 + i] = c.J[j][3 + i] + x[i] + dq_[j](f.s[i]);
+    }
+  }
+  chain_.push_back(c);
+  return (int)chain_.size() - 1;
+}
+
+/* The shares of the placed bodies in the equations, once gravity is known:
+**   v_P = v + w x l + l',  a_P = a + al x l + w x (w x l) + 2 w x l' + l''
+**   E_i += m (dv_P/dq'_i) . a_P  [+ dw/dq'_i . (I al + w x I w) when the
+**   body's axes are the frame's]
+** (Kane and Levinson, 1985, ch. 6; equal to Lagrange's equations for
+** holonomic coordinates).  Gravity is in a_P, so V is reported, not used. */
+void Derivation::finish_placed() {
+  if (placed_.empty()) return;
+  for (int c = 0; c < 3; c++) {
+    exvector t;
+    for (const auto &g : gravity_) t.push_back(g.second.a[c]);
+    gravity_sum_[c] = add(t);
+  }
+  auto cross = [](const ex x[3], const ex y[3], ex out[3]) {
+    for (int i = 0; i < 3; i++) {
+      int a = (i + 1) % 3, b = (i + 2) % 3;
+      out[i] = x[a] * y[b] - x[b] * y[a];
+    }
+  };
+  for (const Placed &pb : placed_) {
+    const ChainFrame &F = chain_[chain_frame(*pb.pos.turns, pb.pos.turns->size())];
+    ex l[3], ld[3], ldd[3], x1[3], x2[3], x3[3], x4[3], vP[3], aP[3];
+    for (int c = 0; c < 3; c++)
+      l[c] = pb.pos.local[c], ld[c] = totald(l[c]), ldd[c] = no_accel(totald(ld[c]));
+    cross(F.w, l, x1);
+    cross(F.al, l, x2);
+    cross(F.w, x1, x3);
+    cross(F.w, ld, x4);
+    for (int c = 0; c < 3; c++) {
+      vP[c] = F.v[c] + x1[c] + ld[c];
+      aP[c] = F.a[c] + x2[c] + x3[c] + 2 * x4[c] + ldd[c];
+    }
+    /* the q'' parts: a_P = (bias above) + sum_j (dv_P/dq'_j) q''_j, al likewise */
+    std::vector<std::array<ex, 3>> JP(nq_);
+    exvector at[3], alt[3];
+    ex al[3];
+    for (int c = 0; c < 3; c++) at[c].push_back(aP[c]), alt[c].push_back(F.al[c]);
+    for (int j = 0; j < nq_; j++) {
+      ex wj[3] = {F.J[j][0], F.J[j][1], F.J[j][2]}, x[3];
+      cross(wj, l, x);
+      for (int c = 0; c < 3; c++) {
+        JP[j][c] = F.J[j][3 + c] + x[c] + dq_[j](l[c]);
+        if (!JP[j][c].is_zero()) at[c].push_back(JP[j][c] * qdd_[j]);
+        if (!wj[c].is_zero()) alt[c].push_back(wj[c] * qdd_[j]);
+      }
+    }
+    for (int c = 0; c < 3; c++) aP[c] = add(at[c]), al[c] = add(alt[c]);
+    ex euler[3], Iw[3];
+    if (pb.spins) {
+      for (int r = 0; r < 3; r++) {
+        exvector t;
+        for (int c = 0; c < 3; c++)
+          if (!pb.I.at(r, c).is_zero()) t.push_back(pb.I.at(r, c) * F.w[c]);
+        Iw[r] = add(t);
+      }
+      cross(F.w, Iw, x1);
+      for (int r = 0; r < 3; r++) {
+        exvector t{x1[r]};
+        for (int c = 0; c < 3; c++)
+          if (!pb.I.at(r, c).is_zero()) t.push_back(pb.I.at(r, c) * al[c]);
+        euler[r] = add(t);
+      }
+    }
+    std::vector<ex> share(nq_);
+    for (int j = 0; j < nq_; j++) {
+      ex wj[3] = {F.J[j][0], F.J[j][1], F.J[j][2]};
+      exvector t;
+      for (int c = 0; c < 3; c++)
+        if (!JP[j][c].is_zero()) t.push_back(JP[j][c] * aP[c]);
+      exvector r{pb.mass * add(t)};
+      if (pb.spins)
+        for (int c = 0; c < 3; c++)
+          if (!wj[c].is_zero()) r.push_back(wj[c] * euler[c]);
+      share[j] = add(r);
+    }
+    rot_force_.push_back(share);
+    ex T = pb.mass / 2 * (vP[0] * vP[0] + vP[1] * vP[1] + vP[2] * vP[2]);
+    if (pb.spins) T = T + (F.w[0] * Iw[0] + F.w[1] * Iw[1] + F.w[2] * Iw[2]) / 2;
+    rot_energy_.push_back(T);
+  }
+}
+
+/* P's entries equal T(steps) [local; 1] at a pseudo-random point: a guard on
+** the bookkeeping of placed points (a mismatch falls back to the entries). */
+bool Derivation::point_matches(const Val &P) {
+  uint64_t state = 0x5851f42d4c957f2dULL;
+  auto next = [&state]() {
+    state = state * 6364136223846793005ULL + 1442695040888963407ULL;
+    return 0.35 + (double)(state >> 11) / 9007199254740992.0;
+  };
+  exmap point;
+  point[t_] = next();
+  for (int i = 0; i < nq_; i++) point[q_[i]] = next();
+  for (int i = 0; i < nu_; i++) point[u_[i]] = next();
+  for (int i = 0; i < np_; i++) point[p_[i]] = next();
+  Subst at(point);
+  ex v[3] = {P.local[0], P.local[1], P.local[2]};  /* applied from the last step back */
+  for (auto it = P.turns->rbegin(); it != P.turns->rend(); ++it) {
+    if (it->shift) {
+      for (int c = 0; c < 3; c++) v[c] = v[c] + it->s[c];
+      continue;
+    }
+    Turn fwd{it->axis, -it->angle};
+    turn_back(fwd, v);
+  }
+  for (int c = 0; c < 3; c++) {
+    double want = value_at(P.a[c], at), got = value_at(v[c], at);
+    if (!(std::fabs(want - got) <= 1e-9 * (1 + std::fabs(want)))) return false;
+  }
+  return true;
+}
+
 /* v <- F^T v for one turn F (the inverse turn applied to v). */
 void Derivation::turn_back(const Turn &f, ex v[3]) {
+  if (f.shift) return;  /* a translation leaves directions alone */
   int i = (f.axis + 1) % 3, j = (f.axis + 2) % 3;  /* the plane turned */
   ex c = cos(f.angle), s = sin(f.angle);
   ex vi = c * v[i] + s * v[j], vj = c * v[j] - s * v[i];
@@ -1104,6 +1401,7 @@ bool Derivation::turns_match(const Val &R) {
     ex v[3] = {0, 0, 0};  /* R e_col = F_1 (F_2 (... F_m e_col)) */
     v[col] = 1;
     for (auto it = R.turns->rbegin(); it != R.turns->rend(); ++it) {
+      if (it->shift) continue;
       Turn back{it->axis, -it->angle};
       turn_back(back, v);
     }
@@ -1255,6 +1553,9 @@ void Derivation::run(EomSystem *out) {
   for (const Term &t : dissipation_) Dt.push_back(t.e);
   ex T = add(Tt), V = add(Vt), D = add(Dt);
   ex T_rot = add(exvector(rot_energy_.begin(), rot_energy_.end()));
+  exvector Vr;
+  for (const Term &t : reported_potential_) Vr.push_back(t.e);
+  ex V_reported = V + add(Vr);
   ex L = T - V + add(Lt);  /* in terms of atoms: F above */
   check_no_qdd(L);
   tick("forming the Lagrangian");
@@ -1343,7 +1644,7 @@ void Derivation::run(EomSystem *out) {
   }
 
   ControlResult ctl;
-  derive_control_quantities(L + T_rot, M, dM, dDdqd, phi, &ctl);
+  derive_control_quantities(L + T_rot - add(Vr), M, dM, dDdqd, phi, &ctl);
   tick("deriving the Coriolis matrix, momenta and constants of the motion");
   RegressorResult reg;
   derive_regressor_quantities(inv, &reg);
@@ -1380,7 +1681,7 @@ void Derivation::run(EomSystem *out) {
   for (const ex &e : dfdu) h_dfdu.push_back(b.add_root(e, none));
   for (const ex &e : inv) h_inv.push_back(b.add_root(e, none));
   int h_T = b.add_root(unatom(T + T_rot), kinetic_.empty() ? none : kinetic_[0].stmt->loc);
-  int h_V = b.add_root(unatom(V), potential_.empty() ? none : potential_[0].stmt->loc);
+  int h_V = b.add_root(unatom(V_reported), potential_.empty() ? none : potential_[0].stmt->loc);
   for (size_t i = 0; i < outs.size(); i++) h_out.push_back(b.add_root(outs[i], out_locs[i]));
   std::vector<int> h_phi, h_G, h_gamma;
   for (int c = 0; c < nc; c++) h_phi.push_back(b.add_root(phi[c], constraints_[c].first->loc));
