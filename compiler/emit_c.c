@@ -1242,18 +1242,21 @@ static void emit_accel_constrained(Emitter *E) {
     "    }\n"
     "    for (k = 0; k < %d; k++) r[i] -= G[i*%d + k]*acc[k];\n"
     "  }\n", nc, nc, nc, nq, nc, nq, nq, nq, nq);
-  /* Dense LDL^T of the symmetric S = G M^-1 G^T; a zero pivot means the
-  ** constraints are dependent. */
+  /* Dense LDL^T of the symmetric S = G M^-1 G^T.  A pivot that is a tiny
+  ** fraction of its diagonal entry (the row is within ~3e-7 rad of the span
+  ** of the rows before it) means the constraints are dependent: rounding
+  ** rarely leaves an exact zero. */
   fprintf(o,
     "  for (j = 0; j < %d; j++) {\n"
+    "    const double diag0 = S[j*%d + j];\n"
     "    for (k = 0; k < j; k++) S[j*%d + j] -= S[j*%d + k]*S[j*%d + k]*S[k*%d + k];\n"
-    "    if (!(S[j*%d + j] > 0.0) || !isfinite(S[j*%d + j])) return 2;\n"
+    "    if (!(S[j*%d + j] > 1e-13*diag0) || !isfinite(S[j*%d + j])) return 2;\n"
     "    for (i = j + 1; i < %d; i++) {\n"
     "      for (k = 0; k < j; k++) S[i*%d + j] -= S[i*%d + k]*S[j*%d + k]*S[k*%d + k];\n"
     "      S[i*%d + j] /= S[j*%d + j];\n"
     "    }\n"
     "  }\n",
-    nc, nc, nc, nc, nc, nc, nc, nc, nc, nc, nc, nc, nc, nc);
+    nc, nc, nc, nc, nc, nc, nc, nc, nc, nc, nc, nc, nc, nc, nc);
   fprintf(o,
     "  for (i = 0; i < %d; i++)\n"
     "    for (k = 0; k < i; k++) r[i] -= S[i*%d + k]*r[k];\n"
@@ -1390,8 +1393,10 @@ static void emit_header(Emitter *E) {
     fprintf(o,
       "void %s_constraint(const double *q, const double *p, double *phi);   /* NC */\n"
       "void %s_constraint_jacobian(const double *q, const double *p, double *G);   /* NC x NQ */\n"
-      "/* M qdd = f + G^T lambda with G qdd = gamma; returns 1 when M, 2 when\n"
-      "** G M^-1 G^T is not positive definite (dependent constraints). */\n"
+      "/* M qdd = f + G^T lambda with G qdd = gamma, where phi = left - right of\n"
+      "** each `constraint` (source order) and G = dphi/dq: the generalized\n"
+      "** constraint force is +G^T lambda.  Returns 1 when M, 2 when G M^-1 G^T\n"
+      "** is not positive definite (dependent constraints: G loses rank). */\n"
       "int %s_accel_constrained(double t, const double *q, const double *qd, const double *u,\n"
       "  const double *p, double *qdd, double *lambda);\n",
       P, P, P);

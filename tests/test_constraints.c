@@ -469,13 +469,37 @@ START_TEST(initial_fix_and_options) {
 }
 END_TEST
 
-/* The generated accel_constrained refuses a configuration where G loses
-** rank: the Cartesian pendulum at the anchor, where G = (2x, 2y) = 0. */
-START_TEST(accel_constrained_reports_rank_loss) {
-  char *argv[] = {(char *)eomc(), "gen", example("cartesian_pendulum.eom"), "-o", work_dir, NULL};
+/* Generate `model` into the work directory, compile it with `driver` (gcc or
+** $CC, -std=c99 -pedantic -Werror) and return the driver's output. */
+static char *run_driver(const char *model, const char *stem, const char *driver) {
+  char *argv[] = {(char *)eomc(), "gen", (char *)model, "-o", work_dir, NULL};
   RunResult r = run_argv(argv);
   ck_assert_msg(r.status == 0, "%s", r.err);
   run_free(&r);
+  char *drv = write_file(work_dir, "drv.c", driver, strlen(driver));
+  char inc[4200], dinc[4200], csrc[4200], exe[4200];
+  snprintf(inc, sizeof inc, "-I%s/include", env_or("SRCDIR", "."));
+  snprintf(dinc, sizeof dinc, "-I%s", work_dir);
+  snprintf(csrc, sizeof csrc, "%s/%s.c", work_dir, stem);
+  snprintf(exe, sizeof exe, "%s/drv", work_dir);
+  char *cc[] = {(char *)env_or("CC", "cc"), "-std=c99", "-pedantic", "-Wall", "-Wextra", "-Werror",
+                inc, dinc, csrc, drv, "-o", exe, "-lm", NULL};
+  r = run_argv(cc);
+  ck_assert_msg(r.status == 0, "%s", r.err);
+  run_free(&r);
+  char *run[] = {exe, NULL};
+  r = run_argv(run);
+  ck_assert_int_eq(r.status, 0);
+  char *out = r.out;
+  r.out = NULL;
+  run_free(&r);
+  free(drv);
+  return out;
+}
+
+/* The generated accel_constrained refuses a configuration where G loses
+** rank: the Cartesian pendulum at the anchor, where G = (2x, 2y) = 0. */
+START_TEST(accel_constrained_reports_rank_loss) {
   static const char driver[] =
     "#include <stdio.h>\n#include \"cartesian_pendulum.h\"\n"
     "int main(void) {\n"
@@ -485,25 +509,44 @@ START_TEST(accel_constrained_reports_rank_loss) {
     "  printf(\"%d %d\\n\", cartesian_pendulum_accel_constrained(0, q, qd, NULL, p, qdd, lam),\n"
     "         cartesian_pendulum_accel_constrained(0, q1, qd1, NULL, p, qdd, lam));\n"
     "  return 0;\n}\n";
-  char *drv = write_file(work_dir, "drv.c", driver, strlen(driver));
-  char inc[4200], dinc[4200], csrc[4200], exe[4200];
-  snprintf(inc, sizeof inc, "-I%s/include", env_or("SRCDIR", "."));
-  snprintf(dinc, sizeof dinc, "-I%s", work_dir);
-  snprintf(csrc, sizeof csrc, "%s/cartesian_pendulum.c", work_dir);
-  snprintf(exe, sizeof exe, "%s/drv", work_dir);
-  char *cc[] = {(char *)env_or("CC", "cc"), "-std=c99", "-pedantic", "-Wall", "-Wextra", "-Werror",
-                inc, dinc, csrc, drv, "-o", exe, "-lm", NULL};
-  r = run_argv(cc);
-  ck_assert_msg(r.status == 0, "%s", r.err);
-  run_free(&r);
-  char *run[] = {exe, NULL};
-  r = run_argv(run);
+  char *out = run_driver(example("cartesian_pendulum.eom"), "cartesian_pendulum", driver);
   int at_anchor = -1, regular = -1;
-  ck_assert_int_eq(sscanf(r.out, "%d %d", &at_anchor, &regular), 2);
+  ck_assert_int_eq(sscanf(out, "%d %d", &at_anchor, &regular), 2);
   ck_assert_int_ne(at_anchor, 0);
   ck_assert_int_eq(regular, 0);
-  run_free(&r);
-  free(drv);
+  free(out);
+}
+END_TEST
+
+/* Nearly dependent rows: a bead on the unit circle also held at y = 0.3.
+** Near x = 0 the circle's gradient (2x, 2y) lines up with (0, 1): the pivot
+** of G M^-1 G^T is x^2/(x^2 + y^2) of its diagonal (1e-15 at x = 1e-8), a
+** rounding-level rank loss that must be refused rather than solved into
+** multipliers of 1e15. */
+START_TEST(accel_constrained_nearly_dependent_rows) {
+  static const char model[] =
+    "coord x, y\n"
+    "param m = 1\n"
+    "kinetic m/2*(x'^2 + y'^2)\n"
+    "constraint x^2 + y^2 = 1\n"
+    "constraint y = 0.3\n"
+    "initial x = 0.95\ninitial y = 0.3\n";
+  char *path = write_file(work_dir, "pinned_bead.eom", model, strlen(model));
+  static const char driver[] =
+    "#include <stdio.h>\n#include \"pinned_bead.h\"\n"
+    "int main(void) {\n"
+    "  double p[1] = {1}, near[2] = {1e-8, 0.3}, fine[2] = {0.95, 0.3}, qd[2] = {0, 0};\n"
+    "  double qdd[2], lam[2];\n"
+    "  printf(\"%d %d\\n\", pinned_bead_accel_constrained(0, near, qd, NULL, p, qdd, lam),\n"
+    "         pinned_bead_accel_constrained(0, fine, qd, NULL, p, qdd, lam));\n"
+    "  return 0;\n}\n";
+  char *out = run_driver(path, "pinned_bead", driver);
+  int near = -1, fine = -1;
+  ck_assert_int_eq(sscanf(out, "%d %d", &near, &fine), 2);
+  ck_assert_int_eq(near, 2);
+  ck_assert_int_eq(fine, 0);
+  free(out);
+  free(path);
 }
 END_TEST
 
@@ -523,6 +566,7 @@ static Suite *constraints_suite(void) {
   tcase_add_test(tc, unreachable_constraint_reports_gauss_newton);
   tcase_add_test(tc, initial_fix_and_options);
   tcase_add_test(tc, accel_constrained_reports_rank_loss);
+  tcase_add_test(tc, accel_constrained_nearly_dependent_rows);
   suite_add_tcase(s, tc);
   return s;
 }
