@@ -48,13 +48,14 @@ def front_end(tmp):
 def ns_per_accel(tmp, cfile, prefix, nq):
     drv = os.path.join(tmp, "drv_%s.c" % prefix)
     with open(drv, "w") as f:
-        f.write("""#include <stdio.h>
+        f.write("""#define _POSIX_C_SOURCE 200809L
+#include <stdio.h>
 #include <time.h>
 #include "%(p)s.h"
 int main(void) {
   double q[%(n)d], qd[%(n)d], qdd[%(n)d], p[%(p)s_NP > 0 ? %(p)s_NP : 1], u[%(p)s_NU > 0 ? %(p)s_NU : 1];
   for (int i = 0; i < %(n)d; i++) { q[i] = 0.1 * i + 0.05; qd[i] = 0.2 - 0.03 * i; }
-  for (int i = 0; i < %(p)s_NP; i++) p[i] = %(p)s_model.param_defaults[i];
+  %(p)s_default_params(p);
   for (int i = 0; i < %(p)s_NU; i++) u[i] = 0.0;
   long iters = 200000 / (%(n)d * %(n)d) + 1000;
   double sink = 0;
