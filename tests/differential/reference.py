@@ -101,6 +101,7 @@ class Reference:
         self.T, self.V = T, V
         self.timed_energy = self.t in (T.free_symbols | V.free_symbols)
         self.M, self.f = self.euler_lagrange(T - V + Lx, D, Q)
+        self.control_pieces(T - V + Lx, D, Q)
         self.param_defaults = self.eval_defaults()
         self.outputs = [self.to_sympy(e) for _, e in m.outputs]
         self.q0 = [0.0] * n
@@ -151,6 +152,45 @@ class Reference:
                 w = vee(R.applyfunc(self.rate) * R.T)
                 Q = [Q[i] + (tau.T * w.diff(self.qd[i]))[0] for i in range(self.n)]
         return T, V, Q
+
+    def control_pieces(self, L, D, Q):
+        """Momenta dL/dq', the energy function h = q'.dL/dq' - L, g = dV/dq
+        with V = -L(q' = 0), the power balance dh/dt = q'.(Q - dD/dq') -
+        dL/dt (Goldstein et al. 2002, section 2.7, from memory), and
+        Q - dD/dq' - f, which C q' + g must equal when the split exists."""
+        n = self.n
+        self.timed_L = self.t in L.free_symbols
+        pm = [sympy.diff(L, self.qd[i]) for i in range(n)]
+        h = sum((self.qd[i] * pm[i] for i in range(n)), -L)
+        V = -L.subs({s: 0 for s in self.qd})
+        g = [sympy.diff(V, self.q[i]) for i in range(n)]
+        dD = [sympy.diff(D, self.qd[i]) for i in range(n)]
+        resid = [Q[i] - dD[i] - self.f[i] for i in range(n)]
+        power = sum((self.qd[i] * (Q[i] - dD[i]) for i in range(n)), -sympy.diff(L, self.t))
+        args = list(self.q) + list(self.qd) + [self.t] + list(self.u) + list(self.p)
+        self.fn_pm = sympy.lambdify(args, pm, modules="mpmath")
+        self.fn_h = sympy.lambdify(args, [h], modules="mpmath")
+        self.fn_g = sympy.lambdify(args, g, modules="mpmath")
+        self.fn_resid = sympy.lambdify(args, resid, modules="mpmath")
+        self.fn_power = sympy.lambdify(args, [power], modules="mpmath")
+
+    def christoffel(self, pt):
+        """C_kj = sum_i 1/2 (dM_kj/dq_i + dM_ki/dq_j - dM_ij/dq_k) q'_i
+        (Spong, Hutchinson, Vidyasagar, "Robot Modeling and Control", 2006,
+        section 7.3), with dM/dq by central differences at 40 digits."""
+        n, h = self.n, mpmath.mpf("1e-15")
+        dM = []
+        for i in range(n):
+            qp = [mpmath.mpf(x) for x in pt["q"]]
+            qm = list(qp)
+            qp[i] += h
+            qm[i] -= h
+            Mp = mpmath.matrix(self.fn_M(*self.args(pt, q=qp)))
+            Mm = mpmath.matrix(self.fn_M(*self.args(pt, q=qm)))
+            dM.append((Mp - Mm) / (2 * h))
+        qd = [mpmath.mpf(x) for x in pt["qd"]]
+        return [sum(((dM[i][k, j] + dM[j][k, i] - dM[k][i, j]) * qd[i] / 2 for i in range(n)), mpmath.mpf(0))
+                for k in range(n) for j in range(n)]
 
     def constraints(self, phi, args):
         """phi = lhs - rhs, G = dphi/dq, and gamma with G q'' = gamma from
@@ -344,6 +384,13 @@ class Reference:
                 "defaults": list(self.param_defaults),
                 "outputs": [float(y) for y in self.fn_y(*self.args(pt))],
                 "initial": list(self.q0) + list(self.qd0),
+                # P_momenta/P_hamiltonian have no t argument: NaN when L has t.
+                "momenta": None if self.timed_L else [float(v) for v in self.fn_pm(*self.args(pt))],
+                "hamiltonian": None if self.timed_L else [float(self.fn_h(*self.args(pt))[0])],
+                "split_g": [float(v) for v in self.fn_g(*self.args(pt))],
+                "split_C": [float(v) for v in self.christoffel(pt)],
+                "split_resid": [float(v) for v in self.fn_resid(*self.args(pt))],
+                "power": float(self.fn_power(*self.args(pt))[0]),
             })
 
 

@@ -44,7 +44,7 @@ import reference  # noqa: E402
 
 REL_TOL = 1e-10
 QUANTITIES = ["mass", "forcing", "accel", "energy", "inverse", "rhs", "jacA", "jacB", "defaults",
-              "outputs", "initial", "phi", "conjac", "accel_c", "lambda"]
+              "outputs", "initial", "phi", "conjac", "accel_c", "lambda", "momenta", "hamiltonian"]
 CFLAGS = ["-std=c99", "-pedantic", "-Wall", "-Wextra", "-Werror", "-O0"]
 
 
@@ -132,6 +132,30 @@ def driver_code(cases):
         out.append('    put("%s", k, "outputs", y, %d);' % (P, ny))
         out.append("    for (i = 0; i < %d; i++) { x0[i] = %s_model.q0[i]; x0[%d + i] = %s_model.qd0[i]; }"
                    % (n, P, n, P))
+        # The M/C/g split, momenta and energy function (docs/control.md).
+        out.append("#ifdef %s_HAS_SPLIT" % P)
+        out.append("    {")
+        out.append("      double pm[%d], hh[1];" % n)
+        out.append("      %s_momenta(q[k], qd[k], p[k], pm);" % P)
+        out.append('      put("%s", k, "momenta", pm, %d);' % (P, n))
+        out.append("      %s_hamiltonian(q[k], qd[k], p[k], hh);" % P)
+        out.append('      put("%s", k, "hamiltonian", hh, 1);' % P)
+        out.append('      printf("%s %%d conserved %%d\\n", k, (int)%s_ENERGY_CONSERVED);' % (P, P))
+        out.append("#if %s_HAS_SPLIT" % P)
+        out.append("      double C[%d], g[%d], Cqg[%d];" % (n * n, n, n))
+        out.append("      %s_coriolis(q[k], qd[k], p[k], C);" % P)
+        out.append('      put("%s", k, "split_C", C, %d);' % (P, n * n))
+        out.append("      %s_gravity(q[k], p[k], g);" % P)
+        out.append('      put("%s", k, "split_g", g, %d);' % (P, n))
+        out.append("      for (i = 0; i < %d; i++) {" % n)
+        out.append("        int j;")
+        out.append("        Cqg[i] = g[i];")
+        out.append("        for (j = 0; j < %d; j++) Cqg[i] += C[i * %d + j] * qd[k][j];" % (n, n))
+        out.append("      }")
+        out.append('      put("%s", k, "split_resid", Cqg, %d);' % (P, n))
+        out.append("#endif")
+        out.append("    }")
+        out.append("#endif")
         nc = sum(1 for i, term in enumerate(m.terms)
                  if term[0] == "constraint" and (c.keep is None or i in c.keep))
         if nc:
@@ -193,6 +217,20 @@ def compare(c, results):
         if "phi" in exp and got.get("accel_c_status") != [0.0]:
             return ("values", "point %d: P_accel_constrained returned %s for independent constraints"
                     % (k, got.get("accel_c_status")))
+        if "split_C" in got:
+            # eomc claims M q'' + C q' + g = Q - dD/dq': C, g and the identity.
+            for what in ("split_C", "split_g", "split_resid"):
+                bad = mismatch(exp[what], got[what])
+                if bad is not None:
+                    return ("values", "point %d: %s[%d] = %.17g, SymPy says %.17g (the M/C/g split)\n  at %s"
+                            % (k, what, bad, got[what][bad], exp[what][bad], point_text(c, k)))
+        if got.get("conserved") == [1.0] and "phi" not in exp:
+            # eomc claims the energy function is a constant of the motion:
+            # the power q'.(Q - dD/dq') - dL/dt must vanish.
+            scale = 1 + max(abs(v) for v in exp["forcing"] + exp["rhs"]) ** 2
+            if not abs(exp["power"]) <= 1e-9 * scale:
+                return ("values", "point %d: P_ENERGY_CONSERVED is 1 but dh/dt = %.6g\n  at %s"
+                        % (k, exp["power"], point_text(c, k)))
         for what in QUANTITIES:
             want = exp.get(what)
             if want is None:
@@ -206,6 +244,17 @@ def compare(c, results):
                 if not (abs(w - h) <= tol):   # also catches NaN
                     return ("values", "point %d: %s[%d] = %.17g, SymPy says %.17g (|diff| %.3g > tol %.3g)\n"
                             "  at %s" % (k, what, i, h, w, abs(w - h), tol, point_text(c, k)))
+    return None
+
+
+def mismatch(want, have):
+    """Index of the first entry outside tolerance, or None."""
+    if have is None or len(have) != len(want):
+        return 0
+    scale = max([abs(v) for v in want] + [0.0])
+    for i, (w, h) in enumerate(zip(want, have)):
+        if not (abs(w - h) <= REL_TOL * max(abs(w), scale) + 1e-15):
+            return i
     return None
 
 
