@@ -1144,10 +1144,7 @@ void Derivation::add_rotation(const Val &R, const Val &I) {
       wt[c].push_back(Wt[c]);
       w[c] = add(wt[c]);
     }
-    /* w' = vee(R^T R''): the other half of d/dt R^T R', R'^T R', is symmetric */
-    Val Rdd(3, 3);
-    for (int k = 0; k < 9; k++) Rdd.a[k] = totald(totald(R.a[k]));
-    vee(Rdd, wdot);
+    for (int c = 0; c < 3; c++) wdot[c] = totald(w[c]);
   }
   ex Iw[3];
   for (int r = 0; r < 3; r++) {

@@ -629,6 +629,81 @@ START_TEST(body_gimbal_rotation) {
 }
 END_TEST
 
+/* Bodies on chains of turns and shifts (rotx/rotz/dh and their products)
+** are derived through frames worked outward along the chain; the same
+** bodies written with literal matrices go through the entries of P and R.
+** Both are the Euler-Lagrange equations of one system (Kane and Levinson,
+** Dynamics: Theory and Applications, 1985, ch. 6: generalized inertia
+** forces equal Lagrange's form for holonomic coordinates), so M, f, T and
+** V must agree: a prismatic offset that is a coordinate (s), a turn driven
+** by time, a full inertia and gravity included. */
+START_TEST(body_chain_forms_agree) {
+  static const char common[] =
+    "coord a, s, b\n"
+    "param m1 = 1.2\n"
+    "param m2 = 0.7\n"
+    "param l = 0.4\n"
+    "param g = 9.81\n"
+    "param A = 0.03\n"
+    "param B = 0.05\n"
+    "param C = 0.04\n"
+    "input tau\n"
+    "force a = tau\n"
+    "gravity [0.3, -0.2, -g]\n"
+    "let I2 = [[A, 0.01, 0], [0.01, B, 0.02], [0, 0.02, C]]\n";
+  static const char chain[] =
+    "let T1 = dh(a, s, l, 0.7)\n"
+    "let T2 = T1*dh(b, 0.2, 0.1, -0.4)\n"
+    "let R3 = rotx(0.5*t)*rotz(b)\n"
+    "body one mass m1 at pos(T1) + rot(T1)*[0.05, -0.1, 0.02] orient rot(T1) inertia diag(A, B, C)\n"
+    "body two mass m2 at pos(T2) + rot(T2)*[0.1, 0.03, -0.05]*l orient rot(T2) inertia I2\n"
+    "body three mass m1 at R3*[0.2, 0.1, 0] orient R3 inertia diag(B, C, A)\n";
+  static const char literal[] =
+    "let H1 = [[cos(a), -sin(a)*cos(0.7), sin(a)*sin(0.7), l*cos(a)],\n"
+    "          [sin(a), cos(a)*cos(0.7), -cos(a)*sin(0.7), l*sin(a)],\n"
+    "          [0, sin(0.7), cos(0.7), s], [0, 0, 0, 1]]\n"
+    "let H2 = [[cos(b), -sin(b)*cos(-0.4), sin(b)*sin(-0.4), 0.1*cos(b)],\n"
+    "          [sin(b), cos(b)*cos(-0.4), -cos(b)*sin(-0.4), 0.1*sin(b)],\n"
+    "          [0, sin(-0.4), cos(-0.4), 0.2], [0, 0, 0, 1]]\n"
+    "let T1 = H1\n"
+    "let T2 = T1*H2\n"
+    "let P1 = [T1[1, 4], T1[2, 4], T1[3, 4]]\n"
+    "let P2 = [T2[1, 4], T2[2, 4], T2[3, 4]]\n"
+    "let Q1 = [[T1[1, 1], T1[1, 2], T1[1, 3]], [T1[2, 1], T1[2, 2], T1[2, 3]], [T1[3, 1], T1[3, 2], T1[3, 3]]]\n"
+    "let Q2 = [[T2[1, 1], T2[1, 2], T2[1, 3]], [T2[2, 1], T2[2, 2], T2[2, 3]], [T2[3, 1], T2[3, 2], T2[3, 3]]]\n"
+    "let X = [[1, 0, 0], [0, cos(0.5*t), -sin(0.5*t)], [0, sin(0.5*t), cos(0.5*t)]]\n"
+    "let Z = [[cos(b), -sin(b), 0], [sin(b), cos(b), 0], [0, 0, 1]]\n"
+    "let R3 = X*Z\n"
+    "body one mass m1 at P1 + Q1*[0.05, -0.1, 0.02] orient Q1 inertia diag(A, B, C)\n"
+    "body two mass m2 at P2 + Q2*[0.1, 0.03, -0.05]*l orient Q2 inertia I2\n"
+    "body three mass m1 at R3*[0.2, 0.1, 0] orient R3 inertia diag(B, C, A)\n";
+  char *text_a = malloc(sizeof common + sizeof chain), *text_b = malloc(sizeof common + sizeof literal);
+  sprintf(text_a, "%s%s", common, chain);
+  sprintf(text_b, "%s%s", common, literal);
+  Derived da, db;
+  derive_ok(&da, text_a);
+  derive_ok(&db, text_b);
+  ck_assert_int_eq(da.sys.nq, 3);
+  State s;
+  for (int trial = 0; trial < 12; trial++) {
+    random_state(&da, &s);
+    double Ma[9], fa[3], Mb[9], fb[3];
+    mass_forcing(&da, &s, Ma, fa);
+    mass_forcing(&db, &s, Mb, fb);
+    for (int k = 0; k < 9; k++) assert_close(Ma[k], Mb[k], 1e-12, "M");
+    for (int k = 0; k < 3; k++) assert_close(fa[k], fb[k], 1e-12, "f");
+    double *va = eval_graph(&da.sys.g, &s), *vb = eval_graph(&db.sys.g, &s);
+    assert_close(va[da.sys.energy_T], vb[db.sys.energy_T], 1e-12, "T");
+    assert_close(va[da.sys.energy_V], vb[db.sys.energy_V], 1e-12, "V");
+    for (int k = 0; k < 3; k++)
+      assert_close(va[da.sys.inverse[k]], vb[db.sys.inverse[k]], 1e-12, "inverse");
+    free(va), free(vb);
+  }
+  derived_free(&da), derived_free(&db);
+  free(text_a), free(text_b);
+}
+END_TEST
+
 /* Virtual work: a world force F at a point gives Q_i = F . dP/dq_i, a
 ** torque about z on a body turning about z gives Q = tau (common practice). */
 START_TEST(force_at_point_and_torque) {
@@ -1097,6 +1172,7 @@ Suite *symbolic_suite(void) {
   tcase_add_test(tc, body_point_pendulum);
   tcase_add_test(tc, body_physical_pendulum);
   tcase_add_test(tc, body_gimbal_rotation);
+  tcase_add_test(tc, body_chain_forms_agree);
   tcase_add_test(tc, force_at_point_and_torque);
   tcase_add_test(tc, holonomic_constraint);
   suite_add_tcase(s, tc);
