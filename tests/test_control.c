@@ -367,6 +367,10 @@ START_TEST(test_kepler_cyclic) {
   ck_assert_msg(!strstr(out, "momentum of r "), "%s", out);
   ck_assert_msg(strstr(out, "  energy function h = q'.dL/dq' - L\n"), "%s", out);
   free(out);
+  RunResult sr = run_eomc("show", path, NULL, NULL, NULL, NULL, NULL, NULL);
+  ck_assert_int_eq(sr.status, 0);
+  ck_assert_msg(strstr(sr.out, "  momentum of th (dL/dth'): th is cyclic\n"), "%s", sr.out);
+  run_free(&sr);
 
   /* the simulation reports the drift of both; tight tolerances keep it small */
   char *dir = make_temp_dir(), csv[4096];
