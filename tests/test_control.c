@@ -475,6 +475,57 @@ START_TEST(test_no_split_reported) {
 }
 END_TEST
 
+/* Momenta and energy function where there is no split: the puck in the
+** rotating frame, L = m ((x' - W y)^2 + (y' + W x)^2) / 2, has
+** p = m (x' - W y, y' + W x) and the Jacobi integral
+** h = m (x'^2 + y'^2) / 2 - m W^2 (x^2 + y^2) / 2 (Goldstein, Poole & Safko,
+** Classical Mechanics, 3rd ed., 2002, §2.7 and §4.10; worked out by hand). */
+static const char puck_driver[] =
+  "#include <stdio.h>\n#include \"puck.h\"\n"
+  "int main(void) {\n"
+  "  double p[puck_NP], q[2] = {0.3, -0.7}, qd[2] = {1.1, 0.4}, pm[2], h;\n"
+  "  puck_default_params(p);\n"
+  "  puck_momenta(q, qd, p, pm);\n"
+  "  puck_hamiltonian(q, qd, p, &h);\n"
+  "  printf(\"%.17g %.17g %.17g\\n\", pm[0], pm[1], h);\n"
+  "  return 0;\n}\n";
+
+START_TEST(test_momenta_without_split) {
+  static const char model[] =
+    "model puck\ncoord x\ncoord y\nparam m = 0.2\nparam W = 1.5\n"
+    "kinetic 1/2*m*((x' - W*y)^2 + (y' + W*x)^2)\n";
+  char *dir = make_temp_dir();
+  char *path = write_file(dir, "puck.eom", model, strlen(model));
+  RunResult r = run_eomc("gen", path, "-o", dir, NULL, NULL, NULL, NULL);
+  ck_assert_msg(r.status == 0, "%s", r.err);
+  run_free(&r);
+  char *drv = write_file(dir, "main.c", puck_driver, strlen(puck_driver));
+  size_t n = strlen(dir) + 64;
+  char *csrc = malloc(n), *dinc = malloc(n), *exe = malloc(n);
+  sprintf(csrc, "%s/puck.c", dir);
+  sprintf(dinc, "-I%s", dir);
+  sprintf(exe, "%s/main", dir);
+  char *argv[] = {(char *)cc(), "-std=c99", "-pedantic", "-Wall", "-Wextra", "-Werror",
+                  "-DEOM_NO_DESCRIPTOR", dinc, csrc, drv, "-o", exe, "-lm", NULL};
+  r = run_argv(argv);
+  ck_assert_msg(r.status == 0, "does not compile (%d): %s", r.status, r.err);
+  run_free(&r);
+  char *argv2[] = {exe, NULL};
+  r = run_argv(argv2);
+  ck_assert_int_eq(r.status, 0);
+  double px, py, h;
+  ck_assert_int_eq(sscanf(r.out, "%lf %lf %lf", &px, &py, &h), 3);
+  const double m = 0.2, W = 1.5, x = 0.3, y = -0.7, vx = 1.1, vy = 0.4;
+  ck_assert_msg(fabs(px - m * (vx - W * y)) < 1e-15, "p_x %.17g", px);
+  ck_assert_msg(fabs(py - m * (vy + W * x)) < 1e-15, "p_y %.17g", py);
+  double jacobi = m * (vx * vx + vy * vy) / 2 - m * W * W * (x * x + y * y) / 2;
+  ck_assert_msg(fabs(h - jacobi) < 1e-15, "h %.17g, Jacobi integral %.17g", h, jacobi);
+  run_free(&r);
+  remove_tree(dir);
+  free(dir), free(path), free(drv), free(csrc), free(dinc), free(exe);
+}
+END_TEST
+
 /* ------------------------------------------------------------------ regressor */
 
 /* Calls the generated regressor directly: prints Y pi + Q0 and P_inverse at
@@ -607,6 +658,7 @@ static Suite *control_suite(void) {
   tcase_add_test(tc, test_kepler_cyclic);
   tcase_add_test(tc, test_driven_not_conservative);
   tcase_add_test(tc, test_no_split_reported);
+  tcase_add_test(tc, test_momenta_without_split);
   tcase_add_test(tc, test_regressor_matches_inverse);
   tcase_add_test(tc, test_base_parameter_count);
   tcase_add_test(tc, test_regressor_nonlinear_error);
