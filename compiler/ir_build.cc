@@ -558,6 +558,11 @@ struct IrBuilder::Impl {
     }
     if (kind == NK_FUNCTION) {
       const std::string &name = ex_to<function>(e).get_name();
+      /* Every model quantity is real, but GiNaC cannot always prove it (abs(z)^2
+      ** of a z with a fractional power becomes z*conjugate(z)): for reals the
+      ** conjugate and the real part are the value itself, the imaginary part 0. */
+      if (name == "conjugate" || name == "real_part") return translate(e.op(0));
+      if (name == "imag_part") return num(0);
       for (const FnName &f : fn_names)
         if (name == f.ginac) {
           std::vector<int> args;
