@@ -333,27 +333,6 @@ static int put_var(Emitter *E, Buf *b, const IrNode *x) {
   return PREC_ATOM;
 }
 
-static const char *fn_c_name(IrFn fn) {
-  switch (fn) {
-  case IRF_SIN: return "sin";
-  case IRF_COS: return "cos";
-  case IRF_TAN: return "tan";
-  case IRF_ASIN: return "asin";
-  case IRF_ACOS: return "acos";
-  case IRF_ATAN: return "atan";
-  case IRF_ATAN2: return "atan2";
-  case IRF_EXP: return "exp";
-  case IRF_LOG: return "log";
-  case IRF_SQRT: return "sqrt";
-  case IRF_ABS: return "fabs";
-  case IRF_SINH: return "sinh";
-  case IRF_COSH: return "cosh";
-  case IRF_TANH: return "tanh";
-  case IRF_SIGN: return NULL;
-  }
-  return NULL;
-}
-
 /* base^k for 2 <= k <= MAX_POW_PRODUCT as k-1 multiplications (the base is a
 ** leaf or a temporary, or with --no-cse any expression, parenthesized). */
 static void put_repeat(Emitter *E, Buf *b, int base, int k) {
@@ -505,8 +484,7 @@ static int put_call(Emitter *E, Buf *b, const IrNode *x) {
     buf_put(b, " < 0.0))");
     return PREC_UNARY;
   }
-  const char *name = fn_c_name(x->fn);
-  assert(name);
+  const char *name = ir_fn_name(x->fn);   /* IRF_SIGN was written above */
   assert(x->nargs == (x->fn == IRF_ATAN2 ? 2 : 1));
   buf_put(b, name);
   buf_put(b, "(");
