@@ -283,8 +283,10 @@ double value_at(const ex &e, Subst &point) {
 struct Turn {
   int axis;
   ex angle;
-  bool shift = false;  /* a translation by s instead (steps of a 4x4 transform) */
+  bool shift;  /* a translation by s instead (steps of a 4x4 transform) */
   ex s[3];
+  Turn() : axis(0), shift(false) {}
+  Turn(int axis_, const ex &angle_) : axis(axis_), angle(angle_), shift(false) {}
 };
 
 /* A value of the model language: a rows x cols matrix, row-major;
@@ -794,7 +796,7 @@ Val Derivation::eval_list(const Expr *x) {
 
 static Val rotation(int axis, const ex &a) {
   Val r(3, 3);
-  r.turns = std::make_shared<std::vector<Turn>>(1, Turn{axis, a});
+  r.turns = std::make_shared<std::vector<Turn>>(1, Turn(axis, a));
   ex c = cos(a), s = sin(a);
   int i = (axis + 1) % 3, j = (axis + 2) % 3;  /* the plane rotated */
   r.at(axis, axis) = 1;
@@ -879,7 +881,7 @@ Val Derivation::eval_call(const Expr *x) {
       for (int j = 0; j < a.cols; j++) r.at(j, i) = a.at(i, j);
     if (a.turns && !a.placed && a.rows == 3 && a.cols == 3) { /* the inverse rotation */
       auto t = std::make_shared<std::vector<Turn>>();
-      for (auto it = a.turns->rbegin(); it != a.turns->rend(); ++it) t->push_back({it->axis, -it->angle});
+      for (auto it = a.turns->rbegin(); it != a.turns->rend(); ++it) t->push_back(Turn(it->axis, -it->angle));
       r.turns = t;
     }
     return r;
@@ -909,11 +911,11 @@ Val Derivation::eval_call(const Expr *x) {
     r.at(2, 1) = sa, r.at(2, 2) = ca, r.at(2, 3) = d;
     r.at(3, 3) = 1;
     auto steps = std::make_shared<std::vector<Turn>>();
-    steps->push_back(Turn{2, th});
-    Turn shift{0, 0};
+    steps->push_back(Turn(2, th));
+    Turn shift(0, 0);
     shift.shift = true, shift.s[0] = a, shift.s[1] = 0, shift.s[2] = d;
     steps->push_back(shift);
-    steps->push_back(Turn{0, al});
+    steps->push_back(Turn(0, al));
     r.turns = steps;
     return r;
   }
@@ -1361,7 +1363,7 @@ bool Derivation::point_matches(const Val &P) {
       for (int c = 0; c < 3; c++) v[c] = v[c] + it->s[c];
       continue;
     }
-    Turn fwd{it->axis, -it->angle};
+    Turn fwd(it->axis, -it->angle);
     turn_back(fwd, v);
   }
   for (int c = 0; c < 3; c++) {
@@ -1399,7 +1401,7 @@ bool Derivation::turns_match(const Val &R) {
     v[col] = 1;
     for (auto it = R.turns->rbegin(); it != R.turns->rend(); ++it) {
       if (it->shift) continue;
-      Turn back{it->axis, -it->angle};
+      Turn back(it->axis, -it->angle);
       turn_back(back, v);
     }
     for (int row = 0; row < 3; row++) {
