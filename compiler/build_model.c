@@ -128,15 +128,7 @@ static int generate(Frontend *fe, const char *path, const char *dir) {
   EomSystem sys;
   SymOptions so = {0, 0};
   char err[512], texthash[HASH_HEX_LEN + 1];
-  memset(&sys, 0, sizeof sys);
-  int printed = fe->diag.nmsgs;
-  int failed = sym_derive(&fe->model, &so, &fe->diag, &sys) != 0;
-  Diag tail = fe->diag;
-  tail.msgs += printed;
-  tail.nmsgs -= printed;
-  diag_print(&tail, stderr);
-  if (failed) {
-    if (tail.nmsgs == 0) fprintf(stderr, "eomc: error: %s: the derivation failed\n", path);
+  if (frontend_derive(fe, &so, &sys) != 0) {
     sym_free(&sys);
     return EXIT_MODEL;
   }
@@ -251,16 +243,8 @@ int build_model(const char *path, BuiltModel *out) {
   memset(out, 0, sizeof *out);
   if (!cc || !*cc) cc = "cc";
 
-  rc = frontend_load(&fe, path);
-  if (rc == 2) {
-    frontend_free(&fe);
-    return EXIT_USAGE;
-  }
-  diag_print(&fe.diag, stderr);
-  if (rc != 0) {
-    frontend_free(&fe);
-    return EXIT_MODEL;
-  }
+  rc = frontend_open(&fe, path);
+  if (rc != 0) return rc;
   rc = EXIT_RUN;
   root = build_cache_root();
   if (!root) {

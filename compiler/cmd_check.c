@@ -23,6 +23,7 @@ static const char check_usage[] =
   "(momenta of cyclic coordinates, the energy function).\n"
   "\n"
   "options:\n"
+  "  --no-derive  parse and check only: skip the derivation and its report\n"
   "  -h, --help   this text\n"
   "\n"
   "exit status: 0 the model is sound (warnings may be printed), 1 errors in\n"
@@ -135,13 +136,7 @@ static void print_summary(const Model *m, const char *path, FILE *out) {
 static int print_structure(Frontend *fe, FILE *out) {
   EomSystem sys;
   SymOptions so = {0, 0.0};
-  int printed = fe->diag.nmsgs;
-  memset(&sys, 0, sizeof sys);
-  int failed = sym_derive(&fe->model, &so, &fe->diag, &sys) != 0;
-  Diag tail = fe->diag;
-  tail.msgs += printed;
-  tail.nmsgs -= printed;
-  diag_print(&tail, stderr);
+  int failed = frontend_derive(fe, &so, &sys);
   if (failed) fputs("equations of motion: not derived (see the errors above)\n", out);
   else report_structure(&fe->model, &sys, out);
   sym_free(&sys);
@@ -150,10 +145,15 @@ static int print_structure(Frontend *fe, FILE *out) {
 
 int cmd_check(int argc, char **argv) {
   const char *path = NULL;
+  int derive = 1;
   for (int i = 1; i < argc; i++) {
     if (cmd_is_help(argv[i])) {
       fputs(check_usage, stdout);
       return 0;
+    }
+    if (strcmp(argv[i], "--no-derive") == 0) {
+      derive = 0;
+      continue;
     }
     if (argv[i][0] == '-' && argv[i][1] != '\0') {
       fprintf(stderr, "eomc check: unknown option '%s' (try 'eomc check --help')\n", argv[i]);
@@ -170,16 +170,10 @@ int cmd_check(int argc, char **argv) {
     return EXIT_USAGE;
   }
   Frontend fe;
-  int rc = frontend_load(&fe, path);
-  if (rc == 2) {
-    frontend_free(&fe);
-    return EXIT_USAGE;
-  }
-  diag_print(&fe.diag, stderr);
-  if (rc == 0) {
-    print_summary(&fe.model, path, stdout);
-    rc = print_structure(&fe, stdout);
-  }
+  int rc = frontend_open(&fe, path);
+  if (rc != 0) return rc;
+  print_summary(&fe.model, path, stdout);
+  if (derive) rc = print_structure(&fe, stdout) ? EXIT_MODEL : 0;
   frontend_free(&fe);
-  return rc == 0 ? 0 : EXIT_MODEL;
+  return rc;
 }

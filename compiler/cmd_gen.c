@@ -157,29 +157,12 @@ int cmd_gen(int argc, char **argv) {
   }
 
   Frontend fe;
-  rc = frontend_load(&fe, a.model);
-  if (rc == 2) {
-    frontend_free(&fe);
-    return EXIT_USAGE;
-  }
-  diag_print(&fe.diag, stderr);
-  if (rc != 0) {
-    frontend_free(&fe);
-    return EXIT_MODEL;
-  }
+  rc = frontend_open(&fe, a.model);
+  if (rc != 0) return rc;
 
   EomSystem sys;
   SymOptions so = {a.no_cse, a.max_seconds};
-  memset(&sys, 0, sizeof sys);
-  int printed = fe.diag.nmsgs;
-  int failed = sym_derive(&fe.model, &so, &fe.diag, &sys) != 0;
-  /* print only what the derivation added */
-  Diag tail = fe.diag;
-  tail.msgs += printed;
-  tail.nmsgs -= printed;
-  diag_print(&tail, stderr);
-  if (failed) {
-    if (tail.nmsgs == 0) fprintf(stderr, "eomc: error: %s: the derivation failed\n", a.model);
+  if (frontend_derive(&fe, &so, &sys) != 0) {
     sym_free(&sys);
     frontend_free(&fe);
     return EXIT_MODEL;

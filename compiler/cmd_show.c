@@ -50,27 +50,11 @@ int cmd_show(int argc, char **argv) {
   }
 
   Frontend fe;
-  int rc = frontend_load(&fe, model);
-  if (rc == 2) {
-    frontend_free(&fe);
-    return EXIT_USAGE;
-  }
-  diag_print(&fe.diag, stderr);
-  if (rc != 0) {
-    frontend_free(&fe);
-    return EXIT_MODEL;
-  }
+  int rc = frontend_open(&fe, model);
+  if (rc != 0) return rc;
   EomSystem sys;
   SymOptions so = {no_cse, 0.0};
-  memset(&sys, 0, sizeof sys);
-  int printed = fe.diag.nmsgs;
-  int failed = sym_derive(&fe.model, &so, &fe.diag, &sys) != 0;
-  Diag tail = fe.diag;
-  tail.msgs += printed;
-  tail.nmsgs -= printed;
-  diag_print(&tail, stderr);
-  if (failed) {
-    if (tail.nmsgs == 0) fprintf(stderr, "eomc: error: %s: the derivation failed\n", model);
+  if (frontend_derive(&fe, &so, &sys) != 0) {
     rc = EXIT_MODEL;
   } else {
     printf(latex ? "%% model %s\n" : "model %s\n\n", fe.model.name);

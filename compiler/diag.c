@@ -107,8 +107,13 @@ static void print_source(const Diag *d, SrcLoc loc, FILE *out) {
 }
 
 void diag_print(const Diag *d, FILE *out) {
+  diag_print_from(d, 0, out);
+}
+
+void diag_print_from(const Diag *d, int first, FILE *out) {
   static const char *const names[] = {"error", "warning", "note"};
-  for (int i = 0; i < d->nmsgs; i++) {
+  assert(first >= 0);
+  for (int i = first; i < d->nmsgs; i++) {
     const DiagMsg *m = &d->msgs[i];
     assert(m->level <= DIAG_NOTE);
     if (m->loc.line > 0)

@@ -54,5 +54,7 @@ void diag_vreport(Diag *d, DiagLevel level, SrcLoc loc, const char *fmt, va_list
 
 /* Print every message in the order reported, each with its source line and caret. */
 void diag_print(const Diag *d, FILE *out);
+/* The same for the messages from index `first` on (those not printed yet). */
+void diag_print_from(const Diag *d, int first, FILE *out);
 
 #endif

@@ -5,6 +5,7 @@
 
 #include <stdio.h>
 #include <string.h>
+#include "cmd.h"
 #include "parse.h"
 
 int frontend_load(Frontend *fe, const char *path) {
@@ -26,4 +27,21 @@ void frontend_free(Frontend *fe) {
   diag_free(&fe->diag);
   source_free(&fe->src);
   memset(fe, 0, sizeof *fe);
+}
+
+int frontend_open(Frontend *fe, const char *path) {
+  int rc = frontend_load(fe, path);
+  if (rc != 2) diag_print(&fe->diag, stderr);
+  if (rc != 0) frontend_free(fe);
+  return rc == 0 ? 0 : rc == 2 ? EXIT_USAGE : EXIT_MODEL;
+}
+
+int frontend_derive(Frontend *fe, const SymOptions *so, EomSystem *sys) {
+  int printed = fe->diag.nmsgs;
+  memset(sys, 0, sizeof *sys);
+  int failed = sym_derive(&fe->model, so, &fe->diag, sys) != 0;
+  diag_print_from(&fe->diag, printed, stderr);
+  if (failed && fe->diag.nmsgs == printed)
+    fprintf(stderr, "eomc: error: %s: the derivation failed\n", fe->src.path);
+  return failed;
 }

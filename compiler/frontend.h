@@ -11,6 +11,7 @@
 #include "check.h"
 #include "diag.h"
 #include "source.h"
+#include "symbolic.h"
 
 typedef struct Frontend {
   Source src;
@@ -23,5 +24,16 @@ typedef struct Frontend {
 ** fe->diag, not yet printed); 2 when the file cannot be read (message printed). */
 int frontend_load(Frontend *fe, const char *path);
 void frontend_free(Frontend *fe);
+
+/* frontend_load() for a command: print the diagnostics and map the result to
+** an exit status: 0, EXIT_MODEL or EXIT_USAGE (cmd.h).  On nonzero the
+** Frontend is already freed. */
+int frontend_open(Frontend *fe, const char *path);
+
+/* Derive the equations of motion of a loaded model into `sys` (zeroed first)
+** and print the diagnostics the derivation added.  Returns 0, or nonzero when
+** the derivation failed (a message was printed); free `sys` with sym_free()
+** either way. */
+int frontend_derive(Frontend *fe, const SymOptions *so, EomSystem *sys);
 
 #endif
