@@ -398,7 +398,7 @@ START_TEST(torque_free_precession) {
                   wd[1], W * w[0]);
     ck_assert_msg(fabs(wd[2]) < 1e-10 * scale, "state %d: w3' = %.3g", k, wd[2]);
   }
-  double x[6];
+  double x[7];  /* the status, then the state */
   ck_assert_int_eq(line_numbers(out, 20, x, 6 + 1), 7);
   double w0[3], w1[3];
   body_omega(x0, x0 + 3, NULL, w0, NULL);
