@@ -243,7 +243,7 @@ int build_model(const char *path, BuiltModel *out) {
   memset(out, 0, sizeof *out);
   if (!cc || !*cc) cc = "cc";
 
-  rc = frontend_open(&fe, path);
+  rc = frontend_open(&fe, path, 0);
   if (rc != 0) return rc;
   rc = EXIT_RUN;
   root = build_cache_root();

@@ -170,7 +170,7 @@ int cmd_check(int argc, char **argv) {
     return EXIT_USAGE;
   }
   Frontend fe;
-  int rc = frontend_open(&fe, path);
+  int rc = frontend_open(&fe, path, 0);
   if (rc != 0) return rc;
   print_summary(&fe.model, path, stdout);
   if (derive) rc = print_structure(&fe, stdout) ? EXIT_MODEL : 0;

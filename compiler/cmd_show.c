@@ -50,7 +50,7 @@ int cmd_show(int argc, char **argv) {
   }
 
   Frontend fe;
-  int rc = frontend_open(&fe, model);
+  int rc = frontend_open(&fe, model, 0);
   if (rc != 0) return rc;
   EomSystem sys;
   SymOptions so = {no_cse, 0.0};

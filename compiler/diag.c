@@ -116,6 +116,7 @@ void diag_print_from(const Diag *d, int first, FILE *out) {
   for (int i = first; i < d->nmsgs; i++) {
     const DiagMsg *m = &d->msgs[i];
     assert(m->level <= DIAG_NOTE);
+    if (d->errors_only && m->level != DIAG_ERROR) continue;
     if (m->loc.line > 0)
       fprintf(out, "%s:%d:%d: %s: %s\n", d->path, m->loc.line, m->loc.col, names[m->level], m->text);
     else

@@ -33,6 +33,7 @@ typedef struct Diag {
   int nmsgs, cap;
   int nerrors, nwarnings;
   int last_error_line;   /* for suppression of follow-on errors */
+  int errors_only;       /* diag_print() leaves out warnings and notes (--quiet) */
 } Diag;
 
 /* Most errors kept before the rest are summarised in one line. */

@@ -29,8 +29,9 @@ void frontend_free(Frontend *fe) {
   memset(fe, 0, sizeof *fe);
 }
 
-int frontend_open(Frontend *fe, const char *path) {
+int frontend_open(Frontend *fe, const char *path, int quiet) {
   int rc = frontend_load(fe, path);
+  fe->diag.errors_only = quiet;
   if (rc != 2) diag_print(&fe->diag, stderr);
   if (rc != 0) frontend_free(fe);
   return rc == 0 ? 0 : rc == 2 ? EXIT_USAGE : EXIT_MODEL;

@@ -25,10 +25,11 @@ typedef struct Frontend {
 int frontend_load(Frontend *fe, const char *path);
 void frontend_free(Frontend *fe);
 
-/* frontend_load() for a command: print the diagnostics and map the result to
+/* frontend_load() for a command: print the diagnostics (errors only when
+** `quiet`, which then holds for later prints too) and map the result to
 ** an exit status: 0, EXIT_MODEL or EXIT_USAGE (cmd.h).  On nonzero the
 ** Frontend is already freed. */
-int frontend_open(Frontend *fe, const char *path);
+int frontend_open(Frontend *fe, const char *path, int quiet);
 
 /* Derive the equations of motion of a loaded model into `sys` (zeroed first)
 ** and print the diagnostics the derivation added.  Returns 0, or nonzero when

@@ -2,7 +2,7 @@
 ** test_cli.c — end-to-end tests of the eomc command line: exit statuses,
 ** hostile input, and the catalogue of malformed models in tests/bad/.
 **
-** Each tests/bad/*.eom starts with `# expect: LINE:COL: SUBSTRING`: the
+** Each model in tests/bad/ starts with `# expect: LINE:COL: SUBSTRING`: the
 ** position and a piece of the message of the first error eomc must print.
 */
 #include <check.h>
@@ -225,6 +225,64 @@ START_TEST(examples_check_clean) {
 }
 END_TEST
 
+/* Several models in one `eomc gen`, one depfile for all; --quiet and --verbose. */
+START_TEST(gen_several_models) {
+  char *dir = make_temp_dir();
+  char a[4096], b[4096], dep[4200];
+  snprintf(a, sizeof a, "%s/examples/seat_rig.eom", srcdir());
+  snprintf(b, sizeof b, "%s/examples/gantry_crane.eom", srcdir());
+  snprintf(dep, sizeof dep, "%s/all.d", dir);
+  char *argv[] = {(char *)eomc(), "gen", a, b, "-o", dir, "--depfile", dep, "--verbose", NULL};
+  RunResult r = run_argv(argv);
+  ck_assert_msg(r.status == 0, "status %d: %s", r.status, r.err);
+  ck_assert_ptr_nonnull(strstr(r.err, "seat_rig.h and"));
+  ck_assert_ptr_nonnull(strstr(r.err, "gantry_crane.h and"));
+  run_free(&r);
+  const char *files[] = {"seat_rig.h", "seat_rig.c", "gantry_crane.h", "gantry_crane.c"};
+  char *rule = read_file(dep, NULL);
+  ck_assert_ptr_nonnull(rule);
+  for (int i = 0; i < 4; i++) {
+    char path[4200];
+    snprintf(path, sizeof path, "%s/%s", dir, files[i]);
+    char *text = read_file(path, NULL);
+    ck_assert_msg(text != NULL, "%s not written", files[i]);
+    ck_assert_ptr_nonnull(strstr(rule, path));
+    free(text);
+  }
+  ck_assert_ptr_nonnull(strstr(rule, a));
+  ck_assert_ptr_nonnull(strstr(rule, b));
+  free(rule);
+
+  /* --prefix names one model's symbols; quiet and verbose exclude each other. */
+  char *prefixed[] = {(char *)eomc(), "gen", a, b, "-o", dir, "--prefix", "x", NULL};
+  r = run_argv(prefixed);
+  ck_assert_int_eq(r.status, 2);
+  ck_assert_ptr_nonnull(strstr(r.err, "--prefix"));
+  run_free(&r);
+  char *both[] = {(char *)eomc(), "gen", a, "-q", "-v", "-o", dir, NULL};
+  r = run_argv(both);
+  ck_assert_int_eq(r.status, 2);
+  run_free(&r);
+
+  /* --quiet leaves out the warning an unused param gives; errors still show. */
+  const char *text = "coord x\nparam k = 2\nkinetic x'^2/2\n";
+  char *m = write_file(dir, "unused.eom", text, strlen(text));
+  char *loud[] = {(char *)eomc(), "gen", m, "-o", dir, NULL};
+  r = run_argv(loud);
+  ck_assert_int_eq(r.status, 0);
+  ck_assert_ptr_nonnull(strstr(r.err, "warning"));
+  run_free(&r);
+  char *quiet[] = {(char *)eomc(), "gen", m, "-o", dir, "--quiet", NULL};
+  r = run_argv(quiet);
+  ck_assert_int_eq(r.status, 0);
+  ck_assert_str_eq(r.err, "");
+  run_free(&r);
+  free(m);
+  remove_tree(dir);
+  free(dir);
+}
+END_TEST
+
 int main(void) {
   Suite *s = suite_create("cli");
   TCase *tc = tcase_create("usage");
@@ -244,6 +302,7 @@ int main(void) {
   tcase_set_timeout(tc, 120);
   tcase_add_test(tc, bad_catalogue);
   tcase_add_test(tc, examples_check_clean);
+  tcase_add_test(tc, gen_several_models);
   suite_add_tcase(s, tc);
   SRunner *sr = srunner_create(s);
   srunner_run_all(sr, CK_NORMAL);

@@ -774,7 +774,7 @@ START_TEST(test_usage_errors) {
     {{"gen", model, "--frobnicate", NULL}, "unknown option"},
     {{"gen", model, "--max-seconds", "soon", NULL}, "positive number"},
     {{"gen", model, "-o", NULL}, "needs a value"},
-    {{"gen", model, model, NULL}, "more than one model"},
+    {{"gen", model, model, NULL}, "given more than once"},
     {{"gen", "/no/such/model.eom", NULL}, "model.eom"},
     {{"show", NULL}, "no model"},
     {{"show", model, "--bogus", NULL}, "unknown option"},
