@@ -15,6 +15,11 @@
 ** neither), outputs and constraints.  Everything is handed to ir_build.cc
 ** as the roots of one IrGraph.
 **
+** Rigid bodies placed on chains of rotx/roty/rotz/dh transforms skip the
+** Lagrangian: their generalized inertia forces come from frames worked
+** outward along the chain, as in recursive Newton-Euler (finish_placed);
+** other bodies go through the Lagrangian with their rates as atoms.
+**
 ** Speed comes from never expanding (products of sums stay as they are) and
 ** from differentiating with a memo per variable: GiNaC shares subtrees, and
 ** its own ex::diff walks a shared subtree once per path to it, while the
