@@ -17,6 +17,7 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <sys/resource.h>
 #include <time.h>
 #include "cmd.h"
 #include "conserved_report.h"
@@ -40,6 +41,7 @@ static const char gen_usage[] =
   "  --prefix NAME     C prefix of every generated symbol and file (a C identifier)\n"
   "  --no-cse          no common-subexpression elimination (for comparisons)\n"
   "  --max-seconds S   give up when the derivation takes longer than S seconds\n"
+  "  --max-memory MB   give up when the derivation needs more than MB megabytes\n"
   "  --depfile FILE    also write a Make-syntax rule: DIR/P.h DIR/P.c: MODEL.eom\n"
   "                    (with several models: every output depends on every model)\n"
   "  -q, --quiet       print errors only (no warnings or notes)\n"
@@ -66,6 +68,7 @@ typedef struct GenArgs {
   const char *dir, *prefix, *depfile;
   int no_cse, quiet, verbose;
   double max_seconds;
+  double max_memory;     /* MB of address space during the derivation; 0: no limit */
 } GenArgs;
 
 /* Options may come before or after the model; `--opt=value` works too. */
@@ -104,6 +107,7 @@ static int parse_args(int argc, char **argv, GenArgs *a, int *help) {
     }
     int takes = strcmp(name, "-o") == 0 || strcmp(name, "--output") == 0 ||
                 strcmp(name, "--prefix") == 0 || strcmp(name, "--max-seconds") == 0 ||
+                strcmp(name, "--max-memory") == 0 ||
                 strcmp(name, "--depfile") == 0;
     if (!takes) return usage_error("unknown option '%s'", arg);
     if (!val) {
@@ -119,6 +123,12 @@ static int parse_args(int argc, char **argv, GenArgs *a, int *help) {
       if (!is_identifier(val) || strlen(val) > 200)
         return usage_error("--prefix '%s' is not a C identifier (letters, digits, _; not a digit first)", val);
       a->prefix = val;
+    } else if (strcmp(name, "--max-memory") == 0) {
+      char *end;
+      errno = 0;
+      a->max_memory = strtod(val, &end);
+      if (end == val || *end || errno || !(a->max_memory >= 1) || a->max_memory > 1e9)
+        return usage_error("--max-memory '%s' is not a number of megabytes (at least 1)", val);
     } else if (strcmp(name, "--max-seconds") == 0) {
       char *end;
       errno = 0;
@@ -195,7 +205,22 @@ static int gen_one(const GenArgs *a, int i, char **names) {
 
   EomSystem sys;
   SymOptions so = {a->no_cse, a->max_seconds};
-  if (frontend_derive(&fe, &so, &sys) != 0) {
+  /* The limit covers the derivation only: the front end and the emitter
+  ** need little, and the symbolic core turns a failed allocation into an
+  ** error instead of a crash. */
+  struct rlimit old;
+  int limited = a->max_memory > 0 && getrlimit(RLIMIT_AS, &old) == 0;
+  if (limited) {
+    struct rlimit lim = old;
+    rlim_t want = (rlim_t)(a->max_memory * 1048576.0);
+    if (old.rlim_max == RLIM_INFINITY || want < old.rlim_max) lim.rlim_cur = want;
+    limited = setrlimit(RLIMIT_AS, &lim) == 0;
+  }
+  int failed = frontend_derive(&fe, &so, &sys);
+  if (limited) setrlimit(RLIMIT_AS, &old);
+  if (failed && limited)
+    fprintf(stderr, "eomc: note: the derivation ran with --max-memory %g MB\n", a->max_memory);
+  if (failed) {
     sym_free(&sys);
     frontend_free(&fe);
     return EXIT_MODEL;

@@ -283,6 +283,44 @@ START_TEST(gen_several_models) {
 }
 END_TEST
 
+/* --max-memory stops a derivation cleanly.  Skipped under AddressSanitizer,
+** whose own allocator cannot live under an address-space limit. */
+START_TEST(gen_memory_limit) {
+#if defined(__SANITIZE_ADDRESS__)
+  return;
+#endif
+  char *dir = make_temp_dir();
+  /* A 24-link chain needs well over 10 MB to derive. */
+  size_t cap = 1 << 16, len = 0;
+  char *text = malloc(cap);
+  len += (size_t)snprintf(text, cap, "coord q1");
+  for (int i = 2; i <= 24; i++) len += (size_t)snprintf(text + len, cap - len, ", q%d", i);
+  len += (size_t)snprintf(text + len, cap - len, "\nparam l = 0.4\nlet x0 = 0\nlet y0 = 0\n");
+  for (int i = 1; i <= 24; i++)
+    len += (size_t)snprintf(text + len, cap - len,
+                            "let x%d = x%d + l*sin(q%d)\nlet y%d = y%d - l*cos(q%d)\n"
+                            "kinetic (x%d'^2 + y%d'^2)/2\npotential 9.81*y%d\n",
+                            i, i - 1, i, i, i - 1, i, i, i, i);
+  char *model = write_file(dir, "chain.eom", text, len);
+  char *argv[] = {(char *)eomc(), "gen", model, "-o", dir, "--max-memory", "10", NULL};
+  RunResult r = run_argv(argv);
+  ck_assert_msg(r.status == 1, "status %d: %s", r.status, r.err);
+  ck_assert_ptr_nonnull(strstr(r.err, "--max-memory 10 MB"));
+  run_free(&r);
+  char out[4200];
+  snprintf(out, sizeof out, "%s/chain.c", dir);
+  ck_assert_ptr_null(read_file(out, NULL));
+  char *bad[] = {(char *)eomc(), "gen", model, "-o", dir, "--max-memory", "lots", NULL};
+  r = run_argv(bad);
+  ck_assert_int_eq(r.status, 2);
+  run_free(&r);
+  free(model);
+  free(text);
+  remove_tree(dir);
+  free(dir);
+}
+END_TEST
+
 int main(void) {
   Suite *s = suite_create("cli");
   TCase *tc = tcase_create("usage");
@@ -303,6 +341,7 @@ int main(void) {
   tcase_add_test(tc, bad_catalogue);
   tcase_add_test(tc, examples_check_clean);
   tcase_add_test(tc, gen_several_models);
+  tcase_add_test(tc, gen_memory_limit);
   suite_add_tcase(s, tc);
   SRunner *sr = srunner_create(s);
   srunner_run_all(sr, CK_NORMAL);
