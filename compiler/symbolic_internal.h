@@ -56,7 +56,8 @@ struct PairAccess : GiNaC::expairseq {
 enum NodeKind { NK_NUMERIC, NK_SYMBOL, NK_CONSTANT, NK_ADD, NK_MUL, NK_POWER, NK_FUNCTION, NK_OTHER };
 
 inline NodeKind node_kind(const GiNaC::ex &e) {
-  const std::type_info &t = typeid(GiNaC::ex_to<GiNaC::basic>(e));
+  const GiNaC::basic &b = GiNaC::ex_to<GiNaC::basic>(e);
+  const std::type_info &t = typeid(b);
   if (&t == &typeid(GiNaC::mul)) return NK_MUL;
   if (&t == &typeid(GiNaC::add)) return NK_ADD;
   if (&t == &typeid(GiNaC::power)) return NK_POWER;
