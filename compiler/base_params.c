@@ -14,49 +14,6 @@
 ** of its own size is dependent. */
 #define DEPENDENCE_TOL 1e-8
 
-static double call(IrFn fn, const double *a) {
-  switch (fn) {
-  case IRF_SIN: return sin(a[0]);
-  case IRF_COS: return cos(a[0]);
-  case IRF_TAN: return tan(a[0]);
-  case IRF_ASIN: return asin(a[0]);
-  case IRF_ACOS: return acos(a[0]);
-  case IRF_ATAN: return atan(a[0]);
-  case IRF_ATAN2: return atan2(a[0], a[1]);
-  case IRF_EXP: return exp(a[0]);
-  case IRF_LOG: return log(a[0]);
-  case IRF_SQRT: return sqrt(a[0]);
-  case IRF_ABS: return fabs(a[0]);
-  case IRF_SINH: return sinh(a[0]);
-  case IRF_COSH: return cosh(a[0]);
-  case IRF_TANH: return tanh(a[0]);
-  case IRF_SIGN: return (double)((a[0] > 0) - (a[0] < 0));
-  }
-  return NAN;
-}
-
-/* Value of every node of the graph for the variables vals[IrVar]. */
-static void eval_nodes(const IrGraph *g, double *const vals[6], double *v) {
-  for (int n = 0; n < g->nnodes; n++) {
-    const IrNode *x = &g->nodes[n];
-    double a[2] = {0, 0}, r = NAN;
-    switch (x->op) {
-    case IR_NUM: r = x->num; break;
-    case IR_VAR: r = vals[x->var][x->var == IRV_T ? 0 : x->index]; break;
-    case IR_ADD: r = 0; for (int i = 0; i < x->nargs; i++) r += v[x->args[i]]; break;
-    case IR_MUL: r = 1; for (int i = 0; i < x->nargs; i++) r *= v[x->args[i]]; break;
-    case IR_NEG: r = -v[x->args[0]]; break;
-    case IR_DIV: r = v[x->args[0]] / v[x->args[1]]; break;
-    case IR_POW: r = pow(v[x->args[0]], v[x->args[1]]); break;
-    case IR_CALL:
-      for (int i = 0; i < x->nargs && i < 2; i++) a[i] = v[x->args[i]];
-      r = call(x->fn, a);
-      break;
-    default: break;
-    }
-    v[n] = r;
-  }
-}
 
 static double uniform(unsigned long long *s) {  /* in [-1, 1), fixed sequence */
   *s = *s * 6364136223846793005ULL + 1442695040888963407ULL;
@@ -70,7 +27,7 @@ static int sample_regressor(const Model *m, const EomSystem *s, int rows, double
                *qdd = calloc((size_t)nq, sizeof *qdd), *u = calloc((size_t)s->nu + 1, sizeof *u),
                *p = calloc((size_t)s->np + 1, sizeof *p),
                *v = calloc((size_t)s->g.nnodes + 1, sizeof *v);
-  double *const vals[6] = {t, q, qd, qdd, u, p};
+  const double *const vals[6] = {t, q, qd, qdd, u, p};
   unsigned long long seed = 0x5851f42d4c957f2dULL;
   int ok = q && qd && qdd && u && p && v;
   for (int i = 0; ok && i < s->np; i++) p[i] = m->params[i]->number;
@@ -81,7 +38,7 @@ static int sample_regressor(const Model *m, const EomSystem *s, int rows, double
       qd[i] = 2.0 * uniform(&seed);
       qdd[i] = 2.0 * uniform(&seed);
     }
-    eval_nodes(&s->g, vals, v);
+    ir_eval(&s->g, s->g.nnodes - 1, vals, v);
     for (int i = 0; i < nq; i++)
       for (int k = 0; k < ni; k++) W[(size_t)k * rows + r0 + i] = v[s->regressor[i * ni + k]];
   }

@@ -35,54 +35,6 @@
 ** fraction of the dependent row's size. */
 #define INVOLVED_REL 1e-8
 
-static double call_value(IrFn fn, const double *a) {
-  switch (fn) {
-  case IRF_SIN: return sin(a[0]);
-  case IRF_COS: return cos(a[0]);
-  case IRF_TAN: return tan(a[0]);
-  case IRF_ASIN: return asin(a[0]);
-  case IRF_ACOS: return acos(a[0]);
-  case IRF_ATAN: return atan(a[0]);
-  case IRF_ATAN2: return atan2(a[0], a[1]);
-  case IRF_EXP: return exp(a[0]);
-  case IRF_LOG: return log(a[0]);
-  case IRF_SQRT: return sqrt(a[0]);
-  case IRF_ABS: return fabs(a[0]);
-  case IRF_SINH: return sinh(a[0]);
-  case IRF_COSH: return cosh(a[0]);
-  case IRF_TANH: return tanh(a[0]);
-  case IRF_SIGN: return (double)((a[0] > 0) - (a[0] < 0));
-  }
-  return NAN;
-}
-
-/* Values of nodes 0..hi of g; vars[IrVar] gives each variable array (t at [0]). */
-static void eval_nodes(const IrGraph *g, int hi, const double *const vars[6], double *v) {
-  for (int n = 0; n <= hi; n++) {
-    const IrNode *x = &g->nodes[n];
-    double a[2] = {0, 0}, r = NAN;
-    switch (x->op) {
-    case IR_NUM: r = x->num; break;
-    case IR_VAR: r = vars[x->var][x->var == IRV_T ? 0 : x->index]; break;
-    case IR_ADD:
-      r = 0;
-      for (int i = 0; i < x->nargs; i++) r += v[x->args[i]];
-      break;
-    case IR_MUL:
-      r = 1;
-      for (int i = 0; i < x->nargs; i++) r *= v[x->args[i]];
-      break;
-    case IR_NEG: r = -v[x->args[0]]; break;
-    case IR_DIV: r = v[x->args[0]] / v[x->args[1]]; break;
-    case IR_POW: r = pow(v[x->args[0]], v[x->args[1]]); break;
-    case IR_CALL:
-      for (int i = 0; i < x->nargs && i < 2; i++) a[i] = v[x->args[i]];
-      r = call_value(x->fn, a);
-      break;
-    }
-    v[n] = r;
-  }
-}
 
 /* The constraint statement of each equation (vector constraints give several). */
 static void equation_statements(const Model *m, int nc, const Stmt **of) {
@@ -122,7 +74,7 @@ typedef struct Eval {
 /* phi and G at e->q. */
 static void eval_at(Eval *e, double *phi, double *G) {
   const EomSystem *s = e->s;
-  eval_nodes(&s->g, e->hi, e->vars, e->v);
+  ir_eval(&s->g, e->hi, e->vars, e->v);
   for (int k = 0; k < s->nc; k++) phi[k] = e->v[s->constraint[k]];
   for (int i = 0; i < s->nc * s->nq; i++) G[i] = e->v[s->constraint_jacobian[i]];
 }

@@ -704,50 +704,6 @@ static const Param P_P = {IRV_P, "const double *p", "p"};
 
 /* ------------------------------------------------------------------ numeric independence */
 
-static double eval_call(IrFn fn, const double *a) {
-  switch (fn) {
-  case IRF_SIN: return sin(a[0]);
-  case IRF_COS: return cos(a[0]);
-  case IRF_TAN: return tan(a[0]);
-  case IRF_ASIN: return asin(a[0]);
-  case IRF_ACOS: return acos(a[0]);
-  case IRF_ATAN: return atan(a[0]);
-  case IRF_ATAN2: return atan2(a[0], a[1]);
-  case IRF_EXP: return exp(a[0]);
-  case IRF_LOG: return log(a[0]);
-  case IRF_SQRT: return sqrt(a[0]);
-  case IRF_ABS: return fabs(a[0]);
-  case IRF_SINH: return sinh(a[0]);
-  case IRF_COSH: return cosh(a[0]);
-  case IRF_TANH: return tanh(a[0]);
-  case IRF_SIGN: return (double)((a[0] > 0) - (a[0] < 0));
-  }
-  return NAN;
-}
-
-/* Value of every node 0..hi for the variable values vals[IrVar]. */
-static void eval_graph(const Emitter *E, int hi, double *const vals[6], double *v) {
-  for (int n = 0; n <= hi; n++) {
-    const IrNode *x = &E->g->nodes[n];
-    double a[2] = {0, 0}, r;
-    switch (x->op) {
-    case IR_NUM: r = x->num; break;
-    case IR_VAR: r = vals[x->var][x->var == IRV_T ? 0 : x->index]; break;
-    case IR_ADD: r = 0; for (int i = 0; i < x->nargs; i++) r += v[x->args[i]]; break;
-    case IR_MUL: r = 1; for (int i = 0; i < x->nargs; i++) r *= v[x->args[i]]; break;
-    case IR_NEG: r = -v[x->args[0]]; break;
-    case IR_DIV: r = v[x->args[0]] / v[x->args[1]]; break;
-    case IR_POW: r = pow(v[x->args[0]], v[x->args[1]]); break;
-    case IR_CALL:
-      for (int i = 0; i < x->nargs && i < 2; i++) a[i] = v[x->args[i]];
-      r = eval_call(x->fn, a);
-      break;
-    default: r = NAN; break;
-    }
-    v[n] = r;
-  }
-}
-
 static double lcg_uniform(unsigned long *s) {   /* in [-1, 1), deterministic */
   *s = (*s * 6364136223846793005UL + 1442695040888963407UL) & 0xffffffffffffUL;
   return (double)(*s >> 16) / 16777216.0 * 2.0 - 1.0;
@@ -766,7 +722,7 @@ static int independent_of(const Emitter *E, unsigned vars) {
          *qdd = calloc((size_t)s->nq + 1, sizeof(double)), *u = calloc((size_t)s->nu + 1, sizeof(double)),
          *p = calloc((size_t)s->np + 1, sizeof(double)), *v0 = malloc(((size_t)hi + 1) * sizeof(double)),
          *v1 = malloc(((size_t)hi + 1) * sizeof(double));
-  double *const vals[6] = {t, q, qd, qdd, u, p};
+  const double *const vals[6] = {t, q, qd, qdd, u, p};
   assert(q && qd && qdd && u && p && v0 && v1);
   for (int sample = 0; ok && sample < 4; sample++) {
     for (int i = 0; i < s->nq; i++) {
@@ -780,12 +736,12 @@ static int independent_of(const Emitter *E, unsigned vars) {
     }
     for (int i = 0; i < s->nu; i++) u[i] = lcg_uniform(&seed);
     t[0] = 5.0 * lcg_uniform(&seed);
-    eval_graph(E, hi, vals, v0);
+    ir_eval(E->g, hi, vals, v0);
     for (int alt = 0; ok && alt < 3; alt++) {
       if (vars & VAR_BIT(IRV_T)) t[0] = 10.0 * lcg_uniform(&seed);
       if (vars & VAR_BIT(IRV_U))
         for (int i = 0; i < s->nu; i++) u[i] = 3.0 * lcg_uniform(&seed);
-      eval_graph(E, hi, vals, v1);
+      ir_eval(E->g, hi, vals, v1);
       for (int i = 0; i < E->nroots; i++) {
         double a = v0[E->roots[i]], b = v1[E->roots[i]];
         if (!isfinite(a) || !isfinite(b)) continue;

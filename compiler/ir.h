@@ -61,6 +61,11 @@ typedef struct IrGraph {
 /* C name of a function (libm spelling), e.g. "sin". */
 const char *ir_fn_name(IrFn fn);
 
+/* Evaluate nodes 0..hi of g in order into v[0..hi]; vars[IrVar] points to
+** each variable array (time at vars[IRV_T][0]).  Used for numeric checks at
+** compile time (rank tests, independence of t or u), never in generated code. */
+void ir_eval(const IrGraph *g, int hi, const double *const vars[6], double *v);
+
 #ifdef __cplusplus
 }
 #endif
