@@ -173,8 +173,9 @@ static void list_lines(const int *lines, int n, char *buf, size_t cap) {
 }
 
 int constraint_rank_check(const Model *m, const EomSystem *s, Diag *d) {
+  assert(m && s && d);
   int nq = s->nq, nc = s->nc, errors = 0;
-  assert(m && s && d && nq == m->ncoords && nc == m->nconstraints);
+  assert(nq == m->ncoords && nc == m->nconstraints);
   if (nc == 0) return 0;
   size_t nqc = (size_t)nq * nc;
   double *G = calloc(nqc, sizeof(double));

@@ -1510,9 +1510,9 @@ static int is_c_identifier(const char *s) {
 static int emit_both(const Model *m, const EomSystem *s, const EmitOptions *o, FILE *h_out,
                      FILE *c_out, char *err, size_t errlen) {
   Emitter E;
+  assert(m && s && o);
   int nn = s->g.nnodes;
   memset(&E, 0, sizeof E);
-  assert(m && s && o);
   E.m = m;
   E.s = s;
   E.g = &s->g;

@@ -363,8 +363,9 @@ struct IrBuilder::Impl {
     for (int a : factors) {
       double v;
       int x;
-      assert(!is_num(a) && nodes[a].op != IR_NEG && !scaled(a, &v, &x));
-      (void)v, (void)x;
+      bool plain = !is_num(a) && nodes[a].op != IR_NEG && !scaled(a, &v, &x);
+      assert(plain);
+      (void)plain, (void)v, (void)x;
       if (nodes[a].op == IR_MUL)
         for (int b : std::vector<int>(nodes[a].args)) push(b);
       else

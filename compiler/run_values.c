@@ -71,9 +71,9 @@ static void allowed_names(const struct eom_model *m, int kinds, char *buf, size_
 int run_values_assign(RunValues *v, const struct eom_model *m, const char *assignment, int kinds,
                       char *err, size_t errlen) {
   char names[512];
+  assert(v && m && assignment);
   const char *eq = strchr(assignment, '=');
   double value;
-  assert(v && m && assignment);
   if (!eq || eq == assignment) {
     snprintf(err, errlen, "'%s' is not NAME=VALUE", assignment);
     return -1;
