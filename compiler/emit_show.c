@@ -459,6 +459,29 @@ static void choose_names(Show *S) {
   }
 }
 
+/* Row i of M q'' into lhs ("m*q'' + c*r''"), products joined by `times`;
+** returns the number of terms (0: the row is structurally zero). */
+static int mass_row_text(Show *S, int i, const char *times, Text *lhs) {
+  const EomSystem *s = S->s;
+  int nq = s->nq, terms = 0;
+  for (int j = 0; j < nq; j++) {
+    int r = i >= j ? s->mass[i * nq + j] : s->mass[j * nq + i];
+    if (is_zero(S, r)) continue;
+    int neg = negative(S, r);
+    if (terms++) put(lhs, neg ? " - " : " + ");
+    else if (neg) put(lhs, "-");
+    const IrNode *x = nd(S, r);
+    if (!(x->op == IR_NUM && fabs(x->num) == 1.0)) {
+      S->defining = r;
+      put_at(S, lhs, r, PR_MUL, 1);
+      S->defining = -1;
+      put(lhs, times);
+    }
+    put_coord(S, lhs, j, 2);
+  }
+  return terms;
+}
+
 static void print_plain(Show *S, FILE *out) {
   const EomSystem *s = S->s;
   int nq = s->nq;
@@ -489,22 +512,7 @@ static void print_plain(Show *S, FILE *out) {
   fputs("\nequations of motion (M q'' = f):\n", out);
   for (int i = 0; i < nq; i++) {
     Text lhs = {0};
-    int terms = 0;
-    for (int j = 0; j < nq; j++) {
-      int r = i >= j ? s->mass[i * nq + j] : s->mass[j * nq + i];
-      if (is_zero(S, r)) continue;
-      int neg = negative(S, r);
-      if (terms++) put(&lhs, neg ? " - " : " + ");
-      else if (neg) put(&lhs, "-");
-      const IrNode *x = nd(S, r);
-      if (!(x->op == IR_NUM && fabs(x->num) == 1.0)) {
-        S->defining = r;
-        put_at(S, &lhs, r, PR_MUL, 1);
-        S->defining = -1;
-        put(&lhs, "*");
-      }
-      put_coord(S, &lhs, j, 2);
-    }
+    int terms = mass_row_text(S, i, "*", &lhs);
     char *e = render(S, s->forcing[i]);
     fprintf(out, "  %s = %s\n", terms ? lhs.s : "0", e);
     free(e);
@@ -543,22 +551,7 @@ static void print_latex(Show *S, FILE *out) {
   fputs("  \\end{bmatrix}\n\\end{align*}\n\\begin{align*}\n", out);
   for (int i = 0; i < nq; i++) {
     Text lhs = {0};
-    int terms = 0;
-    for (int j = 0; j < nq; j++) {
-      int r = i >= j ? s->mass[i * nq + j] : s->mass[j * nq + i];
-      if (is_zero(S, r)) continue;
-      int neg = negative(S, r);
-      if (terms++) put(&lhs, neg ? " - " : " + ");
-      else if (neg) put(&lhs, "-");
-      const IrNode *x = nd(S, r);
-      if (!(x->op == IR_NUM && fabs(x->num) == 1.0)) {
-        S->defining = r;
-        put_at(S, &lhs, r, PR_MUL, 1);
-        S->defining = -1;
-        put(&lhs, " ");
-      }
-      put_coord(S, &lhs, j, 2);
-    }
+    int terms = mass_row_text(S, i, " ", &lhs);
     char *e = render(S, s->forcing[i]);
     fprintf(out, "  %s &= %s%s\n", terms ? lhs.s : "0", e, i + 1 < nq ? " \\\\" : "");
     free(e);
