@@ -26,6 +26,7 @@
 #include "cmd.h"
 #include "emit_c.h"
 #include "frontend.h"
+#include "fsutil.h"
 #include "hash.h"
 #include "symbolic.h"
 
@@ -38,23 +39,13 @@
 
 #define MAX_CC_WORDS 32
 
-static char *join(const char *a, const char *b) {
-  size_t la = strlen(a), lb = strlen(b);
-  char *s = malloc(la + lb + 2);
-  if (!s) return NULL;
-  memcpy(s, a, la);
-  s[la] = '/';
-  memcpy(s + la + 1, b, lb + 1);
-  return s;
-}
-
 char *build_cache_root(void) {
   const char *v = getenv("EOMC_CACHE_DIR");
   if (v && *v) return strdup(v);
   v = getenv("XDG_CACHE_HOME");
-  if (v && *v) return join(v, "eomc");
+  if (v && *v) return fs_join_path(v, "eomc");
   v = getenv("HOME");
-  if (v && *v) return join(v, ".cache/eomc");
+  if (v && *v) return fs_join_path(v, ".cache/eomc");
   return NULL;
 }
 
@@ -179,7 +170,7 @@ static int compile(const char *dir, const char *prefix, const char *cc_env, cons
   if (!src) goto out;
   snprintf(src, srclen, "%s/%s.c", dir, prefix);
   snprintf(tmp, sizeof tmp, "model.so.tmp.%ld", (long)getpid());
-  tmp_path = join(dir, tmp);
+  tmp_path = fs_join_path(dir, tmp);
   if (!tmp_path) goto out;
   memcpy(inc, "-I", 3);
   include_dir(inc + 2, sizeof inc - 2);
@@ -252,13 +243,13 @@ int build_model(const char *path, BuiltModel *out) {
     goto out;
   }
   cache_key(&fe, cc, key);
-  out->dir = join(root, key);
+  out->dir = fs_join_path(root, key);
   if (!out->dir || make_dirs(out->dir) != 0) {
     fprintf(stderr, "eomc: error: cannot create the cache directory %s: %s\n",
             out->dir ? out->dir : root, strerror(errno));
     goto out;
   }
-  so_path = join(out->dir, "model.so");
+  so_path = fs_join_path(out->dir, "model.so");
   if (!so_path) goto out;
   const char *prefix = fe.model.name;
   if (access(so_path, R_OK) == 0 && load(so_path, prefix, out, err, sizeof err) == 0) {

@@ -11,7 +11,7 @@
 #include <sys/stat.h>
 #include <unistd.h>
 
-static char *join_path(const char *dir, const char *name) {
+char *fs_join_path(const char *dir, const char *name) {
   size_t a = strlen(dir), b = strlen(name);
   char *s = malloc(a + b + 2);
   if (!s) return NULL;
@@ -68,14 +68,14 @@ int fs_stage(FsStaged *s, const char *dir, const char *name, const char *data, s
   int fd;
   mode_t mask;
   assert(s && dir && name && (data || len == 0) && err);
-  s->path = join_path(dir, name);
+  s->path = fs_join_path(dir, name);
   s->tmp = NULL;
   if (!s->path) {
     snprintf(err, errlen, "out of memory");
     return -1;
   }
   if (same_content(s->path, data, len)) return 0;
-  s->tmp = join_path(dir, ".eomc-tmp-XXXXXX");
+  s->tmp = fs_join_path(dir, ".eomc-tmp-XXXXXX");
   if (!s->tmp) {
     snprintf(err, errlen, "out of memory");
     fs_discard(s);

@@ -35,4 +35,7 @@ void fs_discard(FsStaged *s);
 int fs_write_if_changed(const char *dir, const char *name, const char *data, size_t len,
                         int *changed, char *err, size_t errlen);
 
+/* "dir/name", malloc'd; NULL when out of memory. */
+char *fs_join_path(const char *dir, const char *name);
+
 #endif
