@@ -171,16 +171,7 @@ static int get(const char *out, int k, const char *label, double *v, int max) {
   size_t ll = strlen(label);
   for (const char *line = s; line && line < end; line = strchr(line, '\n') + 1) {
     if (strncmp(line, label, ll) == 0 && line[ll] == ' ') {
-      const char *p = line + ll;
-      int n = 0;
-      char *e;
-      while (n < max) {
-        double d = strtod(p, &e);
-        if (e == p) break;
-        v[n++] = d;
-        p = e;
-      }
-      return n;
+      return read_numbers(line + ll, v, max);
     }
   }
   ck_abort_msg("label %s missing in block %d", label, k);

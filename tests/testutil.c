@@ -121,3 +121,15 @@ void remove_tree(const char *path) {
   }
   rmdir(path);
 }
+
+int read_numbers(const char *s, double *v, int max) {
+  int n = 0;
+  char *e;
+  while (n < max) {
+    double d = strtod(s, &e);
+    if (e == s) break;
+    v[n++] = d;
+    s = e;
+  }
+  return n;
+}

@@ -26,6 +26,9 @@ char *make_temp_dir(void);
 char *write_file(const char *dir, const char *name, const char *data, size_t len);
 /* Read a whole file (malloc'd, NUL-terminated) or NULL. */
 char *read_file(const char *path, size_t *len);
+/* Read up to `max` numbers separated by blanks from s into v (strtod syntax);
+** stops at the first thing that is not a number.  Returns how many. */
+int read_numbers(const char *s, double *v, int max);
 /* rm -r of a directory made by make_temp_dir(). */
 void remove_tree(const char *path);
 
