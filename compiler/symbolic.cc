@@ -283,17 +283,6 @@ double value_at(const ex &e, Subst &point) {
 
 /* ------------------------------------------------------------ values */
 
-/* One factor of a rotation kept as a product: the turn by `angle` about
-** body axis `axis` (0, 1, 2 for x, y, z), as rotx/roty/rotz make it. */
-struct Turn {
-  int axis;
-  ex angle;
-  bool shift;  /* a translation by s instead (steps of a 4x4 transform) */
-  ex s[3];
-  Turn() : axis(0), shift(false) {}
-  Turn(int axis_, const ex &angle_) : axis(axis_), angle(angle_), shift(false) {}
-};
-
 /* A value of the model language: a rows x cols matrix, row-major;
 ** a scalar is 1x1 and a vector n x 1.  A 3x3 rotation (or the rotation part
 ** of a 4x4 transform whose last row is 0 0 0 1) built only from rotx, roty,
@@ -405,14 +394,8 @@ class Derivation {
   };
   std::vector<Placed> placed_;
   std::vector<bool> body_placed_;  /* per entry of bodies_ */
-  struct ChainFrame {
-    int parent;
-    Turn step;
-    ex w[3], al[3], v[3], a[3];
-    std::vector<std::array<ex, 6>> J;  /* per coordinate: dw/dq', dv/dq' */
-  };
-  std::vector<ChainFrame> chain_;
-  ex gravity_sum_[3];
+  std::vector<std::vector<ex>> placed_M_;  /* their mass matrix */
+  std::vector<ex> placed_bias_;            /* their forces at q'' = 0 */
   std::vector<std::vector<ex>> rot_force_;
   std::vector<ex> rot_energy_;  /* with the translational energy of placed points */
   std::vector<ex> force_;  /* Q_i */
@@ -446,9 +429,6 @@ class Derivation {
   Val mat3(const Expr *x, const char *what);
   void add_body(const Stmt *s);
   void add_rotation(const Val &R, const Val &I);
-  void turn_back(const Turn &f, ex v[3]);
-  int chain_frame(const std::vector<Turn> &steps, size_t n);
-  ex no_accel(const ex &e);
   void finish_placed();
   bool point_matches(const Val &P);
   bool turns_match(const Val &R);
@@ -1181,171 +1161,37 @@ void Derivation::add_rotation(const Val &R, const Val &I) {
   rot_energy_.push_back((w[0] * Iw[0] + w[1] * Iw[1] + w[2] * Iw[2]) / 2);
 }
 
-/* The chain of frames of placed bodies, worked outward the way the
-** recursive Newton-Euler algorithm does (Luh, Walker and Paul, 1980): each
-** frame after a step of a transform holds, in its own axes, its angular
-** velocity w and acceleration al, the velocity v and acceleration a of its
-** origin (a includes -G, gravity as a base acceleration), and per
-** coordinate the partial angular and linear velocities.  Frames are shared
-** by every body whose chain passes through them, so the expressions are. */
-/* e with every q'' set to 0 */
-ex Derivation::no_accel(const ex &e) {
-  if (!zero_qdd_) {
-    exmap m;
-    for (const ex &a : qdd_) m[a] = 0;
-    zero_qdd_.reset(new Subst(m));
-  }
-  return (*zero_qdd_)(e);
-}
-
-int Derivation::chain_frame(const std::vector<Turn> &steps, size_t n) {
-  if (chain_.empty()) {
-    ChainFrame root;
-    root.parent = -1;
-    for (int c = 0; c < 3; c++) root.w[c] = root.al[c] = root.v[c] = 0, root.a[c] = -gravity_sum_[c];
-    root.J.assign(nq_, std::array<ex, 6>{0, 0, 0, 0, 0, 0});
-    chain_.push_back(root);
-  }
-  if (n == 0) return 0;
-  int parent = chain_frame(steps, n - 1);
-  const Turn &f = steps[n - 1];
-  for (size_t k = 0; k < chain_.size(); k++) {
-    const ChainFrame &c = chain_[k];
-    if (c.parent != parent || c.step.shift != f.shift) continue;
-    bool same = f.shift ? c.step.s[0].is_equal(f.s[0]) && c.step.s[1].is_equal(f.s[1]) &&
-                              c.step.s[2].is_equal(f.s[2])
-                        : c.step.axis == f.axis && c.step.angle.is_equal(f.angle);
-    if (same) return (int)k;
-  }
-  ChainFrame c = chain_[parent];
-  c.parent = parent;
-  c.step = f;
-  auto cross = [](const ex x[3], const ex y[3], ex out[3]) {
-    ex r[3];
-    for (int i = 0; i < 3; i++) {
-      int a = (i + 1) % 3, b = (i + 2) % 3;
-      r[i] = x[a] * y[b] - x[b] * y[a];
-    }
-    for (int i = 0; i < 3; i++) out[i] = r[i];
-  };
-  if (!f.shift) {
-    ex rate = totald(f.angle), accel = no_accel(totald(rate));
-    for (ex *vec : {c.w, c.al, c.v, c.a}) turn_back(f, vec);
-    ex e[3] = {0, 0, 0}, we[3];
-    e[f.axis] = 1;
-    ex spin[3] = {rate * e[0], rate * e[1], rate * e[2]};
-    cross(c.w, spin, we);  /* (F^T w_parent) x th' e */
-    for (int i = 0; i < 3; i++) {
-      c.al[i] = c.al[i] + accel * e[i] + we[i];
-      c.w[i] = c.w[i] + spin[i];
-    }
-    for (int j = 0; j < nq_; j++) {
-      turn_back(f, &c.J[j][0]);
-      turn_back(f, &c.J[j][3]);
-      ex d = dq_[j](f.angle);
-      if (!d.is_zero()) c.J[j][f.axis] = c.J[j][f.axis] + d;
-    }
-  } else {
-    ex sd[3], sdd[3], wxs[3], axs[3], wxwxs[3], wxsd[3];
-    for (int i = 0; i < 3; i++) sd[i] = totald(f.s[i]), sdd[i] = no_accel(totald(sd[i]));
-    cross(c.w, f.s, wxs);
-    cross(c.al, f.s, axs);
-    cross(c.w, wxs, wxwxs);
-    cross(c.w, sd, wxsd);
-    for (int i = 0; i < 3; i++) {
-      c.v[i] = c.v[i] + wxs[i] + sd[i];
-      c.a[i] = c.a[i] + axs[i] + wxwxs[i] + 2 * wxsd[i] + sdd[i];
-    }
-    for (int j = 0; j < nq_; j++) {
-      ex wj[3] = {c.J[j][0], c.J[j][1], c.J[j][2]}, x[3];
-      cross(wj, f.s, x);
-      for (int i = 0; i < 3; i++) c.J[j][3 + i] = c.J[j][3 + i] + x[i] + dq_[j](f.s[i]);
-    }
-  }
-  chain_.push_back(c);
-  return (int)chain_.size() - 1;
-}
-
 /* The shares of the placed bodies in the equations, once gravity is known:
-**   v_P = v + w x l + l',  a_P = a + al x l + w x (w x l) + 2 w x l' + l''
-**   E_i += m (dv_P/dq'_i) . a_P  [+ dw/dq'_i . (I al + w x I w) when the
-**   body's axes are the frame's]
-** (Kane and Levinson, 1985, ch. 6; equal to Lagrange's equations for
-** holonomic coordinates).  Gravity is in a_P, so V is reported, not used. */
+** their frames, mass matrix and bias forces come from the frame tree
+** (symbolic_chain.cc).  Gravity is an acceleration of the tree's base there,
+** so V is reported, not used. */
 void Derivation::finish_placed() {
   if (placed_.empty()) return;
+  ChainTools tools;
+  tools.nq = nq_;
   for (int c = 0; c < 3; c++) {
     exvector t;
     for (const auto &g : gravity_) t.push_back(g.second.a[c]);
-    gravity_sum_[c] = add(t);
+    tools.gravity[c] = add(t);
   }
-  auto cross = [](const ex x[3], const ex y[3], ex out[3]) {
-    for (int i = 0; i < 3; i++) {
-      int a = (i + 1) % 3, b = (i + 2) % 3;
-      out[i] = x[a] * y[b] - x[b] * y[a];
+  tools.rate = [this](const ex &e) { return totald(e); };
+  tools.no_accel = [this](const ex &e) {
+    if (!zero_qdd_) {
+      exmap m;
+      for (const ex &a : qdd_) m[a] = 0;
+      zero_qdd_.reset(new Subst(m));
     }
+    return (*zero_qdd_)(e);
   };
+  tools.d_dq = [this](int j, const ex &e) { return dq_[j](e); };
+  tools.tick = [this](const char *step) { tick(step); };
+  FrameTree tree(tools);
   for (const Placed &pb : placed_) {
-    const ChainFrame &F = chain_[chain_frame(*pb.pos.turns, pb.pos.turns->size())];
-    ex l[3], ld[3], ldd[3], x1[3], x2[3], x3[3], x4[3], vP[3], aP[3];
-    for (int c = 0; c < 3; c++)
-      l[c] = pb.pos.local[c], ld[c] = totald(l[c]), ldd[c] = no_accel(totald(ld[c]));
-    cross(F.w, l, x1);
-    cross(F.al, l, x2);
-    cross(F.w, x1, x3);
-    cross(F.w, ld, x4);
-    for (int c = 0; c < 3; c++) {
-      vP[c] = F.v[c] + x1[c] + ld[c];
-      aP[c] = F.a[c] + x2[c] + x3[c] + 2 * x4[c] + ldd[c];
-    }
-    /* the q'' parts: a_P = (bias above) + sum_j (dv_P/dq'_j) q''_j, al likewise */
-    std::vector<std::array<ex, 3>> JP(nq_);
-    exvector at[3], alt[3];
-    ex al[3];
-    for (int c = 0; c < 3; c++) at[c].push_back(aP[c]), alt[c].push_back(F.al[c]);
-    for (int j = 0; j < nq_; j++) {
-      ex wj[3] = {F.J[j][0], F.J[j][1], F.J[j][2]}, x[3];
-      cross(wj, l, x);
-      for (int c = 0; c < 3; c++) {
-        JP[j][c] = F.J[j][3 + c] + x[c] + dq_[j](l[c]);
-        if (!JP[j][c].is_zero()) at[c].push_back(JP[j][c] * qdd_[j]);
-        if (!wj[c].is_zero()) alt[c].push_back(wj[c] * qdd_[j]);
-      }
-    }
-    for (int c = 0; c < 3; c++) aP[c] = add(at[c]), al[c] = add(alt[c]);
-    ex euler[3], Iw[3];
-    if (pb.spins) {
-      for (int r = 0; r < 3; r++) {
-        exvector t;
-        for (int c = 0; c < 3; c++)
-          if (!pb.I.at(r, c).is_zero()) t.push_back(pb.I.at(r, c) * F.w[c]);
-        Iw[r] = add(t);
-      }
-      cross(F.w, Iw, x1);
-      for (int r = 0; r < 3; r++) {
-        exvector t{x1[r]};
-        for (int c = 0; c < 3; c++)
-          if (!pb.I.at(r, c).is_zero()) t.push_back(pb.I.at(r, c) * al[c]);
-        euler[r] = add(t);
-      }
-    }
-    std::vector<ex> share(nq_);
-    for (int j = 0; j < nq_; j++) {
-      ex wj[3] = {F.J[j][0], F.J[j][1], F.J[j][2]};
-      exvector t;
-      for (int c = 0; c < 3; c++)
-        if (!JP[j][c].is_zero()) t.push_back(JP[j][c] * aP[c]);
-      exvector r{pb.mass * add(t)};
-      if (pb.spins)
-        for (int c = 0; c < 3; c++)
-          if (!wj[c].is_zero()) r.push_back(wj[c] * euler[c]);
-      share[j] = add(r);
-    }
-    rot_force_.push_back(share);
-    ex T = pb.mass / 2 * (vP[0] * vP[0] + vP[1] * vP[1] + vP[2] * vP[2]);
-    if (pb.spins) T = T + (F.w[0] * Iw[0] + F.w[1] * Iw[1] + F.w[2] * Iw[2]) / 2;
-    rot_energy_.push_back(T);
+    int k = tree.frame(*pb.pos.turns, pb.pos.turns->size());
+    rot_energy_.push_back(tree.add_body(k, pb.mass, pb.pos.local, pb.spins ? pb.I.a.data() : nullptr));
   }
+  placed_M_.assign(nq_, std::vector<ex>(nq_, ex(0)));
+  tree.equations(placed_M_, placed_bias_);
 }
 
 /* P's entries equal T(steps) [local; 1] at a pseudo-random point: a guard on
@@ -1376,15 +1222,6 @@ bool Derivation::point_matches(const Val &P) {
     if (!(std::fabs(want - got) <= 1e-9 * (1 + std::fabs(want)))) return false;
   }
   return true;
-}
-
-/* v <- F^T v for one turn F (the inverse turn applied to v). */
-void Derivation::turn_back(const Turn &f, ex v[3]) {
-  if (f.shift) return;  /* a translation leaves directions alone */
-  int i = (f.axis + 1) % 3, j = (f.axis + 2) % 3;  /* the plane turned */
-  ex c = cos(f.angle), s = sin(f.angle);
-  ex vi = c * v[i] + s * v[j], vj = c * v[j] - s * v[i];
-  v[i] = vi, v[j] = vj;
 }
 
 /* The product of R's turns equals R's entries at a pseudo-random point: a
@@ -1577,6 +1414,7 @@ void Derivation::run(EomSystem *out) {
   for (int i = 0; i < n; i++) {
     exvector terms{totald(dqd_[i](L)), -dq_[i](L)}, dterms{dqd_[i](D)};
     for (const std::vector<ex> &share : rot_force_) terms.push_back(share[i]);
+    if (!placed_bias_.empty()) terms.push_back(placed_bias_[i]);
     for (size_t k = 0; k < K; k++) {
       if (dLdw[k].is_zero() && dDdw[k].is_zero()) continue;
       ex J = dq_[i](atoms_[k].e);  /* = d e_k' / d q'_i */
@@ -1592,7 +1430,8 @@ void Derivation::run(EomSystem *out) {
   /* E is linear in q'': M_ij = dE_i/dq''_j, f = Q - dD/dq' - E(q'' = 0) */
   std::vector<std::vector<ex>> M(n, std::vector<ex>(n));
   for (int i = 0; i < n; i++) {
-    for (int j = i; j < n; j++) M[i][j] = M[j][i] = dqdd_[j](E[i]);
+    for (int j = i; j < n; j++)
+      M[i][j] = M[j][i] = dqdd_[j](E[i]) + (placed_M_.empty() ? ex(0) : placed_M_[i][j]);
     tick("deriving the mass matrix");
   }
   check_mass(M);

@@ -109,6 +109,61 @@ class IrBuilder {
 };
 
 
+/* One step of a chain of frames: the turn by `angle` about the frame's axis
+** `axis` (0, 1, 2 for x, y, z) as rotx/roty/rotz make it, or a shift of the
+** origin by s (in the frame's axes), as the translations of a 4x4 transform. */
+struct Turn {
+  int axis;
+  GiNaC::ex angle;
+  bool shift;
+  GiNaC::ex s[3];
+  Turn() : axis(0), shift(false) {}
+  Turn(int axis_, const GiNaC::ex &angle_) : axis(axis_), angle(angle_), shift(false) {}
+};
+
+/* v <- F^T v: a vector in the axes before turn F, expressed in the axes after
+** it (a shift leaves directions alone). */
+void turn_back(const Turn &f, GiNaC::ex v[3]);
+
+/* What the frame tree needs from the derivation (symbolic_chain.cc). */
+struct ChainTools {
+  int nq;
+  GiNaC::ex gravity[3];                                   /* world frame */
+  std::function<GiNaC::ex(const GiNaC::ex &)> rate;       /* d/dt; q'' may appear */
+  std::function<GiNaC::ex(const GiNaC::ex &)> no_accel;   /* q'' -> 0 */
+  std::function<GiNaC::ex(int, const GiNaC::ex &)> d_dq;
+  std::function<void(const char *)> tick;                 /* time-limit check */
+};
+
+/* The tree of frames that the chains of placed rigid bodies pass through,
+** with the dynamics of the bodies worked the way recursive algorithms work
+** in link frames (symbolic_chain.cc): velocities and bias accelerations
+** outward, composite inertias and inertia forces inward. */
+class FrameTree {
+ public:
+  explicit FrameTree(const ChainTools &tools);
+  ~FrameTree();
+  FrameTree(const FrameTree &) = delete;
+  FrameTree &operator=(const FrameTree &) = delete;
+
+  /* The frame after the first n steps (made, with its parents, when new). */
+  int frame(const std::vector<Turn> &steps, size_t n);
+
+  /* A rigid body on frame k: mass centre at `local` (frame k's axes; may
+  ** depend on q and t) and, unless null, the 3x3 row-major inertia about
+  ** the mass centre in frame k's axes.  Returns its kinetic energy. */
+  GiNaC::ex add_body(int k, const GiNaC::ex &mass, const GiNaC::ex local[3],
+                     const GiNaC::ex *inertia);
+
+  /* Adds the bodies' mass matrix to M (nq x nq) and sets bias (nq) to their
+  ** generalized inertia and gravity forces at q'' = 0. */
+  void equations(std::vector<std::vector<GiNaC::ex>> &M, std::vector<GiNaC::ex> &bias);
+
+ private:
+  struct Impl;
+  std::unique_ptr<Impl> impl_;
+};
+
 /* What symbolic_control.cc needs from the derivation in symbolic.cc: the
 ** Lagrangian and its pieces with every atom replaced (in t, q, q', u, p),
 ** and the memoised derivatives and numeric probe of the derivation. */
