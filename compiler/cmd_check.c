@@ -136,6 +136,7 @@ static void print_summary(const Model *m, const char *path, FILE *out) {
 static int print_structure(Frontend *fe, FILE *out) {
   EomSystem sys;
   SymOptions so = {0, 0.0};
+  fflush(out);  /* the summary before any derivation error on stderr */
   int failed = frontend_derive(fe, &so, &sys);
   if (failed) fputs("equations of motion: not derived (see the errors above)\n", out);
   else report_structure(&fe->model, &sys, out);

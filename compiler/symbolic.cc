@@ -16,9 +16,10 @@
 ** as the roots of one IrGraph.
 **
 ** Rigid bodies placed on chains of rotx/roty/rotz/dh transforms skip the
-** Lagrangian: their generalized inertia forces come from frames worked
-** outward along the chain, as in recursive Newton-Euler (finish_placed);
-** other bodies go through the Lagrangian with their rates as atoms.
+** Lagrangian: their mass matrix and forces come from the tree of frames the
+** chains pass through, composite-rigid-body and recursive Newton-Euler
+** style (symbolic_chain.cc, through finish_placed); other bodies go
+** through the Lagrangian with their rates as atoms.
 **
 ** Speed comes from never expanding (products of sums stay as they are) and
 ** from differentiating with a memo per variable: GiNaC shares subtrees, and
@@ -387,15 +388,18 @@ class Derivation {
   /* Bodies whose mass centre is a point of a chain of turns and shifts
   ** (see finish_placed); `spins`: the body's axes are the chain's last frame. */
   struct Placed {
+    const Stmt *stmt;
     ex mass;
     Val pos;
     bool spins;
     Val I;
+    ex T;  /* kinetic energy, set by finish_placed */
   };
   std::vector<Placed> placed_;
   std::vector<bool> body_placed_;  /* per entry of bodies_ */
   std::vector<std::vector<ex>> placed_M_;  /* their mass matrix */
   std::vector<ex> placed_bias_;            /* their forces at q'' = 0 */
+  std::vector<ex> placed_full_;            /* and with q'': M q'' + bias */
   std::vector<std::vector<ex>> rot_force_;
   std::vector<ex> rot_energy_;  /* with the translational energy of placed points */
   std::vector<ex> force_;  /* Q_i */
@@ -1022,7 +1026,7 @@ void Derivation::add_body(const Stmt *s) {
   /* a direction R l from the origin is the point T [l; 1] of R's turns */
   bool placed = b.pos.placed != 0 && point_matches(b.pos);
   for (int c = 0; placed && c < 3; c++) placed = !depends_on_rates(b.pos.a[c]);
-  Placed pb{b.mass, b.pos, false, Val(0)};
+  Placed pb{s, b.mass, b.pos, false, Val(0), 0};
   if (!placed) {
     Val v = rate(b.pos);
     exvector terms;
@@ -1186,12 +1190,13 @@ void Derivation::finish_placed() {
   tools.d_dq = [this](int j, const ex &e) { return dq_[j](e); };
   tools.tick = [this](const char *step) { tick(step); };
   FrameTree tree(tools);
-  for (const Placed &pb : placed_) {
+  for (Placed &pb : placed_) {
     int k = tree.frame(*pb.pos.turns, pb.pos.turns->size());
-    rot_energy_.push_back(tree.add_body(k, pb.mass, pb.pos.local, pb.spins ? pb.I.a.data() : nullptr));
+    pb.T = tree.add_body(k, pb.mass, pb.pos.local, pb.spins ? pb.I.a.data() : nullptr);
+    rot_energy_.push_back(pb.T);
   }
   placed_M_.assign(nq_, std::vector<ex>(nq_, ex(0)));
-  tree.equations(placed_M_, placed_bias_);
+  tree.equations(placed_M_, placed_bias_, placed_full_);
 }
 
 /* P's entries equal T(steps) [local; 1] at a pseudo-random point: a guard on
@@ -1369,6 +1374,12 @@ void Derivation::check_mass(std::vector<std::vector<ex>> &M) {
               throw SymError{t.stmt->loc,
                              msg + "this term makes the mass matrix depend on " + v.what};
           }
+        for (const Placed &pb : placed_) {
+          ex e = dqd_[j](dqd_[i](pb.T));
+          ex de = (*v.d)(e);
+          if (!de.is_zero() && nonzero_somewhere(de, e))
+            throw SymError{pb.stmt->loc, msg + "this body makes the mass matrix depend on " + v.what};
+        }
         throw SymError{kNoLoc, msg + "the mass matrix depends on " + v.what};
       }
   if (cancelled.empty()) return;
@@ -1414,7 +1425,6 @@ void Derivation::run(EomSystem *out) {
   for (int i = 0; i < n; i++) {
     exvector terms{totald(dqd_[i](L)), -dq_[i](L)}, dterms{dqd_[i](D)};
     for (const std::vector<ex> &share : rot_force_) terms.push_back(share[i]);
-    if (!placed_bias_.empty()) terms.push_back(placed_bias_[i]);
     for (size_t k = 0; k < K; k++) {
       if (dLdw[k].is_zero() && dDdw[k].is_zero()) continue;
       ex J = dq_[i](atoms_[k].e);  /* = d e_k' / d q'_i */
@@ -1427,20 +1437,25 @@ void Derivation::run(EomSystem *out) {
     tick("deriving the equations of motion");
   }
 
-  /* E is linear in q'': M_ij = dE_i/dq''_j, f = Q - dD/dq' - E(q'' = 0) */
-  std::vector<std::vector<ex>> M(n, std::vector<ex>(n));
+  /* E is linear in q'': M_ij = dE_i/dq''_j, f = Q - dD/dq' - E(q'' = 0);
+  ** the placed bodies add their own M and forces */
+  const bool placed = !placed_M_.empty();
+  std::vector<std::vector<ex>> M(n, std::vector<ex>(n)), M_lagrange(n, std::vector<ex>(n));
   for (int i = 0; i < n; i++) {
-    for (int j = i; j < n; j++)
-      M[i][j] = M[j][i] = dqdd_[j](E[i]) + (placed_M_.empty() ? ex(0) : placed_M_[i][j]);
+    for (int j = i; j < n; j++) {
+      M_lagrange[i][j] = M_lagrange[j][i] = dqdd_[j](E[i]);
+      M[i][j] = M[j][i] = M_lagrange[i][j] + (placed ? placed_M_[i][j] : ex(0));
+    }
     tick("deriving the mass matrix");
   }
   check_mass(M);
   exmap no_accel;
   for (const ex &a : qdd_) no_accel[a] = 0;
   Subst zero_qdd(no_accel);
-  std::vector<ex> f(n);
+  std::vector<ex> f(n), f_lagrange(n);
   for (int i = 0; i < n; i++) {
-    f[i] = unatom(force_[i]) - dDdqd[i] - zero_qdd(E[i]);
+    f_lagrange[i] = unatom(force_[i]) - dDdqd[i] - zero_qdd(E[i]);
+    f[i] = placed ? f_lagrange[i] - unatom(placed_bias_[i]) : f_lagrange[i];
     for (int j = 0; j < n; j++)
       if (!dqdd_[j](f[i]).is_zero())
         throw SymError{kNoLoc, "internal: the forcing depends on accelerations"};
@@ -1465,14 +1480,16 @@ void Derivation::run(EomSystem *out) {
     tick("deriving the Jacobian of the forcing");
   }
 
-  /* inverse dynamics M q'' - f with the inputs at zero */
+  /* inverse dynamics M q'' - f with the inputs at zero; the placed bodies'
+  ** share M q'' + bias in its recursive form (fewer operations) */
   exmap no_inputs;
   for (const ex &u : u_) no_inputs[u] = 0;
   Subst zero_u(no_inputs);
   std::vector<ex> inv(n);
   for (int i = 0; i < n; i++) {
-    exvector terms{-zero_u(f[i])};
-    for (int j = 0; j < n; j++) terms.push_back(M[i][j] * qdd_[j]);
+    exvector terms{-zero_u(f_lagrange[i])};
+    if (placed) terms.push_back(zero_u(unatom(placed_full_[i])));
+    for (int j = 0; j < n; j++) terms.push_back(M_lagrange[i][j] * qdd_[j]);
     inv[i] = add(terms);
   }
 

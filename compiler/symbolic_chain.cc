@@ -110,6 +110,7 @@ struct Frame {
   int parent;
   Turn step;                 /* from the parent's axes to this frame's */
   Vec3 w, al, v, a;          /* outward pass (al and a with q'' = 0, a with -G) */
+  Vec3 alq, aq;              /* al and a with the q'' terms */
   std::vector<Body> bodies;
   std::vector<Unit> units;   /* the step's motions that depend on q */
 };
@@ -129,14 +130,17 @@ struct FrameTree::Impl {
   Wrench to_parent(int k, Wrench x) const;
   void composite(std::vector<ex> &m, std::vector<Vec3> &h, std::vector<std::array<ex, 9>> &J) const;
   void mass_matrix(std::vector<std::vector<exvector>> &terms) const;
-  void bias_forces(std::vector<exvector> &terms) const;
+  void inertia_forces(bool with_accel, std::vector<exvector> &terms) const;
 };
 
 FrameTree::FrameTree(const ChainTools &tools) : impl_(new Impl) {
   impl_->tools = tools;
   Frame root;
   root.parent = -1;
-  for (int c = 0; c < 3; c++) root.w[c] = root.al[c] = root.v[c] = 0, root.a[c] = -tools.gravity[c];
+  for (int c = 0; c < 3; c++) {
+    root.w[c] = root.al[c] = root.alq[c] = root.v[c] = 0;
+    root.a[c] = root.aq[c] = -tools.gravity[c];
+  }
   impl_->frames.push_back(root);
 }
 
@@ -164,26 +168,31 @@ int FrameTree::Impl::child(int parent, const Turn &f) {
   Frame c;
   c.parent = parent;
   c.step = f;
-  c.w = p.w, c.al = p.al, c.v = p.v, c.a = p.a;
+  c.w = p.w, c.al = p.al, c.v = p.v, c.a = p.a, c.alq = p.alq, c.aq = p.aq;
   if (!f.shift) {
-    ex rate = tools.rate(f.angle), accel = tools.no_accel(tools.rate(rate));
-    for (Vec3 *vec : {&c.w, &c.al, &c.v, &c.a}) turn_back(f, vec->data());
+    ex rate = tools.rate(f.angle), accelq = tools.rate(rate), accel = tools.no_accel(accelq);
+    for (Vec3 *vec : {&c.w, &c.al, &c.v, &c.a, &c.alq, &c.aq}) turn_back(f, vec->data());
     Vec3 e{0, 0, 0};
     e[f.axis] = 1;
     Vec3 spin = scaled(rate, e), we = cross(c.w, spin);
     c.al = plus(plus(c.al, scaled(accel, e)), we);
+    c.alq = plus(plus(c.alq, scaled(accelq, e)), we);
     c.w = plus(c.w, spin);
     Unit u{true, f.axis, std::vector<ex>(tools.nq)};
     bool moves = false;
     for (int j = 0; j < tools.nq; j++) moves = !(u.coeff[j] = tools.d_dq(j, f.angle)).is_zero() || moves;
     if (moves) c.units.push_back(u);
   } else {
-    Vec3 s{f.s[0], f.s[1], f.s[2]}, sd, sdd;
-    for (int i = 0; i < 3; i++) sd[i] = tools.rate(s[i]), sdd[i] = tools.no_accel(tools.rate(sd[i]));
-    Vec3 wxs = cross(c.w, s);
+    Vec3 s{f.s[0], f.s[1], f.s[2]}, sd, sdd, sddq;
+    for (int i = 0; i < 3; i++) {
+      sd[i] = tools.rate(s[i]);
+      sddq[i] = tools.rate(sd[i]);
+      sdd[i] = tools.no_accel(sddq[i]);
+    }
+    Vec3 wxs = cross(c.w, s), coriolis = plus(cross(c.w, wxs), scaled(2, cross(c.w, sd)));
     c.v = plus(plus(c.v, wxs), sd);
-    c.a = plus(plus(plus(c.a, cross(c.al, s)), cross(c.w, wxs)),
-               plus(scaled(2, cross(c.w, sd)), sdd));
+    c.a = plus(plus(c.a, cross(c.al, s)), plus(coriolis, sdd));
+    c.aq = plus(plus(c.aq, cross(c.alq, s)), plus(coriolis, sddq));
     for (int axis = 0; axis < 3; axis++) {
       Unit u{false, axis, std::vector<ex>(tools.nq)};
       bool moves = false;
@@ -341,18 +350,19 @@ void FrameTree::Impl::mass_matrix(std::vector<std::vector<exvector>> &terms) con
   }
 }
 
-/* Each frame's wrench of the inertia and gravity forces of its subtree at
-** q'' = 0, leaves first, projected on the frame's step motions:
-**   F_b = m (a + al x l + w x (w x l)),  N_b = I al + w x (I w) + l x F_b. */
-void FrameTree::Impl::bias_forces(std::vector<exvector> &terms) const {
+/* Each frame's wrench of the inertia and gravity forces of its subtree,
+** leaves first, projected on the frame's step motions (at q'' = 0 unless
+** with_accel):  F_b = m (a + al x l + w x (w x l)),  N_b = I al + w x (I w) + l x F_b. */
+void FrameTree::Impl::inertia_forces(bool with_accel, std::vector<exvector> &terms) const {
   const size_t n = frames.size();
   std::vector<std::array<exvector, 6>> sum(n);  /* n then f */
   for (size_t k = n; k-- > 1;) {
     const Frame &F = frames[k];
+    const Vec3 &a = with_accel ? F.aq : F.a, &al = with_accel ? F.alq : F.al;
     for (const Body &b : F.bodies) {
-      Vec3 aP = plus(plus(F.a, cross(F.al, b.l)), cross(F.w, cross(F.w, b.l)));
+      Vec3 aP = plus(plus(a, cross(al, b.l)), cross(F.w, cross(F.w, b.l)));
       Vec3 fb = scaled(b.m, aP), nb = cross(b.l, fb);
-      if (b.spins) nb = plus(nb, plus(times(b.I, F.al), cross(F.w, times(b.I, F.w))));
+      if (b.spins) nb = plus(nb, plus(times(b.I, al), cross(F.w, times(b.I, F.w))));
       for (int i = 0; i < 3; i++) sum[k][i].push_back(nb[i]), sum[k][3 + i].push_back(fb[i]);
     }
     Wrench x;
@@ -370,7 +380,8 @@ void FrameTree::Impl::bias_forces(std::vector<exvector> &terms) const {
   }
 }
 
-void FrameTree::equations(std::vector<std::vector<ex>> &M, std::vector<ex> &bias) {
+void FrameTree::equations(std::vector<std::vector<ex>> &M, std::vector<ex> &bias,
+                          std::vector<ex> &full) {
   const int nq = impl_->tools.nq;
   assert((int)M.size() == nq);
   std::vector<std::vector<exvector>> mterms(nq, std::vector<exvector>(nq));
@@ -378,10 +389,12 @@ void FrameTree::equations(std::vector<std::vector<ex>> &M, std::vector<ex> &bias
   for (int i = 0; i < nq; i++)
     for (int j = 0; j < nq; j++)
       if (!mterms[i][j].empty()) M[i][j] = M[i][j] + add(mterms[i][j]);
-  std::vector<exvector> bterms(nq);
-  impl_->bias_forces(bterms);
+  std::vector<exvector> bterms(nq), fterms(nq);
+  impl_->inertia_forces(false, bterms);
+  impl_->inertia_forces(true, fterms);
   bias.assign(nq, 0);
-  for (int j = 0; j < nq; j++) bias[j] = add(bterms[j]);
+  full.assign(nq, 0);
+  for (int j = 0; j < nq; j++) bias[j] = add(bterms[j]), full[j] = add(fterms[j]);
 }
 
 void turn_back(const Turn &f, ex v[3]) {

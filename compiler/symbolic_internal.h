@@ -156,8 +156,10 @@ class FrameTree {
                      const GiNaC::ex *inertia);
 
   /* Adds the bodies' mass matrix to M (nq x nq) and sets bias (nq) to their
-  ** generalized inertia and gravity forces at q'' = 0. */
-  void equations(std::vector<std::vector<GiNaC::ex>> &M, std::vector<GiNaC::ex> &bias);
+  ** generalized inertia and gravity forces at q'' = 0 and full to the same
+  ** with q'' (= M q'' + bias, in the recursive form: the inverse dynamics). */
+  void equations(std::vector<std::vector<GiNaC::ex>> &M, std::vector<GiNaC::ex> &bias,
+                 std::vector<GiNaC::ex> &full);
 
  private:
   struct Impl;
