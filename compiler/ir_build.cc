@@ -320,6 +320,7 @@ struct IrBuilder::Impl {
       if (is_num(a, &v)) c += v;
       else rest.push_back(a);
     }
+    rest = group_coefficients(rest);
     if (c != 0) rest.push_back(num(c));
     if (rest.empty()) return num(0);
     if (rest.size() == 1) return rest[0];
@@ -338,6 +339,41 @@ struct IrBuilder::Impl {
     n.args = rest;
     int sum = intern(n);
     return flip ? neg(sum) : sum;
+  }
+
+  /* k*x + k*y - k*z + w -> k*(x + y - z) + w: one product per coefficient
+  ** that several terms share (GiNaC spreads a number over a sum, so scaled
+  ** sums come back as sums of scaled terms).  Groups are keyed by |k| and
+  ** formed in order of it, so the result depends only on the content. */
+  std::vector<int> group_coefficients(const std::vector<int> &parts) {
+    std::vector<std::pair<double, int>> keyed;  /* |k|, index into parts */
+    for (size_t i = 0; i < parts.size(); i++) {
+      double k = 1;
+      strip(parts[i], &k);
+      if (std::fabs(k) != 1) keyed.push_back({std::fabs(k), (int)i});
+    }
+    std::sort(keyed.begin(), keyed.end());
+    std::vector<bool> taken(parts.size(), false);
+    std::vector<int> out;
+    for (size_t i = 0; i < keyed.size();) {
+      size_t j = i;
+      while (j < keyed.size() && keyed[j].first == keyed[i].first) j++;
+      if (j - i >= 2) {
+        const double k = keyed[i].first;
+        std::vector<int> inner;
+        for (size_t m = i; m < j; m++) {
+          double c = 1;
+          int core = strip(parts[keyed[m].second], &c);
+          inner.push_back(c < 0 ? neg(core) : core);
+          taken[keyed[m].second] = true;
+        }
+        out.push_back(scale(k, make_sum(inner)));
+      }
+      i = j;
+    }
+    for (size_t i = 0; i < parts.size(); i++)
+      if (!taken[i]) out.push_back(parts[i]);
+    return out;
   }
 
   /* Does the node carry a visible minus sign (-x, -2*x, a negative number)? */
