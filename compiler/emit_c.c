@@ -1321,8 +1321,12 @@ static void emit_header(Emitter *E) {
     "void %s_outputs(double t, const double *q, const double *qd, const double *u,\n"
     "  const double *p, double *y);\n"
     "void %s_default_params(double *p);   /* the defaults above */\n"
+    "/* Params whose default is an expression of earlier params, recomputed\n"
+    "** from the current p in declaration order; given (NP flags, or NULL for\n"
+    "** none) marks the ones the caller set, which are kept. */\n"
+    "void %s_derived_params(double *p, const int *given);\n"
     "void %s_initial_state(double *x);   /* [q0; qd0] from the model's `initial` */\n",
-    P, P, P, P, P, P, P, P, P, P);
+    P, P, P, P, P, P, P, P, P, P, P);
   if (s->nc)
     fprintf(o,
       "void %s_constraint(const double *q, const double *p, double *phi);   /* NC */\n"
@@ -1393,6 +1397,31 @@ static void emit_double_table(Emitter *E, const char *name, const double *v, int
   fputs("};\n", o);
 }
 
+/* Params whose default reads earlier params follow them: each is recomputed
+** from the current p in declaration order (so a chain of such defaults
+** works), unless given[i] says the caller set it.  Defaults are short, so
+** each is written inline, in full. */
+static void emit_derived_params(Emitter *E) {
+  FILE *o = E->out;
+  const EomSystem *s = E->s;
+  fprintf(o, "void %s_derived_params(double *p, const int *given)\n{\n", E->P);
+  if (!s->nderived) fputs("  (void)p;\n  (void)given;\n", o);
+  for (int i = 0; i < s->np; i++) {
+    int r = s->param_rule ? s->param_rule[i] : -1;  /* hand-built systems have none */
+    if (r < 0) continue;
+    fn_reset(E);
+    add_root(E, r);
+    fn_analyse(E);
+    assert(!needs_missing(E, VAR_BIT(IRV_P)));
+    for (int n = 0; n < E->g->nnodes; n++) E->tempno[n] = -1;
+    Buf b = {0};
+    put_at(E, &b, r, PREC_LOW, 0);
+    fprintf(o, "  if (!given || !given[%d]) p[%d] = %s;   /* %s */\n", i, i, b.s, E->m->params[i]->name);
+    free(b.s);
+  }
+  fputs("}\n\n", o);
+}
+
 static void emit_defaults(Emitter *E) {
   FILE *o = E->out;
   const Model *m = E->m;
@@ -1404,7 +1433,9 @@ static void emit_defaults(Emitter *E) {
     format_number(E, m->params[i]->number, num, sizeof num);
     fprintf(o, "  p[%d] = %s;\n", i, num);
   }
-  fprintf(o, "}\n\nvoid %s_initial_state(double *x)\n{\n", E->P);
+  fputs("}\n\n", o);
+  emit_derived_params(E);
+  fprintf(o, "void %s_initial_state(double *x)\n{\n", E->P);
   for (int i = 0; i < nq; i++) {
     format_number(E, m->q0 ? m->q0[i] : 0.0, num, sizeof num);
     fprintf(o, "  x[%d] = %s;\n", i, num);
@@ -1468,6 +1499,7 @@ static void emit_descriptor(Emitter *E) {
   else
     fprintf(o, "  0, 0, 0,\n");
   emit_control_fields(o, s, P);
+  fprintf(o, "  %s_derived_params,\n", P);
   fprintf(o, "};\n#endif\n");
   free(q0);
   free(qd0);

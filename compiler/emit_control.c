@@ -102,5 +102,5 @@ void emit_control_fields(FILE *o, const EomSystem *s, const char *P) {
   else fputs("  0, 0,\n", o);
   if (any_cyclic(s)) fprintf(o, "  %s_cyclic,\n", P);
   else fputs("  0,\n", o);
-  fprintf(o, "  %d\n", s->energy_conserved);
+  fprintf(o, "  %d,\n", s->energy_conserved);
 }

@@ -25,7 +25,8 @@ int run_values_init(RunValues *v, const struct eom_model *m) {
   v->x = calloc(2 * (size_t)m->nq + 1, sizeof(double));
   v->u = calloc((size_t)m->nu + 1, sizeof(double));
   v->u_set = calloc((size_t)m->nu + 1, sizeof(int));
-  if (!v->p || !v->x || !v->u || !v->u_set) {
+  v->p_set = calloc((size_t)m->np + 1, sizeof(int));
+  if (!v->p || !v->x || !v->u || !v->u_set || !v->p_set) {
     run_values_free(v);
     return -1;
   }
@@ -42,6 +43,7 @@ void run_values_free(RunValues *v) {
   free(v->x);
   free(v->u);
   free(v->u_set);
+  free(v->p_set);
   memset(v, 0, sizeof *v);
 }
 
@@ -89,7 +91,13 @@ int run_values_assign(RunValues *v, const struct eom_model *m, const char *assig
   if (!rate) {
     if (kinds & RV_PARAMS)
       for (int i = 0; i < m->np; i++)
-        if (SAME(m->param_names[i])) return v->p[i] = value, 0;
+        if (SAME(m->param_names[i])) {
+          v->p[i] = value;
+          v->p_set[i] = 1;
+          /* defaults written in terms of other params follow them */
+          if (m->derived_params) m->derived_params(v->p, v->p_set);
+          return 0;
+        }
     if (kinds & RV_INPUTS)
       for (int i = 0; i < m->nu; i++)
         if (SAME(m->input_names[i])) return v->u[i] = value, v->u_set[i] = 1, 0;

@@ -14,10 +14,12 @@
 #include "eom/model.h"
 
 typedef struct RunValues {
-  double *p;   /* np: defaults, then assignments */
+  double *p;   /* np: defaults, then assignments (a param whose default
+                  reads other params follows their assignments unless set) */
   double *x;   /* 2nq: [q0; qd0] from the model's `initial`, then assignments */
   double *u;   /* nu: 0, then assignments */
   int *u_set;  /* nu: 1 when an assignment gave the input */
+  int *p_set;  /* np: 1 when an assignment gave the param */
 } RunValues;
 
 /* Which names an assignment may use. */

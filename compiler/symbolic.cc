@@ -1553,6 +1553,16 @@ void Derivation::run(EomSystem *out) {
   for (const ex &e : ctl.gravity) h_grav.push_back(b.add_root(e, none));
   for (const ex &e : ctl.momenta) h_mom.push_back(b.add_root(e, none));
   int h_ham = b.add_root(ctl.hamiltonian, none);
+  /* a param default that reads other params: the rule that recomputes it */
+  std::vector<int> h_rule(np_, -1);
+  for (int i = 0; i < np_; i++) {
+    const Decl *d = m_->params[i];
+    if (!d->value) continue;
+    ex e = scalar(d->value, "a parameter's default");
+    bool reads_params = false;
+    for (int k = 0; k < np_; k++) reads_params = reads_params || (k != i && e.has(p_[k]));
+    if (reads_params) h_rule[i] = b.add_root(e, d->loc);
+  }
   std::vector<int> h_reg, h_reg0;
   for (const ex &e : reg.Y) h_reg.push_back(b.add_root(e, none));
   for (const ex &e : reg.offset) h_reg0.push_back(b.add_root(e, none));
@@ -1596,6 +1606,12 @@ void Derivation::run(EomSystem *out) {
   for (int k = 0; k < ni; k++) out->identified[k] = pi_index_[k];
   out->regressor = ni ? place(h_reg, (size_t)n * ni) : nullptr;
   out->regressor_offset = ni ? place(h_reg0, n) : nullptr;
+  out->param_rule = alloc_roots(np_);
+  out->nderived = 0;
+  for (int i = 0; i < np_; i++) {
+    out->param_rule[i] = h_rule[i] < 0 ? -1 : roots[h_rule[i]];
+    out->nderived += h_rule[i] >= 0;
+  }
 }
 
 /* The regressor form of the inverse dynamics (symbolic_control.cc). */
@@ -1693,5 +1709,6 @@ extern "C" void sym_free(EomSystem *s) {
   free(s->identified);
   free(s->regressor);
   free(s->regressor_offset);
+  free(s->param_rule);
   memset(s, 0, sizeof *s);
 }

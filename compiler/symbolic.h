@@ -50,6 +50,9 @@ typedef struct EomSystem {
   int *identified;           /* ni     their indices in p */
   int *regressor;            /* nq*ni  Y(t, q, qd, qdd, p) */
   int *regressor_offset;     /* nq     tau0: P_inverse at pi = 0 */
+  /* params whose default is an expression of earlier params */
+  int *param_rule;           /* np     that expression of p, or -1 for a plain default */
+  int nderived;              /* entries of param_rule that are not -1 */
 } EomSystem;
 
 typedef struct SymOptions {

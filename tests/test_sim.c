@@ -496,6 +496,50 @@ START_TEST(sim_plot_svg) {
 }
 END_TEST
 
+/* Params whose default reads other params follow them (sim --set), unless
+** set themselves.  Checked on the free response of an underdamped
+** oscillator, z = z0 e^(-zeta w t) (cos wd t + zeta/sqrt(1 - zeta^2) sin wd t)
+** with w^2 = k/meff and wd = w sqrt(1 - zeta^2) (closed form, common
+** practice), where meff = m + ms/2 and c = 2 zeta sqrt(k meff) come from the
+** model's defaults. */
+static double tray_z(double meff, double k, double zeta, double z0, double t) {
+  double w = sqrt(k / meff), wd = w * sqrt(1 - zeta * zeta);
+  return z0 * exp(-zeta * w * t) * (cos(wd * t) + zeta / sqrt(1 - zeta * zeta) * sin(wd * t));
+}
+
+START_TEST(sim_derived_params_follow) {
+  struct {
+    const char *set[3];
+    double meff, zeta;
+  } runs[] = {
+    {{"m=5", NULL, NULL}, 5.2, 0.05},              /* meff and c follow m */
+    {{"zeta=0.2", "ms=1", NULL}, 2.5, 0.2},         /* c follows zeta and meff */
+    {{"meff=3", "m=7", NULL}, 3, 0.05},             /* meff kept: set itself */
+    {{"m=7", "meff=3", NULL}, 3, 0.05},             /* in either order */
+  };
+  for (size_t i = 0; i < sizeof runs / sizeof runs[0]; i++) {
+    char *argv[16] = {(char *)eomc(), "sim", model_path("sprung_tray.eom"), "--until", "1",
+                      "--step", "0.01", "--rtol", "1e-11", "--atol", "1e-14"};
+    int a = 11;
+    for (int k = 0; k < 3 && runs[i].set[k]; k++) argv[a++] = "--set", argv[a++] = (char *)runs[i].set[k];
+    argv[a] = NULL;
+    RunResult r = run_argv(argv);
+    ck_assert_msg(r.status == 0, "run %zu: status %d: %s", i, r.status, r.err);
+    int n;
+    double *t = csv_column(r.out, 0, &n), *z = csv_column(r.out, 1, &n);
+    ck_assert_int_eq(n, 101);
+    for (int k = 0; k < n; k += 10) {
+      double want = tray_z(runs[i].meff, 800, runs[i].zeta, 0.01, t[k]);
+      ck_assert_msg(fabs(z[k] - want) < 1e-9, "run %zu, t = %g: z = %.12g, want %.12g", i, t[k], z[k],
+                    want);
+    }
+    free(t);
+    free(z);
+    run_free(&r);
+  }
+}
+END_TEST
+
 static Suite *sim_suite(void) {
   Suite *s = suite_create("sim");
   TCase *tc = tcase_create("cli");
@@ -514,6 +558,7 @@ static Suite *sim_suite(void) {
   tcase_add_test(tc, sim_usage_errors);
   tcase_add_test(tc, sim_cache);
   tcase_add_test(tc, sim_plot_svg);
+  tcase_add_test(tc, sim_derived_params_follow);
   suite_add_tcase(s, tc);
   return s;
 }

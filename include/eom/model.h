@@ -15,7 +15,7 @@ extern "C" {
 #endif
 
 /* Bumped whenever the layout of struct eom_model changes. */
-#define EOM_MODEL_ABI 2
+#define EOM_MODEL_ABI 3
 
 struct eom_model {
   int abi;                          /* EOM_MODEL_ABI of the generating eomc */
@@ -63,6 +63,12 @@ struct eom_model {
   void (*hamiltonian)(const double *q, const double *qd, const double *p, double *h);
   const int *cyclic;                /* nq: 1 when pm[i] is conserved; NULL when none is */
   int energy_conserved;             /* 1 when h is conserved */
+
+  /* Since ABI 3: recompute the params whose default is an expression of
+  ** earlier params from the current p, in declaration order, except those
+  ** flagged in given (np ints, or NULL: recompute them all).  Generated
+  ** models always set it; NULL (hand-written descriptors): no such params. */
+  void (*derived_params)(double *p, const int *given);
 };
 
 #ifdef __cplusplus
