@@ -39,14 +39,16 @@ int dense_lu(int n, double *a, int *piv) {
 
 void dense_lu_solve(int n, const double *lu, const int *piv, double *b) {
   assert(n > 0 && lu && piv && b);
-  for (int k = 0; k < n; k++) {
+  /* dense_lu swaps whole rows, multipliers included, so L is stored in the
+  ** final row order: all interchanges go first, then L y = P b. */
+  for (int k = 0; k < n; k++)
     if (piv[k] != k) {
       double t = b[k];
       b[k] = b[piv[k]];
       b[piv[k]] = t;
     }
+  for (int k = 0; k < n; k++)
     for (int i = k + 1; i < n; i++) b[i] -= lu[i * n + k] * b[k];
-  }
   for (int i = n - 1; i >= 0; i--) {
     double s = b[i];
     for (int j = i + 1; j < n; j++) s -= lu[i * n + j] * b[j];

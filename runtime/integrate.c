@@ -1,7 +1,7 @@
 /*
 ** integrate.c — eom_simulate(): pick the method by name, hand out the
-** sample times and drive the fixed-step methods; Dormand–Prince drives
-** itself (dopri.c).  Every failure stops the run with a status and a message
+** sample times and drive the fixed-step methods; the adaptive runs of
+** Dormand–Prince (dopri.c) and Radau IIA (implicit.c) drive themselves.  Every failure stops the run with a status and a message
 ** naming the time and state; the samples already delivered stay delivered,
 ** and the last good state is delivered as one more sample.
 */
@@ -43,19 +43,19 @@ void eom_sim_options_init(struct eom_sim_options *o) {
 
 typedef struct Method {
   const char *name;
-  FixedStepFn step;      /* NULL: adaptive (dopri_run) */
+  FixedStepFn step;      /* one fixed step (always there) */
   size_t (*work)(int n);
+  AdaptiveRunFn run;     /* step-size control; NULL: fixed steps only */
 } Method;
 
+/* midpoint has no adaptive run on purpose: varying the step destroys the
+** symplectic structure that keeps its energy error bounded. */
 static const Method methods[] = {
-    {"rk4", rk4_step, rk4_work},
-    {"dopri", NULL, dopri_work},
-    {"radau5", radau5_step, radau5_work},
-    {"midpoint", midpoint_step, midpoint_work},
+    {"rk4", rk4_step, rk4_work, NULL},
+    {"dopri", dopri_fixed_step, dopri_work, dopri_run},
+    {"radau5", radau5_step, radau5_work, radau5_run},
+    {"midpoint", midpoint_step, midpoint_work, NULL},
 };
-
-/* Dormand–Prince without error control, for order studies. */
-static const Method dopri_fixed = {"dopri", dopri_fixed_step, dopri_work};
 
 const char *eom_method_list(void) { return "rk4, dopri, radau5, midpoint"; }
 
@@ -105,7 +105,7 @@ static int sampler_deliver(SimContext *c, Sampler *s, double t, const double *x)
   if (!s->fn) return EOM_OK;
   /* Interpolated samples of a constrained run go out on the constraints too. */
   if (c->cs_active && c->cs_project) {
-    stabilize_sample(c, x, c->cs_sample);
+    stabilize_sample(c, t, x, c->cs_sample);
     x = c->cs_sample;
   }
   if (c->u_fixed) {
@@ -256,12 +256,11 @@ int eom_simulate(const struct eom_model *m, const double *p, const eom_inputs *i
                                      "cannot be put there")) != EOM_OK) {
     /* x is the user's state: the failed sample below shows it. */
   } else if ((st = sampler_emit(&c, &s, o->t0, x)) == EOM_OK) {
-    if (meth->step)
-      st = fixed_run(&c, meth, o, &s, x);
-    else if (o->fixed_step)
-      st = fixed_run(&c, &dopri_fixed, o, &s, x);
+    /* fixed_step: exactly o->step, no error control (order studies). */
+    if (meth->run && !o->fixed_step)
+      st = meth->run(&c, o, &s, x);
     else
-      st = dopri_run(&c, o, &s, x);
+      st = fixed_run(&c, meth, o, &s, x);
   }
   if (st != EOM_OK && st != EOM_ESTOPPED && c.t_good > s.last_t) {
     /* Deliver the last good state so the output shows where the run ended. */

@@ -96,8 +96,15 @@ size_t dopri_work(int n);
 size_t midpoint_work(int n);
 size_t radau5_work(int n);
 
+/* An adaptive run over [o->t0, o->t_end] from x, samples at s's times. */
+typedef int (*AdaptiveRunFn)(SimContext *c, const struct eom_sim_options *o, Sampler *s,
+                             double *x);
+
 /* Adaptive Dormand–Prince run with dense output at the sample times. */
 int dopri_run(SimContext *c, const struct eom_sim_options *o, Sampler *s, double *x);
+/* Adaptive Radau IIA run (error estimate and step control of Hairer &
+** Wanner II, §IV.8) with samples from the collocation polynomial. */
+int radau5_run(SimContext *c, const struct eom_sim_options *o, Sampler *s, double *x);
 
 /* dx = -(JᵀJ + mu I)⁻¹ Jᵀ f for a singular square J (n x n, row-major);
 ** work n x n.  Returns -1 when J is zero. */
@@ -122,7 +129,7 @@ int stabilize_init(SimContext *c, const struct eom_sim_options *o, const double 
 int stabilize_project(SimContext *c, double t, double *x, int max_iter, const char *when);
 /* out = x projected as above when projection is on (else a copy); -1
 ** (out = x) when the projection fails.  For samples: reports nothing. */
-int stabilize_sample(SimContext *c, const double *x, double *out);
+int stabilize_sample(SimContext *c, double t, const double *x, double *out);
 /* Add the Baumgarte term to qdd (and c->lambda) at state x. */
 int stabilize_baumgarte(SimContext *c, double t, const double *x, double *qdd);
 

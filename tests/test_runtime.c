@@ -403,6 +403,179 @@ START_TEST(stiff_radau5_vs_rk4) {
 }
 END_TEST
 
+/* ------------------------------------------------------- adaptive radau5 */
+
+/* The Prothero–Robinson test equation (A. Prothero & A. Robinson, On the
+** stability and accuracy of one-step methods for solving stiff systems of
+** ordinary differential equations, Math. Comp. 28 (1974) 145–162; from
+** memory) y' = lambda (y - g'(t)) + g''(t), written for the rate y = q' of
+** one coordinate: q'' = lambda (q' - g'(t)) + g''(t), exact q = g(t) when
+** q(0) = g(0), q'(0) = g'(0).  lambda = -1e6 makes it stiff; our g is a
+** slow sine plus a smooth step of width 0.02 at t = 0.5, so a good step
+** size is small only near the step. */
+static const double PR_STEP = 0.5, PR_WIDTH = 0.02, PR_T = 0.5;
+static double pr_g(double t) { return sin(t) + PR_STEP * tanh((t - PR_T) / PR_WIDTH); }
+static double pr_g1(double t) {
+  double c = 1 / cosh((t - PR_T) / PR_WIDTH);
+  return cos(t) + PR_STEP / PR_WIDTH * c * c;
+}
+static double pr_g2(double t) {
+  double s = (t - PR_T) / PR_WIDTH, c = 1 / cosh(s);
+  return -sin(t) - 2 * PR_STEP / (PR_WIDTH * PR_WIDTH) * c * c * tanh(s);
+}
+static int pr_accel(double t, const double *q, const double *qd, const double *u,
+                    const double *p, double *qdd) {
+  (void)q, (void)u;
+  qdd[0] = p[0] * (qd[0] - pr_g1(t)) + pr_g2(t);
+  return 0;
+}
+static void pr_jacobian(double t, const double *x, const double *u, const double *p, double *A,
+                        double *B) {
+  (void)t, (void)x, (void)u, (void)B;
+  A[0] = 0, A[1] = 1, A[2] = 0, A[3] = p[0];
+}
+static const char *const pr_names[] = {"q"}, *const pr_params[] = {"lambda"};
+static const char *const pr_blank[] = {""};
+static const double pr_lambda[] = {-1e6}, pr_zero[] = {0};
+static const struct eom_model pr_model = {
+    .abi = EOM_MODEL_ABI, .name = "prothero_robinson", .hash = "0",
+    .nq = 1, .np = 1, .coord_names = pr_names, .coord_units = pr_blank,
+    .coord_descs = pr_blank, .param_names = pr_params, .param_units = pr_blank,
+    .param_descs = pr_blank, .param_defaults = pr_lambda, .q0 = pr_zero, .qd0 = pr_zero,
+    .accel = pr_accel, .jacobian = pr_jacobian,
+};
+
+/* Error at t_end = 4 of the Prothero–Robinson run: adaptive (h == 0) with
+** rtol = atol = tol, or fixed steps h without error control. */
+static double pr_error(double tol, double h, struct eom_report *rep) {
+  const double t_end = 4;
+  double x[2] = {pr_g(0), pr_g1(0)};
+  struct eom_sim_options o;
+  eom_sim_options_init(&o);
+  o.method = "radau5";
+  o.t_end = t_end;
+  o.rtol = o.atol = h > 0 ? 1e-12 : tol; /* fixed: Newton far below the truncation error */
+  o.step = h;
+  o.fixed_step = h > 0;
+  int st = eom_simulate(&pr_model, NULL, NULL, x, &o, NULL, NULL, rep);
+  ck_assert_msg(st == EOM_OK, "%s", rep->message);
+  return fmax(fabs(x[0] - pr_g(t_end)), fabs(x[1] - pr_g1(t_end)));
+}
+
+/* Adaptive radau5 (error estimate and step control of Hairer & Wanner,
+** Solving ODEs II, 2nd ed., 1996, §IV.8, from memory) meets the tolerance
+** on the stiff problem, and in far fewer steps than the fixed-step run
+** that reaches the same accuracy: that one must use the small step the
+** smooth step needs everywhere.  Step counts as reported by the runtime. */
+START_TEST(radau5_adaptive_stiff_steps) {
+  const double tol = 1e-6;
+  struct eom_report rep;
+  double err = pr_error(tol, 0, &rep);
+  long adaptive = rep.steps;
+  ck_assert_msg(err < 10 * tol, "error %g at rtol %g", err, tol);
+  ck_assert_msg(rep.rejected < rep.steps, "%ld rejected of %ld", rep.rejected, rep.steps);
+  double h = 0.1, fixed_err = INFINITY;
+  long fixed = 0;
+  while (fixed_err > err && h > 1e-4) {
+    fixed_err = pr_error(0, h, &rep);
+    fixed = rep.steps;
+    h /= 2;
+  }
+  ck_assert_msg(fixed_err <= err, "no fixed step reached %g", err);
+  ck_assert_msg(4 * adaptive < fixed, "adaptive %ld steps (error %g), fixed %ld (error %g)",
+                adaptive, err, fixed, fixed_err);
+}
+END_TEST
+
+/* The controller converges: three decades tighter rtol, a much smaller
+** error, still within 10 rtol; on the Prothero–Robinson problem and on the
+** stiff linear system x'' + (1e5 + 1) x' + 1e5 x = 0, whose eigenvalues
+** are exactly -1 and -1e5, x = A e^-t + B e^(-1e5 t) (closed form, common
+** practice). */
+START_TEST(radau5_tolerance_convergence) {
+  const double p[] = {1.0, 1e5, 1e5 + 1}, t_end = 3;
+  const double B = -1 / (1e5 - 1), A = 1 - B; /* x(0) = 1, x'(0) = 0 */
+  double prev_pr = INFINITY, prev_lin = INFINITY;
+  for (double tol = 1e-5; tol >= 1e-8; tol *= 1e-3) {
+    struct eom_report rep;
+    double err_pr = pr_error(tol, 0, &rep);
+    double x[2] = {1, 0};
+    ck_assert_int_eq(run(&tm_oscillator, p, NULL, x, "radau5", t_end, 0, tol, tol, NULL, NULL,
+                         &rep), EOM_OK);
+    double err_lin = fmax(fabs(x[0] - (A * exp(-t_end) + B * exp(-1e5 * t_end))),
+                          fabs(x[1] + A * exp(-t_end)));
+    ck_assert_msg(err_pr < 10 * tol && err_lin < 10 * tol, "tol %g: errors %g, %g", tol, err_pr,
+                  err_lin);
+    ck_assert_msg(err_pr < prev_pr / 20 && err_lin < prev_lin / 20,
+                  "tol %g: errors %g, %g after %g, %g", tol, err_pr, err_lin, prev_pr, prev_lin);
+    prev_pr = err_pr;
+    prev_lin = err_lin;
+  }
+}
+END_TEST
+
+/* Samples between the steps come from the collocation polynomial (Hairer
+** & Wanner II, §IV.8, from memory): on x'' = -x every sample at 0.1
+** matches cos t to the tolerance, while the steps are longer than that. */
+typedef struct CosCheck {
+  double worst;
+  int n;
+} CosCheck;
+
+static int check_cos(void *ctx, double t, const double *x, const double *u) {
+  CosCheck *c = ctx;
+  (void)u;
+  c->worst = fmax(c->worst, fmax(fabs(x[0] - cos(t)), fabs(x[1] + sin(t))));
+  c->n++;
+  return 0;
+}
+
+START_TEST(radau5_dense_samples) {
+  const double p[] = {1.0, 1.0, 0.0}, tol = 1e-7;
+  double x[2] = {1, 0};
+  CosCheck cc = {0, 0};
+  struct eom_sim_options o;
+  struct eom_report rep;
+  eom_sim_options_init(&o);
+  o.method = "radau5";
+  o.t_end = 10;
+  o.sample_dt = 0.1;
+  o.rtol = o.atol = tol;
+  ck_assert_int_eq(eom_simulate(&tm_oscillator, p, NULL, x, &o, check_cos, &cc, &rep), EOM_OK);
+  ck_assert_int_eq(cc.n, 101);
+  ck_assert_msg(rep.steps < 100, "%ld steps: the samples shortened them", rep.steps);
+  ck_assert_msg(cc.worst < 10 * tol, "worst sample error %g", cc.worst);
+}
+END_TEST
+
+/* fixed_step = 1 keeps radau5 at exactly o.step, no error control (the
+** order study integrator_orders relies on it); midpoint never adapts
+** (variable steps break its symplecticity, see runtime/implicit.c). */
+START_TEST(radau5_fixed_step_option) {
+  const double p[] = {1.0, 1.0, 0.0};
+  static const char *const methods[] = {"radau5", "midpoint"};
+  for (int k = 0; k < 2; k++) {
+    double x[2] = {1, 0};
+    struct eom_sim_options o;
+    struct eom_report rep;
+    eom_sim_options_init(&o);
+    o.method = methods[k];
+    o.t_end = 2;
+    o.step = 0.1;
+    o.fixed_step = k == 0;
+    o.rtol = 1e-3; /* loose: an adaptive run would take fewer, longer steps */
+    ck_assert_int_eq(eom_simulate(&tm_oscillator, p, NULL, x, &o, NULL, NULL, &rep), EOM_OK);
+    ck_assert_int_eq(rep.steps, 20);
+    ck_assert_int_eq(rep.rejected, 0);
+  }
+  double x[2] = {1, 0};
+  struct eom_report rep;
+  ck_assert_int_eq(run(&tm_oscillator, p, NULL, x, "radau5", 2, 0.1, 1e-3, 1e-3, NULL, NULL, &rep),
+                   EOM_OK);
+  ck_assert_msg(rep.steps < 20, "adaptive radau5 took %ld steps", rep.steps);
+}
+END_TEST
+
 /* ------------------------------------------------------------- failures */
 
 typedef struct Count {
@@ -877,6 +1050,10 @@ static Suite *runtime_suite(void) {
   tcase_add_test(tc, midpoint_energy_bounded);
   tcase_add_test(tc, midpoint_pendulum_no_drift);
   tcase_add_test(tc, stiff_radau5_vs_rk4);
+  tcase_add_test(tc, radau5_adaptive_stiff_steps);
+  tcase_add_test(tc, radau5_tolerance_convergence);
+  tcase_add_test(tc, radau5_dense_samples);
+  tcase_add_test(tc, radau5_fixed_step_option);
   tcase_add_test(tc, failure_mass_not_positive_definite);
   tcase_add_test(tc, failure_collision);
   tcase_add_test(tc, bad_arguments);
