@@ -1128,6 +1128,39 @@ static void emit_constraint_jacobian(Emitter *E) {
   fputs("}\n\n", E->out);
 }
 
+/* The constraints at time t, for time-dependent ones too: phi, G and
+** dphi/dt, which the runtime needs to keep a run on phi = 0 and
+** phi' = G qd + dphi/dt = 0.  One function: the three share most terms. */
+static void emit_constraint_at(Emitter *E) {
+  const Param ps[] = {P_T, P_Q, P_P, {-1, "double *phi", "phi"}, {-1, "double *G", "G"},
+                      {-1, "double *phi_t", "phi_t"}};
+  const EomSystem *s = E->s;
+  int nc = s->nc, nq = s->nq;
+  char lhs[64];
+  fn_reset(E);
+  add_roots(E, s->constraint, nc);
+  add_roots(E, s->constraint_jacobian, nc * nq);
+  add_roots(E, s->constraint_dt, nc);
+  fn_analyse(E);
+  assert(!needs_missing(E, VAR_BIT(IRV_T) | VAR_BIT(IRV_Q) | VAR_BIT(IRV_P)));
+  emit_signature(E, "void", "constraint_at", ps, NPARAMS(ps), 0);
+  emit_unused(E, ps, NPARAMS(ps));
+  emit_temps(E);
+  for (int i = 0; i < nc; i++) {
+    snprintf(lhs, sizeof lhs, "phi[%d]", i);
+    emit_assign(E, lhs, s->constraint[i]);
+  }
+  for (int i = 0; i < nc * nq; i++) {
+    snprintf(lhs, sizeof lhs, "G[%d]", i);
+    emit_assign(E, lhs, s->constraint_jacobian[i]);
+  }
+  for (int i = 0; i < nc; i++) {
+    snprintf(lhs, sizeof lhs, "phi_t[%d]", i);
+    emit_assign(E, lhs, s->constraint_dt[i]);
+  }
+  fputs("}\n\n", E->out);
+}
+
 /* M qdd = f + G^T lambda with G qdd = gamma: qdd = M^-1 f + Y lambda where
 ** Y = M^-1 G^T, and (G Y) lambda = gamma - G M^-1 f (a small dense system). */
 static void emit_accel_constrained(Emitter *E) {
@@ -1331,13 +1364,17 @@ static void emit_header(Emitter *E) {
     fprintf(o,
       "void %s_constraint(const double *q, const double *p, double *phi);   /* NC */\n"
       "void %s_constraint_jacobian(const double *q, const double *p, double *G);   /* NC x NQ */\n"
+      "/* phi, G and dphi/dt at time t (time-dependent constraints too):\n"
+      "** phi' = G qd + dphi/dt. */\n"
+      "void %s_constraint_at(double t, const double *q, const double *p, double *phi, double *G,\n"
+      "  double *phi_t);\n"
       "/* M qdd = f + G^T lambda with G qdd = gamma, where phi = left - right of\n"
       "** each `constraint` (source order) and G = dphi/dq: the generalized\n"
       "** constraint force is +G^T lambda.  Returns 1 when M, 2 when G M^-1 G^T\n"
       "** is not positive definite (dependent constraints: G loses rank). */\n"
       "int %s_accel_constrained(double t, const double *q, const double *qd, const double *u,\n"
       "  const double *p, double *qdd, double *lambda);\n",
-      P, P, P);
+      P, P, P, P);
   emit_control_prototypes(o, m, s, P);
   fprintf(o, "\n#ifndef EOM_NO_DESCRIPTOR\nstruct eom_model;\nextern const struct eom_model %s_model;\n#endif\n", P);
   fprintf(o, "\n#ifdef __cplusplus\n}\n#endif\n#endif\n");
@@ -1500,6 +1537,8 @@ static void emit_descriptor(Emitter *E) {
     fprintf(o, "  0, 0, 0,\n");
   emit_control_fields(o, s, P);
   fprintf(o, "  %s_derived_params,\n", P);
+  if (s->nc) fprintf(o, "  %s_constraint_at,\n", P);
+  else fputs("  0,\n", o);
   fprintf(o, "};\n#endif\n");
   free(q0);
   free(qd0);
@@ -1523,6 +1562,7 @@ static void emit_source(Emitter *E) {
   if (E->s->nc) {
     emit_constraint(E);
     emit_constraint_jacobian(E);
+    emit_constraint_at(E);
     emit_accel_constrained(E);
   }
   emit_control_functions(E, E->out, E->s);

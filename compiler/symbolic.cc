@@ -1495,11 +1495,12 @@ void Derivation::run(EomSystem *out) {
 
   /* constraints: phi, G = dphi/dq and gamma = -(phi'' at q'' = 0), so that G q'' = gamma */
   const int nc = (int)constraints_.size();
-  std::vector<ex> phi(nc), G((size_t)nc * n), gamma(nc);
+  std::vector<ex> phi(nc), G((size_t)nc * n), gamma(nc), phi_t(nc);
   for (int c = 0; c < nc; c++) {
     phi[c] = constraints_[c].second;
     for (int j = 0; j < n; j++) G[(size_t)c * n + j] = dq_[j](phi[c]);
     gamma[c] = -zero_qdd(totald(totald(phi[c])));
+    phi_t[c] = dt_(phi[c]);
     tick("deriving the constraints");
   }
 
@@ -1548,6 +1549,8 @@ void Derivation::run(EomSystem *out) {
   for (int c = 0; c < nc; c++)
     for (int j = 0; j < n; j++) h_G.push_back(b.add_root(G[(size_t)c * n + j], none));
   for (int c = 0; c < nc; c++) h_gamma.push_back(b.add_root(gamma[c], none));
+  std::vector<int> h_phi_t;
+  for (int c = 0; c < nc; c++) h_phi_t.push_back(b.add_root(phi_t[c], none));
   std::vector<int> h_cor, h_grav, h_mom;
   for (const ex &e : ctl.coriolis) h_cor.push_back(b.add_root(e, none));
   for (const ex &e : ctl.gravity) h_grav.push_back(b.add_root(e, none));
@@ -1590,6 +1593,7 @@ void Derivation::run(EomSystem *out) {
   out->constraint = place(h_phi, nc);
   out->constraint_jacobian = place(h_G, (size_t)nc * n);
   out->constraint_gamma = place(h_gamma, nc);
+  out->constraint_dt = place(h_phi_t, nc);
   out->has_split = ctl.split;
   snprintf(out->split_why, sizeof out->split_why, "%s", ctl.split_why.c_str());
   out->coriolis = ctl.split ? place(h_cor, (size_t)n * n) : nullptr;
@@ -1702,6 +1706,7 @@ extern "C" void sym_free(EomSystem *s) {
   free(s->constraint);
   free(s->constraint_jacobian);
   free(s->constraint_gamma);
+  free(s->constraint_dt);
   free(s->coriolis);
   free(s->gravity);
   free(s->momenta);

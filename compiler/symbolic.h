@@ -34,6 +34,7 @@ typedef struct EomSystem {
   int *constraint;    /* nc     phi(q, p) (t allowed) */
   int *constraint_jacobian;  /* nc*nq  G = dphi/dq */
   int *constraint_gamma;     /* nc     gamma with G qdd = gamma */
+  int *constraint_dt;        /* nc     dphi/dt (explicit time), so phi' = G qd + dphi/dt */
   /* symbolic_control.cc: M qdd + C qd + g = Q - dD/dqd, momenta, constants
   ** of the motion */
   int has_split;             /* L = qd^T M qd / 2 - V(q), free of t and u */

@@ -1,6 +1,6 @@
 /*
 ** stabilize.c — keep a simulation of a constrained model on its
-** constraints phi(q) = 0.
+** constraints phi(q, t) = 0.
 **
 ** The index-1 form M q'' = f + Gᵀλ, G q'' = gamma only fixes the second
 ** derivative of phi, so rounding and truncation errors make phi and phi'
@@ -15,12 +15,15 @@
 **    range-space update q'' += M⁻¹Gᵀ mu, λ += mu with (G M⁻¹ Gᵀ) mu = delta.
 **  - Projection after every accepted step: Gauss–Newton on phi(q) = 0 with
 **    minimum-norm corrections dq = -Gᵀ (G Gᵀ)⁻¹ phi, then the rates are
-**    projected onto G q' = 0 the same way.  The same projection puts the
-**    user's initial guess on the constraints before the run.
+**    projected onto phi' = G q' + dphi/dt = 0 the same way.  The same
+**    projection puts the user's initial guess on the constraints before
+**    the run.
 **
-** The descriptor's constraint() takes no time, so a constraint that depends
-** on t explicitly evaluates to NaN there; such models are integrated through
-** accel_constrained alone (stabilization is off, see docs/runtime.md).
+** Constraints are read through the descriptor's constraint_at(t, ...), so
+** time-dependent ones are kept too.  A hand-written descriptor without it
+** falls back to the time-free constraint(); a constraint that depends on t
+** evaluates to NaN there, and such a model is integrated through
+** accel_constrained alone (stabilization off).
 */
 #include <assert.h>
 #include <float.h>
@@ -108,16 +111,17 @@ int stabilize_init(SimContext *c, const struct eom_sim_options *o, const double 
   const struct eom_model *m = c->m;
   int nq = m->nq, nc = m->nc;
   c->cs_active = 0;
-  if (nc <= 0 || !m->constraint || !m->constraint_jacobian) return EOM_OK;
-  size_t size = (size_t)nq * nq + 2 * (size_t)nc * nq + (size_t)nc * nc + 3 * (size_t)nc +
+  if (nc <= 0 || (!m->constraint_at && (!m->constraint || !m->constraint_jacobian))) return EOM_OK;
+  size_t size = (size_t)nq * nq + 3 * (size_t)nc * nq + (size_t)nc * nc + 4 * (size_t)nc +
                 3 * (size_t)nq + (size_t)c->n;
   c->cs_work = calloc(size + (size_t)c->n, sizeof(double));
   if (!c->cs_work) return EOM_ENOMEM;
   c->cs_sample = c->cs_work + size;
-  /* A time-dependent constraint has no value without t: see the header. */
-  m->constraint(x, c->p, c->cs_work);
-  for (int k = 0; k < nc; k++)
-    if (isnan(c->cs_work[k])) return EOM_OK;
+  if (!m->constraint_at) { /* time-free only: a time-dependent one is NaN here */
+    m->constraint(x, c->p, c->cs_work);
+    for (int k = 0; k < nc; k++)
+      if (isnan(c->cs_work[k])) return EOM_OK;
+  }
   c->cs_active = 1;
   c->cs_project = !o->no_projection;
   c->cs_alpha = o->baumgarte_alpha;
@@ -126,10 +130,10 @@ int stabilize_init(SimContext *c, const struct eom_sim_options *o, const double 
   return EOM_OK;
 }
 
-/* Scratch of the stabilizer: M (nq x nq), G and Y (nc x nq), S (nc x nc),
-** phi, r, mu (nc), dq, q_old, y (nq), a state copy (n). */
+/* Scratch of the stabilizer: M (nq x nq), G, Y and G_spare (nc x nq),
+** S (nc x nc), phi, phi_t, r, mu (nc), dq, q_old, y (nq), a state copy (n). */
 typedef struct Scratch {
-  double *M, *G, *Y, *S, *phi, *r, *mu, *dq, *q_old, *y, *x;
+  double *M, *G, *Y, *G_spare, *S, *phi, *phi_t, *r, *mu, *dq, *q_old, *y, *x;
 } Scratch;
 
 static Scratch scratch(const SimContext *c) {
@@ -138,9 +142,11 @@ static Scratch scratch(const SimContext *c) {
   s.M = c->cs_work;
   s.G = s.M + (size_t)nq * nq;
   s.Y = s.G + (size_t)nc * nq;
-  s.S = s.Y + (size_t)nc * nq;
+  s.G_spare = s.Y + (size_t)nc * nq;
+  s.S = s.G_spare + (size_t)nc * nq;
   s.phi = s.S + (size_t)nc * nc;
-  s.r = s.phi + nc;
+  s.phi_t = s.phi + nc;
+  s.r = s.phi_t + nc;
   s.mu = s.r + nc;
   s.dq = s.mu + nc;
   s.q_old = s.dq + nq;
@@ -149,21 +155,36 @@ static Scratch scratch(const SimContext *c) {
   return s;
 }
 
-/* Gauss–Newton on phi(q) = 0 from q, then the rates onto G q' = 0.
+/* phi at (t, q); G and phi_t too unless NULL (phi_t is 0 without constraint_at). */
+static void constraints(const SimContext *c, double t, const double *q, double *phi, double *G,
+                        double *phi_t) {
+  const struct eom_model *m = c->m;
+  Scratch s = scratch(c);
+  if (m->constraint_at) {
+    m->constraint_at(t, q, c->p, phi, G ? G : s.G_spare, phi_t ? phi_t : s.phi_t);
+    return;
+  }
+  m->constraint(q, c->p, phi);
+  if (G) m->constraint_jacobian(q, c->p, G);
+  if (phi_t) memset(phi_t, 0, (size_t)m->nc * sizeof(double));
+}
+
+/* Gauss–Newton on phi(q, t) = 0 from q, then the rates onto
+** G q' + dphi/dt = 0.
 ** Returns EOM_OK, EOM_ENEWTON (no convergence within max_iter) or
 ** EOM_ESINGULAR (G loses rank); *res and *worst give max|phi| and the
 ** equation where it is largest. */
-static int project(SimContext *c, double *x, int max_iter, double *res, int *worst) {
+static int project(SimContext *c, double t, double *x, int max_iter, double *res, int *worst) {
   const struct eom_model *m = c->m;
   int nq = m->nq, nc = m->nc;
   Scratch s = scratch(c);
   double *q = x, *qd = x + nq;
-  m->constraint(q, c->p, s.phi);
+  constraints(c, t, q, s.phi, NULL, NULL);
   double r = max_abs(nc, s.phi, worst);
   int converged = r <= c->cs_tol;
   for (int it = 0; !converged && it < max_iter; it++) {
     if (!isfinite(r)) break;
-    m->constraint_jacobian(q, c->p, s.G);
+    constraints(c, t, q, s.phi, s.G, NULL);
     if (factor_ggt(nq, nc, s.G, s.S) != 0) {
       *res = r;
       return EOM_ESINGULAR;
@@ -176,7 +197,7 @@ static int project(SimContext *c, double *x, int max_iter, double *res, int *wor
     double step = 1, r_new = INFINITY;
     for (int half = 0; half < 30; half++, step /= 2) {
       for (int i = 0; i < nq; i++) q[i] = s.q_old[i] + step * s.dq[i];
-      m->constraint(q, c->p, s.phi);
+      constraints(c, t, q, s.phi, NULL, NULL);
       r_new = max_abs(nc, s.phi, worst);
       if (r_new < r) break;
     }
@@ -184,7 +205,7 @@ static int project(SimContext *c, double *x, int max_iter, double *res, int *wor
     int stalled = !(r_new < r);
     if (stalled) { /* keep the best point */
       memcpy(q, s.q_old, (size_t)nq * sizeof(double));
-      m->constraint(q, c->p, s.phi);
+      constraints(c, t, q, s.phi, NULL, NULL);
       max_abs(nc, s.phi, worst);
     } else {
       r = r_new;
@@ -199,11 +220,11 @@ static int project(SimContext *c, double *x, int max_iter, double *res, int *wor
   }
   *res = r;
   if (!converged) return EOM_ENEWTON;
-  /* Rates: the minimum-norm change that makes G q' = 0. */
-  m->constraint_jacobian(q, c->p, s.G);
+  /* Rates: the minimum-norm change that makes phi' = G q' + dphi/dt = 0. */
+  constraints(c, t, q, s.phi, s.G, s.phi_t);
   if (factor_ggt(nq, nc, s.G, s.S) != 0) return EOM_ESINGULAR;
   for (int k = 0; k < nc; k++) {
-    double v = 0;
+    double v = s.phi_t[k];
     for (int i = 0; i < nq; i++) v += s.G[k * nq + i] * qd[i];
     s.r[k] = v;
   }
@@ -217,7 +238,7 @@ int stabilize_project(SimContext *c, double t, double *x, int max_iter, const ch
   int n = c->n, worst = 0;
   double res = 0;
   memcpy(s.x, x, (size_t)n * sizeof(double));
-  int st = project(c, x, max_iter, &res, &worst);
+  int st = project(c, t, x, max_iter, &res, &worst);
   if (st == EOM_OK) return EOM_OK;
   memcpy(x, s.x, (size_t)n * sizeof(double));
   char what[256];
@@ -233,12 +254,12 @@ int stabilize_project(SimContext *c, double t, double *x, int max_iter, const ch
   return sim_fail(c, st, t, x, what);
 }
 
-int stabilize_sample(SimContext *c, const double *x, double *out) {
+int stabilize_sample(SimContext *c, double t, const double *x, double *out) {
   int worst;
   double res;
   memcpy(out, x, (size_t)c->n * sizeof(double));
   if (!c->cs_active || !c->cs_project) return 0;
-  if (project(c, out, 10, &res, &worst) != EOM_OK) {
+  if (project(c, t, out, 10, &res, &worst) != EOM_OK) {
     memcpy(out, x, (size_t)c->n * sizeof(double));
     return -1;
   }
@@ -251,11 +272,10 @@ int stabilize_baumgarte(SimContext *c, double t, const double *x, double *qdd) {
   if (!c->cs_active || (c->cs_alpha == 0 && c->cs_beta == 0)) return EOM_OK;
   Scratch s = scratch(c);
   const double *q = x, *qd = x + nq;
-  m->constraint(q, c->p, s.phi);
-  m->constraint_jacobian(q, c->p, s.G);
-  /* delta = -2 alpha phi' - beta² phi with phi' = G q' (scleronomic). */
+  constraints(c, t, q, s.phi, s.G, s.phi_t);
+  /* delta = -2 alpha phi' - beta² phi with phi' = G q' + dphi/dt */
   for (int k = 0; k < nc; k++) {
-    double v = 0;
+    double v = s.phi_t[k];
     for (int i = 0; i < nq; i++) v += s.G[k * nq + i] * qd[i];
     s.mu[k] = -2 * c->cs_alpha * v - c->cs_beta * c->cs_beta * s.phi[k];
   }

@@ -126,6 +126,7 @@ static void fixture_free(Fixture *f) {
   free(f->s.mass); free(f->s.forcing); free(f->s.dmass_dq); free(f->s.dforcing_dq);
   free(f->s.dforcing_dqd); free(f->s.dforcing_du); free(f->s.inverse); free(f->s.outputs);
   free(f->s.constraint); free(f->s.constraint_jacobian); free(f->s.constraint_gamma);
+  free(f->s.constraint_dt);
 }
 
 /* Mass–spring–damper with a force input:  m x'' = -k x - c x' + F. */
@@ -446,6 +447,8 @@ static void build_cartesian_pendulum(Fixture *f) {
   f->s.constraint = ints(1);
   f->s.constraint_jacobian = ints(2);
   f->s.constraint_gamma = ints(1);
+  f->s.constraint_dt = ints(1);
+  f->s.constraint_dt[0] = f->zero;
   f->s.constraint[0] = add3(b, powr(b, x, 2), powr(b, y, 2), neg(b, powr(b, L, 2)));
   f->s.constraint_jacobian[0] = mul2(b, num(b, 2), x);
   f->s.constraint_jacobian[1] = mul2(b, num(b, 2), y);
@@ -464,6 +467,9 @@ static const char constrained_driver[] =
   "  cp_constraint(q, p, phi); cp_constraint_jacobian(q, p, G);\n"
   "  printf(\"%.17g %.17g %.17g %.17g %.17g %.17g\\n\", qdd[0], qdd[1], lam[0], phi[0], G[0], G[1]);\n"
   "  printf(\"%d %d\\n\", cp_model.nc, cp_model.accel_constrained != 0);\n"
+  "  { double phi2[1], G2[2], pt[1];\n"
+  "    cp_model.constraint_at(5.0, q, p, phi2, G2, pt);\n"
+  "    printf(\"at %d\\n\", phi2[0] == phi[0] && G2[0] == G[0] && G2[1] == G[1] && pt[0] == 0.0); }\n"
   "  q[0] = q[1] = 0.0;   /* G = 0: the constraint gives no direction */\n"
   "  printf(\"%d\\n\", cp_accel_constrained(0.0, q, qd, 0, p, qdd, lam));\n"
   "  return 0;\n}\n";
@@ -486,7 +492,7 @@ START_TEST(test_constraints) {
   ck_assert_double_eq_tol(v[3], 0.0, 1e-15);
   ck_assert_double_eq_tol(v[4], 2 * x, 1e-15);
   ck_assert_double_eq_tol(v[5], 2 * y, 1e-15);
-  ck_assert_ptr_nonnull(strstr(out, "\n1 1\n2\n"));
+  ck_assert_ptr_nonnull(strstr(out, "\n1 1\nat 1\n2\n"));
   free(out);
   fixture_free(&f);
 }

@@ -540,6 +540,34 @@ START_TEST(sim_derived_params_follow) {
 }
 END_TEST
 
+/* A time-dependent constraint is kept: a sleeve free on a rod turned at a
+** steady rate w, released at r0 without radial speed, slides out as
+** r = r0 cosh(w t) (r'' = w^2 r in the rod's frame; closed form, common
+** practice).  The model starts with the sleeve at rest, so the run must
+** first move the rates onto phi' = G q' + dphi/dt = 0 (y' = w r0), and every
+** row must stay on phi = 0. */
+START_TEST(sim_time_dependent_constraint) {
+  char *argv[] = {(char *)eomc(), "sim", model_path("turning_rod.eom"), "--until", "1.5",
+                  "--step", "0.05", "--rtol", "1e-11", "--atol", "1e-13", NULL};
+  RunResult r = run_argv(argv);
+  ck_assert_msg(r.status == 0, "status %d: %s", r.status, r.err);
+  int n;
+  double *t = csv_column(r.out, 0, &n), *x = csv_column(r.out, 1, &n), *y = csv_column(r.out, 2, &n);
+  ck_assert_int_eq(n, 31);
+  const double r0 = 0.2, w = 1.5;
+  for (int k = 0; k < n; k++) {
+    double phi = y[k] * cos(w * t[k]) - x[k] * sin(w * t[k]), rad = hypot(x[k], y[k]);
+    ck_assert_msg(fabs(phi) < 1e-10, "t = %g: phi = %.3g", t[k], phi);
+    ck_assert_msg(fabs(rad - r0 * cosh(w * t[k])) < 1e-7 * cosh(w * t[k]),
+                  "t = %g: r = %.12g, want %.12g", t[k], rad, r0 * cosh(w * t[k]));
+  }
+  free(t);
+  free(x);
+  free(y);
+  run_free(&r);
+}
+END_TEST
+
 static Suite *sim_suite(void) {
   Suite *s = suite_create("sim");
   TCase *tc = tcase_create("cli");
@@ -559,6 +587,7 @@ static Suite *sim_suite(void) {
   tcase_add_test(tc, sim_cache);
   tcase_add_test(tc, sim_plot_svg);
   tcase_add_test(tc, sim_derived_params_follow);
+  tcase_add_test(tc, sim_time_dependent_constraint);
   suite_add_tcase(s, tc);
   return s;
 }

@@ -69,6 +69,11 @@ struct eom_model {
   ** flagged in given (np ints, or NULL: recompute them all).  Generated
   ** models always set it; NULL (hand-written descriptors): no such params. */
   void (*derived_params)(double *p, const int *given);
+  /* Since ABI 3: the constraints at time t (time-dependent ones too): phi
+  ** (nc), G = dphi/dq (nc x nq) and dphi/dt (nc), so phi' = G qd + dphi/dt.
+  ** NULL when nc == 0 (and in hand-written descriptors without it). */
+  void (*constraint_at)(double t, const double *q, const double *p, double *phi, double *G,
+                        double *phi_t);
 };
 
 #ifdef __cplusplus
