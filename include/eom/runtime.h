@@ -80,14 +80,15 @@ struct eom_sim_options {
   double t0, t_end;
   double step;         /* fixed-step methods: largest step, shortened so that
                           equal steps land on every sample (0: sample_dt, or
-                          span/1000); dopri: first trial step (0: automatic) */
+                          span/1000); dopri, radau5: first trial step (0:
+                          automatic) */
   double sample_dt;    /* time between samples; 0: a sample after every step */
-  double rtol, atol;   /* dopri error tolerances; implicit methods: Newton
-                          tolerance (defaults 1e-8 and 1e-10) */
+  double rtol, atol;   /* dopri and radau5 error tolerances; implicit methods:
+                          also the Newton tolerance (defaults 1e-8 and 1e-10) */
   double h_min;        /* smallest step before EOM_ESTEP (0: automatic) */
   long max_steps;      /* 0: no limit */
-  int fixed_step;      /* dopri: fixed steps as the fixed-step methods take
-                          them, no error control (for order studies) */
+  int fixed_step;      /* dopri, radau5: fixed steps as the fixed-step methods
+                          take them, no error control (for order studies) */
   /* Models with constraints (nc > 0), see docs/runtime.md: */
   int no_initial_fix;  /* 1: start from x as given; default: Gauss–Newton
                           first moves q onto phi(q) = 0 and q' onto G q' = 0
