@@ -2,7 +2,8 @@
 
 generate(seed) builds one model as a small expression tree: 1-4 coordinates,
 a kinetic energy T = 1/2 q'^T (L L^T + eps I) q' (+ 1/2 c y'^2 for lets y),
-so the mass matrix is positive definite by construction, random potentials,
+so the mass matrix is positive definite by construction (bodies, some on
+chains of 4x4 dh transforms, only add to it), random potentials,
 Lagrangian terms linear in the rates, Rayleigh dissipation and generalized
 forces with inputs.  The same tree is printed as .eom text (to_eom) and
 turned into SymPy expressions (to_sympy in reference.py), so both sides
@@ -262,6 +263,199 @@ def add_bodies(rng, m, g, used):
         m.terms.append(("potential", None, ("call", "dot", [c, c]), False))
 
 
+def revolute_angle(rng, m, timed):
+    """A joint angle: a coordinate, a sum or multiple of coordinates, an
+    offset by a param, or (first joint only) a time-varying offset."""
+    q = ("var", rng.choice(m.coords))
+    k = rng.randrange(7)
+    if k == 1 and len(m.coords) > 1:
+        return ("add", q, ("var", rng.choice([c for c in m.coords if c != q[1]])))
+    if k == 2:
+        return ("mul", num("2"), q)
+    if k == 3:
+        return ("neg", q)
+    if k == 4 and m.params:
+        return ("add", q, ("var", rng.choice(m.params)[0]))
+    if k == 5 and timed:
+        # t only in the first step from the base: a rigid motion of the base
+        # frame leaves the part of T quadratic in q' (so M) free of t.
+        return ("add", q, ("mul", num(number_text(rng, 0.1, 0.5)), ("call", "sin", [("t",)])))
+    return q
+
+
+def length(rng, m, zero=0.3):
+    """A dh length: zero, a number or a param."""
+    r = rng.random()
+    if r < zero:
+        return num("0")
+    if r < 0.7 or not m.params:
+        return num(number_text(rng, 0.1, 1.0))
+    return ("var", rng.choice(m.params)[0])
+
+
+def twist(rng, m):
+    """A dh twist alpha: mostly 0 or +-pi/2, sometimes a number or a param."""
+    r = rng.random()
+    if r < 0.3:
+        return num("0")
+    if r < 0.5:
+        return ("div", ("pi",), num("2"))
+    if r < 0.7:
+        return ("neg", ("div", ("pi",), num("2")))
+    if r < 0.85 or not m.params:
+        return num(number_text(rng, 0.2, 1.2))
+    return ("var", rng.choice(m.params)[0])
+
+
+def dh_step(rng, m, timed):
+    """dh(theta, d, a, alpha) of a revolute, prismatic or fixed joint."""
+    r = rng.random()
+    if r < 0.6:
+        theta, d = revolute_angle(rng, m, timed), length(rng, m, 0.5)
+    elif r < 0.9:
+        # prismatic: the coordinate (plus an offset) is the joint distance d
+        q = ("var", rng.choice(m.coords))
+        d = q if rng.random() < 0.6 else ("add", q, num(number_text(rng, 0.2, 0.8)))
+        theta = rng.choice([num("0"), num(number_text(rng, 0.2, 1.0)), ("div", ("pi",), num("2"))])
+    else:
+        theta, d = num(number_text(rng, 0.2, 1.0)), length(rng, m)
+    return ("call", "dh", [theta, d, length(rng, m), twist(rng, m)])
+
+
+def turns_of_step(step):
+    """The rotation of a dh step as rotz(theta)*rotx(alpha) (its shifts
+    do not turn): another spelling of rot() of a chain."""
+    theta, alpha = step[2][0], step[2][3]
+    return ("mul", ("call", "rotz", [theta]), ("call", "rotx", [alpha]))
+
+
+def add_chain(rng, m, g, used):
+    """Bodies placed on a kinematic chain of 4x4 dh transforms (the symbolic
+    core's placed-body route): 1-4 steps, sometimes branching from an
+    earlier frame, bodies at pos(T) + rot(T)*c with orientation rot(T) or
+    another spelling of it, point masses, offsets that move with a
+    coordinate, and a chain of rotx/roty/rotz alone; gravity, forces at
+    points, torques on frames, potentials and outputs of chain points."""
+    params = [("var", n) for n, _ in m.params]
+    nsteps = rng.randint(1, 4)
+    names = pick_names(rng, nsteps, "T", used, False)
+    parent, steps, spelled = [], [], []
+    timed = rng.random() < 0.15
+    base = rng.random() < 0.1   # a literal 4x4 base transform: not a product of turns
+    for j, name in enumerate(names):
+        step = dh_step(rng, m, timed and j == 0)
+        if j == 0:
+            par = None
+            e = step
+            if base:
+                lit = [[num("1"), num("0"), num("0"), num(number_text(rng, 0.1, 0.5))],
+                       [num("0"), num("1"), num("0"), num("0")],
+                       [num("0"), num("0"), num("1"), num(number_text(rng, 0.1, 0.5))],
+                       [num("0"), num("0"), num("0"), num("1")]]
+                e = ("mul", ("mat", lit), step)
+            spell = None if base else turns_of_step(step)
+        else:
+            # mostly the previous frame; sometimes a branch off an earlier one
+            par = j - 1 if j < 2 or rng.random() < 0.7 else rng.randrange(j - 1)
+            e = ("mul", ("var", names[par]), step)
+            spell = None if spelled[par] is None else ("mul", spelled[par], turns_of_step(step))
+        parent.append(par)
+        steps.append(e)
+        spelled.append(spell)
+        m.lets.append((name, e))
+        m.vector_lets.add(name)
+        if uses_time(e, m.timed_lets):
+            m.timed_lets.add(name)
+    # every frame that is nobody's parent carries a body (no unused lets)
+    leaves = [j for j in range(nsteps) if j not in parent]
+    extra = [j for j in range(nsteps) if j not in leaves and rng.random() < 0.3]
+    frames = (leaves + extra)[:3]
+    points, rots, point_lets = [], [], []
+    for j in frames:
+        Tn = ("var", names[j])
+        P, R = ("call", "pos", [Tn]), ("call", "rot", [Tn])
+        k = rng.randrange(6)
+        if k == 0:
+            point = P
+        elif k == 1:
+            c = [num(number_text(rng, 0.05, 0.5)), rng.choice(params + [num("0")]), num(number_text(rng, 0.1, 0.6))]
+            point = ("add", P, ("mul", R, ("vec", c)))
+        elif k == 2:
+            point = ("add", ("mul", R, ("vec", [num("0"), num("0"), num(number_text(rng, 0.1, 0.6))])), P)
+        elif k == 3:
+            # a mass centre that slides along the link with a coordinate
+            point = ("add", P, ("mul", R, ("vec", [("var", rng.choice(m.coords)), num("0"), num("0.1")])))
+        elif k == 4:
+            point = ("add", P, ("mul", num("0.5"), ("mul", R, ("vec", [num("0.2"), rng.choice(params), num("0")]))))
+        else:
+            # through a vector let
+            pname = pick_names(rng, 1, "r", used, False)[0]
+            m.lets.append((pname, ("add", P, ("mul", R, ("vec", [num("0"), num(number_text(rng, 0.1, 0.5)), num("0")])))))
+            m.vector_lets.add(pname)
+            point = ("var", pname)
+            point_lets.append(pname)
+        points.append(point)
+        rots.append(R)
+        orient = inertia = None
+        if rng.random() < 0.65:
+            k = rng.randrange(10)
+            if k < 5:
+                orient = R
+            elif k < 7 and spelled[j] is not None:
+                orient = spelled[j]
+            elif k < 8:
+                orient = ("mul", R, ("call", rng.choice(["rotx", "roty", "rotz"]), [num(number_text(rng, 0.2, 1.0))]))
+            else:
+                # an orientation unrelated to the frame of the point
+                orient = ("mul", ("call", rng.choice(["rotx", "roty", "rotz"]), [("var", rng.choice(m.coords))]),
+                          ("call", rng.choice(["rotx", "roty", "rotz"]), [("var", rng.choice(m.coords))]))
+            inertia = body_inertia(rng, params)
+        name = pick_names(rng, 1, "b", used, False)[0]
+        m.terms.append(("body", name, (rng.choice(params + [num(number_text(rng, 0.3, 2.0))]), point, orient, inertia), False))
+    if rng.random() < 0.3:
+        # a chain of rotx/roty/rotz alone: the direction R*l from the origin
+        R = None
+        for _ in range(rng.randint(1, 2)):
+            r = ("call", rng.choice(["rotx", "roty", "rotz"]), [revolute_angle(rng, m, False)])
+            R = r if R is None else ("mul", R, r)
+        point = ("mul", R, ("vec", [num("0"), rng.choice(params), num(number_text(rng, 0.2, 0.8))]))
+        orient, inertia = (R, body_inertia(rng, params)) if rng.random() < 0.6 else (None, None)
+        name = pick_names(rng, 1, "b", used, False)[0]
+        m.terms.append(("body", name, (rng.choice(params), point, orient, inertia), False))
+        points.append(point)
+        rots.append(R)
+    if rng.random() < 0.7:
+        G = [rng.choice([num("0"), num(number_text(rng, 0.1, 1.0))]) for _ in range(2)]
+        G.append(("neg", rng.choice(params + [num("9.81")])))
+        rng.shuffle(G)
+        m.terms.append(("gravity", None, ("vec", G), False))
+    if rng.random() < 0.25:
+        F = ("vec", [g.expr(1, {"q", "p", "u", "t"}) for _ in range(3)])
+        m.terms.append(("force_at", None, (F, rng.choice(points)), False))
+    if rng.random() < 0.2:
+        tau = ("vec", [g.expr(1, {"q", "p", "u"}) for _ in range(3)])
+        m.terms.append(("torque_on", None, (tau, rng.choice(rots)), False))
+    if rng.random() < 0.3:
+        p = rng.choice(points)
+        m.terms.append(("potential", None, ("mul", rng.choice(params), ("call", "dot", [p, p])), False))
+    if point_lets and rng.random() < 0.5:
+        m.outputs.append((pick_names(rng, 1, "tip", used, False)[0],
+                          ("index", ("var", rng.choice(point_lets)), rng.randint(1, 3))))
+
+
+def body_inertia(rng, params):
+    """A positive definite inertia: diagonal or full symmetric."""
+    k = rng.randrange(3)
+    if k == 0:
+        return ("call", "diag", [rng.choice(params), num(number_text(rng, 0.2, 1.0)),
+                                 num(number_text(rng, 0.2, 1.0))])
+    if k == 1:
+        return ("mul", rng.choice(params), ("call", "diag", [num("1"), num("2"), num("1.5")]))
+    d = num(number_text(rng, 0.05, 0.3))   # diagonally dominant: positive definite
+    return ("mat", [[num("2"), d, num("0")], [d, num("1.5"), num("0.1")],
+                    [num("0"), num("0.1"), rng.choice(params)]])
+
+
 def pick_names(rng, count, stem, used, tricky):
     names = []
     for i in range(count):
@@ -313,6 +507,10 @@ def generate(seed, max_coords=4):
         m.lets.append((name, e))
 
     bodies = n <= 3 and rng.random() < 0.35
+    # A quarter of the models with up to 4 coordinates put their bodies on
+    # 4x4 dh chains instead.  The choice has its own random stream, so the
+    # other seeds' models stay exactly what they were.
+    chain = n <= 4 and random.Random(seed * 6151 + 11).random() < 0.25
 
     # Kinetic energy: one square per column of a lower-triangular L(q)
     # plus eps/2 |q'|^2, so M = L L^T + eps I is positive definite.
@@ -373,7 +571,9 @@ def generate(seed, max_coords=4):
             term = ("mul", g.expr(1, {"q", "p"}), ("rate", ("var", c)))
             b = term if b is None else ("add", b, term)
         m.terms.append(("dissipation", None, ("mul", num("0.5"), ("pow", b, num("2"))), False))
-    if bodies:
+    if chain:
+        add_chain(rng, m, g, used)
+    elif bodies:
         add_bodies(rng, m, g, used)
     if n >= 2 and rng.random() < 0.25:
         # Holonomic constraints, each solved for its own coordinate so the

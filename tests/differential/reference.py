@@ -39,14 +39,54 @@ def rotation(axis):
     return r
 
 
+def homogeneous(R, p):
+    """The 4x4 transform [[R, p], [0 0 0, 1]]."""
+    T = sympy.eye(4)
+    T[:3, :3] = R
+    T[:3, 3] = p
+    return T
+
+
+def denavit_hartenberg(theta, d, a, alpha):
+    """Standard Denavit-Hartenberg transform, built as the product
+    rotz(theta) transl(0, 0, d) transl(a, 0, 0) rotx(alpha) of explicit 4x4
+    matrices (J. Denavit, R. S. Hartenberg, "A kinematic notation for
+    lower-pair mechanisms based on matrices", J. Appl. Mech. 1955; M. W.
+    Spong, S. Hutchinson, M. Vidyasagar, "Robot Modeling and Control",
+    2006, section 3.2, eq. 3.10)."""
+    zero, I3 = sympy.zeros(3, 1), sympy.eye(3)
+    return (homogeneous(rotation("z")(theta), zero) * homogeneous(I3, sympy.Matrix([0, 0, d])) *
+            homogeneous(I3, sympy.Matrix([a, 0, 0])) * homogeneous(rotation("x")(alpha), zero))
+
+
 MATRIX_FUNCTIONS = {
     "rotx": rotation("x"), "roty": rotation("y"), "rotz": rotation("z"),
+    "dh": denavit_hartenberg,
+    "pos": lambda T: T[:3, 3],
+    "rot": lambda T: T[:3, :3],
     "diag": lambda *a: sympy.diag(*a),
     "dot": lambda a, b: (a.T * b)[0],
     "cross": lambda a, b: a.cross(b),
     "norm": lambda a: sympy.sqrt((a.T * a)[0]),
     "transpose": lambda a: a.T,
 }
+
+
+class Bundle:
+    """Named lists of expressions compiled into one mpmath function, so that
+    their common subexpressions are computed once."""
+
+    def __init__(self, args, named):
+        self.names = [(name, len(exprs)) for name, exprs in named]
+        flat = [x for _, exprs in named for x in exprs]
+        self.fn = sympy.lambdify(args, flat, modules="mpmath", cse=True)
+
+    def __call__(self, args):
+        flat, out, k = self.fn(*args), {}, 0
+        for name, count in self.names:
+            out[name] = flat[k:k + count]
+            k += count
+        return out
 
 
 class Reference:
@@ -100,8 +140,8 @@ class Reference:
         T, V, Q = self.rigid_bodies(bodies, T, V, Q)
         self.T, self.V = T, V
         self.timed_energy = self.t in (T.free_symbols | V.free_symbols)
-        self.M, self.f = self.euler_lagrange(T - V + Lx, D, Q)
-        self.control_pieces(T - V + Lx, D, Q)
+        self.M, self.f, momenta = self.euler_lagrange(T - V + Lx, D, Q)
+        self.control = self.control_pieces(T - V + Lx, D, Q, momenta)
         self.param_defaults = self.eval_defaults()
         self.outputs = [self.to_sympy(e) for _, e in m.outputs]
         self.q0 = [0.0] * n
@@ -109,10 +149,12 @@ class Reference:
         for c, rate, text in m.initial:
             (self.qd0 if rate else self.q0)[m.coords.index(c)] = float(text)
         args = list(self.q) + list(self.qd) + [self.t] + list(self.u) + list(self.p)
-        self.fn_M = sympy.lambdify(args, self.M, modules="mpmath")
-        self.fn_f = sympy.lambdify(args, self.f, modules="mpmath")
-        self.fn_TV = sympy.lambdify(args, [self.T, self.V], modules="mpmath")
-        self.fn_y = sympy.lambdify(args, self.outputs, modules="mpmath")
+        # Two numeric functions with common subexpressions shared (SymPy's
+        # cse; mpmath would otherwise redo each cos(q1) of a chain hundreds
+        # of times): M and f, evaluated again and again for the Jacobians,
+        # and everything else, once per sample point.
+        self.fn_Mf = Bundle(args, [("M", [x for row in self.M for x in row]), ("f", self.f)])
+        self.values = Bundle(args, [("TV", [self.T, self.V]), ("y", self.outputs)] + self.control)
         self.constraints(phi, args)
 
     def rigid_bodies(self, stmts, T, V, Q):
@@ -153,26 +195,21 @@ class Reference:
                 Q = [Q[i] + (tau.T * w.diff(self.qd[i]))[0] for i in range(self.n)]
         return T, V, Q
 
-    def control_pieces(self, L, D, Q):
+    def control_pieces(self, L, D, Q, pm):
         """Momenta dL/dq', the energy function h = q'.dL/dq' - L, g = dV/dq
         with V = -L(q' = 0), the power balance dh/dt = q'.(Q - dD/dq') -
         dL/dt (Goldstein et al. 2002, section 2.7, from memory), and
-        Q - dD/dq' - f, which C q' + g must equal when the split exists."""
+        Q - dD/dq' (minus f: C q' + g must equal it when the split exists).
+        pm: the momenta, from euler_lagrange."""
         n = self.n
         self.timed_L = self.t in L.free_symbols
-        pm = [sympy.diff(L, self.qd[i]) for i in range(n)]
         h = sum((self.qd[i] * pm[i] for i in range(n)), -L)
         V = -L.subs({s: 0 for s in self.qd})
         g = [sympy.diff(V, self.q[i]) for i in range(n)]
         dD = [sympy.diff(D, self.qd[i]) for i in range(n)]
-        resid = [Q[i] - dD[i] - self.f[i] for i in range(n)]
-        power = sum((self.qd[i] * (Q[i] - dD[i]) for i in range(n)), -sympy.diff(L, self.t))
-        args = list(self.q) + list(self.qd) + [self.t] + list(self.u) + list(self.p)
-        self.fn_pm = sympy.lambdify(args, pm, modules="mpmath")
-        self.fn_h = sympy.lambdify(args, [h], modules="mpmath")
-        self.fn_g = sympy.lambdify(args, g, modules="mpmath")
-        self.fn_resid = sympy.lambdify(args, resid, modules="mpmath")
-        self.fn_power = sympy.lambdify(args, [power], modules="mpmath")
+        applied = [Q[i] - dD[i] for i in range(n)]
+        power = sum((self.qd[i] * applied[i] for i in range(n)), -sympy.diff(L, self.t))
+        return [("pm", pm), ("h", [h]), ("g", g), ("applied", applied), ("power", [power])]
 
     def christoffel(self, pt):
         """C_kj = sum_i 1/2 (dM_kj/dq_i + dM_ki/dq_j - dM_ij/dq_k) q'_i
@@ -185,8 +222,8 @@ class Reference:
             qm = list(qp)
             qp[i] += h
             qm[i] -= h
-            Mp = mpmath.matrix(self.fn_M(*self.args(pt, q=qp)))
-            Mm = mpmath.matrix(self.fn_M(*self.args(pt, q=qm)))
+            Mp = self.mass_matrix(self.fn_Mf(self.args(pt, q=qp)))
+            Mm = self.mass_matrix(self.fn_Mf(self.args(pt, q=qm)))
             dM.append((Mp - Mm) / (2 * h))
         qd = [mpmath.mpf(x) for x in pt["qd"]]
         return [sum(((dM[i][k, j] + dM[j][k, i] - dM[k][i, j]) * qd[i] / 2 for i in range(n)), mpmath.mpf(0))
@@ -207,9 +244,12 @@ class Reference:
         # P_constraint has no t argument: time-dependent phi is not
         # comparable (eomc documents NaN for it); G and gamma still are.
         self.timed_phi = any(self.t in c.free_symbols for c in phi)
-        self.fn_phi = sympy.lambdify(args, phi, modules="mpmath")
-        self.fn_G = sympy.lambdify(args, G, modules="mpmath")
-        self.fn_gamma = sympy.lambdify(args, gamma, modules="mpmath")
+        # likewise P_constraint_jacobian: G of a constraint like
+        # q = t/(2 + cos q) depends on t (NaN documented).
+        self.timed_G = any(self.t in x.free_symbols for row in G for x in row)
+        self.fn_phi = sympy.lambdify(args, phi, modules="mpmath", cse=True)
+        self.fn_G = sympy.lambdify(args, G, modules="mpmath", cse=True)
+        self.fn_gamma = sympy.lambdify(args, gamma, modules="mpmath", cse=True)
 
     def rate(self, x):
         """Total time derivative of an expression free of rates."""
@@ -272,9 +312,10 @@ class Reference:
         M_ij = dp_i/dq'_j and f_i = dL/dq_i - sum_k dp_i/dq_k q'_k - dp_i/dt
         - dD/dq'_i + Q_i."""
         n = self.n
-        M, f = [], []
+        M, f, momenta = [], [], []
         for i in range(n):
             pi = sympy.diff(L, self.qd[i])
+            momenta.append(pi)
             M.append([sympy.diff(pi, self.qd[j]) for j in range(n)])
             fi = sympy.diff(L, self.q[i]) - sympy.diff(pi, self.t) - sympy.diff(D, self.qd[i]) + Q[i]
             for k in range(n):
@@ -288,7 +329,7 @@ class Reference:
             for x in row:
                 # the generator only writes energies quadratic in the rates
                 assert not (x.free_symbols & (set(self.qd) | {self.t})), x
-        return M, f
+        return M, f, momenta
 
     def eval_defaults(self):
         """Param defaults: numbers or expressions of earlier params."""
@@ -309,10 +350,13 @@ class Reference:
         u = pt["u"] if u is None else u
         return [mpmath.mpf(x) for x in list(q) + list(qd) + [pt["t"]] + list(u) + list(pt["p"])]
 
+    def mass_matrix(self, val):
+        n = self.n
+        return mpmath.matrix([val["M"][i * n:(i + 1) * n] for i in range(n)])
+
     def accel(self, pt, q=None, qd=None, u=None):
-        a = self.args(pt, q, qd, u)
-        M = mpmath.matrix(self.fn_M(*a))
-        f = mpmath.matrix(self.fn_f(*a))
+        val = self.fn_Mf(self.args(pt, q, qd, u))
+        M, f = self.mass_matrix(val), mpmath.matrix(val["f"])
         return M, f, mpmath.lu_solve(M, f)
 
     def evaluate(self, pt):
@@ -320,8 +364,9 @@ class Reference:
         with mpmath.workdps(DPS):
             n, nu = self.n, len(self.u)
             M, f, qdd = self.accel(pt)
-            T, V = self.fn_TV(*self.args(pt))
-            fu0 = mpmath.matrix(self.fn_f(*self.args(pt, u=[0] * nu)))
+            val = self.values(self.args(pt))
+            T, V = val["TV"]
+            fu0 = mpmath.matrix(self.fn_Mf(self.args(pt, u=[0] * nu))["f"])
             inv = M * mpmath.matrix(pt["qdd"]) - fu0
             # d qdd / d(q, qd, u) by central differences
             h = mpmath.mpf("1e-15")
@@ -366,7 +411,7 @@ class Reference:
                 sol = mpmath.lu_solve(K, b)
                 out = {
                     "phi": None if self.timed_phi else [float(v) for v in self.fn_phi(*a)],
-                    "conjac": [float(G[i, j]) for i in range(nc) for j in range(n)],
+                    "conjac": None if self.timed_G else [float(G[i, j]) for i in range(nc) for j in range(n)],
                     "accel_c": [float(sol[i]) for i in range(n)],
                     "lambda": [float(sol[n + i]) for i in range(nc)],
                 }
@@ -382,15 +427,15 @@ class Reference:
                 "jacA": [x for row in A for x in row],
                 "jacB": [x for row in B for x in row],
                 "defaults": list(self.param_defaults),
-                "outputs": [float(y) for y in self.fn_y(*self.args(pt))],
+                "outputs": [float(y) for y in val["y"]],
                 "initial": list(self.q0) + list(self.qd0),
                 # P_momenta/P_hamiltonian have no t argument: NaN when L has t.
-                "momenta": None if self.timed_L else [float(v) for v in self.fn_pm(*self.args(pt))],
-                "hamiltonian": None if self.timed_L else [float(self.fn_h(*self.args(pt))[0])],
-                "split_g": [float(v) for v in self.fn_g(*self.args(pt))],
+                "momenta": None if self.timed_L else [float(v) for v in val["pm"]],
+                "hamiltonian": None if self.timed_L else [float(val["h"][0])],
+                "split_g": [float(v) for v in val["g"]],
                 "split_C": [float(v) for v in self.christoffel(pt)],
-                "split_resid": [float(v) for v in self.fn_resid(*self.args(pt))],
-                "power": float(self.fn_power(*self.args(pt))[0]),
+                "split_resid": [float(val["applied"][i] - f[i]) for i in range(n)],
+                "power": float(val["power"][0]),
             })
 
 

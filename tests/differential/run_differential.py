@@ -281,12 +281,20 @@ def parse_output(text):
     return res
 
 
-def run_batch(cases, opts, pool, label):
-    """Derive, generate, compile, run and compare one batch.  Sets c.failure."""
+def reference_job(c, opts):
+    return (c.seed, c.keep, opts.points, c.max_coords)
+
+
+def run_batch(cases, opts, pool, label, pending=None):
+    """Derive, generate, compile, run and compare one batch.  Sets c.failure.
+    pending: the batch's reference jobs when they were started earlier."""
     work = os.path.join(opts.work, label)
     shutil.rmtree(work, ignore_errors=True)
     os.makedirs(os.path.join(work, "gen"))
-    refs = pool.map(compute_reference, [(c.seed, c.keep, opts.points, c.max_coords) for c in cases])
+    if pending is None:
+        refs = pool.map(compute_reference, [reference_job(c, opts) for c in cases])
+    else:
+        refs = [job.get() for job in pending]
     for c, (vals, err) in zip(cases, refs):
         if err:
             c.failure = ("reference", "the SymPy side failed (harness bug?): " + err)
@@ -419,9 +427,13 @@ def main():
         cases = [Case(s, None, opts.points, opts.max_coords) for s in range(opts.start, opts.start + opts.count)]
     failed = []
     with multiprocessing.Pool(opts.jobs) as pool:
+        # Every SymPy derivation is queued at once, so the pool stays busy
+        # while a batch's C is generated, compiled and run, and one slow
+        # model does not hold up a whole batch.
+        pending = [pool.apply_async(compute_reference, (reference_job(c, opts),)) for c in cases]
         for b in range(0, len(cases), opts.batch):
             batch = cases[b:b + opts.batch]
-            run_batch(batch, opts, pool, "batch%d" % (b // opts.batch))
+            run_batch(batch, opts, pool, "batch%d" % (b // opts.batch), pending[b:b + opts.batch])
             for c in batch:
                 if c.failure:
                     failed.append(c)
