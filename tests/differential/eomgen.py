@@ -199,6 +199,17 @@ def uses_coord(e, m):
     return any(uses_coord(a, m) for a in children(e))
 
 
+def substitute(e, name, value):
+    """e with every ("var", name) replaced by value (a tree copy)."""
+    if isinstance(e, list):
+        return [substitute(b, name, value) for b in e]
+    if not isinstance(e, tuple):
+        return e
+    if e == ("var", name):
+        return value
+    return tuple(substitute(a, name, value) for a in e)
+
+
 def add_bodies(rng, m, g, used):
     """Rigid bodies on the coordinates: orientation a product of elementary
     rotations, position R*arm + offset, diagonal or full inertia; gravity,
@@ -265,9 +276,9 @@ def add_bodies(rng, m, g, used):
 
 def revolute_angle(rng, m, timed):
     """A joint angle: a coordinate, a sum or multiple of coordinates, an
-    offset by a param, or (first joint only) a time-varying offset."""
+    offset by a param; timed: a time-varying offset (first joint only)."""
     q = ("var", rng.choice(m.coords))
-    k = rng.randrange(7)
+    k = 5 if timed else rng.randrange(5)
     if k == 1 and len(m.coords) > 1:
         return ("add", q, ("var", rng.choice([c for c in m.coords if c != q[1]])))
     if k == 2:
@@ -276,7 +287,7 @@ def revolute_angle(rng, m, timed):
         return ("neg", q)
     if k == 4 and m.params:
         return ("add", q, ("var", rng.choice(m.params)[0]))
-    if k == 5 and timed:
+    if k == 5:
         # t only in the first step from the base: a rigid motion of the base
         # frame leaves the part of T quadratic in q' (so M) free of t.
         return ("add", q, ("mul", num(number_text(rng, 0.1, 0.5)), ("call", "sin", [("t",)])))
@@ -309,7 +320,7 @@ def twist(rng, m):
 
 def dh_step(rng, m, timed):
     """dh(theta, d, a, alpha) of a revolute, prismatic or fixed joint."""
-    r = rng.random()
+    r = 0 if timed else rng.random()
     if r < 0.6:
         theta, d = revolute_angle(rng, m, timed), length(rng, m, 0.5)
     elif r < 0.9:
@@ -581,6 +592,9 @@ def generate(seed, max_coords=4):
         for c in rng.sample(m.coords, rng.randint(1, min(2, n - 1))):
             lhs = ("add", ("var", c), ("mul", num(number_text(rng, 0.1, 0.5)), g.expr(1, {"q", "p"})))
             rhs = g.expr(1, {"q", "p"} | ({"t"} if rng.random() < 0.3 else set()))
+            # c stays out of the right side, or `q2 + 0.5 = q2` could
+            # cancel it and leave a constraint with a zero Jacobian.
+            rhs = substitute(rhs, c, num("0.5"))
             m.terms.append(("constraint", None, (lhs, rhs), False))
     everything = {"q", "p", "let", "t", "u", "qd"}
     for _ in range(rng.randint(0, 3)):
