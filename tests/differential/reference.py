@@ -72,6 +72,12 @@ MATRIX_FUNCTIONS = {
 }
 
 
+def without_delta(x):
+    """abs' = sign and sign' = 2 DiracDelta: zero where the generator
+    evaluates (every abs argument stays >= 0.2)."""
+    return x.replace(sympy.DiracDelta, lambda *a: sympy.Integer(0))
+
+
 class Bundle:
     """Named lists of expressions compiled into one mpmath function, so that
     their common subexpressions are computed once."""
@@ -240,7 +246,7 @@ class Reference:
         gamma = []
         for i, c in enumerate(phi):
             a = sum((G[i][j] * self.qd[j] for j in range(self.n)), sympy.diff(c, self.t))
-            gamma.append(-self.rate(a))
+            gamma.append(without_delta(-self.rate(a)))
         # P_constraint has no t argument: time-dependent phi is not
         # comparable (eomc documents NaN for it); G and gamma still are.
         self.timed_phi = any(self.t in c.free_symbols for c in phi)
@@ -321,10 +327,8 @@ class Reference:
             for k in range(n):
                 fi -= sympy.diff(pi, self.q[k]) * self.qd[k]
             f.append(fi)
-        # abs' = sign and sign' = 2 DiracDelta: zero where the generator
-        # evaluates (every abs argument stays >= 0.2).
-        M = [[x.replace(sympy.DiracDelta, lambda *a: sympy.Integer(0)) for x in row] for row in M]
-        f = [x.replace(sympy.DiracDelta, lambda *a: sympy.Integer(0)) for x in f]
+        M = [[without_delta(x) for x in row] for row in M]
+        f = [without_delta(x) for x in f]
         for row in M:
             for x in row:
                 # the generator only writes energies quadratic in the rates
