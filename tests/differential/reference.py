@@ -256,6 +256,9 @@ class Reference:
         self.fn_phi = sympy.lambdify(args, phi, modules="mpmath", cse=True)
         self.fn_G = sympy.lambdify(args, G, modules="mpmath", cse=True)
         self.fn_gamma = sympy.lambdify(args, gamma, modules="mpmath", cse=True)
+        # P_constraint_at takes t: phi, G and dphi/dt, time-dependent or not
+        self.fn_phi_t = sympy.lambdify(args, [sympy.diff(c, self.t) for c in phi],
+                                       modules="mpmath", cse=True)
 
     def rate(self, x):
         """Total time derivative of an expression free of rates."""
@@ -422,6 +425,9 @@ class Reference:
                 out = {
                     "phi": None if self.timed_phi else [float(v) for v in self.fn_phi(*a)],
                     "conjac": None if self.timed_G else [float(G[i, j]) for i in range(nc) for j in range(n)],
+                    "phi_at": [float(v) for v in self.fn_phi(*a)],
+                    "conjac_at": [float(G[i, j]) for i in range(nc) for j in range(n)],
+                    "phi_t_at": [float(v) for v in self.fn_phi_t(*a)],
                     "accel_c": [float(sol[i]) for i in range(n)],
                     "lambda": [float(sol[n + i]) for i in range(nc)],
                 }

@@ -45,7 +45,8 @@ import reference  # noqa: E402
 
 REL_TOL = 1e-10
 QUANTITIES = ["mass", "forcing", "accel", "energy", "inverse", "rhs", "jacA", "jacB", "defaults",
-              "outputs", "initial", "phi", "conjac", "accel_c", "lambda", "momenta", "hamiltonian"]
+              "outputs", "initial", "phi", "conjac", "phi_at", "conjac_at", "phi_t_at", "accel_c",
+              "lambda", "momenta", "hamiltonian"]
 CFLAGS = ["-std=c99", "-pedantic", "-Wall", "-Wextra", "-Werror", "-O0"]
 
 
@@ -161,13 +162,17 @@ def driver_code(cases):
                  if term[0] == "constraint" and (c.keep is None or i in c.keep))
         if nc:
             out.append("    {")
-            out.append("      double phi[%d], G[%d], qc[%d], lam[%d];" % (nc, nc * n, n, nc))
+            out.append("      double phi[%d], G[%d], qc[%d], lam[%d], phit[%d];" % (nc, nc * n, n, nc, nc))
             out.append("      if (%s_NC != %d || %s_model.nc != %d) printf(\"%s %%d sizes_nc\\n\", k);"
                        % (P, nc, P, nc, P))
             out.append("      %s_constraint(q[k], p[k], phi);" % P)
             out.append('      put("%s", k, "phi", phi, %d);' % (P, nc))
             out.append("      %s_constraint_jacobian(q[k], p[k], G);" % P)
             out.append('      put("%s", k, "conjac", G, %d);' % (P, nc * n))
+            out.append("      %s_model.constraint_at(t[k], q[k], p[k], phi, G, phit);" % P)
+            out.append('      put("%s", k, "phi_at", phi, %d);' % (P, nc))
+            out.append('      put("%s", k, "conjac_at", G, %d);' % (P, nc * n))
+            out.append('      put("%s", k, "phi_t_at", phit, %d);' % (P, nc))
             out.append("      rc = %s_accel_constrained(t[k], q[k], qd[k], u[k], p[k], qc, lam);" % P)
             out.append('      printf("%s %%d accel_c_status %%d\\n", k, rc);' % P)
             out.append('      put("%s", k, "accel_c", qc, %d);' % (P, n))
