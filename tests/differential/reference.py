@@ -355,6 +355,20 @@ class Reference:
             out.append(v)
         return out
 
+    def eval_derived(self, p):
+        """P_derived_params(p, NULL): each param whose default reads other
+        params is recomputed from the current values, in declaration order;
+        the others keep their value in p."""
+        vals = {}
+        out = []
+        for (name, e), v in zip(self.m.params, p):
+            x = self.to_sympy(e)
+            if any(s in self.p for s in x.free_symbols):
+                v = float(x.subs(vals).evalf(30))
+            vals[self.env[name]] = sympy.Float(v, 30)
+            out.append(v)
+        return out
+
     # ------------------------------------------------------------ numerics
 
     def args(self, pt, q=None, qd=None, u=None):
@@ -443,6 +457,7 @@ class Reference:
                 "jacA": [x for row in A for x in row],
                 "jacB": [x for row in B for x in row],
                 "defaults": list(self.param_defaults),
+                "derived": self.eval_derived(pt["p"]),
                 "outputs": [float(y) for y in val["y"]],
                 "initial": list(self.q0) + list(self.qd0),
                 # P_momenta/P_hamiltonian have no t argument: NaN when L has t.

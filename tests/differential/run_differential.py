@@ -45,7 +45,7 @@ import reference  # noqa: E402
 
 REL_TOL = 1e-10
 QUANTITIES = ["mass", "forcing", "accel", "energy", "inverse", "rhs", "jacA", "jacB", "defaults",
-              "outputs", "initial", "phi", "conjac", "phi_at", "conjac_at", "phi_t_at", "accel_c",
+              "outputs", "initial", "derived", "phi", "conjac", "phi_at", "conjac_at", "phi_t_at", "accel_c",
               "lambda", "momenta", "hamiltonian"]
 CFLAGS = ["-std=c99", "-pedantic", "-Wall", "-Wextra", "-Werror", "-O0"]
 
@@ -99,8 +99,8 @@ def driver_code(cases):
         out.append("static void run_%s(void) {" % P)
         out.append("  int k, i, rc;")
         ny = len(m.outputs)
-        out.append("  double M[%d], f[%d], qdd[%d], TV[2], Q[%d], x[%d], xdot[%d], A[%d], B[%d], y[%d], x0[%d];"
-                   % (n * n, n, n, n, N, N, N * N, max(1, N * nu), max(1, ny), N))
+        out.append("  double M[%d], f[%d], qdd[%d], TV[2], Q[%d], x[%d], xdot[%d], A[%d], B[%d], y[%d], x0[%d], pd[%d];"
+                   % (n * n, n, n, n, N, N, N * N, max(1, N * nu), max(1, ny), N, max(1, npar)))
         for name, key, width in (("q", "q", n), ("qd", "qd", n), ("qa", "qdd", n),
                                  ("u", "u", nu), ("p", "p", npar)):
             rows = ", ".join(c_array(pt[key]) for pt in c.points)
@@ -130,6 +130,9 @@ def driver_code(cases):
         out.append('    put("%s", k, "jacA", A, %d);' % (P, N * N))
         out.append('    put("%s", k, "jacB", B, %d);' % (P, N * nu))
         out.append('    put("%s", k, "defaults", %s_model.param_defaults, %d);' % (P, P, npar))
+        out.append("    for (i = 0; i < %d; i++) pd[i] = p[k][i];" % npar)
+        out.append("    %s_model.derived_params(pd, 0);" % P)
+        out.append('    put("%s", k, "derived", pd, %d);' % (P, npar))
         out.append("    %s_outputs(t[k], q[k], qd[k], u[k], p[k], y);" % P)
         out.append('    put("%s", k, "outputs", y, %d);' % (P, ny))
         out.append("    for (i = 0; i < %d; i++) { x0[i] = %s_model.q0[i]; x0[%d + i] = %s_model.qd0[i]; }"
