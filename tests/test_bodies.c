@@ -9,6 +9,8 @@
 **                      implementation written here from the published
 **                      algorithm; M symmetric positive definite
 **   arm2_*.eom         a `body` model and its scalar `kinetic` twin agree
+**   telescoping_feeder.eom  a revolute and a prismatic joint on one DH chain:
+**                      the polar arm's closed form (Spong et al.)
 **
 ** A small driver (below) talks to a generated model through its descriptor:
 ** it reads commands from a file and prints one line of numbers per command.
@@ -783,6 +785,70 @@ START_TEST(arm2_body_equals_scalar) {
 }
 END_TEST
 
+/* ------------------------------------------------------------------ a prismatic joint */
+
+/* telescoping_feeder.eom: a turntable and a slide on one DH chain (a
+** revolute joint, then a prismatic one whose coordinate is the d of its
+** step).  In the horizontal plane it is the polar (RP) arm, whose equations
+** are a textbook closed form (Spong, Hutchinson and Vidyasagar, Robot
+** Modeling and Control, 2006, ch. 7, the polar/RP examples; from memory):
+**   M = diag(Jt + Ja + m (r + c)^2, m),
+**   f = (tau - bt th' - 2 m (r + c) r' th',  F - br r' + m (r + c) th'^2),
+** gravity vertical and doing no work; the arm tip at reach L beyond the
+** slide position is (-(r + L) sin th, (r + L) cos th). */
+START_TEST(feeder_polar_closed_form) {
+  Gen g = gen_example("telescoping_feeder");
+  free(drive(&g, ""));
+  ck_assert_int_eq(g.nq, 2);
+  ck_assert_int_eq(g.nu, 2);
+  ck_assert_int_eq(g.ny, 2);
+  const char *names[] = {"Jt", "m", "c", "Ja", "bt", "br", "g", "h"};
+  const double nominal[] = {0.65, 4.2, 0.18, 0.09, 0.4, 12, 9.81, 0.3};
+  unsigned long long seed = 11;
+  Buf b = {0};
+  double pv[25][8], x[25][8];  /* th r th' r' th'' r'' tau F */
+  for (int s = 0; s < 25; s++) {
+    for (int k = 0; k < 8; k++) {
+      pv[s][k] = nominal[k] * uniform(&seed, 0.5, 1.5);
+      put(&b, "p %d %.17g\n", param(&g, names[k]), pv[s][k]);
+    }
+    x[s][0] = uniform(&seed, -PI, PI), x[s][1] = uniform(&seed, -0.1, 0.6);
+    for (int k = 2; k < 8; k++) x[s][k] = uniform(&seed, -3, 3);
+    put(&b, "s 0.5");
+    put_vec(&b, x[s], 8);
+    put(&b, "\n");
+  }
+  char *out = drive(&g, b.s);
+  static Rec rec;
+  for (int s = 0; s < 25; s++) {
+    record(&g, out, s, &rec);
+    const double *p = pv[s], *v = x[s];
+    double Jt = p[0], m = p[1], c = p[2], Ja = p[3], bt = p[4], br = p[5];
+    double th = v[0], r = v[1], thd = v[2], rd = v[3], thdd = v[4], rdd = v[5], tau = v[6], F = v[7];
+    double M11 = Jt + Ja + m * (r + c) * (r + c), M22 = m;
+    double f1 = tau - bt * thd - 2 * m * (r + c) * rd * thd, f2 = F - br * rd + m * (r + c) * thd * thd;
+    double want_M[4] = {M11, 0, 0, M22}, want_f[2] = {f1, f2};
+    /* P_inverse: the generalized forces for the given q'' with the inputs at 0 */
+    double want_Q[2] = {M11 * thdd - (f1 - tau), M22 * rdd - (f2 - F)};
+    for (int k = 0; k < 4; k++)
+      ck_assert_msg(fabs(rec.M[k] - want_M[k]) < 1e-12 * fmax(1, fabs(want_M[k])),
+                    "state %d: M[%d] = %.17g, want %.17g", s, k, rec.M[k], want_M[k]);
+    for (int k = 0; k < 2; k++) {
+      ck_assert_msg(fabs(rec.f[k] - want_f[k]) < 1e-12 * fmax(1, fabs(want_f[k])),
+                    "state %d: f[%d] = %.17g, want %.17g", s, k, rec.f[k], want_f[k]);
+      ck_assert_msg(fabs(rec.Q[k] - want_Q[k]) < 1e-12 * fmax(1, fabs(want_Q[k])),
+                    "state %d: Q[%d] = %.17g, want %.17g", s, k, rec.Q[k], want_Q[k]);
+    }
+    ck_assert_msg(fabs(rec.accel[0] - f1 / M11) < 1e-12 * fmax(1, fabs(f1 / M11)), "state %d th''", s);
+    ck_assert_msg(fabs(rec.accel[1] - f2 / M22) < 1e-12 * fmax(1, fabs(f2 / M22)), "state %d r''", s);
+    double L = 0.45;
+    ck_assert(fabs(rec.y[0] + (r + L) * sin(th)) < 1e-13 && fabs(rec.y[1] - (r + L) * cos(th)) < 1e-13);
+  }
+  free(out), free(b.s);
+  gen_free(&g);
+}
+END_TEST
+
 static Suite *bodies_suite(void) {
   Suite *s = suite_create("bodies");
   TCase *tc = tcase_create("bodies");
@@ -792,6 +858,7 @@ static Suite *bodies_suite(void) {
   tcase_add_test(tc, arm6_against_newton_euler);
   tcase_add_test(tc, arm6_tip_and_potential);
   tcase_add_test(tc, arm2_body_equals_scalar);
+  tcase_add_test(tc, feeder_polar_closed_form);
   suite_add_tcase(s, tc);
   return s;
 }
