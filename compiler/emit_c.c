@@ -778,12 +778,14 @@ static void emit_fixed_locals(Emitter *E) {
 
 /* The quantity reads a variable the SPEC signature does not pass (e.g. a
 ** mass matrix that depends on t): the function writes NaN rather than a
-** value computed at a made-up time.  The header says so. */
+** value computed at a made-up time.  The header says so; `also` (or NULL)
+** names the function of this model that gives the value (after the prefix). */
 static void emit_nan_body(Emitter *E, const Param *ps, int nps, const char *what,
-                          const char *fill) {
+                          const char *fill, const char *also) {
   E->vars = 0;
   fprintf(E->out, "  /* %s depends on %s, which this signature does not pass: NaN. */\n", what,
           var_list(E->missing));
+  if (also) fprintf(E->out, "  /* %s_%s */\n", E->P, also);
   emit_unused(E, ps, nps);
   fputs(fill, E->out);
 }
@@ -799,7 +801,7 @@ static void emit_mass(Emitter *E) {
   if (resolve_missing(E, VAR_BIT(IRV_Q) | VAR_BIT(IRV_P))) {
     char fill[128];
     snprintf(fill, sizeof fill, "  int i;\n  for (i = 0; i < %d; i++) M[i] = NAN;\n", nq * nq);
-    emit_nan_body(E, ps, NPARAMS(ps), "M", fill);
+    emit_nan_body(E, ps, NPARAMS(ps), "M", fill, NULL);
   } else {
     emit_unused(E, ps, NPARAMS(ps));
     emit_fixed_locals(E);
@@ -992,7 +994,7 @@ static void emit_inverse(Emitter *E) {
   if (resolve_missing(E, allowed)) {
     char fill[128];
     snprintf(fill, sizeof fill, "  int i;\n  for (i = 0; i < %d; i++) Q[i] = NAN;\n", E->s->nq);
-    emit_nan_body(E, ps, NPARAMS(ps), "Q", fill);
+    emit_nan_body(E, ps, NPARAMS(ps), "Q", fill, NULL);
   } else {
     emit_unused(E, ps, NPARAMS(ps));
     emit_fixed_locals(E);
@@ -1013,7 +1015,7 @@ static void emit_energy(Emitter *E) {
   fn_analyse(E);
   emit_signature(E, "void", "energy", ps, NPARAMS(ps), 0);
   if (resolve_missing(E, VAR_BIT(IRV_Q) | VAR_BIT(IRV_QD) | VAR_BIT(IRV_P))) {
-    emit_nan_body(E, ps, NPARAMS(ps), "the energy", "  *T = NAN;\n  *V = NAN;\n");
+    emit_nan_body(E, ps, NPARAMS(ps), "the energy", "  *T = NAN;\n  *V = NAN;\n", NULL);
   } else {
     emit_unused(E, ps, NPARAMS(ps));
     emit_fixed_locals(E);
@@ -1049,7 +1051,7 @@ void emit_plain_function(Emitter *E, const char *fname, unsigned args, const cha
   emit_signature(E, "void", fname, ps, nps, 0);
   if (resolve_missing(E, allowed)) {
     snprintf(fill, sizeof fill, "  int i;\n  for (i = 0; i < %d; i++) %s[i] = NAN;\n", n, out);
-    emit_nan_body(E, ps, nps, out, fill);
+    emit_nan_body(E, ps, nps, out, fill, NULL);
   } else {
     emit_unused(E, ps, nps);
     emit_fixed_locals(E);
@@ -1091,7 +1093,7 @@ static void emit_constraint(Emitter *E) {
   if (resolve_missing(E, VAR_BIT(IRV_Q) | VAR_BIT(IRV_P))) {
     char fill[128];
     snprintf(fill, sizeof fill, "  int i;\n  for (i = 0; i < %d; i++) phi[i] = NAN;\n", nc);
-    emit_nan_body(E, ps, NPARAMS(ps), "phi", fill);
+    emit_nan_body(E, ps, NPARAMS(ps), "phi", fill, "constraint_at() takes t.");
   } else {
     emit_unused(E, ps, NPARAMS(ps));
     emit_fixed_locals(E);
@@ -1115,7 +1117,7 @@ static void emit_constraint_jacobian(Emitter *E) {
   if (resolve_missing(E, VAR_BIT(IRV_Q) | VAR_BIT(IRV_P))) {
     char fill[128];
     snprintf(fill, sizeof fill, "  int i;\n  for (i = 0; i < %d; i++) G[i] = NAN;\n", nc * nq);
-    emit_nan_body(E, ps, NPARAMS(ps), "G", fill);
+    emit_nan_body(E, ps, NPARAMS(ps), "G", fill, "constraint_at() takes t.");
   } else {
     emit_unused(E, ps, NPARAMS(ps));
     emit_fixed_locals(E);
