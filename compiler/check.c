@@ -810,7 +810,8 @@ static void check_identify(Checker *c, Stmt *s) {
   }
 }
 
-/* Warn about an inertia matrix literal whose constant entries are not symmetric. */
+/* An inertia matrix literal whose constant entries are not symmetric (other
+** forms are checked when the equations are derived). */
 static void check_inertia_symmetry(Checker *c, Stmt *s) {
   const Expr *I = s->e[3];
   while (I->kind == EX_NAME && I->ref && I->ref->kind == DECL_LET) I = I->ref->value;
@@ -824,9 +825,9 @@ static void check_inertia_symmetry(Checker *c, Stmt *s) {
       if (!eval_const(I->args[i]->args[j], 1, &a, &bad) || !eval_const(I->args[j]->args[i], 1, &b, &bad))
         continue;
       if (fabs(a - b) > 1e-12 * (fabs(a) + fabs(b)) && a != b) {
-        diag_warning(c->d, I->args[i]->args[j]->loc,
-                     "inertia of body '%s' is not symmetric: I[%d,%d] = %g but I[%d,%d] = %g",
-                     s->decls[0]->name, i + 1, j + 1, a, j + 1, i + 1, b);
+        diag_error(c->d, I->args[i]->args[j]->loc,
+                   "inertia of body '%s' must be symmetric: I[%d,%d] = %g but I[%d,%d] = %g",
+                   s->decls[0]->name, i + 1, j + 1, a, j + 1, i + 1, b);
         return;
       }
     }

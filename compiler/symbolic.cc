@@ -344,11 +344,12 @@ struct Term {
 
 class Derivation {
  public:
-  Derivation(const Model *m, const SymOptions *opt);
+  Derivation(const Model *m, const SymOptions *opt, Diag *d);
   void run(EomSystem *out);
 
  private:
   const Model *m_;
+  Diag *diag_;  /* for warnings; errors are thrown as SymError */
   double max_seconds_;
   std::chrono::steady_clock::time_point start_;
   int nq_, nu_, np_;
@@ -432,6 +433,7 @@ class Derivation {
   Val vec3(const Expr *x, const char *what);
   Val mat3(const Expr *x, const char *what);
   void add_body(const Stmt *s);
+  void check_inertia(const Stmt *s, const Val &I);
   void add_rotation(const Val &R, const Val &I);
   void finish_placed();
   bool point_matches(const Val &P);
@@ -453,8 +455,9 @@ class Derivation {
   void derive_regressor_quantities(const std::vector<ex> &inv, RegressorResult *out);
 };
 
-Derivation::Derivation(const Model *m, const SymOptions *opt)
+Derivation::Derivation(const Model *m, const SymOptions *opt, Diag *d)
     : m_(m),
+      diag_(d),
       max_seconds_(opt ? opt->max_seconds : 0),
       start_(std::chrono::steady_clock::now()),
       nq_(m->ncoords),
@@ -1046,6 +1049,7 @@ void Derivation::add_body(const Stmt *s) {
     if (I.rows != 3 || I.cols != 3)
       throw SymError{s->e[3]->loc, fmt("an inertia must be a 3x3 matrix or the 3 principal "
                                        "moments, not %s", shape_name(I).c_str())};
+    check_inertia(s, I);
     bool rigid_in_q = true;
     for (const ex &e : R.a) rigid_in_q = rigid_in_q && !depends_on_rates(e);
     if (placed && R.turns && same_turns(*b.pos.turns, *R.turns) && turns_match(R)) {
@@ -1072,6 +1076,39 @@ void Derivation::add_body(const Stmt *s) {
   bodies_.push_back(b);
   if (placed) placed_.push_back(pb);
   body_placed_.push_back(placed);
+}
+
+/* An inertia must be symmetric (w.(I w) sees only the symmetric part, so
+** anything else is a slip); one that is not positive definite at the
+** initial state (coordinates from `initial`, params at their defaults, t
+** and inputs 0) is no rigid body's, and gets a warning. */
+void Derivation::check_inertia(const Stmt *s, const Val &I) {
+  const char *name = s->decls[0]->name;
+  for (int i = 0; i < 3; i++)
+    for (int j = i + 1; j < 3; j++) {
+      ex d = I.at(i, j) - I.at(j, i);
+      if (!d.is_zero() && nonzero_somewhere(d, I.at(i, i) + I.at(j, j)))
+        throw SymError{s->e[3]->loc, fmt("the inertia of body '%s' must be symmetric: entries "
+                                         "[%d,%d] and [%d,%d] differ", name, i + 1, j + 1, j + 1, i + 1)};
+    }
+  exmap point;
+  point[t_] = 0;
+  for (int i = 0; i < nq_; i++) point[q_[i]] = m_->q0 ? m_->q0[i] : 0.0, point[qd_[i]] = 0;
+  for (int i = 0; i < nu_; i++) point[u_[i]] = 0;
+  for (int i = 0; i < np_; i++) point[p_[i]] = m_->params[i]->number;
+  Subst at(point);
+  double v[9];
+  for (int k = 0; k < 9; k++) v[k] = value_at(I.a[k], at);
+  /* leading principal minors (Sylvester's criterion) */
+  double m1 = v[0], m2 = v[0] * v[4] - v[1] * v[3],
+         m3 = v[0] * (v[4] * v[8] - v[5] * v[7]) - v[1] * (v[3] * v[8] - v[5] * v[6]) +
+              v[2] * (v[3] * v[7] - v[4] * v[6]);
+  if (std::isnan(m1 + m2 + m3)) return;  /* not a number there: nothing to say */
+  if (!(m1 > 0 && m2 > 0 && m3 > 0))
+    diag_warning(diag_, s->e[3]->loc,
+                 "the inertia of body '%s' is not positive definite at the initial state "
+                 "(leading minors %.3g, %.3g, %.3g): no rigid body has such an inertia",
+                 name, m1, m2, m3);
 }
 
 /* The rotational share of a body whose orientation R(q, t) has no rates:
@@ -1677,7 +1714,7 @@ extern "C" int sym_derive(const Model *m, const SymOptions *opt, Diag *d, EomSys
   out->ny = m->noutputs;
   out->nc = 0;
   try {
-    eomsym::Derivation dv(m, opt);
+    eomsym::Derivation dv(m, opt, d);
     dv.run(out);
     /* Dependent constraint equations make the multipliers non-unique. */
     return out->nc > 0 && constraint_rank_check(m, out, d) != 0;

@@ -310,14 +310,10 @@ START_TEST(statement_shapes) {
 }
 END_TEST
 
-START_TEST(inertia_symmetry_warning) {
-  Checked *c = load("coord x\ngravity [0, 0, -9.81]\n"
-                    "body b mass 2 at [x, 0, 0] orient rotz(x) inertia [[1, 0.2, 0], [0, 1, 0], [0, 0, 1]]\n");
-  ck_assert_int_eq(c->d.nerrors, 0);
-  const DiagMsg *w = first_of(c, DIAG_WARNING);
-  ck_assert_ptr_nonnull(w);
-  ck_assert_ptr_nonnull(strstr(w->text, "not symmetric"));
-  unload(c);
+START_TEST(inertia_symmetry_error) {
+  expect_error("coord x\ngravity [0, 0, -9.81]\n"
+               "body b mass 2 at [x, 0, 0] orient rotz(x) inertia [[1, 0.2, 0], [0, 1, 0], [0, 0, 1]]\n",
+               3, 56, "inertia of body 'b' must be symmetric: I[1,2] = 0.2 but I[2,1] = 0");
   expect_ok("coord x\nparam Ixy = 0.2\n"
             "body b mass 2 at [x, 0, 0] inertia [[1, Ixy, 0], [Ixy, 1, 0], [0, 0, 1]]\n");
   expect_ok("coord x\nbody b mass 2 at [x, 0, 0] orient rotz(x) inertia diag(1, 2, 3)\n");
@@ -619,7 +615,7 @@ int main(void) {
   tcase_add_test(tc, indexing);
   tcase_add_test(tc, vector_builtins);
   tcase_add_test(tc, statement_shapes);
-  tcase_add_test(tc, inertia_symmetry_warning);
+  tcase_add_test(tc, inertia_symmetry_error);
   tcase_add_test(tc, errors_do_not_cascade);
   suite_add_tcase(s, tc);
   tc = tcase_create("rates");

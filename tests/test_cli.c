@@ -225,6 +225,32 @@ START_TEST(examples_check_clean) {
 }
 END_TEST
 
+/* An inertia that is not positive definite at the initial state is no rigid
+** body's (its principal moments must be positive): a warning, naming the
+** body; a proper one gives none.  Leading minors of a symmetric matrix
+** (Sylvester's criterion, common practice). */
+START_TEST(inertia_not_positive_definite_warns) {
+  char *dir = make_temp_dir();
+  const char *bad = "coord q\nparam J = 0.5\nlet T1 = dh(q, 0, 1, 0)\n"
+                    "body flap mass 1 at pos(T1) orient rot(T1) inertia [[J, 0, 0], [0, J - 1, 0], [0, 0, 1]]\n";
+  const char *good = "coord q\nparam J = 1.5\nlet T1 = dh(q, 0, 1, 0)\n"
+                     "body flap mass 1 at pos(T1) orient rot(T1) inertia [[J, 0, 0], [0, J - 1, 0], [0, 0, 1]]\n";
+  char *mb = write_file(dir, "bad.eom", bad, strlen(bad)), *mg = write_file(dir, "good.eom", good, strlen(good));
+  RunResult r = run2("check", mb);
+  ck_assert_int_eq(r.status, 0);
+  ck_assert_msg(strstr(r.err, "bad.eom:4:52: warning: the inertia of body 'flap' is not positive definite") != NULL,
+                "%s", r.err);
+  run_free(&r);
+  r = run2("check", mg);
+  ck_assert_int_eq(r.status, 0);
+  ck_assert_msg(strstr(r.err, "warning") == NULL, "%s", r.err);
+  run_free(&r);
+  free(mb), free(mg);
+  remove_tree(dir);
+  free(dir);
+}
+END_TEST
+
 /* Several models in one `eomc gen`, one depfile for all; --quiet and --verbose. */
 START_TEST(gen_several_models) {
   char *dir = make_temp_dir();
@@ -340,6 +366,7 @@ int main(void) {
   tc = tcase_create("catalogue");
   tcase_set_timeout(tc, 120);
   tcase_add_test(tc, bad_catalogue);
+  tcase_add_test(tc, inertia_not_positive_definite_warns);
   tcase_add_test(tc, examples_check_clean);
   tcase_add_test(tc, gen_several_models);
   tcase_add_test(tc, gen_memory_limit);
