@@ -426,6 +426,7 @@ class Derivation {
   Val eval_call(const Expr *x);
   Val eval_index(const Expr *x);
   Val eval_list(const Expr *x);
+  bool place_sum(const Val &P, const Val &dir, Val &sum);
   Val let_value(const Decl *d);
   ex scalar(const Expr *x, const char *what);
 
@@ -663,19 +664,16 @@ Val Derivation::eval_binary(const Expr *x) {
       if (a.rows != b.rows || a.cols != b.cols)
         throw SymError{x->loc, fmt("cannot %s %s and %s", x->op == OP_ADD ? "add" : "subtract",
                                    shape_name(a).c_str(), shape_name(b).c_str())};
-      for (int k = 0; k < a.size(); k++) a.a[k] = x->op == OP_ADD ? a.a[k] + b.a[k] : a.a[k] - b.a[k];
-      if (x->op == OP_ADD && a.placed + b.placed == 3) {
-        Val &pt = a.placed == 1 ? a : b, &dir = a.placed == 1 ? b : a;
-        if (same_turns(*pt.turns, *dir.turns)) { /* T [l; 1] + R v = T [l + v; 1] */
-          a.turns = pt.turns;
-          for (int c = 0; c < 3; c++) a.local[c] = pt.local[c] + dir.local[c];
-          a.placed = 1;
-          return a;
-        }
-      }
-      a.turns.reset();
-      a.placed = 0;
-      return a;
+      Val sum = a;
+      for (int k = 0; k < a.size(); k++) sum.a[k] = x->op == OP_ADD ? a.a[k] + b.a[k] : a.a[k] - b.a[k];
+      sum.turns.reset();
+      sum.placed = 0;
+      if (b.placed == 2 && x->op == OP_SUB)
+        for (ex &e : b.local) e = -e;  /* - R v = R (-v) */
+      if (!(a.placed && b.placed == 2 && place_sum(a, b, sum)) && x->op == OP_ADD && a.placed == 2 &&
+          b.placed)
+        place_sum(b, a, sum);
+      return sum;
     }
     case OP_MUL: {
       if (a.scalar() || b.scalar()) {
@@ -732,6 +730,40 @@ Val Derivation::eval_binary(const Expr *x) {
     case OP_NEG: break;
   }
   throw SymError{x->loc, "internal: bad binary operator"};
+}
+
+/* sum = P + R v, with P a point of a chain of steps (or a direction R' l
+** from the origin: a chain of turns only) and R v a direction.  When P's
+** turns are the first turns of R, R = R_P R_rest, the sum is a point of a
+** longer chain:  T_P [l; 1] + R_P R_rest v = T_P S(l) R_rest [v; 1], with S(l)
+** the shift by l.  This keeps bodies written as sums of rotated arms
+** (R1*a + R1*R2*b) on the frame tree (see symbolic_chain.cc). */
+bool Derivation::place_sum(const Val &P, const Val &dir, Val &sum) {
+  assert(P.placed && dir.placed == 2 && P.turns && dir.turns);
+  const std::vector<Turn> &steps = *P.turns, &turns = *dir.turns;
+  size_t k = 0;  /* turns of P matched so far */
+  for (const Turn &f : steps) {
+    if (f.shift) continue;
+    if (k == turns.size() || turns[k].shift || turns[k].axis != f.axis || !turns[k].angle.is_equal(f.angle))
+      return false;
+    k++;
+  }
+  if (k == turns.size()) { /* the same rotation: T [l; 1] + R v = T [l + v; 1] */
+    sum.turns = P.turns;
+    for (int c = 0; c < 3; c++) sum.local[c] = P.local[c] + dir.local[c];
+    sum.placed = 1;
+    return true;
+  }
+  auto chain = std::make_shared<std::vector<Turn>>(steps);
+  Turn shift;
+  shift.shift = true;
+  for (int c = 0; c < 3; c++) shift.s[c] = P.local[c];
+  if (!(shift.s[0].is_zero() && shift.s[1].is_zero() && shift.s[2].is_zero())) chain->push_back(shift);
+  chain->insert(chain->end(), turns.begin() + (long)k, turns.end());
+  sum.turns = chain;
+  for (int c = 0; c < 3; c++) sum.local[c] = dir.local[c];
+  sum.placed = 1;
+  return true;
 }
 
 /* 1-based integer index from a constant expression. */

@@ -216,22 +216,34 @@ def add_bodies(rng, m, g, used):
     forces at points, torques on bodies and potentials of vectors."""
     params = [("var", n) for n, _ in m.params]
     points, frames = [], []
+    # Its own stream (the other draws, and so the other models, stay as
+    # they were): a second body hung from the first as R1*a1 + R1*R2*a2,
+    # a sum of rotated arms that is a point of a chain of frames.
+    chain = random.Random(m.seed * 1000003 + 17)
+    nturns = []
     for b in range(rng.randint(1, 2)):
         R = None
+        nturns.append(0)
         # Kept small: SymPy's side grows fast with nested rotations.
         for _ in range(rng.randint(1, 2 if len(m.coords) > 1 else 3)):
+            nturns[-1] += 1
             ang = g.leaf({"q", "p"})
             if not uses_coord(ang, m) and rng.random() < 0.8:
                 ang = ("add", ang, ("var", rng.choice(m.coords)))
             r = ("call", rng.choice(["rotx", "roty", "rotz"]), [ang])
             R = r if R is None else ("mul", R, r)
         rname = pick_names(rng, 1, "R", used, False)[0]
-        m.lets.append((rname, R))
-        m.vector_lets.add(rname)
         arm = ("vec", [g.leaf({"p"}), num(number_text(rng, 0.1, 1.0)), num("0")])
         off = ("vec", [g.leaf({"q", "p"}) for _ in range(3)])
         pname = pick_names(rng, 1, "r", used, False)[0]
-        m.lets.append((pname, ("add", ("mul", ("var", rname), arm), off)))
+        point = ("add", ("mul", ("var", rname), arm), off)
+        if b == 1 and sum(nturns) <= 3 and chain.random() < 0.5:
+            R = ("mul", frames[0], R)
+            hinge = ("vec", [num(number_text(chain, 0.1, 1.0)) for _ in range(3)])
+            point = (chain.choice(["add", "sub"]), ("mul", frames[0], hinge), ("mul", ("var", rname), arm))
+        m.lets.append((rname, R))
+        m.vector_lets.add(rname)
+        m.lets.append((pname, point))
         m.vector_lets.add(pname)
         points.append(("var", pname))
         frames.append(("var", rname))
