@@ -103,7 +103,7 @@ struct Unit {
 /* The rigid inertia of a set of bodies about a frame's origin, in its axes:
 ** mass, first moment h = sum m c, and second moment J = sum (I_c + m (|c|^2 1 - c c^T)). */
 struct Inertia {
-  exvector m, h[3], J[9];  /* terms, summed by total() */
+  exvector m, h[3], J[9];  /* the terms of each, summed in composite() */
 };
 
 struct Frame {
