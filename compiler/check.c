@@ -915,10 +915,8 @@ static void check_statement(Checker *c, Stmt *s, int position) {
   case ST_OUTPUT: {
     Decl *dc = s->decls[0];
     Info r = check_expr(c, dc->value);
-    if (!is_err(r.shape) && !is_scalar(r.shape))
-      diag_error(c->d, dc->value->loc, "output '%s' must be a scalar, not %s (output each entry, e.g. p[1])",
-                 dc->name, shape_str(r.shape));
-    declare(c, dc, SHAPE_SCALAR);
+    /* a vector or matrix output gives one entry of y per element */
+    declare(c, dc, is_err(r.shape) ? SHAPE_SCALAR : r.shape);
     declare_unit(c, dc);
     break;
   }
@@ -1044,6 +1042,8 @@ int check_model(Ast *ast, Diag *d, Model *m) {
   m->inputs = take(a, &c.by_kind[DECL_INPUT], &m->ninputs);
   m->lets = take(a, &c.by_kind[DECL_LET], &m->nlets);
   m->outputs = take(a, &c.by_kind[DECL_OUTPUT], &m->noutputs);
+  m->ny = 0;
+  for (int i = 0; i < m->noutputs; i++) m->ny += m->outputs[i]->shape.rows * m->outputs[i]->shape.cols;
   m->bodies = take(a, &c.by_kind[DECL_BODY], &m->nbodies);
   m->identify = take(a, &c.identify, &m->nidentify);
   m->nterms = c.terms.n;

@@ -28,6 +28,7 @@ typedef struct Model {
   int nconstraints;
   double *q0, *qd0;              /* initial state, ncoords each (default 0) */
   int has_units;                 /* every coord and param carries a unit: units were checked */
+  int ny;                        /* entries of y: every element of a vector or matrix output */
 } Model;
 
 /* Check `ast`; fill `m` (allocated in ast->arena).  Returns the number of errors. */

@@ -1293,7 +1293,12 @@ static void unit_text(Buf *b, const Expr *u) {
 
 static void emit_decl_comment(Emitter *E, const char *kind, int index, const Decl *d) {
   FILE *o = E->out;
-  fprintf(o, "**   %s[%d]  %s", kind, index, d->name);
+  int size = d->kind == DECL_OUTPUT ? d->shape.rows * d->shape.cols : 1;
+  if (size > 1)  /* a vector or matrix output: its entries, row by row */
+    fprintf(o, "**   %s[%d..%d]  %s (%dx%d)", kind, index, index + size - 1, d->name, d->shape.rows,
+            d->shape.cols);
+  else
+    fprintf(o, "**   %s[%d]  %s", kind, index, d->name);
   if (d->kind == DECL_PARAM) {
     char num[64];
     format_number(E, d->number, num, sizeof num);
@@ -1335,11 +1340,18 @@ static void emit_header(Emitter *E) {
   int counts[] = {m->ncoords, m->nparams, m->ninputs, m->noutputs};
   for (int k = 0; k < 4; k++) {
     if (!counts[k]) continue;
+    /* an output's macro is the index of its first entry in y */
+    int *first = calloc((size_t)counts[k], sizeof *first);
+    assert(first);
+    for (int i = 1; i < counts[k]; i++)
+      first[i] = first[i - 1] + (k == 3 ? lists[k][i - 1]->shape.rows * lists[k][i - 1]->shape.cols : 1);
     fprintf(o, "/*\n** %s:\n", kinds[k].what);
-    for (int i = 0; i < counts[k]; i++) emit_decl_comment(E, kinds[k].arr, i, lists[k][i]);
+    for (int i = 0; i < counts[k]; i++) emit_decl_comment(E, kinds[k].arr, first[i], lists[k][i]);
     fprintf(o, "*/\n");
-    for (int i = 0; i < counts[k]; i++) fprintf(o, "#define %s_%s_%s %d\n", P, kinds[k].tag, lists[k][i]->name, i);
+    for (int i = 0; i < counts[k]; i++)
+      fprintf(o, "#define %s_%s_%s %d\n", P, kinds[k].tag, lists[k][i]->name, first[i]);
     fputc('\n', o);
+    free(first);
   }
   fprintf(o,
     "void %s_mass(const double *q, const double *p, double *M);   /* NQ x NQ, symmetric */\n"
@@ -1393,26 +1405,16 @@ static void emit_long_string(Emitter *E, const char *ident, const char *text) {
   fputs(", 0\n};\n", o);
 }
 
-static void emit_string_table(Emitter *E, const char *name, Decl **ds, int n, int field) {
+/* static const char *const P_name[n] = {texts...}; the texts are freed. */
+static void emit_texts(Emitter *E, const char *name, char **texts, int n) {
   FILE *o = E->out;
-  char **texts = calloc((size_t)n + 1, sizeof *texts);
   char ident[600];
-  assert(texts);
-  if (!n) {
-    free(texts);
-    return;
-  }
-  for (int i = 0; i < n; i++) {
-    Buf b = {0};
-    if (field == 0) buf_put(&b, ds[i]->name);
-    else if (field == 2) buf_put(&b, ds[i]->desc ? ds[i]->desc : "");
-    else unit_text(&b, ds[i]->unit);
-    texts[i] = b.s ? b.s : calloc(1, 1);
+  assert(n > 0);
+  for (int i = 0; i < n; i++)
     if (strlen(texts[i]) > MAX_STRING_LITERAL) {
       snprintf(ident, sizeof ident, "%s_%s_%d", E->P, name, i);
       emit_long_string(E, ident, texts[i]);
     }
-  }
   fprintf(o, "static const char *const %s_%s[%d] = {", E->P, name, n);
   for (int i = 0; i < n; i++) {
     fputs(i ? ",\n  " : "\n  ", o);
@@ -1421,6 +1423,47 @@ static void emit_string_table(Emitter *E, const char *name, Decl **ds, int n, in
     free(texts[i]);
   }
   fputs("\n};\n", o);
+}
+
+/* A table of one field of each declaration: 0 name, 1 unit, 2 description. */
+static void emit_string_table(Emitter *E, const char *name, Decl **ds, int n, int field) {
+  if (!n) return;
+  char **texts = calloc((size_t)n, sizeof *texts);
+  assert(texts);
+  for (int i = 0; i < n; i++) {
+    Buf b = {0};
+    if (field == 0) buf_put(&b, ds[i]->name);
+    else if (field == 2) buf_put(&b, ds[i]->desc ? ds[i]->desc : "");
+    else unit_text(&b, ds[i]->unit);
+    texts[i] = b.s ? b.s : calloc(1, 1);
+  }
+  emit_texts(E, name, texts, n);
+  free(texts);
+}
+
+/* The name of each entry of y: the output's name, or name[i] and name[i,j]
+** (1-based, as the model language indexes) for a vector or matrix output. */
+static void emit_output_names(Emitter *E) {
+  const Model *m = E->m;
+  if (!m->ny) return;
+  char **texts = calloc((size_t)m->ny, sizeof *texts);
+  int k = 0;
+  assert(texts);
+  for (int i = 0; i < m->noutputs; i++) {
+    const Decl *d = m->outputs[i];
+    int rows = d->shape.rows, cols = d->shape.cols;
+    for (int r = 0; r < rows; r++)
+      for (int c = 0; c < cols; c++) {
+        Buf b = {0};
+        if (rows * cols == 1) buf_put(&b, d->name);
+        else if (cols == 1 || rows == 1) buf_printf(&b, "%s[%d]", d->name, r * cols + c + 1);
+        else buf_printf(&b, "%s[%d,%d]", d->name, r + 1, c + 1);
+        assert(k < m->ny);
+        texts[k++] = b.s;
+      }
+  }
+  assert(k == m->ny);
+  emit_texts(E, "output_names", texts, m->ny);
   free(texts);
 }
 
@@ -1509,7 +1552,7 @@ static void emit_descriptor(Emitter *E) {
   emit_double_table(E, "param_defaults", pd, s->np);
   emit_string_table(E, "input_names", m->inputs, m->ninputs, 0);
   emit_string_table(E, "input_units", m->inputs, m->ninputs, 1);
-  emit_string_table(E, "output_names", m->outputs, m->noutputs, 0);
+  emit_output_names(E);
   emit_double_table(E, "q0", q0, s->nq);
   emit_double_table(E, "qd0", qd0, s->nq);
   emit_control_tables(o, s, P);
@@ -1528,7 +1571,7 @@ static void emit_descriptor(Emitter *E) {
   TABLE("param_defaults", s->np);
   TABLE("input_names", m->ninputs);
   TABLE("input_units", m->ninputs);
-  TABLE("output_names", m->noutputs);
+  TABLE("output_names", m->ny);
   fprintf(o, "  %s_q0, %s_qd0,\n", P, P);
 #undef TABLE
   fprintf(o, "  %s_mass, %s_forcing, %s_accel, %s_rhs, %s_jacobian, %s_inverse, %s_energy, %s_outputs,\n",
@@ -1606,7 +1649,7 @@ static int emit_both(const Model *m, const EomSystem *s, const EmitOptions *o, F
     snprintf(err, errlen, "the model has no generalized coordinates");
     return -1;
   }
-  assert(s->np == m->nparams && s->nu == m->ninputs && s->ny == m->noutputs && s->nq == m->ncoords);
+  assert(s->np == m->nparams && s->nu == m->ninputs && s->ny == m->ny && s->nq == m->ncoords);
   E.uses = calloc((size_t)nn + 1, sizeof *E.uses);
   E.tempno = calloc((size_t)nn + 1, sizeof *E.tempno);
   E.size = calloc((size_t)nn + 1, sizeof *E.size);

@@ -1584,12 +1584,12 @@ void Derivation::run(EomSystem *out) {
   std::vector<SrcLoc> out_locs;
   for (int i = 0; i < m_->noutputs; i++) {
     const Decl *d = m_->outputs[i];
-    Val v = let_value(d);
-    if (!v.scalar())
-      throw SymError{d->loc, fmt("output '%s' is %s: only scalar outputs are supported yet",
-                                 d->name, shape_name(v).c_str())};
-    outs.push_back(unatom(v.a[0]));
-    out_locs.push_back(d->loc);
+    Val v = let_value(d);  /* a vector or matrix: its entries, row by row */
+    assert(v.rows == d->shape.rows && v.cols == d->shape.cols);
+    for (const ex &e : v.a) {
+      outs.push_back(unatom(e));
+      out_locs.push_back(d->loc);
+    }
   }
   tick("computing the outputs");
 
@@ -1743,7 +1743,7 @@ extern "C" int sym_derive(const Model *m, const SymOptions *opt, Diag *d, EomSys
   out->nq = m->ncoords;
   out->nu = m->ninputs;
   out->np = m->nparams;
-  out->ny = m->noutputs;
+  out->ny = m->ny;
   out->nc = 0;
   try {
     eomsym::Derivation dv(m, opt, d);

@@ -306,7 +306,7 @@ START_TEST(statement_shapes) {
   expect_error("coord x\nbody b mass 1 at [x, 0, 0] inertia [1, 1, 1]\n", 2, 36,
                "inertia of body 'b' must be a 3x3 matrix");
   expect_error("coord x\nkinetic x'^2\nconstraint [x, x] = x\n", 3, 1, "equal shapes, not 2x1 and scalar");
-  expect_error("coord x\nkinetic x'^2\noutput p = [x, x]\n", 3, 12, "output 'p' must be a scalar");
+  expect_ok("coord x\nkinetic x'^2\noutput p = [x, x]\noutput R = rotz(x)\n");  /* ny = 2 + 9 */
 }
 END_TEST
 

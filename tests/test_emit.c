@@ -87,6 +87,7 @@ static Decl *decl(Fixture *f, int k, DeclKind kind, const char *name, double v, 
   d->name = name;
   d->number = v;
   d->desc = desc;
+  d->shape.rows = d->shape.cols = 1;  /* scalars, as the checker would find them */
   return d;
 }
 
@@ -110,7 +111,7 @@ static void fixture_alloc(Fixture *f, int nq, int nu, int np, int ny) {
   f->m.coords = f->coords, f->m.ncoords = nq;
   f->m.params = f->params, f->m.nparams = np;
   f->m.inputs = f->inputs, f->m.ninputs = nu;
-  f->m.outputs = f->outputs, f->m.noutputs = ny;
+  f->m.outputs = f->outputs, f->m.noutputs = ny, f->m.ny = ny;
   f->m.q0 = f->q0, f->m.qd0 = f->qd0;
   /* every root starts as a structural zero */
   int *all[] = {f->s.mass, f->s.forcing, f->s.dmass_dq, f->s.dforcing_dq, f->s.dforcing_dqd,

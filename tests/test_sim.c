@@ -568,6 +568,30 @@ START_TEST(sim_time_dependent_constraint) {
 }
 END_TEST
 
+/* Vector and matrix outputs give one CSV column per entry, named as the
+** language indexes them (tip[1], R[1,2]), in order, with the entries'
+** values: tip = (x cos th, x sin th, h) and R = rotz(th) (the standard
+** rotation about z, common practice) at the initial state. */
+START_TEST(sim_vector_outputs) {
+  char *argv[] = {(char *)eomc(), "sim", model_path("swing_tip.eom"), "--until", "0.1", "--step", "0.1", NULL};
+  RunResult r = run_argv(argv);
+  ck_assert_msg(r.status == 0, "status %d: %s", r.status, r.err);
+  const char *header = "t,x,th,x',th',r,tip[1],tip[2],tip[3],R[1,1],R[1,2],R[1,3],R[2,1],R[2,2],R[2,3],"
+                       "R[3,1],R[3,2],R[3,3],s,T,V\n";
+  ck_assert_msg(strncmp(r.out, header, strlen(header)) == 0, "header:\n%s", r.out);
+  int n;
+  double want[] = {0.5 * cos(0.3), 0.5 * sin(0.3), 0.1, cos(0.3), -sin(0.3), 0, sin(0.3), cos(0.3), 0, 0, 0, 1,
+                   0.5 * 0.3};
+  for (int c = 0; c < 13; c++) {
+    double *v = csv_column(r.out, 6 + c, &n);
+    ck_assert_int_eq(n, 2);
+    ck_assert_msg(fabs(v[0] - want[c]) < 1e-15, "column %d: %.17g, want %.17g", 6 + c, v[0], want[c]);
+    free(v);
+  }
+  run_free(&r);
+}
+END_TEST
+
 static Suite *sim_suite(void) {
   Suite *s = suite_create("sim");
   TCase *tc = tcase_create("cli");
@@ -588,6 +612,7 @@ static Suite *sim_suite(void) {
   tcase_add_test(tc, sim_plot_svg);
   tcase_add_test(tc, sim_derived_params_follow);
   tcase_add_test(tc, sim_time_dependent_constraint);
+  tcase_add_test(tc, sim_vector_outputs);
   suite_add_tcase(s, tc);
   return s;
 }
