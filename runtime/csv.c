@@ -5,7 +5,8 @@
 ** The multipliers are those of accel_constrained at the sample: the
 ** generalized constraint force is +Gᵀλ (G = dphi/dq, phi = left - right).
 ** Each number is printed as %.15g when that reads back as the same double
-** (short and readable for round values), else as %.17g (always exact).
+** (short and readable for round values), else as %.17g (always exact);
+** a negative zero is written as 0.
 */
 #include <assert.h>
 #include <math.h>
@@ -17,6 +18,7 @@
 
 static void put_number(FILE *f, const char *sep, double v) {
   char buf[40];
+  if (v == 0) v = 0;  /* -0 (from -sin 0, say) reads as 0 */
   snprintf(buf, sizeof buf, "%.15g", v);
   if (strtod(buf, NULL) != v) snprintf(buf, sizeof buf, "%.17g", v);
   fputs(sep, f);
