@@ -437,6 +437,7 @@ class Derivation {
   void check_inertia(const Stmt *s, const Val &I);
   void add_rotation(const Val &R, const Val &I);
   void finish_placed();
+  exmap random_point(uint64_t &state, bool rates);
   bool point_matches(const Val &P);
   bool turns_match(const Val &R);
   void add_force_at(const Stmt *s);
@@ -1268,28 +1269,37 @@ void Derivation::finish_placed() {
   tree.equations(placed_M_, placed_bias_, placed_full_);
 }
 
-/* P's entries equal T(steps) [local; 1] at a pseudo-random point: a guard on
-** the bookkeeping of placed points (a mismatch falls back to the entries). */
-bool Derivation::point_matches(const Val &P) {
-  uint64_t state = 0x5851f42d4c957f2dULL;
+/* Every variable (and, with rates, every q' and q'') at a pseudo-random
+** value in [0.35, 1.35) drawn from `state`: where the numeric guards look.
+** Fixed seeds keep their verdicts reproducible. */
+exmap Derivation::random_point(uint64_t &state, bool rates) {
   auto next = [&state]() {
     state = state * 6364136223846793005ULL + 1442695040888963407ULL;
     return 0.35 + (double)(state >> 11) / 9007199254740992.0;
   };
   exmap point;
   point[t_] = next();
-  for (int i = 0; i < nq_; i++) point[q_[i]] = next();
+  for (int i = 0; i < nq_; i++) {
+    point[q_[i]] = next();
+    if (rates) point[qd_[i]] = next(), point[qdd_[i]] = next();
+  }
   for (int i = 0; i < nu_; i++) point[u_[i]] = next();
   for (int i = 0; i < np_; i++) point[p_[i]] = next();
-  Subst at(point);
+  return point;
+}
+
+/* P's entries equal T(steps) [local; 1] at a pseudo-random point: a guard on
+** the bookkeeping of placed points (a mismatch falls back to the entries). */
+bool Derivation::point_matches(const Val &P) {
+  uint64_t state = 0x5851f42d4c957f2dULL;
+  Subst at(random_point(state, false));
   ex v[3] = {P.local[0], P.local[1], P.local[2]};  /* applied from the last step back */
   for (auto it = P.turns->rbegin(); it != P.turns->rend(); ++it) {
     if (it->shift) {
       for (int c = 0; c < 3; c++) v[c] = v[c] + it->s[c];
       continue;
     }
-    Turn fwd(it->axis, -it->angle);
-    turn_back(fwd, v);
+    turn_forward(*it, v);
   }
   for (int c = 0; c < 3; c++) {
     double want = value_at(P.a[c], at), got = value_at(v[c], at);
@@ -1302,23 +1312,13 @@ bool Derivation::point_matches(const Val &P) {
 ** guard on the bookkeeping of `turns` (a mismatch falls back to the entries). */
 bool Derivation::turns_match(const Val &R) {
   uint64_t state = 0x9e3779b97f4a7c15ULL;
-  auto next = [&state]() {
-    state = state * 6364136223846793005ULL + 1442695040888963407ULL;
-    return 0.35 + (double)(state >> 11) / 9007199254740992.0;
-  };
-  exmap point;
-  point[t_] = next();
-  for (int i = 0; i < nq_; i++) point[q_[i]] = next();
-  for (int i = 0; i < nu_; i++) point[u_[i]] = next();
-  for (int i = 0; i < np_; i++) point[p_[i]] = next();
-  Subst at(point);
+  Subst at(random_point(state, false));
   for (int col = 0; col < 3; col++) {
     ex v[3] = {0, 0, 0};  /* R e_col = F_1 (F_2 (... F_m e_col)) */
     v[col] = 1;
     for (auto it = R.turns->rbegin(); it != R.turns->rend(); ++it) {
       if (it->shift) continue;
-      Turn back(it->axis, -it->angle);
-      turn_back(back, v);
+      turn_forward(*it, v);
     }
     for (int row = 0; row < 3; row++) {
       double want = value_at(R.at(row, col), at), got = value_at(v[row], at);
@@ -1375,17 +1375,8 @@ void Derivation::add_constraint(const Stmt *s) {
 ** cancel (sin^2 + cos^2 - 1 stays in GiNaC). */
 bool Derivation::nonzero_somewhere(const ex &e, const ex &scale) {
   uint64_t state = 0x2545f4914f6cdd1dULL;  /* fixed seed: the verdict is reproducible */
-  auto next = [&state]() {
-    state = state * 6364136223846793005ULL + 1442695040888963407ULL;
-    return 0.35 + (double)(state >> 11) / 9007199254740992.0;  /* in [0.35, 1.35) */
-  };
   for (int trial = 0; trial < 4; trial++) {
-    exmap point;
-    point[t_] = next();
-    for (int i = 0; i < nq_; i++) point[q_[i]] = next(), point[qd_[i]] = next(), point[qdd_[i]] = next();
-    for (int i = 0; i < nu_; i++) point[u_[i]] = next();
-    for (int i = 0; i < np_; i++) point[p_[i]] = next();
-    Subst at(point);
+    Subst at(random_point(state, true));
     double v = value_at(e, at), s = value_at(scale, at);
     if (std::isnan(v)) continue;
     if (std::fabs(v) > 1e-8 * (1 + (std::isnan(s) ? 0 : std::fabs(s)))) return true;

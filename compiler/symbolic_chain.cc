@@ -74,15 +74,6 @@ Vec3 times(const ex *I, const Vec3 &x) {
   return r;
 }
 
-/* v <- F v: a vector in the axes after turn F, expressed in the axes before it. */
-void turn_forward(const Turn &f, ex v[3]) {
-  if (f.shift) return;
-  int i = (f.axis + 1) % 3, j = (f.axis + 2) % 3;
-  ex c = cos(f.angle), s = sin(f.angle);
-  ex vi = c * v[i] - s * v[j], vj = s * v[i] + c * v[j];
-  v[i] = vi, v[j] = vj;
-}
-
 /* A rigid body on a frame: mass centre at a constant l in the frame's axes
 ** (one that moves in the frame gets a shift step of its own, see add_body). */
 struct Body {
@@ -395,6 +386,15 @@ void FrameTree::equations(std::vector<std::vector<ex>> &M, std::vector<ex> &bias
   bias.assign(nq, 0);
   full.assign(nq, 0);
   for (int j = 0; j < nq; j++) bias[j] = add(bterms[j]), full[j] = add(fterms[j]);
+}
+
+/* v <- F v: a vector in the axes after turn F, expressed in the axes before it. */
+void turn_forward(const Turn &f, ex v[3]) {
+  if (f.shift) return;
+  int i = (f.axis + 1) % 3, j = (f.axis + 2) % 3;
+  ex c = cos(f.angle), s = sin(f.angle);
+  ex vi = c * v[i] - s * v[j], vj = s * v[i] + c * v[j];
+  v[i] = vi, v[j] = vj;
 }
 
 void turn_back(const Turn &f, ex v[3]) {

@@ -124,6 +124,8 @@ struct Turn {
 /* v <- F^T v: a vector in the axes before turn F, expressed in the axes after
 ** it (a shift leaves directions alone). */
 void turn_back(const Turn &f, GiNaC::ex v[3]);
+/* v <- F v: the other way (a shift leaves directions alone). */
+void turn_forward(const Turn &f, GiNaC::ex v[3]);
 
 /* What the frame tree needs from the derivation (symbolic_chain.cc). */
 struct ChainTools {
