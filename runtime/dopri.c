@@ -171,7 +171,7 @@ int dopri_run(SimContext *c, const struct eom_sim_options *o, Sampler *smp, doub
   double mass_t = t;
   char mass_message[sizeof rep->message];
   for (;;) {
-    double hmin = o->h_min > 0 ? o->h_min : 16 * DBL_EPSILON * fmax(fabs(t), fabs(t_end));
+    double hmin = adaptive_h_min(o, t, t_end);
     if (o->max_steps > 0 && rep->steps >= o->max_steps) {
       snprintf(what, sizeof what, "more than %ld steps", o->max_steps);
       st = sim_fail(c, EOM_EMAXSTEPS, t, x, what);
@@ -189,12 +189,7 @@ int dopri_run(SimContext *c, const struct eom_sim_options *o, Sampler *smp, doub
       st = sim_fail(c, EOM_ESTEP, t, x, what);
       goto done;
     }
-    /* Stretch the step to the end rather than leave a sliver. */
-    int last = 0;
-    if (t + 1.01 * h >= t_end) {
-      h = t_end - t;
-      last = 1;
-    }
+    int last = stretch_to_end(t, t_end, &h);
     if ((st = dopri_stages(c, t, h, x, &s))) {
       if (st != EOM_EMASS) goto done;
       mass_pending = 1;

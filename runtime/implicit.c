@@ -319,7 +319,7 @@ int radau5_run(SimContext *c, const struct eom_sim_options *o, Sampler *smp, dou
   double mass_t = t;
   char mass_message[sizeof rep->message];
   for (;;) {
-    double hmin = o->h_min > 0 ? o->h_min : 16 * DBL_EPSILON * fmax(fabs(t), fabs(t_end));
+    double hmin = adaptive_h_min(o, t, t_end);
     if (o->max_steps > 0 && rep->steps >= o->max_steps) {
       snprintf(what, sizeof what, "more than %ld steps", o->max_steps);
       st = sim_fail(c, EOM_EMAXSTEPS, t, x, what);
@@ -341,12 +341,7 @@ int radau5_run(SimContext *c, const struct eom_sim_options *o, Sampler *smp, dou
       }
       goto done;
     }
-    /* Stretch the step to the end rather than leave a sliver. */
-    int last = 0;
-    if (t + 1.01 * h >= t_end) {
-      h = t_end - t;
-      last = 1;
-    }
+    int last = stretch_to_end(t, t_end, &h);
     if (!jac_valid) {
       if ((st = sim_jacobian(c, t, x, jac))) goto done;
       jac_valid = 1;

@@ -10,6 +10,9 @@
 #ifndef EOMRT_INTEGRATORS_H
 #define EOMRT_INTEGRATORS_H
 
+#include <float.h>
+#include <math.h>
+
 #include "eom/runtime.h"
 
 typedef struct SimContext {
@@ -136,5 +139,19 @@ int stabilize_baumgarte(SimContext *c, double t, const double *x, double *qdd);
 /* Dense LU with partial pivoting.  dense_lu returns 0, or -1 when singular. */
 int dense_lu(int n, double *a, int *piv);
 void dense_lu_solve(int n, const double *lu, const int *piv, double *b);
+
+/* Step control shared by the adaptive methods (dopri, radau5): the
+** smallest step before giving up (o->h_min, or 16 ulps of the time), and
+** a step stretched to land on t_end rather than leave a sliver there
+** (returns 1 when this is the last step). */
+static inline double adaptive_h_min(const struct eom_sim_options *o, double t, double t_end) {
+  return o->h_min > 0 ? o->h_min : 16 * DBL_EPSILON * fmax(fabs(t), fabs(t_end));
+}
+
+static inline int stretch_to_end(double t, double t_end, double *h) {
+  if (t + 1.01 * *h < t_end) return 0;
+  *h = t_end - t;
+  return 1;
+}
 
 #endif
