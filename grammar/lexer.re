@@ -1,12 +1,12 @@
 /*
 ** lexer.re — the re2c lexer of the model language.
 **
-** See compiler/lexer.h for the rules it implements (statement-ending
+** See compiler/front/lexer.h for the rules it implements (statement-ending
 ** newlines, index brackets) and its contract with the parser.  The input is
 ** one NUL-terminated buffer; re2c's end-of-input check (re2c:eof) tells the
 ** terminating NUL from NUL bytes inside the file, which are errors.
 */
-#include "lexer.h"
+#include "front/lexer.h"
 
 #include <assert.h>
 #include <errno.h>

@@ -3,7 +3,7 @@
 **
 ** A pure (reentrant) LALR parser with locations.  It builds the AST of
 ** ast.h in the model's arena; every statement that parses becomes one Stmt,
-** in source order.  The lexer (grammar/lexer.re, compiler/lexer.h) has
+** in source order.  The lexer (grammar/lexer.re, compiler/front/lexer.h) has
 ** already decided which newlines end statements and which `[` index, so the
 ** grammar below is context free and conflict free (%expect 0).
 **
@@ -19,7 +19,7 @@
 */
 
 %code requires {
-#include "ast.h"
+#include "front/ast.h"
 typedef struct ParseCtx ParseCtx;
 typedef struct PtrVec PtrVec;
 }
@@ -34,8 +34,8 @@ void yyerror(YYLTYPE *lloc, ParseCtx *ctx, const char *msg);
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
-#include "lexer.h"
-#include "parse.h"
+#include "front/lexer.h"
+#include "front/parse.h"
 
 /* A growable array of pointers in the arena (the old array is abandoned
 ** on growth: at most twice the final size is ever used). */

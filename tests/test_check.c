@@ -14,8 +14,8 @@
 #include <string.h>
 #include <sys/wait.h>
 
-#include "check.h"
-#include "parse.h"
+#include "front/check.h"
+#include "front/parse.h"
 
 typedef struct Checked {
   Diag d;

@@ -1,5 +1,5 @@
 /*
-** test_depfile.c — the Make-syntax dependency-file writer (compiler/depfile.c).
+** test_depfile.c — the Make-syntax dependency-file writer (compiler/emit/depfile.c).
 **
 ** The escaping is checked twice: against the rules as GNU make documents
 ** them (GNU make manual, Stallman, McGrath & Smith, "GNU Make", ed. for make
@@ -20,7 +20,7 @@
 #include <unistd.h>
 #include <utime.h>
 
-#include "depfile.h"
+#include "emit/depfile.h"
 #include "testutil.h"
 
 static char err[512];

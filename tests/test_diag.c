@@ -7,7 +7,7 @@
 #include <stdlib.h>
 #include <string.h>
 
-#include "diag.h"
+#include "front/diag.h"
 
 static char *print_all(const Diag *d) {
   char *buf = NULL;

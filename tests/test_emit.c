@@ -15,8 +15,8 @@
 #include <stdlib.h>
 #include <string.h>
 #include <sys/stat.h>
-#include "emit_c.h"
-#include "hash.h"
+#include "emit/emit_c.h"
+#include "emit/hash.h"
 #include "testutil.h"
 
 /* ------------------------------------------------------------------ a tiny IR builder */

@@ -11,7 +11,7 @@
 #include <stdlib.h>
 #include <string.h>
 
-#include "lexer.h"
+#include "front/lexer.h"
 
 /* A lexed input: its tokens, values and locations, and the diagnostics. */
 typedef struct Lexed {

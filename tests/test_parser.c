@@ -16,7 +16,7 @@
 #include <stdlib.h>
 #include <string.h>
 
-#include "parse.h"
+#include "front/parse.h"
 
 #ifndef SRCDIR
 #define SRCDIR "."

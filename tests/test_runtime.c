@@ -11,7 +11,7 @@
 #include <unistd.h>
 
 #include "eom/runtime.h"
-#include "modal.h"
+#include "cli/modal.h"
 #include "handmodels.h"
 
 #ifdef HAVE_GSL

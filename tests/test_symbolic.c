@@ -16,8 +16,8 @@
 #include <string.h>
 #include <unistd.h>
 
-#include "frontend.h"
-#include "symbolic.h"
+#include "cli/frontend.h"
+#include "sym/symbolic.h"
 
 /* ------------------------------------------------------------ helpers */
 

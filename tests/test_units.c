@@ -12,9 +12,9 @@
 #include <stdlib.h>
 #include <string.h>
 
-#include "check.h"
-#include "parse.h"
-#include "units.h"
+#include "front/check.h"
+#include "front/parse.h"
+#include "front/units.h"
 
 typedef struct Checked {
   Diag d;

@@ -11,9 +11,9 @@
 #include <stdlib.h>
 #include <string.h>
 
-#include "check.h"
-#include "diag.h"
-#include "parse.h"
+#include "front/check.h"
+#include "front/diag.h"
+#include "front/parse.h"
 
 int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size);
 

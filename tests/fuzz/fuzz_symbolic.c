@@ -14,10 +14,10 @@
 #include <stdlib.h>
 #include <string.h>
 
-#include "check.h"
-#include "diag.h"
-#include "parse.h"
-#include "symbolic.h"
+#include "front/check.h"
+#include "front/diag.h"
+#include "front/parse.h"
+#include "sym/symbolic.h"
 
 int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size);
 

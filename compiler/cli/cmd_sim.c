@@ -1,0 +1,420 @@
+/*
+** cmd_sim.c — `eomc sim`: build the model, integrate it with libeomrt, write
+** the samples as CSV (t, coordinates, rates, outputs, T, V) and optionally
+** plot them.
+**
+** The summary line on stderr gives the steps, the final time, the energy
+** change and the action, the time integral of L = T - V over the run, by
+** Simpson's rule on the samples.  An integration failure keeps every row
+** written so far (the file is still renamed into place) and exits 3.
+*/
+#include <errno.h>
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <sys/stat.h>
+#include <time.h>
+#include <unistd.h>
+
+#include "cli/build_model.h"
+#include "cli/cmd.h"
+#include "cli/conserved_monitor.h"
+#include "eom/runtime.h"
+#include "cli/plot.h"
+#include "cli/run_values.h"
+
+static const char sim_usage[] =
+  "usage: eomc sim MODEL.eom [OPTIONS]\n"
+  "\n"
+  "Build the model (generated C, compiled and cached), integrate it and write\n"
+  "a CSV with columns t, the coordinates, their rates (name'), the outputs, T, V.\n"
+  "\n"
+  "options:\n"
+  "  --until T          end time (default 10); the run starts at t = 0\n"
+  "  --step H           time between CSV rows (default T/1000); for the\n"
+  "                     fixed-step methods also the largest integration step\n"
+  "  --method NAME      rk4, dopri (default; adaptive), radau5 (implicit,\n"
+  "                     adaptive, for stiff models) or midpoint (implicit,\n"
+  "                     fixed-step, energy-preserving)\n"
+  "  --rtol R, --atol A tolerances of dopri and radau5, and the Newton\n"
+  "                     tolerances of the implicit methods (defaults 1e-8, 1e-10)\n"
+  "  --set NAME=VALUE   a parameter, a constant input, a coordinate's initial\n"
+  "                     value, or NAME'=VALUE for its initial rate (repeatable;\n"
+  "                     params whose default reads the ones set follow them)\n"
+  "  --inputs FILE.csv  inputs over time: header `t,INPUT,...`, rows of numbers,\n"
+  "                     interpolated linearly (its columns override --set)\n"
+  "  -o OUT.csv         write the CSV there (default: standard output)\n"
+  "  --plot OUT.svg     plot coordinates, energies and phase portraits (gnuplot)\n"
+  "\n"
+  "models with constraints (the CSV adds lambda1.., the multipliers; the\n"
+  "generalized constraint force is +G^T lambda with G = dphi/dq):\n"
+  "  --baumgarte A,B    Baumgarte gains in 1/s: G q'' = gamma - 2A phi' - B^2 phi\n"
+  "                     (default 10,10; 0,0 turns the term off)\n"
+  "  --no-projection    do not project q and q' back onto the constraints after\n"
+  "                     each step\n"
+  "  --no-initial-fix   start from the initial state as given (default: moved\n"
+  "                     onto the constraints by Gauss-Newton first)\n"
+  "  --constraint-tol E max|phi| the projections aim for (default 1e-12)\n"
+  "\n"
+  "Cache: $EOMC_CACHE_DIR, else $XDG_CACHE_HOME/eomc, else ~/.cache/eomc.\n"
+  "Compiler: $CC (default cc).\n"
+  "exit status: 0 success, 1 model error, 2 usage error, 3 run failure\n";
+
+typedef struct SimArgs {
+  const char *model, *method, *out, *plot, *inputs;
+  double until, step, rtol, atol;
+  char **sets;
+  int nsets;
+  /* constraints */
+  double alpha, beta, constraint_tol;
+  int no_projection, no_initial_fix;
+} SimArgs;
+
+/* "A,B": two numbers >= 0 separated by a comma; 0 or -1. */
+static int parse_gains(const char *v, double *a, double *b) {
+  char buf[128];
+  const char *comma = strchr(v, ',');
+  if (!comma || (size_t)(comma - v) >= sizeof buf) return -1;
+  memcpy(buf, v, (size_t)(comma - v));
+  buf[comma - v] = '\0';
+  if (parse_number(buf, a) != 0 || parse_number(comma + 1, b) != 0) return -1;
+  return *a >= 0 && *b >= 0 ? 0 : -1;
+}
+
+static int usage_error(const char *fmt, const char *arg) {
+  fputs("eomc sim: ", stderr);
+  fprintf(stderr, fmt, arg);
+  fputs(" (try 'eomc sim --help')\n", stderr);
+  return EXIT_USAGE;
+}
+
+/* Value of an option taking an argument: "--opt V" or "--opt=V". */
+static const char *option_value(int argc, char **argv, int *i, const char *name) {
+  size_t n = strlen(name);
+  if (strncmp(argv[*i], name, n) != 0) return NULL;
+  if (argv[*i][n] == '=') return argv[*i] + n + 1;
+  if (argv[*i][n] != '\0') return NULL;
+  if (*i + 1 >= argc) return "";
+  return argv[++*i];
+}
+
+static int parse_args(int argc, char **argv, SimArgs *a) {
+  memset(a, 0, sizeof *a);
+  a->method = "dopri";
+  a->until = 10;
+  a->alpha = a->beta = -1; /* the runtime's defaults */
+  a->sets = calloc((size_t)argc + 1, sizeof(char *));
+  if (!a->sets) return usage_error("%s", "out of memory");
+  for (int i = 1; i < argc; i++) {
+    const char *v;
+    double *num = NULL;
+    const char *arg = argv[i];
+    if ((v = option_value(argc, argv, &i, "--until"))) num = &a->until;
+    else if ((v = option_value(argc, argv, &i, "--step"))) num = &a->step;
+    else if ((v = option_value(argc, argv, &i, "--rtol"))) num = &a->rtol;
+    else if ((v = option_value(argc, argv, &i, "--atol"))) num = &a->atol;
+    else if ((v = option_value(argc, argv, &i, "--method"))) a->method = v;
+    else if ((v = option_value(argc, argv, &i, "--set"))) a->sets[a->nsets++] = (char *)v;
+    else if ((v = option_value(argc, argv, &i, "--inputs"))) a->inputs = v;
+    else if ((v = option_value(argc, argv, &i, "--plot"))) a->plot = v;
+    else if ((v = option_value(argc, argv, &i, "-o"))) a->out = v;
+    else if ((v = option_value(argc, argv, &i, "--constraint-tol"))) num = &a->constraint_tol;
+    else if (strcmp(arg, "--no-projection") == 0) {
+      a->no_projection = 1;
+      continue;
+    } else if (strcmp(arg, "--no-initial-fix") == 0) {
+      a->no_initial_fix = 1;
+      continue;
+    } else if ((v = option_value(argc, argv, &i, "--baumgarte"))) {
+      if (parse_gains(v, &a->alpha, &a->beta) != 0)
+        return usage_error("'--baumgarte' needs two numbers >= 0, e.g. 10,10 (got '%s')", v);
+      continue;
+    }
+    else if (arg[0] == '-' && arg[1] != '\0') return usage_error("unknown option '%s'", arg);
+    else if (a->model) return usage_error("more than one model file ('%s')", arg);
+    else {
+      a->model = arg;
+      continue;
+    }
+    if (!*v) return usage_error("option '%s' needs a value", arg);
+    if (num) {
+      if (parse_number(v, num) != 0 || !(*num > 0))
+        return usage_error("'%s' needs a positive number", arg);
+    }
+  }
+  if (!a->model) return usage_error("%s", "no model file given");
+  if (!eom_method_known(a->method)) {
+    fprintf(stderr, "eomc sim: unknown method '%s' (methods: %s)\n", a->method,
+            eom_method_list());
+    return EXIT_USAGE;
+  }
+  if (a->step == 0) a->step = a->until / 1000;
+  if (a->step > a->until) return usage_error("%s", "--step is longer than --until");
+  return 0;
+}
+
+/* ------------------------------------------------------------ the run */
+
+typedef struct SimOut {
+  const struct eom_model *m;
+  const double *p;
+  FILE *csv;
+  int write_failed;
+  long rows;
+  double E0, E, t_last;
+  /* Action by Simpson's rule: pending samples (ta, La), (tb, Lb). */
+  double action, ta, La, tb, Lb;
+  int pending;
+  /* Progress bar. */
+  int tty;
+  double t_end, started, last_draw;
+  int drawn;
+  ConservedMonitor *conserved;  /* constants of the motion, watched per sample */
+} SimOut;
+
+static double now_seconds(void) {
+  struct timespec ts;
+  clock_gettime(CLOCK_MONOTONIC, &ts);
+  return (double)ts.tv_sec + 1e-9 * (double)ts.tv_nsec;
+}
+
+/* Fold the sample (t, L) into the action: Simpson over two equal intervals,
+** the trapezoid where spacing changes. */
+static void action_add(SimOut *s, double t, double L) {
+  if (s->pending == 0) {
+    s->ta = t, s->La = L, s->pending = 1;
+  } else if (s->pending == 1) {
+    s->tb = t, s->Lb = L, s->pending = 2;
+  } else {
+    double h1 = s->tb - s->ta, h2 = t - s->tb;
+    if (fabs(h1 - h2) <= 1e-9 * fmax(h1, h2)) {
+      s->action += (h1 + h2) / 6 * (s->La + 4 * s->Lb + L);
+      s->ta = t, s->La = L, s->pending = 1;
+    } else {
+      s->action += h1 / 2 * (s->La + s->Lb);
+      s->ta = s->tb, s->La = s->Lb;
+      s->tb = t, s->Lb = L;
+    }
+  }
+}
+
+static double action_total(const SimOut *s) {
+  return s->action + (s->pending == 2 ? (s->tb - s->ta) / 2 * (s->La + s->Lb) : 0.0);
+}
+
+static void progress(SimOut *s, double t) {
+  if (!s->tty) return;
+  double now = now_seconds();
+  if (now - s->started < 1.0 || now - s->last_draw < 0.1) return;
+  s->last_draw = now;
+  int width = 40, done = (int)(width * t / s->t_end);
+  char bar[64];
+  for (int i = 0; i < width; i++) bar[i] = i < done ? '=' : ' ';
+  bar[width] = '\0';
+  fprintf(stderr, "\r[%s] %3d%%  t = %-12.6g", bar, (int)(100 * t / s->t_end), t);
+  s->drawn = 1;
+}
+
+static int on_sample(void *ctx, double t, const double *x, const double *u) {
+  SimOut *s = ctx;
+  const struct eom_model *m = s->m;
+  double T = 0, V = 0;
+  if (eom_csv_write_row(s->csv, m, s->p, t, x, u) != 0) {
+    s->write_failed = 1;
+    return 1;
+  }
+  if (m->energy) m->energy(x, x + m->nq, s->p, &T, &V);
+  cmon_sample(s->conserved, x, s->p);
+  if (s->rows == 0) s->E0 = T + V;
+  s->E = T + V;
+  s->rows++;
+  s->t_last = t;
+  action_add(s, t, T - V);
+  progress(s, t);
+  return 0;
+}
+
+/* Copy a finished scratch CSV to standard output. */
+static int copy_to_stdout(const char *path) {
+  char buf[65536];
+  size_t n;
+  FILE *f = fopen(path, "r");
+  if (!f) return -1;
+  while ((n = fread(buf, 1, sizeof buf, f)) > 0)
+    if (fwrite(buf, 1, n, stdout) != n) break;
+  int bad = ferror(f) || ferror(stdout) || fflush(stdout) != 0;
+  fclose(f);
+  return bad ? -1 : 0;
+}
+
+/* Open the CSV destination: a temporary beside `out` (renamed at the end),
+** stdout, or a scratch file (copied to stdout at the end) when a plot needs
+** the data in a file. */
+static FILE *open_csv(const SimArgs *a, char **tmp_path) {
+  struct stat st;
+  *tmp_path = NULL;
+  if (a->out && stat(a->out, &st) == 0 && !S_ISREG(st.st_mode))
+    return fopen(a->out, "w"); /* /dev/null, a pipe: nothing to rename */
+  if (a->out) {
+    size_t len = strlen(a->out) + 32;
+    *tmp_path = malloc(len);
+    if (!*tmp_path) return NULL;
+    snprintf(*tmp_path, len, "%s.tmp.%ld", a->out, (long)getpid());
+    return fopen(*tmp_path, "w");
+  }
+  if (a->plot) {
+    *tmp_path = strdup("/tmp/eomc-sim-XXXXXX");
+    if (!*tmp_path) return NULL;
+    int fd = mkstemp(*tmp_path);
+    return fd < 0 ? NULL : fdopen(fd, "w");
+  }
+  return stdout;
+}
+
+int cmd_sim(int argc, char **argv) {
+  SimArgs a;
+  BuiltModel bm;
+  ConservedMonitor cmon;
+  RunValues rv;
+  char err[1024];
+  int rc;
+  for (int i = 1; i < argc; i++)
+    if (cmd_is_help(argv[i])) {
+      fputs(sim_usage, stdout);
+      return 0;
+    }
+  if ((rc = parse_args(argc, argv, &a)) != 0) {
+    free(a.sets);
+    return rc;
+  }
+  if (a.plot && plot_available(err, sizeof err) != 0) {
+    fprintf(stderr, "eomc sim: error: %s\n", err);
+    free(a.sets);
+    return EXIT_RUN;
+  }
+  if ((rc = build_model(a.model, &bm)) != 0) {
+    free(a.sets);
+    return rc;
+  }
+  const struct eom_model *m = bm.model;
+  eom_inputs *in = NULL;
+  memset(&cmon, 0, sizeof cmon);
+  FILE *csv = NULL;
+  char *tmp_csv = NULL;
+  if (run_values_init(&rv, m) != 0 || !(in = eom_inputs_new(m->nu)) || cmon_init(&cmon, m) != 0) {
+    fprintf(stderr, "eomc sim: error: out of memory\n");
+    rc = EXIT_RUN;
+    goto out;
+  }
+  for (int i = 0; i < a.nsets; i++)
+    if (run_values_assign(&rv, m, a.sets[i], RV_PARAMS | RV_INPUTS | RV_COORDS | RV_RATES, err,
+                          sizeof err) != 0) {
+      fprintf(stderr, "eomc sim: --set %s\n", err);
+      rc = EXIT_USAGE;
+      goto out;
+    }
+  for (int j = 0; j < m->nu; j++) eom_inputs_set_constant(in, j, rv.u[j]);
+  if (a.inputs &&
+      eom_inputs_load_csv(in, a.inputs, (const char *const *)m->input_names, err, sizeof err) !=
+          EOM_OK) {
+    fprintf(stderr, "eomc sim: error: %s\n", err);
+    rc = EXIT_USAGE;
+    goto out;
+  }
+  csv = open_csv(&a, &tmp_csv);
+  if (!csv) {
+    fprintf(stderr, "eomc sim: error: cannot write %s: %s\n", tmp_csv ? tmp_csv : "the CSV",
+            strerror(errno));
+    rc = EXIT_RUN;
+    goto out;
+  }
+
+  struct eom_sim_options o;
+  struct eom_report rep;
+  SimOut so;
+  memset(&so, 0, sizeof so);
+  so.m = m;
+  so.p = rv.p;
+  so.csv = csv;
+  so.conserved = &cmon;
+  so.tty = isatty(STDERR_FILENO);
+  so.t_end = a.until;
+  so.started = so.last_draw = now_seconds();
+  eom_sim_options_init(&o);
+  o.method = a.method;
+  o.t0 = 0;
+  o.t_end = a.until;
+  o.sample_dt = a.step;
+  o.step = strcmp(a.method, "dopri") == 0 ? 0 : a.step;
+  if (a.rtol > 0) o.rtol = a.rtol;
+  if (a.atol > 0) o.atol = a.atol;
+  if (a.alpha >= 0) o.baumgarte_alpha = a.alpha, o.baumgarte_beta = a.beta;
+  o.no_projection = a.no_projection;
+  o.no_initial_fix = a.no_initial_fix;
+  o.constraint_tol = a.constraint_tol;
+
+  eom_csv_write_header(csv, m);
+  int st = eom_simulate(m, rv.p, in, rv.x, &o, on_sample, &so, &rep);
+  if (so.drawn) fprintf(stderr, "\r%*s\r", 70, "");
+  int write_failed = so.write_failed || fflush(csv) != 0 || ferror(csv);
+  if (csv != stdout) {
+    write_failed |= fclose(csv) != 0;
+    csv = NULL;
+  }
+  if (write_failed) {
+    fprintf(stderr, "eomc sim: error: writing the CSV failed\n");
+    rc = EXIT_RUN;
+    goto out;
+  }
+  /* The rows so far are kept even after a failure. */
+  if (a.out && tmp_csv && rename(tmp_csv, a.out) != 0) {
+    fprintf(stderr, "eomc sim: error: cannot write %s: %s\n", a.out, strerror(errno));
+    rc = EXIT_RUN;
+    goto out;
+  }
+  double drift = so.E - so.E0;
+  fprintf(stderr,
+          "eomc sim: %s, %ld steps (%ld rejected), %ld evaluations, t = %.10g; "
+          "energy T+V %.10g -> %.10g (change %.3g%s); action %.10g\n",
+          a.method, rep.steps, rep.rejected, rep.rhs_evals, rep.t, so.E0, so.E,
+          so.E0 != 0 ? drift / fabs(so.E0) : drift, so.E0 != 0 ? " relative" : "",
+          action_total(&so));
+  cmon_report(&cmon, "eomc sim: ", stderr);
+  rc = 0;
+  if (st != EOM_OK) {
+    fprintf(stderr, "eomc sim: error: integration failed %s\n",
+            rep.message[0] ? rep.message : eom_status_text((eom_status)st));
+    if (a.out) fprintf(stderr, "eomc sim: note: %ld rows up to t = %.10g kept in %s\n", so.rows,
+                       so.t_last, a.out);
+    rc = EXIT_RUN;
+  }
+  if (!a.out && tmp_csv && copy_to_stdout(tmp_csv) != 0) {
+    fprintf(stderr, "eomc sim: error: writing the CSV to standard output failed\n");
+    rc = EXIT_RUN;
+  }
+  if (a.plot) {
+    const char *data = a.out ? a.out : tmp_csv;
+    if (a.out && !tmp_csv) {
+      fprintf(stderr, "eomc sim: error: --plot needs -o to name a regular file (or no -o)\n");
+      rc = EXIT_RUN;
+      goto out;
+    }
+    if (plot_svg(m, data, a.plot, err, sizeof err) != 0) {
+      fprintf(stderr, "eomc sim: error: %s\n", err);
+      rc = EXIT_RUN;
+    }
+  }
+out:
+  if (csv && csv != stdout) fclose(csv);
+  if (tmp_csv) {
+    if (rc != 0 || !a.out) unlink(tmp_csv); /* harmless after the rename */
+    free(tmp_csv);
+  }
+  eom_inputs_free(in);
+  cmon_free(&cmon);
+  run_values_free(&rv);
+  built_model_close(&bm);
+  free(a.sets);
+  return rc;
+}

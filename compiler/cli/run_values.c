@@ -1,0 +1,116 @@
+/*
+** run_values.c — parameters, initial state and constant inputs of a run,
+** and the NAME=VALUE assignments that change them.
+*/
+#include "cli/run_values.h"
+
+#include <assert.h>
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+int parse_number(const char *s, double *out) {
+  char *end;
+  if (!s || !*s) return -1;
+  double v = strtod(s, &end);
+  if (end == s || *end != '\0' || !isfinite(v)) return -1;
+  *out = v;
+  return 0;
+}
+
+int run_values_init(RunValues *v, const struct eom_model *m) {
+  memset(v, 0, sizeof *v);
+  v->p = calloc((size_t)m->np + 1, sizeof(double));
+  v->x = calloc(2 * (size_t)m->nq + 1, sizeof(double));
+  v->u = calloc((size_t)m->nu + 1, sizeof(double));
+  v->u_set = calloc((size_t)m->nu + 1, sizeof(int));
+  v->p_set = calloc((size_t)m->np + 1, sizeof(int));
+  if (!v->p || !v->x || !v->u || !v->u_set || !v->p_set) {
+    run_values_free(v);
+    return -1;
+  }
+  for (int i = 0; i < m->np; i++) v->p[i] = m->param_defaults[i];
+  for (int i = 0; i < m->nq; i++) {
+    v->x[i] = m->q0 ? m->q0[i] : 0.0;
+    v->x[m->nq + i] = m->qd0 ? m->qd0[i] : 0.0;
+  }
+  return 0;
+}
+
+void run_values_free(RunValues *v) {
+  free(v->p);
+  free(v->x);
+  free(v->u);
+  free(v->u_set);
+  free(v->p_set);
+  memset(v, 0, sizeof *v);
+}
+
+/* Append the names allowed by kinds to buf, comma-separated. */
+static void allowed_names(const struct eom_model *m, int kinds, char *buf, size_t cap) {
+  size_t len = 0;
+  buf[0] = '\0';
+#define ADD(fmt, name)                                                        \
+  do {                                                                        \
+    if (len + 1 < cap) {                                                      \
+      int k = snprintf(buf + len, cap - len, fmt, len ? ", " : "", name);     \
+      if (k > 0) len += (size_t)k < cap - len ? (size_t)k : cap - len - 1;    \
+    }                                                                         \
+  } while (0)
+  if (kinds & RV_PARAMS)
+    for (int i = 0; i < m->np; i++) ADD("%s%s", m->param_names[i]);
+  if (kinds & RV_INPUTS)
+    for (int i = 0; i < m->nu; i++) ADD("%s%s", m->input_names[i]);
+  if (kinds & RV_COORDS)
+    for (int i = 0; i < m->nq; i++) ADD("%s%s", m->coord_names[i]);
+  if (kinds & RV_RATES)
+    for (int i = 0; i < m->nq; i++) ADD("%s%s'", m->coord_names[i]);
+#undef ADD
+  if (len == 0) snprintf(buf, cap, "none");
+}
+
+int run_values_assign(RunValues *v, const struct eom_model *m, const char *assignment, int kinds,
+                      char *err, size_t errlen) {
+  char names[512];
+  assert(v && m && assignment);
+  const char *eq = strchr(assignment, '=');
+  double value;
+  if (!eq || eq == assignment) {
+    snprintf(err, errlen, "'%s' is not NAME=VALUE", assignment);
+    return -1;
+  }
+  size_t nlen = (size_t)(eq - assignment);
+  int rate = assignment[nlen - 1] == '\'';
+  size_t base = rate ? nlen - 1 : nlen;
+  if (parse_number(eq + 1, &value) != 0) {
+    snprintf(err, errlen, "'%s': '%s' is not a finite number", assignment, eq + 1);
+    return -1;
+  }
+#define SAME(name) (strlen(name) == base && strncmp((name), assignment, base) == 0)
+  if (!rate) {
+    if (kinds & RV_PARAMS)
+      for (int i = 0; i < m->np; i++)
+        if (SAME(m->param_names[i])) {
+          v->p[i] = value;
+          v->p_set[i] = 1;
+          /* defaults written in terms of other params follow them */
+          if (m->derived_params) m->derived_params(v->p, v->p_set);
+          return 0;
+        }
+    if (kinds & RV_INPUTS)
+      for (int i = 0; i < m->nu; i++)
+        if (SAME(m->input_names[i])) return v->u[i] = value, v->u_set[i] = 1, 0;
+    if (kinds & RV_COORDS)
+      for (int i = 0; i < m->nq; i++)
+        if (SAME(m->coord_names[i])) return v->x[i] = value, 0;
+  } else if (kinds & RV_RATES) {
+    for (int i = 0; i < m->nq; i++)
+      if (SAME(m->coord_names[i])) return v->x[m->nq + i] = value, 0;
+  }
+#undef SAME
+  allowed_names(m, kinds, names, sizeof names);
+  snprintf(err, errlen, "'%.*s' is not a name this option can set (names: %s)", (int)nlen,
+           assignment, names);
+  return -1;
+}

@@ -1,0 +1,73 @@
+/*
+** symbolic.h — the C interface of the symbolic core (symbolic*.cc, GiNaC).
+**
+** sym_derive() turns a checked Model into an EomSystem: every quantity the
+** generated code needs, as root nodes of one shared IrGraph.  Matrices are
+** row-major arrays of node indices.  A root may be a structural zero (an
+** IR_NUM node with num == 0); the emitter skips those.
+**
+** Conventions (SPEC §2): M(q) q'' = f(t, q, q', u); the state is x = [q; q'].
+*/
+#ifndef EOMC_SYMBOLIC_H
+#define EOMC_SYMBOLIC_H
+
+#include "front/check.h"
+#include "front/diag.h"
+#include "sym/ir.h"
+
+#ifdef __cplusplus
+extern "C" {
+#endif
+
+typedef struct EomSystem {
+  IrGraph g;
+  int nq, nu, np, ny, nc;
+  int *mass;          /* nq*nq  M(q, p), symmetric */
+  int *forcing;       /* nq     f(t, q, qd, u, p) */
+  int *dmass_dq;      /* nq*nq*nq: [k*nq*nq + i*nq + j] = dM_ij/dq_k */
+  int *dforcing_dq;   /* nq*nq  [i*nq + j] = df_i/dq_j */
+  int *dforcing_dqd;  /* nq*nq  [i*nq + j] = df_i/dqd_j */
+  int *dforcing_du;   /* nq*nu  [i*nu + j] = df_i/du_j */
+  int *inverse;       /* nq     M qdd - f(u = 0), in terms of IRV_QDD */
+  int energy_T, energy_V;
+  int *outputs;       /* ny     y(t, q, qd, u, p) */
+  int *constraint;    /* nc     phi(q, p) (t allowed) */
+  int *constraint_jacobian;  /* nc*nq  G = dphi/dq */
+  int *constraint_gamma;     /* nc     gamma with G qdd = gamma */
+  int *constraint_dt;        /* nc     dphi/dt (explicit time), so phi' = G qd + dphi/dt */
+  /* symbolic_control.cc: M qdd + C qd + g = Q - dD/dqd, momenta, constants
+  ** of the motion */
+  int has_split;             /* L = qd^T M qd / 2 - V(q), free of t and u */
+  char split_why[200];       /* why not, when !has_split */
+  int *coriolis;             /* nq*nq  C(q, qd, p); NULL without the split */
+  int *gravity;              /* nq     g(q, p) = dV/dq; NULL without the split */
+  int *momenta;              /* nq     dL/dqd */
+  int hamiltonian;           /* qd . dL/dqd - L */
+  int *cyclic;               /* nq     1: q_i is cyclic, momenta[i] is conserved */
+  int energy_conserved;      /* 1: the hamiltonian is a constant of the motion */
+  char energy_why[200];      /* why not, when !energy_conserved */
+  /* the regressor form P_inverse = Y pi + tau0, pi = the `identify` params */
+  int ni;                    /* identified parameters (0: none) */
+  int *identified;           /* ni     their indices in p */
+  int *regressor;            /* nq*ni  Y(t, q, qd, qdd, p) */
+  int *regressor_offset;     /* nq     tau0: P_inverse at pi = 0 */
+  /* params whose default is an expression of earlier params */
+  int *param_rule;           /* np     that expression of p, or -1 for a plain default */
+  int nderived;              /* entries of param_rule that are not -1 */
+} EomSystem;
+
+typedef struct SymOptions {
+  int no_cse;          /* keep the graph a tree-like expansion (for benchmarks) */
+  double max_seconds;  /* 0: no limit */
+} SymOptions;
+
+/* Derive the equations of motion of `m`.  Returns 0 on success; on failure
+** reports errors to `d` (with the offending term's location) and returns
+** nonzero.  `out` must be freed with sym_free() either way. */
+int sym_derive(const Model *m, const SymOptions *opt, Diag *d, EomSystem *out);
+void sym_free(EomSystem *s);
+
+#ifdef __cplusplus
+}
+#endif
+#endif
