@@ -29,6 +29,19 @@ enum {
 void emit_plain_function(struct Emitter *E, const char *fname, unsigned args,
                          const char *out, const int *roots, int n);
 
+/* One output array of a generated function: out[i] = roots[i], or NaN
+** where roots[i] < 0 (an entry that has no value, e.g. the Jacobian row
+** of an output that depends on rates). */
+typedef struct EmitOut {
+  const char *name;
+  const int *roots;
+  int n;
+} EmitOut;
+
+/* emit_c.c: `void P_fname(args..., double *out1, ...)` for up to 4 outputs. */
+void emit_function_outs(struct Emitter *E, const char *fname, unsigned args,
+                        const EmitOut *outs, int nouts);
+
 /* P.h: macros and prototypes. */
 void emit_control_prototypes(FILE *o, const Model *m, const EomSystem *s, const char *P);
 /* P.c: the function bodies. */
