@@ -1027,16 +1027,12 @@ static void emit_energy(Emitter *E) {
   fputs("}\n\n", E->out);
 }
 
-/* See emit_control.h. */
-void emit_plain_function(Emitter *E, const char *fname, unsigned args, const char *out,
-                         const int *roots, int n) {
-  EmitOut o = {out, roots, n};
-  emit_function_outs(E, fname, args, &o, 1);
-}
-
-/* See emit_control.h. */
-void emit_function_outs(Emitter *E, const char *fname, unsigned args, const EmitOut *outs,
-                        int nouts) {
+/* `void P_fname(args..., double *out1, ...)` writing each out[k] = roots[k],
+** or NaN where a root is negative (an entry without a value: see EmitOut
+** in emit_kinematics.h).  A root reading an argument the function lacks
+** makes it write NaN throughout (t and u are first checked numerically). */
+static void emit_function_outs(Emitter *E, const char *fname, unsigned args,
+                               const EmitOut *outs, int nouts) {
   static const Param all[] = {{IRV_T, "double t", "t"}, {IRV_Q, "const double *q", "q"},
                               {IRV_QD, "const double *qd", "qd"},
                               {IRV_QDD, "const double *qdd", "qdd"},
@@ -1080,6 +1076,14 @@ void emit_function_outs(Emitter *E, const char *fname, unsigned args, const Emit
       }
   }
   fputs("}\n\n", E->out);
+}
+
+/* `void P_fname(args..., double *out)` writing out[k] = roots[k] (see
+** PlainFunction in emit_control.h). */
+static void emit_plain_function(Emitter *E, const char *fname, unsigned args,
+                                const char *out, const int *roots, int n) {
+  EmitOut o = {out, roots, n};
+  emit_function_outs(E, fname, args, &o, 1);
 }
 
 static void emit_outputs(Emitter *E) {
@@ -1636,8 +1640,15 @@ static void emit_source(Emitter *E) {
     emit_constraint_at(E);
     emit_accel_constrained(E);
   }
-  emit_control_functions(E, E->out, E->s);
-  emit_kinematics_functions(E, E->m, E->s);
+  PlainFunction fns[EMIT_CONTROL_MAX_FUNCTIONS];
+  int nfns = emit_control_functions(E->s, fns);
+  for (int k = 0; k < nfns; k++)
+    emit_plain_function(E, fns[k].fname, fns[k].args, fns[k].out, fns[k].roots, fns[k].n);
+  KinematicFunction *kfns = NULL;
+  int nk = emit_kinematics_functions(E->m, E->s, &kfns);
+  for (int k = 0; k < nk; k++)
+    emit_function_outs(E, kfns[k].fname, kfns[k].args, kfns[k].outs, kfns[k].nouts);
+  emit_kinematics_free(kfns, nk);
   emit_defaults(E);
   emit_descriptor(E);
 }

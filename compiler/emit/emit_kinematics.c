@@ -1,9 +1,9 @@
 /*
-** emit_kinematics.c — write the outputs' Jacobians and the frames:
+** emit_kinematics.c — the outputs' Jacobians and the frames:
 ** P_output_jacobian and P_output_bias for the outputs that depend on the
 ** coordinates and parameters only, and one P_frame_NAME per `frame` with
-** its position, rotation, geometric Jacobian and bias, plus their entries
-** in the descriptor.
+** its position, rotation, geometric Jacobian and bias (listed here, written
+** by emit_c.c), plus their prototypes and entries in the descriptor.
 **
 ** Conventions (documented in P.h as written below): y'' = J qdd + J' qd for
 ** a kinematic output; a frame's J maps qd to [v; w], the world velocity of
@@ -11,7 +11,9 @@
 ** of both at qdd = 0.  Models with neither get no functions and NULL fields.
 */
 #include <assert.h>
+#include <stdio.h>
 #include <stdlib.h>
+#include <string.h>
 #include "emit/emit_kinematics.h"
 
 static const char *frame_name(const Model *m, const EomSystem *s, int f) {
@@ -45,22 +47,45 @@ void emit_kinematics_prototypes(FILE *o, const Model *m, const EomSystem *s, con
       "  double *R, double *J, double *Jdv);\n", P, frame_name(m, s, f));
 }
 
-void emit_kinematics_functions(struct Emitter *E, const Model *m, const EomSystem *s) {
-  char fname[300];
-  int nq = s->nq;
+/* a followed by b, malloc'd */
+static char *copy(const char *a, const char *b) {
+  char *s = malloc(strlen(a) + strlen(b) + 1);
+  assert(s);
+  strcpy(s, a);
+  strcat(s, b);
+  return s;
+}
+
+int emit_kinematics_functions(const Model *m, const EomSystem *s, KinematicFunction **out) {
+  int nq = s->nq, n = 0;
+  KinematicFunction *fns = calloc((size_t)s->nframes + 2, sizeof *fns);
+  assert(fns);
   if (s->nkinematic > 0) {
-    EmitOut J = {"J", s->output_jacobian, s->ny * nq}, b = {"b", s->output_bias, s->ny};
-    emit_function_outs(E, "output_jacobian", EMIT_ARG_Q | EMIT_ARG_P, &J, 1);
-    emit_function_outs(E, "output_bias", EMIT_ARG_Q | EMIT_ARG_QD | EMIT_ARG_P, &b, 1);
+    KinematicFunction J = {copy("output_jacobian", ""), EMIT_ARG_Q | EMIT_ARG_P,
+                           {{"J", s->output_jacobian, s->ny * nq}}, 1};
+    KinematicFunction b = {copy("output_bias", ""), EMIT_ARG_Q | EMIT_ARG_QD | EMIT_ARG_P,
+                           {{"b", s->output_bias, s->ny}}, 1};
+    fns[n++] = J;
+    fns[n++] = b;
   }
   for (int f = 0; f < s->nframes; f++) {
     const int *y = s->outputs + s->frame_output[f];
-    EmitOut outs[4] = {{"pos", y, 3}, {"R", y + 3, 9},
-                       {"J", s->frame_jacobian + (size_t)f * 6 * nq, 6 * nq},
-                       {"Jdv", s->frame_bias + (size_t)f * 6, 6}};
-    snprintf(fname, sizeof fname, "frame_%s", frame_name(m, s, f));
-    emit_function_outs(E, fname, EMIT_ARG_Q | EMIT_ARG_QD | EMIT_ARG_P, outs, 4);
+    KinematicFunction *k = &fns[n++];
+    k->fname = copy("frame_", frame_name(m, s, f));
+    k->args = EMIT_ARG_Q | EMIT_ARG_QD | EMIT_ARG_P;
+    k->outs[0] = (EmitOut){"pos", y, 3};
+    k->outs[1] = (EmitOut){"R", y + 3, 9};
+    k->outs[2] = (EmitOut){"J", s->frame_jacobian + (size_t)f * 6 * nq, 6 * nq};
+    k->outs[3] = (EmitOut){"Jdv", s->frame_bias + (size_t)f * 6, 6};
+    k->nouts = 4;
   }
+  *out = fns;
+  return n;
+}
+
+void emit_kinematics_free(KinematicFunction *fns, int n) {
+  for (int k = 0; k < n; k++) free(fns[k].fname);
+  free(fns);
 }
 
 void emit_kinematics_tables(FILE *o, const Model *m, const EomSystem *s, const char *P) {
