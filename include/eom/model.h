@@ -15,7 +15,7 @@ extern "C" {
 #endif
 
 /* Bumped whenever the layout of struct eom_model changes. */
-#define EOM_MODEL_ABI 3
+#define EOM_MODEL_ABI 4
 
 struct eom_model {
   int abi;                          /* EOM_MODEL_ABI of the generating eomc */
@@ -74,6 +74,14 @@ struct eom_model {
   ** NULL when nc == 0 (and in hand-written descriptors without it). */
   void (*constraint_at)(double t, const double *q, const double *p, double *phi, double *G,
                         double *phi_t);
+  /* Since ABI 4: velocity constraints A(t, q) qd = b(t, q) (nvc x nq and
+  ** nvc) and gamma(t, q, qd) (nvc) with A qdd = gamma.  accel_constrained
+  ** then takes both kinds: lambda has nc + nvc entries, the velocity
+  ** constraints' last, and the constraint force is [G; A]ᵀ lambda.
+  ** nvc = 0 and NULL when the model has none. */
+  int nvc;
+  void (*velocity_constraint)(double t, const double *q, const double *qd, const double *p,
+                              double *A, double *b, double *gamma);
 };
 
 #ifdef __cplusplus
