@@ -617,6 +617,7 @@ END_TEST
 int main(void) {
   Suite *s = suite_create("check");
   TCase *tc = tcase_create("names");
+  tcase_set_timeout(tc, 60);
   tcase_add_test(tc, undefined_name);
   tcase_add_test(tc, declaration_must_precede_use);
   tcase_add_test(tc, duplicate_declaration_names_earlier_line);
@@ -628,11 +629,13 @@ int main(void) {
   tcase_add_test(tc, outputs_and_bodies_are_not_values);
   suite_add_tcase(s, tc);
   tc = tcase_create("builtins");
+  tcase_set_timeout(tc, 60);
   tcase_add_test(tc, builtin_arity_table);
   tcase_add_test(tc, wrong_arity);
   tcase_add_test(tc, unknown_function);
   suite_add_tcase(s, tc);
   tc = tcase_create("shapes");
+  tcase_set_timeout(tc, 60);
   tcase_add_test(tc, vector_plus_scalar);
   tcase_add_test(tc, matrix_times_wrong_vector);
   tcase_add_test(tc, shapes_of_valid_expressions);
@@ -645,6 +648,7 @@ int main(void) {
   tcase_add_test(tc, errors_do_not_cascade);
   suite_add_tcase(s, tc);
   tc = tcase_create("rates");
+  tcase_set_timeout(tc, 60);
   tcase_add_test(tc, rate_of_param_const_input);
   tcase_add_test(tc, second_rate_rejected);
   tcase_add_test(tc, harmless_rates_allowed);
@@ -652,6 +656,7 @@ int main(void) {
   tcase_add_test(tc, constraints_on_velocities);
   suite_add_tcase(s, tc);
   tc = tcase_create("values");
+  tcase_set_timeout(tc, 60);
   tcase_add_test(tc, param_defaults_evaluated);
   tcase_add_test(tc, param_defaults_must_be_constant);
   tcase_add_test(tc, initial_state);
@@ -660,6 +665,7 @@ int main(void) {
   tcase_add_test(tc, force_target_must_be_coordinate);
   suite_add_tcase(s, tc);
   tc = tcase_create("model");
+  tcase_set_timeout(tc, 60);
   tcase_add_test(tc, model_statement_first);
   tcase_add_test(tc, model_name_from_file_stem);
   tcase_add_test(tc, model_needs_coordinates_and_energy);
@@ -667,6 +673,7 @@ int main(void) {
   tcase_add_test(tc, unused_warnings);
   suite_add_tcase(s, tc);
   tc = tcase_create("command");
+  tcase_set_timeout(tc, 60);
   tcase_add_test(tc, check_command_summary);
   tcase_add_test(tc, check_command_statuses);
   suite_add_tcase(s, tc);

@@ -261,12 +261,14 @@ END_TEST
 static Suite *depfile_suite(void) {
   Suite *s = suite_create("depfile");
   TCase *tc = tcase_create("escape");
+  tcase_set_timeout(tc, 60);
   tcase_add_test(tc, escape_rules);
   tcase_add_test(tc, escape_reports_size_like_snprintf);
   tcase_add_test(tc, unwritable_names_are_errors);
   tcase_add_test(tc, format_rule);
   suite_add_tcase(s, tc);
   tc = tcase_create("write");
+  tcase_set_timeout(tc, 60);
   tcase_add_test(tc, write_keeps_unchanged_file);
   tcase_add_test(tc, write_failure_leaves_old_file);
   tcase_add_test(tc, write_relative_path);

@@ -102,6 +102,7 @@ END_TEST
 int main(void) {
   Suite *s = suite_create("diag");
   TCase *tc = tcase_create("diag");
+  tcase_set_timeout(tc, 60);
   tcase_add_test(tc, format_and_caret);
   tcase_add_test(tc, one_error_per_line);
   tcase_add_test(tc, error_limit);

@@ -14,6 +14,7 @@
 ** CLANG a clang to compile with too (may be empty), CC the C compiler
 ** (default cc).
 */
+#include <assert.h>
 #include <check.h>
 #include <dirent.h>
 #include <fcntl.h>
@@ -513,58 +514,71 @@ END_TEST
 
 /* ------------------------------------------------------------------ every model compiles */
 
-static void compile_all_in(const char *sub, const char *compiler) {
-  char *dirpath = model_path(sub);
-  DIR *d = opendir(dirpath);
-  struct dirent *e;
-  int count = 0;
-  ck_assert_msg(d != NULL, "cannot open %s", dirpath);
-  char *out = make_temp_dir();
-  while ((e = readdir(d)) != NULL) {
-    size_t n = strlen(e->d_name);
-    if (n < 5 || strcmp(e->d_name + n - 4, ".eom") != 0) continue;
-    char *model = malloc(strlen(dirpath) + n + 2);
-    sprintf(model, "%s/%s", dirpath, e->d_name);
-    RunResult r = run_eomc("gen", model, "-o", out, "--prefix", "m", NULL);
-    ck_assert_msg(r.status == 0, "eomc gen %s: %s", model, r.err);
-    run_free(&r);
-    char csrc[4200], obj[4200], inc[4200];
-    snprintf(csrc, sizeof csrc, "%s/m.c", out);
-    snprintf(obj, sizeof obj, "%s/m.o", out);
-    snprintf(inc, sizeof inc, "-I%s/include", srcdir());
-    char *argv[] = {(char *)compiler, "-std=c99", "-pedantic", "-Wall", "-Wextra", "-Werror",
-                    "-O1", inc, "-c", csrc, "-o", obj, NULL};
-    r = run_argv(argv);
-    ck_assert_msg(r.status == 0, "%s rejects the code of %s:\n%s", compiler, model, r.err);
-    run_free(&r);
-    /* and without the descriptor, needing nothing but <math.h> */
-    char *argv2[] = {(char *)compiler, "-std=c99", "-pedantic", "-Wall", "-Wextra", "-Werror",
-                     "-DEOM_NO_DESCRIPTOR", "-c", csrc, "-o", obj, NULL};
-    r = run_argv(argv2);
-    ck_assert_msg(r.status == 0, "%s rejects the code of %s without descriptor:\n%s", compiler,
-                  model, r.err);
-    run_free(&r);
-    free(model);
-    count++;
-  }
-  closedir(d);
-  remove_tree(out);
-  free(out);
-  free(dirpath);
-  ck_assert_msg(count > 0, "no models in %s", sub);
+/* Every model of examples/ and tests/models/, listed once before the tests
+** run; each is one iteration of a loop test (one model per time limit). */
+static char **all_models;
+static int all_models_count;
+
+static void list_all_models(void) {
+  int n1 = 0, n2 = 0;
+  char *d1 = model_path("examples"), *d2 = model_path("tests/models");
+  char **a = model_files(d1, &n1), **b = model_files(d2, &n2);
+  all_models = malloc((size_t)(n1 + n2 + 1) * sizeof *all_models);
+  assert(all_models && a && b);
+  for (int i = 0; i < n1; i++) all_models[all_models_count++] = a[i];
+  for (int i = 0; i < n2; i++) all_models[all_models_count++] = b[i];
+  all_models[all_models_count] = NULL;
+  free(a);
+  free(b);
+  free(d1);
+  free(d2);
 }
 
+static void free_all_models(void) {
+  for (int i = 0; i < all_models_count; i++) free(all_models[i]);
+  free(all_models);
+}
+
+/* eomc gen on one model; its C compiles warning-free with and without the
+** descriptor (then needing nothing but <math.h>). */
+static void compile_model(const char *model, const char *compiler) {
+  char *out = make_temp_dir();
+  RunResult r = run_eomc("gen", model, "-o", out, "--prefix", "m", NULL);
+  ck_assert_msg(r.status == 0, "eomc gen %s: %s", model, r.err);
+  run_free(&r);
+  char csrc[4200], obj[4200], inc[4200];
+  snprintf(csrc, sizeof csrc, "%s/m.c", out);
+  snprintf(obj, sizeof obj, "%s/m.o", out);
+  snprintf(inc, sizeof inc, "-I%s/include", srcdir());
+  char *argv[] = {(char *)compiler, "-std=c99", "-pedantic", "-Wall", "-Wextra", "-Werror",
+                  "-O1", inc, "-c", csrc, "-o", obj, NULL};
+  r = run_argv(argv);
+  ck_assert_msg(r.status == 0, "%s rejects the code of %s:\n%s", compiler, model, r.err);
+  run_free(&r);
+  char *argv2[] = {(char *)compiler, "-std=c99", "-pedantic", "-Wall", "-Wextra", "-Werror",
+                   "-DEOM_NO_DESCRIPTOR", "-c", csrc, "-o", obj, NULL};
+  r = run_argv(argv2);
+  ck_assert_msg(r.status == 0, "%s rejects the code of %s without descriptor:\n%s", compiler,
+                model, r.err);
+  run_free(&r);
+  remove_tree(out);
+  free(out);
+}
+
+START_TEST(test_models_listed) {
+  ck_assert_msg(all_models_count >= 10, "only %d models in examples/ and tests/models/", all_models_count);
+}
+END_TEST
+
 START_TEST(test_examples_gcc) {
-  compile_all_in("examples", cc());
-  compile_all_in("tests/models", cc());
+  compile_model(all_models[_i], cc());
 }
 END_TEST
 
 START_TEST(test_examples_clang) {
   const char *clang = env_or("CLANG", "");
   if (!*clang) return;   /* configure found no clang: nothing to compile with */
-  compile_all_in("examples", clang);
-  compile_all_in("tests/models", clang);
+  compile_model(all_models[_i], clang);
 }
 END_TEST
 
@@ -869,9 +883,10 @@ static Suite *gen_suite(void) {
   tcase_add_test(phys, test_constrained_pendulum);
   suite_add_tcase(s, phys);
   TCase *code = tcase_create("code");
-  tcase_set_timeout(code, 600);
-  tcase_add_test(code, test_examples_gcc);
-  tcase_add_test(code, test_examples_clang);
+  tcase_set_timeout(code, 120);
+  tcase_add_test(code, test_models_listed);
+  tcase_add_loop_test(code, test_examples_gcc, 0, all_models_count);
+  tcase_add_loop_test(code, test_examples_clang, 0, all_models_count);
   tcase_add_test(code, test_odd_strings);
   tcase_add_test(code, test_prefix);
   suite_add_tcase(s, code);
@@ -888,9 +903,11 @@ static Suite *gen_suite(void) {
 }
 
 int main(void) {
+  list_all_models();
   SRunner *sr = srunner_create(gen_suite());
   srunner_run_all(sr, CK_NORMAL);
   int failed = srunner_ntests_failed(sr);
   srunner_free(sr);
+  free_all_models();
   return failed ? EXIT_FAILURE : EXIT_SUCCESS;
 }

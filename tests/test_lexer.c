@@ -470,6 +470,7 @@ END_TEST
 static Suite *lexer_suite(void) {
   Suite *s = suite_create("lexer");
   TCase *tc = tcase_create("tokens");
+  tcase_set_timeout(tc, 60);
   tcase_add_test(tc, declaration_tokens);
   tcase_add_test(tc, every_keyword_and_operator);
   tcase_add_test(tc, names_contextual_words_and_prefixes);
@@ -485,6 +486,7 @@ static Suite *lexer_suite(void) {
   tcase_add_test(tc, byte_order_mark);
   suite_add_tcase(s, tc);
   tc = tcase_create("statements");
+  tcase_set_timeout(tc, 60);
   tcase_add_test(tc, comments_and_blank_lines);
   tcase_add_test(tc, semicolons);
   tcase_add_test(tc, newline_continuation);
@@ -493,6 +495,7 @@ static Suite *lexer_suite(void) {
   tcase_add_test(tc, index_bracket_rule);
   suite_add_tcase(s, tc);
   tc = tcase_create("hostile input");
+  tcase_set_timeout(tc, 60);
   tcase_add_test(tc, invalid_bytes);
   tcase_add_test(tc, nesting_limit);
   tcase_add_test(tc, hundred_thousand_brackets);

@@ -776,6 +776,7 @@ END_TEST
 static Suite *parser_suite(void) {
   Suite *s = suite_create("parser");
   TCase *tc = tcase_create("statements");
+  tcase_set_timeout(tc, 60);
   tcase_add_test(tc, model_and_coord);
   tcase_add_test(tc, param_const_input_let_output);
   tcase_add_test(tc, initial_and_identify);
@@ -790,6 +791,7 @@ static Suite *parser_suite(void) {
   tcase_add_test(tc, empty_inputs);
   suite_add_tcase(s, tc);
   tc = tcase_create("expressions");
+  tcase_set_timeout(tc, 60);
   tcase_add_test(tc, precedence);
   tcase_add_test(tc, calls_lists_and_indexing);
   tcase_add_test(tc, numbers_in_expressions);
@@ -797,6 +799,7 @@ static Suite *parser_suite(void) {
   tcase_add_test(tc, index_rule_in_declarations);
   suite_add_tcase(s, tc);
   tc = tcase_create("errors");
+  tcase_set_timeout(tc, 60);
   tcase_add_test(tc, error_messages);
   tcase_add_test(tc, recovery_three_bad_lines);
   tcase_add_test(tc, one_error_per_bad_statement);

@@ -1060,10 +1060,12 @@ static Suite *runtime_suite(void) {
   tcase_add_test(tc, sample_grid);
   suite_add_tcase(s, tc);
   TCase *ti = tcase_create("inputs");
+  tcase_set_timeout(ti, 60);
   tcase_add_test(ti, inputs_table_drives_model);
   tcase_add_test(ti, inputs_table_errors);
   suite_add_tcase(s, ti);
   TCase *tm = tcase_create("modes");
+  tcase_set_timeout(tm, 60);
   tcase_add_test(tm, equilibrium_with_input);
   tcase_add_test(tm, equilibrium_pendulum_torque);
   tcase_add_test(tm, modes_two_masses_three_springs);

@@ -832,7 +832,7 @@ START_TEST(planar_chain_mass_matrix) {
     mass_forcing(&d, &s, M, f);
     for (int i = 0; i < n; i++)
       for (int j = 0; j < n; j++) {
-        char name[8];
+        char name[16];
         double sum = 0;
         for (int k = (i > j ? i : j); k < n; k++) {
           snprintf(name, sizeof name, "m%d", k + 1);
@@ -1184,6 +1184,7 @@ Suite *symbolic_suite(void) {
   tcase_add_test(tc, graph_is_hash_consed);
   suite_add_tcase(s, tc);
   tc = tcase_create("errors");
+  tcase_set_timeout(tc, 60);
   tcase_add_test(tc, non_quadratic_lagrangian_is_an_error);
   tcase_add_test(tc, non_quadratic_through_a_let_is_an_error);
   tcase_add_test(tc, cancelling_rate_terms_are_accepted);

@@ -344,11 +344,13 @@ END_TEST
 int main(void) {
   Suite *s = suite_create("units");
   TCase *tc = tcase_create("algebra");
+  tcase_set_timeout(tc, 60);
   tcase_add_test(tc, parse_si_symbols);
   tcase_add_test(tc, parse_errors);
   tcase_add_test(tc, algebra);
   suite_add_tcase(s, tc);
   tc = tcase_create("model");
+  tcase_set_timeout(tc, 60);
   tcase_add_test(tc, correct_si_model_passes);
   tcase_add_test(tc, potential_that_is_a_force_fails);
   tcase_add_test(tc, energy_power_and_force_terms);

@@ -133,3 +133,35 @@ int read_numbers(const char *s, double *v, int max) {
   }
   return n;
 }
+
+static int cmp_paths(const void *a, const void *b) {
+  return strcmp(*(char *const *)a, *(char *const *)b);
+}
+
+char **model_files(const char *dir, int *n) {
+  DIR *d = opendir(dir);
+  *n = 0;
+  if (!d) return NULL;
+  size_t cap = 16;
+  char **paths = malloc(cap * sizeof *paths);
+  struct dirent *e;
+  while (paths && (e = readdir(d)) != NULL) {
+    size_t len = strlen(e->d_name);
+    if (len <= 4 || strcmp(e->d_name + len - 4, ".eom") != 0) continue;
+    if ((size_t)*n + 1 >= cap) {
+      char **grown = realloc(paths, 2 * cap * sizeof *paths);
+      if (!grown) break;
+      paths = grown;
+      cap *= 2;
+    }
+    char *path = malloc(strlen(dir) + len + 2);
+    if (!path) break;
+    sprintf(path, "%s/%s", dir, e->d_name);
+    paths[(*n)++] = path;
+  }
+  closedir(d);
+  if (!paths) return NULL;
+  qsort(paths, (size_t)*n, sizeof *paths, cmp_paths);
+  paths[*n] = NULL;
+  return paths;
+}

@@ -31,5 +31,9 @@ char *read_file(const char *path, size_t *len);
 int read_numbers(const char *s, double *v, int max);
 /* rm -r of a directory made by make_temp_dir(). */
 void remove_tree(const char *path);
+/* The *.eom files of a folder, as malloc'd full paths in name order (a NULL
+** ends the array); *n gets their count.  NULL when the folder cannot be read.
+** Suites list them before running so each model can be its own loop test. */
+char **model_files(const char *dir, int *n);
 
 #endif
