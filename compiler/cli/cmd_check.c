@@ -161,9 +161,14 @@ static int print_structure(Frontend *fe, FILE *out) {
   SymOptions so = {0, 0.0};
   fflush(out);  /* the summary before any derivation error on stderr */
   int failed = frontend_derive(fe, &so, &sys);
-  if (failed) fputs("equations of motion: not derived (see the errors above)\n", out);
-  else report_structure(&fe->model, &sys, out);
-  if (!failed && sys.vc_integrable) note_integrable(fe);
+  if (failed) {
+    fputs("equations of motion: not derived (see the errors above)\n", out);
+  } else {
+    report_structure(&fe->model, &sys, out);
+    fflush(out);
+    failed = frontend_check_inertia(fe, &sys, DIAG_ERROR) != 0;
+    if (sys.vc_integrable) note_integrable(fe);
+  }
   sym_free(&sys);
   return failed;
 }
