@@ -20,13 +20,12 @@
 
 static char *cache_dir, *work_dir;
 
-static const char *eomc(void) { return env_or("EOMC", "./eomc"); }
 
 static char *example(const char *name) {
   static char buf[4][4096];
   static int k;
   k = (k + 1) % 4;
-  snprintf(buf[k], sizeof buf[k], "%s/examples/%s", env_or("SRCDIR", "."), name);
+  snprintf(buf[k], sizeof buf[k], "%s/examples/%s", srcdir(), name);
   return buf[k];
 }
 
@@ -430,8 +429,8 @@ START_TEST(generated_velocity_constraint_functions) {
   fclose(f);
   char cmd[13000];
   snprintf(cmd, sizeof cmd,
-           "cd '%s' && ${CC:-cc} -std=c99 -pedantic -Wall -Wextra -Werror -DEOM_NO_DESCRIPTOR "
-           "-o drv main.c cargo_sledge.c -lm 2>&1 && ./drv > out.txt", dir);
+           "cd '%s' && %s -std=c99 -pedantic -Wall -Wextra -Werror -DEOM_NO_DESCRIPTOR "
+           "-o drv main.c cargo_sledge.c -lm 2>&1 && ./drv > out.txt", dir, cc());
   ck_assert_msg(system(cmd) == 0, "driver failed");
   snprintf(path, sizeof path, "%s/out.txt", dir);
   char *out = read_file(path, NULL);
@@ -630,10 +629,4 @@ static Suite *wheels_suite(void) {
   return s;
 }
 
-int main(void) {
-  SRunner *sr = srunner_create(wheels_suite());
-  srunner_run_all(sr, CK_NORMAL);
-  int failed = srunner_ntests_failed(sr);
-  srunner_free(sr);
-  return failed ? EXIT_FAILURE : EXIT_SUCCESS;
-}
+int main(int argc, char **argv) { return run_test_main(argc, argv, wheels_suite); }
