@@ -20,7 +20,6 @@
 
 static char *cache_dir, *work_dir;
 
-
 static char *example(const char *name) {
   static char buf[4][4096];
   static int k;
