@@ -13,16 +13,6 @@
 #include <string.h>
 #include "testutil.h"
 
-#ifndef SRCDIR
-#define SRCDIR "."
-#endif
-#ifndef BUILDDIR
-#define BUILDDIR "."
-#endif
-
-static const char *eomc(void) { return env_or("EOMC", BUILDDIR "/eomc"); }
-static const char *srcdir(void) { return env_or("SRCDIR", SRCDIR); }
-
 /* Every test builds its models into a private cache ($EOMC_CACHE_DIR). */
 static char *cache_dir;
 static void setup(void) {

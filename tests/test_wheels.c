@@ -18,8 +18,6 @@
 
 static char *cache_dir, *work_dir;
 
-static const char *eomc(void) { return env_or("EOMC", "./eomc"); }
-
 static char *example(const char *name) {
   static char buf[4][4096];
   static int k;
