@@ -18,6 +18,7 @@
 #include "cli/build_model.h"
 #include "cli/cmd.h"
 #include "eom/runtime.h"
+#include "cli/json_out.h"
 #include "cli/modal.h"
 #include "cli/modes_steady.h"
 #include "cli/run_values.h"
@@ -60,23 +61,6 @@ static const char *kind_name(ModeKind k) {
   case MODE_DECAYING: return "decaying";
   }
   return "?";
-}
-
-/* A JSON number, or null when not finite. */
-static void json_num(FILE *f, double v) {
-  if (isfinite(v)) fprintf(f, "%.12g", v);
-  else fputs("null", f);
-}
-
-/* Identifiers need no escaping, but stay safe for any name. */
-static void json_str(FILE *f, const char *s) {
-  fputc('"', f);
-  for (; *s; s++) {
-    if (*s == '"' || *s == '\\') fputc('\\', f);
-    if ((unsigned char)*s < 0x20) fprintf(f, "\\u%04x", *s);
-    else fputc(*s, f);
-  }
-  fputc('"', f);
 }
 
 static void print_json(FILE *f, const struct eom_model *m, const double *q,
