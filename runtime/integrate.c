@@ -47,18 +47,32 @@ typedef struct Method {
   FixedStepFn step;      /* one fixed step (always there) */
   size_t (*work)(int n);
   AdaptiveRunFn run;     /* step-size control; NULL: fixed steps only */
+  const char *help;      /* one line for `eomc sim --help` */
 } Method;
 
-/* midpoint has no adaptive run on purpose: varying the step destroys the
-** symplectic structure that keeps its energy error bounded. */
-static const Method methods[] = {
-    {"rk4", rk4_step, rk4_work, NULL},
-    {"dopri", dopri_fixed_step, dopri_work, dopri_run},
-    {"radau5", radau5_step, radau5_work, radau5_run},
-    {"midpoint", midpoint_step, midpoint_work, NULL},
-};
+/* The one list of methods: the table below, the list in messages and the
+** help lines all come from it.  midpoint has no adaptive run on purpose:
+** varying the step destroys the symplectic structure that keeps its energy
+** error bounded. */
+#define EOM_METHODS(X)                                                              \
+  X(rk4, rk4_step, rk4_work, NULL, "classic Runge-Kutta, fixed step")               \
+  X(dopri, dopri_fixed_step, dopri_work, dopri_run,                                 \
+    "Dormand-Prince 5(4), adaptive (the default)")                                  \
+  X(radau5, radau5_step, radau5_work, radau5_run,                                   \
+    "implicit Radau IIA, adaptive, for stiff models")                               \
+  X(midpoint, midpoint_step, midpoint_work, NULL,                                   \
+    "implicit midpoint rule, fixed step, energy-preserving")
 
-const char *eom_method_list(void) { return "rk4, dopri, radau5, midpoint"; }
+#define METHOD_ENTRY(name, step, work, run, help) {#name, step, work, run, help},
+static const Method methods[] = {EOM_METHODS(METHOD_ENTRY)};
+#define METHOD_NAME(name, step, work, run, help) ", " #name
+static const char method_names[] = "" EOM_METHODS(METHOD_NAME);
+enum { NMETHODS = (int)(sizeof methods / sizeof methods[0]) };
+
+const char *eom_method_list(void) { return method_names + 2; /* past the first ", " */ }
+
+const char *eom_method_name(int i) { return i >= 0 && i < NMETHODS ? methods[i].name : NULL; }
+const char *eom_method_help(int i) { return i >= 0 && i < NMETHODS ? methods[i].help : NULL; }
 
 static const Method *find_method(const char *name) {
   if (!name) name = "dopri";

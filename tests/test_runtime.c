@@ -1082,6 +1082,24 @@ static Suite *gsl_suite(void) {
 }
 #endif
 
+/* The method list of messages, the names and the help lines are one table:
+** the list is the names in order, each name is known, each has a help line. */
+START_TEST(method_table_is_one_list) {
+  char joined[256] = "";
+  int n = 0;
+  for (; eom_method_name(n); n++) {
+    ck_assert(eom_method_known(eom_method_name(n)));
+    ck_assert_msg(eom_method_help(n) && strlen(eom_method_help(n)) > 10, "%s", eom_method_name(n));
+    if (n) strcat(joined, ", ");
+    strcat(joined, eom_method_name(n));
+  }
+  ck_assert_int_eq(n, 4);
+  ck_assert_str_eq(joined, eom_method_list());
+  ck_assert_ptr_null(eom_method_help(n));
+  ck_assert_ptr_null(eom_method_name(-1));
+}
+END_TEST
+
 static Suite *runtime_suite(void) {
   Suite *s = suite_create("runtime");
   TCase *tc = tcase_create("integrators");
@@ -1101,6 +1119,7 @@ static Suite *runtime_suite(void) {
   tcase_add_test(tc, failure_mass_not_positive_definite);
   tcase_add_test(tc, failure_collision);
   tcase_add_test(tc, bad_arguments);
+  tcase_add_test(tc, method_table_is_one_list);
   tcase_add_test(tc, sample_grid);
   tcase_add_test(tc, fixed_step_count);
   suite_add_tcase(s, tc);

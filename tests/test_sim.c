@@ -429,6 +429,21 @@ START_TEST(sim_at_rest_over_huge_span) {
 }
 END_TEST
 
+/* `sim --help` lists every method of the runtime with its help line. */
+START_TEST(sim_help_lists_methods) {
+  char *argv[] = {(char *)eomc(), "sim", "--help", NULL};
+  RunResult r = run_argv(argv);
+  ck_assert_int_eq(r.status, 0);
+  for (int i = 0; i < 4; i++) {
+    static const char *names[] = {"rk4", "dopri", "radau5", "midpoint"};
+    char line[64];
+    snprintf(line, sizeof line, "\n                       %-9s ", names[i]);
+    ck_assert_msg(strstr(r.out, line) != NULL, "no line for %s in\n%s", names[i], r.out);
+  }
+  run_free(&r);
+}
+END_TEST
+
 START_TEST(sim_usage_errors) {
   static const char *cases[][4] = {
       {"--set", "nosuch=1", NULL, "not a name"},
@@ -851,6 +866,7 @@ static Suite *sim_suite(void) {
   tcase_add_test(tc, sim_at_rest_over_huge_span);
   tcase_add_test(tc, sim_stiff_radau5);
   tcase_add_test(tc, sim_usage_errors);
+  tcase_add_test(tc, sim_help_lists_methods);
   tcase_add_test(tc, sim_cache);
   tcase_add_test(tc, sim_plot_svg);
   tcase_add_test(tc, sim_derived_params_follow);

@@ -36,9 +36,9 @@ static const char sim_usage[] =
   "  --until T          end time (default 10); the run starts at t = 0\n"
   "  --step H           time between CSV rows (default T/1000); for the\n"
   "                     fixed-step methods also the largest integration step\n"
-  "  --method NAME      rk4, dopri (default; adaptive), radau5 (implicit,\n"
-  "                     adaptive, for stiff models) or midpoint (implicit,\n"
-  "                     fixed-step, energy-preserving)\n"
+  "  --method NAME      the integration method, one of\n";
+/* The methods' lines come from the runtime's table (print_sim_usage). */
+static const char sim_usage_tail[] =
   "  --rtol R, --atol A tolerances of dopri and radau5, and the Newton\n"
   "                     tolerances of the implicit methods (defaults 1e-8, 1e-10)\n"
   "  --set NAME=VALUE   a parameter, a constant input, a coordinate's initial\n"
@@ -64,6 +64,13 @@ static const char sim_usage[] =
   "Cache: $EOMC_CACHE_DIR, else $XDG_CACHE_HOME/eomc, else ~/.cache/eomc.\n"
   "Compiler: $CC (default cc).\n"
   "exit status: 0 success, 1 model error, 2 usage error, 3 run failure\n";
+
+static void print_sim_usage(FILE *out) {
+  fputs(sim_usage, out);
+  for (int i = 0; eom_method_name(i); i++)
+    fprintf(out, "                       %-9s %s\n", eom_method_name(i), eom_method_help(i));
+  fputs(sim_usage_tail, out);
+}
 
 typedef struct SimArgs {
   const char *model, *method, *out, *plot, *inputs;
@@ -345,7 +352,7 @@ int cmd_sim(int argc, char **argv) {
   int rc;
   for (int i = 1; i < argc; i++)
     if (cmd_is_help(argv[i])) {
-      fputs(sim_usage, stdout);
+      print_sim_usage(stdout);
       return 0;
     }
   if ((rc = parse_args(argc, argv, &a)) != 0) {

@@ -110,6 +110,10 @@ void eom_sim_options_init(struct eom_sim_options *o);
 const char *eom_method_list(void);
 /* Is `name` a known method? */
 int eom_method_known(const char *name);
+/* The i-th method's name and its one-line description (0 <= i), or NULL
+** past the last: for listing the methods in a program's help. */
+const char *eom_method_name(int i);
+const char *eom_method_help(int i);
 
 /* Called with each sample: at t0, every sample_dt, and at the end (or at the
 ** last good state before a failure).  x is [q; qd], u the inputs there.
