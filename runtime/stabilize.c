@@ -10,14 +10,19 @@
 **    and integrals of motion in dynamical systems, Comput. Methods Appl.
 **    Mech. Eng. 1 (1972) 1–16): the acceleration constraint becomes
 **    G q'' = gamma - 2 alpha phi' - beta² phi, so a deviation decays like a
-**    damped oscillator instead of growing.  The generated accel_constrained
-**    solves for gamma; the extra right-hand side delta is added here by the
-**    range-space update q'' += M⁻¹Gᵀ mu, λ += mu with (G M⁻¹ Gᵀ) mu = delta.
+**    damped oscillator instead of growing.  Models that export
+**    constraint_gamma get their constrained accelerations from
+**    stabilize_accel, one rank-revealing solve with gamma + delta
+**    (constraint_solve.c); for others the generated accel_constrained
+**    solves for gamma and delta is added by the range-space update
+**    q'' += M⁻¹Gᵀ mu, λ += mu with mu = (G M⁻¹ Gᵀ)⁺ delta.
 **  - Projection after every accepted step: Gauss–Newton on phi(q) = 0 with
-**    minimum-norm corrections dq = -Gᵀ (G Gᵀ)⁻¹ phi, then the rates are
-**    projected onto phi' = G q' + dphi/dt = 0 the same way.  The same
-**    projection puts the user's initial guess on the constraints before
-**    the run.
+**    mass-orthogonal minimum-norm corrections dq = -M⁻¹Gᵀ (G M⁻¹ Gᵀ)⁺ phi,
+**    then the rates are projected onto phi' = G q' + dphi/dt = 0 the same
+**    way.  The same projection puts the user's initial guess on the
+**    constraints before the run.  Rows of G that are dependent (a linkage
+**    at a singular position, redundant joints) are handled by the
+**    pseudo-inverse: the run goes on, on its branch.
 **
 ** Constraints are read through the descriptor's constraint_at(t, ...), so
 ** time-dependent ones are kept too.  A hand-written descriptor without it
@@ -34,42 +39,6 @@
 
 #include "integrators.h"
 
-/* Cholesky a = L Lᵀ in place (lower triangle) of a symmetric n x n matrix.
-** Returns -1 when a pivot is not clearly positive relative to the largest
-** diagonal entry: the matrix is singular to working precision (for G Gᵀ:
-** the constraints are dependent). */
-static int cholesky(int n, double *a) {
-  double big = 0;
-  for (int i = 0; i < n; i++) big = fmax(big, fabs(a[i * n + i]));
-  if (!(big > 0) || !isfinite(big)) return -1;
-  for (int j = 0; j < n; j++) {
-    double d = a[j * n + j];
-    for (int k = 0; k < j; k++) d -= a[j * n + k] * a[j * n + k];
-    if (!(d > 1e-13 * big)) return -1;
-    d = sqrt(d);
-    a[j * n + j] = d;
-    for (int i = j + 1; i < n; i++) {
-      double s = a[i * n + j];
-      for (int k = 0; k < j; k++) s -= a[i * n + k] * a[j * n + k];
-      a[i * n + j] = s / d;
-    }
-  }
-  return 0;
-}
-
-static void cholesky_solve(int n, const double *l, double *b) {
-  for (int i = 0; i < n; i++) {
-    double s = b[i];
-    for (int k = 0; k < i; k++) s -= l[i * n + k] * b[k];
-    b[i] = s / l[i * n + i];
-  }
-  for (int i = n - 1; i >= 0; i--) {
-    double s = b[i];
-    for (int k = i + 1; k < n; k++) s -= l[k * n + i] * b[k];
-    b[i] = s / l[i * n + i];
-  }
-}
-
 static double max_abs(int n, const double *v, int *where) {
   double m = 0;
   int w = 0;
@@ -84,36 +53,13 @@ static double max_abs(int n, const double *v, int *where) {
   return m;
 }
 
-/* S = G Gᵀ (nc x nc), factored; -1 when G loses rank. */
-static int factor_ggt(int nq, int nc, const double *G, double *S) {
-  for (int a = 0; a < nc; a++)
-    for (int b = 0; b <= a; b++) {
-      double s = 0;
-      for (int i = 0; i < nq; i++) s += G[a * nq + i] * G[b * nq + i];
-      S[a * nc + b] = S[b * nc + a] = s;
-    }
-  return cholesky(nc, S);
-}
-
-/* v -= Gᵀ (G Gᵀ)⁻¹ r, with S the factored G Gᵀ; r (nc) is overwritten.
-** The minimum-norm change of v that removes r from G v. */
-static void subtract_min_norm(int nq, int nc, const double *G, const double *S, double *r,
-                              double *v) {
-  cholesky_solve(nc, S, r);
-  for (int i = 0; i < nq; i++) {
-    double s = 0;
-    for (int k = 0; k < nc; k++) s += G[k * nq + i] * r[k];
-    v[i] -= s;
-  }
-}
-
 int stabilize_init(SimContext *c, const struct eom_sim_options *o, const double *x) {
   const struct eom_model *m = c->m;
   int nq = m->nq, nc = m->nc;
   c->cs_active = 0;
   if (nc <= 0 || (!m->constraint_at && (!m->constraint || !m->constraint_jacobian))) return EOM_OK;
-  size_t size = (size_t)nq * nq + 3 * (size_t)nc * nq + (size_t)nc * nc + 4 * (size_t)nc +
-                3 * (size_t)nq + (size_t)c->n;
+  size_t size = (size_t)nq * nq + 2 * (size_t)nc * nq + 5 * (size_t)nc + 4 * (size_t)nq +
+                (size_t)c->n + csolve_doubles(nq, nc);
   c->cs_work = calloc(size + (size_t)c->n, sizeof(double));
   if (!c->cs_work) return EOM_ENOMEM;
   c->cs_sample = c->cs_work + size;
@@ -130,10 +76,12 @@ int stabilize_init(SimContext *c, const struct eom_sim_options *o, const double 
   return EOM_OK;
 }
 
-/* Scratch of the stabilizer: M (nq x nq), G, Y and G_spare (nc x nq),
-** S (nc x nc), phi, phi_t, r, mu (nc), dq, q_old, y (nq), a state copy (n). */
+/* Scratch of the stabilizer: M (nq x nq), G and G_spare (nc x nq), phi,
+** phi_t, r, mu, gamma (nc), dq, q_old, y, f (nq), a state copy (n), and the
+** rank-revealing solver's own scratch. */
 typedef struct Scratch {
-  double *M, *G, *Y, *G_spare, *S, *phi, *phi_t, *r, *mu, *dq, *q_old, *y, *x;
+  double *M, *G, *G_spare, *phi, *phi_t, *r, *mu, *gamma, *dq, *q_old, *y, *f, *x;
+  ConstraintSolver solver;
 } Scratch;
 
 static Scratch scratch(const SimContext *c) {
@@ -141,17 +89,18 @@ static Scratch scratch(const SimContext *c) {
   Scratch s;
   s.M = c->cs_work;
   s.G = s.M + (size_t)nq * nq;
-  s.Y = s.G + (size_t)nc * nq;
-  s.G_spare = s.Y + (size_t)nc * nq;
-  s.S = s.G_spare + (size_t)nc * nq;
-  s.phi = s.S + (size_t)nc * nc;
+  s.G_spare = s.G + (size_t)nc * nq;
+  s.phi = s.G_spare + (size_t)nc * nq;
   s.phi_t = s.phi + nc;
   s.r = s.phi_t + nc;
   s.mu = s.r + nc;
-  s.dq = s.mu + nc;
+  s.gamma = s.mu + nc;
+  s.dq = s.gamma + nc;
   s.q_old = s.dq + nq;
   s.y = s.q_old + nq;
-  s.x = s.y + nq;
+  s.f = s.y + nq;
+  s.x = s.f + nq;
+  csolve_init(&s.solver, nq, nc, s.x + c->n);
   return s;
 }
 
@@ -169,11 +118,23 @@ static void constraints(const SimContext *c, double t, const double *q, double *
   if (phi_t) memset(phi_t, 0, (size_t)m->nc * sizeof(double));
 }
 
+/* Factor M (at q) and G for the mass-orthogonal corrections; G is left in
+** s->G.  EOM_EMASS when M is not positive definite. */
+static int factor_at(SimContext *c, Scratch *s, double t, const double *q, double *phi,
+                     double *phi_t) {
+  constraints(c, t, q, phi, s->G, phi_t);
+  c->m->mass(q, c->p, s->M);
+  return csolve_factor(&s->solver, s->M, s->G);
+}
+
 /* Gauss–Newton on phi(q, t) = 0 from q, then the rates onto
-** G q' + dphi/dt = 0.
-** Returns EOM_OK, EOM_ENEWTON (no convergence within max_iter) or
-** EOM_ESINGULAR (G loses rank); *res and *worst give max|phi| and the
-** equation where it is largest. */
+** G q' + dphi/dt = 0; both corrections are mass-orthogonal and minimum-norm
+** (constraint_solve.c), so rows that are dependent here (a singular
+** position, redundant joints) neither stop the run nor throw it onto
+** another assembly branch.  M stays at its value at the starting point
+** (a simplified Newton method): the metric only picks the direction.
+** Returns EOM_OK, EOM_ENEWTON (no convergence within max_iter) or EOM_EMASS;
+** *res and *worst give max|phi| and the equation where it is largest. */
 static int project(SimContext *c, double t, double *x, int max_iter, double *res, int *worst) {
   const struct eom_model *m = c->m;
   int nq = m->nq, nc = m->nc;
@@ -182,17 +143,17 @@ static int project(SimContext *c, double t, double *x, int max_iter, double *res
   constraints(c, t, q, s.phi, NULL, NULL);
   double r = max_abs(nc, s.phi, worst);
   int converged = r <= c->cs_tol;
+  if (!converged && isfinite(r)) m->mass(q, c->p, s.M);
   for (int it = 0; !converged && it < max_iter; it++) {
     if (!isfinite(r)) break;
     constraints(c, t, q, s.phi, s.G, NULL);
-    if (factor_ggt(nq, nc, s.G, s.S) != 0) {
+    if (csolve_factor(&s.solver, s.M, s.G) != EOM_OK) {
       *res = r;
-      return EOM_ESINGULAR;
+      return EOM_EMASS;
     }
     memcpy(s.q_old, q, (size_t)nq * sizeof(double));
     memset(s.dq, 0, (size_t)nq * sizeof(double));
-    memcpy(s.r, s.phi, (size_t)nc * sizeof(double));
-    subtract_min_norm(nq, nc, s.G, s.S, s.r, s.dq); /* dq = -Gᵀ(GGᵀ)⁻¹phi */
+    csolve_correct(&s.solver, s.phi, s.mu, s.dq); /* dq = -M⁻¹Gᵀ S⁺ phi */
     /* Halve the step while it makes things worse (a far initial guess). */
     double step = 1, r_new = INFINITY;
     for (int half = 0; half < 30; half++, step /= 2) {
@@ -220,15 +181,14 @@ static int project(SimContext *c, double t, double *x, int max_iter, double *res
   }
   *res = r;
   if (!converged) return EOM_ENEWTON;
-  /* Rates: the minimum-norm change that makes phi' = G q' + dphi/dt = 0. */
-  constraints(c, t, q, s.phi, s.G, s.phi_t);
-  if (factor_ggt(nq, nc, s.G, s.S) != 0) return EOM_ESINGULAR;
+  /* Rates: the mass-orthogonal change that makes phi' = G q' + dphi/dt = 0. */
+  if (factor_at(c, &s, t, q, s.phi, s.phi_t) != EOM_OK) return EOM_EMASS;
   for (int k = 0; k < nc; k++) {
     double v = s.phi_t[k];
     for (int i = 0; i < nq; i++) v += s.G[k * nq + i] * qd[i];
     s.r[k] = v;
   }
-  subtract_min_norm(nq, nc, s.G, s.S, s.r, qd);
+  csolve_correct(&s.solver, s.r, s.mu, qd);
   return EOM_OK;
 }
 
@@ -242,10 +202,8 @@ int stabilize_project(SimContext *c, double t, double *x, int max_iter, const ch
   if (st == EOM_OK) return EOM_OK;
   memcpy(x, s.x, (size_t)n * sizeof(double));
   char what[256];
-  if (st == EOM_ESINGULAR)
-    snprintf(what, sizeof what,
-             "%s: the constraints are dependent here (G = dphi/dq loses rank; max|phi| = %.3g)",
-             when, res);
+  if (st == EOM_EMASS)
+    snprintf(what, sizeof what, "%s: the mass matrix is not positive definite", when);
   else
     snprintf(what, sizeof what,
              "%s: Gauss-Newton did not bring the coordinates onto the constraints in %d "
@@ -266,38 +224,44 @@ int stabilize_sample(SimContext *c, double t, const double *x, double *out) {
   return 0;
 }
 
-int stabilize_baumgarte(SimContext *c, double t, const double *x, double *qdd) {
+/* delta = -2 alpha phi' - beta² phi (phi' = G q' + dphi/dt) into s->mu,
+** with phi, G, phi_t of state x left in the scratch. */
+static void baumgarte_term(SimContext *c, Scratch *s, const double *x) {
+  int nq = c->m->nq, nc = c->m->nc;
+  const double *qd = x + nq;
+  for (int k = 0; k < nc; k++) {
+    double v = s->phi_t[k];
+    for (int i = 0; i < nq; i++) v += s->G[k * nq + i] * qd[i];
+    s->mu[k] = -2 * c->cs_alpha * v - c->cs_beta * c->cs_beta * s->phi[k];
+  }
+}
+
+int stabilize_accel(SimContext *c, double t, const double *x, const double *u, double *qdd) {
   const struct eom_model *m = c->m;
   int nq = m->nq, nc = m->nc;
-  if (!c->cs_active || (c->cs_alpha == 0 && c->cs_beta == 0)) return EOM_OK;
+  assert(c->cs_active && m->constraint_gamma);
   Scratch s = scratch(c);
   const double *q = x, *qd = x + nq;
   constraints(c, t, q, s.phi, s.G, s.phi_t);
-  /* delta = -2 alpha phi' - beta² phi with phi' = G q' + dphi/dt */
-  for (int k = 0; k < nc; k++) {
-    double v = s.phi_t[k];
-    for (int i = 0; i < nq; i++) v += s.G[k * nq + i] * qd[i];
-    s.mu[k] = -2 * c->cs_alpha * v - c->cs_beta * c->cs_beta * s.phi[k];
-  }
   m->mass(q, c->p, s.M);
-  if (cholesky(nq, s.M) != 0)
+  m->forcing(t, q, qd, u, c->p, s.f);
+  m->constraint_gamma(t, q, qd, c->p, s.gamma);
+  baumgarte_term(c, &s, x);
+  for (int k = 0; k < nc; k++) s.gamma[k] += s.mu[k];
+  if (csolve_accel(&s.solver, s.M, s.G, s.f, s.gamma, qdd, c->lambda) != EOM_OK)
     return sim_fail(c, EOM_EMASS, t, x, "the mass matrix is not positive definite");
-  for (int k = 0; k < nc; k++) { /* row k of Yᵀ = M⁻¹ (row k of G) */
-    memcpy(s.Y + (size_t)k * nq, s.G + (size_t)k * nq, (size_t)nq * sizeof(double));
-    cholesky_solve(nq, s.M, s.Y + (size_t)k * nq);
-  }
-  for (int a = 0; a < nc; a++)
-    for (int b = 0; b <= a; b++) {
-      double v = 0;
-      for (int i = 0; i < nq; i++) v += s.G[a * nq + i] * s.Y[b * nq + i];
-      s.S[a * nc + b] = s.S[b * nc + a] = v;
-    }
-  if (cholesky(nc, s.S) != 0)
-    return sim_fail(c, EOM_ESINGULAR, t, x,
-                    "the constraints are dependent here (G M^-1 G^T is singular)");
-  cholesky_solve(nc, s.S, s.mu);
-  for (int i = 0; i < nq; i++)
-    for (int k = 0; k < nc; k++) qdd[i] += s.Y[k * nq + i] * s.mu[k];
-  for (int k = 0; k < nc; k++) c->lambda[k] += s.mu[k];
+  return EOM_OK;
+}
+
+int stabilize_baumgarte(SimContext *c, double t, const double *x, double *qdd) {
+  int nc = c->m->nc;
+  if (!c->cs_active || (c->cs_alpha == 0 && c->cs_beta == 0)) return EOM_OK;
+  Scratch s = scratch(c);
+  if (factor_at(c, &s, t, x, s.phi, s.phi_t) != EOM_OK)
+    return sim_fail(c, EOM_EMASS, t, x, "the mass matrix is not positive definite");
+  baumgarte_term(c, &s, x);
+  csolve_pinv(&s.solver, s.mu, s.r);
+  csolve_add_reaction(&s.solver, s.r, 1.0, qdd);
+  for (int k = 0; k < nc; k++) c->lambda[k] += s.r[k];
   return EOM_OK;
 }

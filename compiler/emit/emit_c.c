@@ -1163,6 +1163,27 @@ static void emit_constraint_at(Emitter *E) {
   fputs("}\n\n", E->out);
 }
 
+/* gamma of the acceleration constraint G qdd = gamma (phi'' = 0), alone: the
+** runtime solves the constrained accelerations itself where G may lose rank
+** (a linkage at a singular position, redundant constraints). */
+static void emit_constraint_gamma(Emitter *E) {
+  const Param ps[] = {P_T, P_Q, P_QD, P_P, {-1, "double *gamma", "gamma"}};
+  const EomSystem *s = E->s;
+  char lhs[64];
+  fn_reset(E);
+  add_roots(E, s->constraint_gamma, s->nc);
+  fn_analyse(E);
+  assert(!needs_missing(E, VAR_BIT(IRV_T) | VAR_BIT(IRV_Q) | VAR_BIT(IRV_QD) | VAR_BIT(IRV_P)));
+  emit_signature(E, "void", "constraint_gamma", ps, NPARAMS(ps), 0);
+  emit_unused(E, ps, NPARAMS(ps));
+  emit_temps(E);
+  for (int i = 0; i < s->nc; i++) {
+    snprintf(lhs, sizeof lhs, "gamma[%d]", i);
+    emit_assign(E, lhs, s->constraint_gamma[i]);
+  }
+  fputs("}\n\n", E->out);
+}
+
 /* M qdd = f + G^T lambda with G qdd = gamma: qdd = M^-1 f + Y lambda where
 ** Y = M^-1 G^T, and (G Y) lambda = gamma - G M^-1 f (a small dense system). */
 static void emit_accel_constrained(Emitter *E) {
@@ -1387,8 +1408,11 @@ static void emit_header(Emitter *E) {
       "** constraint force is +G^T lambda.  Returns 1 when M, 2 when G M^-1 G^T\n"
       "** is not positive definite (dependent constraints: G loses rank). */\n"
       "int %s_accel_constrained(double t, const double *q, const double *qd, const double *u,\n"
-      "  const double *p, double *qdd, double *lambda);\n",
-      P, P, P, P);
+      "  const double *p, double *qdd, double *lambda);\n"
+      "/* gamma alone (G qdd = gamma), for solvers of their own. */\n"
+      "void %s_constraint_gamma(double t, const double *q, const double *qd, const double *p,\n"
+      "  double *gamma);\n",
+      P, P, P, P, P);
   emit_control_prototypes(o, m, s, P);
   fprintf(o, "\n#ifndef EOM_NO_DESCRIPTOR\nstruct eom_model;\nextern const struct eom_model %s_model;\n#endif\n", P);
   fprintf(o, "\n#ifdef __cplusplus\n}\n#endif\n#endif\n");
@@ -1584,6 +1608,8 @@ static void emit_descriptor(Emitter *E) {
   fprintf(o, "  %s_derived_params,\n", P);
   if (s->nc) fprintf(o, "  %s_constraint_at,\n", P);
   else fputs("  0,\n", o);
+  if (s->nc) fprintf(o, "  %s_constraint_gamma,\n", P);
+  else fputs("  0,\n", o);
   fprintf(o, "};\n#endif\n");
   free(q0);
   free(qd0);
@@ -1609,6 +1635,7 @@ static void emit_source(Emitter *E) {
     emit_constraint_jacobian(E);
     emit_constraint_at(E);
     emit_accel_constrained(E);
+    emit_constraint_gamma(E);
   }
   emit_control_functions(E, E->out, E->s);
   emit_defaults(E);

@@ -5,8 +5,10 @@
 ** The rows of G are taken in source order through modified Gram–Schmidt.
 ** A row whose part outside the span of the rows before it is at rounding
 ** level is dependent: the constraint adds nothing new to first order (it
-** repeats others: redundant) or contradicts them (conflicting).  Either way
-** the multipliers are not unique and the saddle-point system is singular.
+** repeats others: redundant) or contradicts them (conflicting).  A
+** redundant row is kept with a note (the runtime's rank-revealing solve
+** splits the force by minimum norm; the multipliers are not unique); a
+** conflicting one is an error.
 ** Each orthonormal basis vector also keeps its coefficients in terms of the
 ** original rows, so a dependent row is written as a combination of the
 ** earlier rows and the message names exactly the ones that take part.
@@ -229,6 +231,13 @@ int constraint_rank_check(const Model *m, const EomSystem *s, Diag *d) {
   int moved = memcmp(q, m->q0, (size_t)nq * sizeof(double)) != 0;
   const char *where = moved ? "at the initial state moved onto the constraints"
                              : "at the initial state";
+  /* Dependent rows are redundant when the constraints hold at the point
+  ** reached (to rounding on the scale of the coordinates), conflicting when
+  ** even the least-squares point leaves a residual. */
+  double residual = max_norm(nc, phi), qscale = 1, gscale = 0;
+  for (int i = 0; i < nq; i++) qscale = fmax(qscale, fabs(q[i]));
+  for (size_t i = 0; i < nqc; i++) gscale = fmax(gscale, fabs(G[i]));
+  int consistent = residual <= 1e-9 * qscale * fmax(gscale, 1e-300);
   int nb = 0;
   for (int k = 0; k < nc; k++) {
     const double *row = G + (size_t)k * nq;
@@ -274,17 +283,34 @@ int constraint_rank_check(const Model *m, const EomSystem *s, Diag *d) {
       if (!seen) lines[nlines++] = line;
     }
     list_lines(lines, nlines, which, sizeof which);
-    if (nlines == 1 && lines[0] == st->loc.line)
+    int alone = nlines == 1 && lines[0] == st->loc.line;
+    if (consistent) {
+      /* Redundant: the same motion with or without this row; the run keeps
+      ** it and splits the constraint force by minimum norm. */
+      if (alone)
+        diag_note(d, st->loc,
+                  "the equations of this constraint are dependent %s (%s) but consistent: "
+                  "redundant; their multipliers are not unique (runs report the minimum-norm "
+                  "split)", where, state);
+      else
+        diag_note(d, st->loc,
+                  "this constraint depends on the constraint%s at line%s %s %s (%s) but is "
+                  "consistent with them: redundant; the multipliers of these rows are not "
+                  "unique (runs report the minimum-norm split)",
+                  nlines == 1 ? "" : "s", nlines == 1 ? "" : "s", which, where, state);
+      continue;
+    }
+    if (alone)
       diag_error(d, st->loc,
-                 "the equations of this constraint are dependent %s (%s): redundant or "
-                 "conflicting constraints (the constraint Jacobian dphi/dq loses rank)",
-                 where, state);
+                 "the equations of this constraint are dependent and conflict %s (%s; "
+                 "max|phi| = %.3g): no configuration near it satisfies them",
+                 where, state, residual);
     else
       diag_error(d, st->loc,
-                 "this constraint depends on the constraint%s at line%s %s %s (%s): redundant "
-                 "or conflicting constraints (the constraint Jacobian dphi/dq loses rank); "
-                 "remove one or change the coordinates",
-                 nlines == 1 ? "" : "s", nlines == 1 ? "" : "s", which, where, state);
+                 "this constraint conflicts with the constraint%s at line%s %s: its gradient "
+                 "depends on theirs %s (%s) but no configuration near it satisfies them all "
+                 "(max|phi| = %.3g); remove one or change the coordinates",
+                 nlines == 1 ? "" : "s", nlines == 1 ? "" : "s", which, where, state, residual);
     errors++;
   }
 out:

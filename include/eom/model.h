@@ -15,7 +15,7 @@ extern "C" {
 #endif
 
 /* Bumped whenever the layout of struct eom_model changes. */
-#define EOM_MODEL_ABI 3
+#define EOM_MODEL_ABI 4
 
 struct eom_model {
   int abi;                          /* EOM_MODEL_ABI of the generating eomc */
@@ -74,6 +74,11 @@ struct eom_model {
   ** NULL when nc == 0 (and in hand-written descriptors without it). */
   void (*constraint_at)(double t, const double *q, const double *p, double *phi, double *G,
                         double *phi_t);
+  /* Since ABI 4: gamma of the acceleration constraint G qdd = gamma (nc),
+  ** so the runtime can solve M qdd = f + Gᵀλ itself where G loses rank.
+  ** NULL when nc == 0 (and in hand-written descriptors without it). */
+  void (*constraint_gamma)(double t, const double *q, const double *qd, const double *p,
+                           double *gamma);
 };
 
 #ifdef __cplusplus
