@@ -1026,9 +1026,10 @@ static void emit_energy(Emitter *E) {
   fputs("}\n\n", E->out);
 }
 
-/* See emit_control.h. */
-void emit_plain_function(Emitter *E, const char *fname, unsigned args, const char *out,
-                         const int *roots, int n) {
+/* `void P_fname(args..., double *out)` writing out[k] = roots[k] (see
+** PlainFunction in emit_control.h). */
+static void emit_plain_function(Emitter *E, const char *fname, unsigned args,
+                                const char *out, const int *roots, int n) {
   static const Param all[] = {{IRV_T, "double t", "t"}, {IRV_Q, "const double *q", "q"},
                               {IRV_QD, "const double *qd", "qd"},
                               {IRV_QDD, "const double *qdd", "qdd"},
@@ -1637,7 +1638,10 @@ static void emit_source(Emitter *E) {
     emit_accel_constrained(E);
     emit_constraint_gamma(E);
   }
-  emit_control_functions(E, E->out, E->s);
+  PlainFunction fns[EMIT_CONTROL_MAX_FUNCTIONS];
+  int nfns = emit_control_functions(E->s, fns);
+  for (int k = 0; k < nfns; k++)
+    emit_plain_function(E, fns[k].fname, fns[k].args, fns[k].out, fns[k].roots, fns[k].n);
   emit_defaults(E);
   emit_descriptor(E);
 }
