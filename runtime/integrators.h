@@ -160,6 +160,9 @@ int stabilize_init(SimContext *c, const struct eom_sim_options *o, const double 
 ** steps (at most max_iter); on failure x is unchanged and c->rep says
 ** `when` it happened.  EOM_OK, EOM_ENEWTON or EOM_ESINGULAR. */
 int stabilize_project(SimContext *c, double t, double *x, int max_iter, const char *when);
+/* The fix of the initial state before a run: the smallest change of the
+** given q and q' (unweighted) that puts them on the constraints. */
+int stabilize_initial_fix(SimContext *c, double t, double *x);
 /* out = x projected as above when projection is on (else a copy); -1
 ** (out = x) when the projection fails.  For samples: reports nothing. */
 int stabilize_sample(SimContext *c, double t, const double *x, double *out);

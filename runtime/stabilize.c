@@ -118,12 +118,28 @@ static void constraints(const SimContext *c, double t, const double *q, double *
   if (phi_t) memset(phi_t, 0, (size_t)m->nc * sizeof(double));
 }
 
-/* Factor M (at q) and G for the mass-orthogonal corrections; G is left in
-** s->G.  EOM_EMASS when M is not positive definite. */
-static int factor_at(SimContext *c, Scratch *s, double t, const double *q, double *phi,
-                     double *phi_t) {
+/* The metric of a projection's corrections: the mass matrix at q during a
+** run (mass-orthogonal: keeps the branch and adds no energy), the identity
+** for the initial fix (the smallest change of the numbers the user gave,
+** the way a user reads them). */
+typedef enum { METRIC_MASS, METRIC_IDENTITY } Metric;
+
+static void metric_at(const SimContext *c, Metric metric, const double *q, double *W) {
+  int nq = c->m->nq;
+  if (metric == METRIC_MASS) {
+    c->m->mass(q, c->p, W);
+    return;
+  }
+  memset(W, 0, (size_t)nq * nq * sizeof(double));
+  for (int i = 0; i < nq; i++) W[i * nq + i] = 1;
+}
+
+/* Factor the metric (at q) and G for the corrections; G is left in s->G.
+** EOM_EMASS when M is not positive definite. */
+static int factor_at(SimContext *c, Scratch *s, Metric metric, double t, const double *q,
+                     double *phi, double *phi_t) {
   constraints(c, t, q, phi, s->G, phi_t);
-  c->m->mass(q, c->p, s->M);
+  metric_at(c, metric, q, s->M);
   return csolve_factor(&s->solver, s->M, s->G);
 }
 
@@ -131,11 +147,14 @@ static int factor_at(SimContext *c, Scratch *s, double t, const double *q, doubl
 ** G q' + dphi/dt = 0; both corrections are mass-orthogonal and minimum-norm
 ** (constraint_solve.c), so rows that are dependent here (a singular
 ** position, redundant joints) neither stop the run nor throw it onto
-** another assembly branch.  M stays at its value at the starting point
-** (a simplified Newton method): the metric only picks the direction.
-** Returns EOM_OK, EOM_ENEWTON (no convergence within max_iter) or EOM_EMASS;
-** *res and *worst give max|phi| and the equation where it is largest. */
-static int project(SimContext *c, double t, double *x, int max_iter, double *res, int *worst) {
+** another assembly branch.  The metric stays at its value at the starting
+** point (a simplified Newton method): it only picks the direction.
+** Returns EOM_OK, EOM_ENEWTON (no convergence within max_iter),
+** EOM_ESINGULAR (no convergence where rows of G are dependent) or
+** EOM_EMASS; *res and *worst give max|phi| and the equation where it is
+** largest. */
+static int project(SimContext *c, Metric metric, double t, double *x, int max_iter, double *res,
+                   int *worst) {
   const struct eom_model *m = c->m;
   int nq = m->nq, nc = m->nc;
   Scratch s = scratch(c);
@@ -143,7 +162,8 @@ static int project(SimContext *c, double t, double *x, int max_iter, double *res
   constraints(c, t, q, s.phi, NULL, NULL);
   double r = max_abs(nc, s.phi, worst);
   int converged = r <= c->cs_tol;
-  if (!converged && isfinite(r)) m->mass(q, c->p, s.M);
+  int rank_lost = 0;
+  if (!converged && isfinite(r)) metric_at(c, metric, q, s.M);
   for (int it = 0; !converged && it < max_iter; it++) {
     if (!isfinite(r)) break;
     constraints(c, t, q, s.phi, s.G, NULL);
@@ -151,6 +171,7 @@ static int project(SimContext *c, double t, double *x, int max_iter, double *res
       *res = r;
       return EOM_EMASS;
     }
+    rank_lost = s.solver.rank < nc;
     memcpy(s.q_old, q, (size_t)nq * sizeof(double));
     memset(s.dq, 0, (size_t)nq * sizeof(double));
     csolve_correct(&s.solver, s.phi, s.mu, s.dq); /* dq = -M⁻¹Gᵀ S⁺ phi */
@@ -180,9 +201,10 @@ static int project(SimContext *c, double t, double *x, int max_iter, double *res
     }
   }
   *res = r;
-  if (!converged) return EOM_ENEWTON;
-  /* Rates: the mass-orthogonal change that makes phi' = G q' + dphi/dt = 0. */
-  if (factor_at(c, &s, t, q, s.phi, s.phi_t) != EOM_OK) return EOM_EMASS;
+  if (!converged) return rank_lost ? EOM_ESINGULAR : EOM_ENEWTON;
+  /* Rates: the smallest change (in the metric) that makes
+  ** phi' = G q' + dphi/dt = 0. */
+  if (factor_at(c, &s, metric, t, q, s.phi, s.phi_t) != EOM_OK) return EOM_EMASS;
   for (int k = 0; k < nc; k++) {
     double v = s.phi_t[k];
     for (int i = 0; i < nq; i++) v += s.G[k * nq + i] * qd[i];
@@ -192,18 +214,25 @@ static int project(SimContext *c, double t, double *x, int max_iter, double *res
   return EOM_OK;
 }
 
-int stabilize_project(SimContext *c, double t, double *x, int max_iter, const char *when) {
+/* project() with its failure reported through sim_fail; x is left as it was
+** when the projection fails. */
+static int project_or_fail(SimContext *c, Metric metric, double t, double *x, int max_iter,
+                           const char *when) {
   if (!c->cs_active) return EOM_OK;
   Scratch s = scratch(c);
   int n = c->n, worst = 0;
   double res = 0;
   memcpy(s.x, x, (size_t)n * sizeof(double));
-  int st = project(c, t, x, max_iter, &res, &worst);
+  int st = project(c, metric, t, x, max_iter, &res, &worst);
   if (st == EOM_OK) return EOM_OK;
   memcpy(x, s.x, (size_t)n * sizeof(double));
   char what[256];
   if (st == EOM_EMASS)
     snprintf(what, sizeof what, "%s: the mass matrix is not positive definite", when);
+  else if (st == EOM_ESINGULAR)
+    snprintf(what, sizeof what,
+             "%s: the constraints are dependent here (G = dphi/dq loses rank) and do not hold "
+             "(max|phi| = %.3g, largest in constraint equation %d)", when, res, worst + 1);
   else
     snprintf(what, sizeof what,
              "%s: Gauss-Newton did not bring the coordinates onto the constraints in %d "
@@ -212,12 +241,21 @@ int stabilize_project(SimContext *c, double t, double *x, int max_iter, const ch
   return sim_fail(c, st, t, x, what);
 }
 
+int stabilize_project(SimContext *c, double t, double *x, int max_iter, const char *when) {
+  return project_or_fail(c, METRIC_MASS, t, x, max_iter, when);
+}
+
+int stabilize_initial_fix(SimContext *c, double t, double *x) {
+  return project_or_fail(c, METRIC_IDENTITY, t, x, 50,
+                         "the initial state is not on the constraints and cannot be put there");
+}
+
 int stabilize_sample(SimContext *c, double t, const double *x, double *out) {
   int worst;
   double res;
   memcpy(out, x, (size_t)c->n * sizeof(double));
   if (!c->cs_active || !c->cs_project) return 0;
-  if (project(c, t, out, 10, &res, &worst) != EOM_OK) {
+  if (project(c, METRIC_MASS, t, out, 10, &res, &worst) != EOM_OK) {
     memcpy(out, x, (size_t)c->n * sizeof(double));
     return -1;
   }
@@ -257,7 +295,7 @@ int stabilize_baumgarte(SimContext *c, double t, const double *x, double *qdd) {
   int nc = c->m->nc;
   if (!c->cs_active || (c->cs_alpha == 0 && c->cs_beta == 0)) return EOM_OK;
   Scratch s = scratch(c);
-  if (factor_at(c, &s, t, x, s.phi, s.phi_t) != EOM_OK)
+  if (factor_at(c, &s, METRIC_MASS, t, x, s.phi, s.phi_t) != EOM_OK)
     return sim_fail(c, EOM_EMASS, t, x, "the mass matrix is not positive definite");
   baumgarte_term(c, &s, x);
   csolve_pinv(&s.solver, s.mu, s.r);
