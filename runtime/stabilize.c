@@ -24,6 +24,13 @@
 **    at a singular position, redundant joints) are handled by the
 **    pseudo-inverse: the run goes on, on its branch.
 **
+** Velocity constraints A(t, q) q' = b(t, q) (nvc rows) only constrain the
+** rates: they join the rows of G in the rate projection ([G; A] q' =
+** [-dphi/dt; b]), in the constrained accelerations ([G; A] q'' = [gamma;
+** gamma_v]) and in the Baumgarte term, where their error e = A q' - b gets
+** the first-order part: e' = -2 alpha e (it has no position part to bring
+** back).  The positions stay free.
+**
 ** Constraints are read through the descriptor's constraint_at(t, ...), so
 ** time-dependent ones are kept too.  A hand-written descriptor without it
 ** falls back to the time-free constraint(); a constraint that depends on t
@@ -55,15 +62,17 @@ static double max_abs(int n, const double *v, int *where) {
 
 int stabilize_init(SimContext *c, const struct eom_sim_options *o, const double *x) {
   const struct eom_model *m = c->m;
-  int nq = m->nq, nc = m->nc;
+  int nq = m->nq, nc = m->nc, nt = m->nc + m->nvc;
   c->cs_active = 0;
-  if (nc <= 0 || (!m->constraint_at && (!m->constraint || !m->constraint_jacobian))) return EOM_OK;
-  size_t size = (size_t)nq * nq + 2 * (size_t)nc * nq + 5 * (size_t)nc + 4 * (size_t)nq +
-                (size_t)c->n + csolve_doubles(nq, nc);
+  if (nt <= 0) return EOM_OK;
+  if (nc > 0 && !m->constraint_at && (!m->constraint || !m->constraint_jacobian)) return EOM_OK;
+  if (m->nvc > 0 && !m->velocity_constraint) return EOM_OK;
+  size_t size = (size_t)nq * nq + 2 * (size_t)nt * nq + 6 * (size_t)nt + 4 * (size_t)nq +
+                (size_t)c->n + csolve_doubles(nq, nt);
   c->cs_work = calloc(size + (size_t)c->n, sizeof(double));
   if (!c->cs_work) return EOM_ENOMEM;
   c->cs_sample = c->cs_work + size;
-  if (!m->constraint_at) { /* time-free only: a time-dependent one is NaN here */
+  if (nc > 0 && !m->constraint_at) { /* time-free only: a time-dependent one is NaN here */
     m->constraint(x, c->p, c->cs_work);
     for (int k = 0; k < nc; k++)
       if (isnan(c->cs_work[k])) return EOM_OK;
@@ -76,32 +85,43 @@ int stabilize_init(SimContext *c, const struct eom_sim_options *o, const double 
   return EOM_OK;
 }
 
-/* Scratch of the stabilizer: M (nq x nq), G and G_spare (nc x nq), phi,
-** phi_t, r, mu, gamma (nc), dq, q_old, y, f (nq), a state copy (n), and the
-** rank-revealing solver's own scratch. */
+/* Scratch of the stabilizer, with nt = nc + nvc rows: M (nq x nq), G and
+** G_spare (nt x nq; G holds [G; A] where the rates are concerned), phi,
+** phi_t, r, mu, gamma (nt), b of the velocity constraints (nt, first nvc
+** used), dq, q_old, y, f (nq), a state copy (n), and the rank-revealing
+** solver's own scratch (sized for nt rows; solver_rows picks how many). */
 typedef struct Scratch {
-  double *M, *G, *G_spare, *phi, *phi_t, *r, *mu, *gamma, *dq, *q_old, *y, *f, *x;
+  double *M, *G, *G_spare, *phi, *phi_t, *r, *mu, *gamma, *vb, *dq, *q_old, *y, *f, *x;
+  double *solver_work;
   ConstraintSolver solver;
 } Scratch;
 
 static Scratch scratch(const SimContext *c) {
-  int nq = c->m->nq, nc = c->m->nc;
+  int nq = c->m->nq, nt = c->m->nc + c->m->nvc;
   Scratch s;
   s.M = c->cs_work;
   s.G = s.M + (size_t)nq * nq;
-  s.G_spare = s.G + (size_t)nc * nq;
-  s.phi = s.G_spare + (size_t)nc * nq;
-  s.phi_t = s.phi + nc;
-  s.r = s.phi_t + nc;
-  s.mu = s.r + nc;
-  s.gamma = s.mu + nc;
-  s.dq = s.gamma + nc;
+  s.G_spare = s.G + (size_t)nt * nq;
+  s.phi = s.G_spare + (size_t)nt * nq;
+  s.phi_t = s.phi + nt;
+  s.r = s.phi_t + nt;
+  s.mu = s.r + nt;
+  s.gamma = s.mu + nt;
+  s.vb = s.gamma + nt;
+  s.dq = s.vb + nt;
   s.q_old = s.dq + nq;
   s.y = s.q_old + nq;
   s.f = s.y + nq;
   s.x = s.f + nq;
-  csolve_init(&s.solver, nq, nc, s.x + c->n);
+  s.solver_work = s.x + c->n;
+  csolve_init(&s.solver, nq, nt, s.solver_work);
   return s;
+}
+
+/* Point the solver at the first `rows` rows: nc for positions, nt for rates
+** and accelerations (the scratch fits the larger). */
+static void solver_rows(Scratch *s, int nq, int rows) {
+  csolve_init(&s->solver, nq, rows, s->solver_work);
 }
 
 /* phi at (t, q); G and phi_t too unless NULL (phi_t is 0 without constraint_at). */
@@ -116,6 +136,22 @@ static void constraints(const SimContext *c, double t, const double *q, double *
   m->constraint(q, c->p, phi);
   if (G) m->constraint_jacobian(q, c->p, G);
   if (phi_t) memset(phi_t, 0, (size_t)m->nc * sizeof(double));
+}
+
+/* The rows that constrain the rates at (t, q, q'): H = [G; A] (nt x nq),
+** the residual e = [G q' + dphi/dt; A q' - b] (nt), phi (nc) and, in
+** gamma_v (nvc), the velocity constraints' part of the accelerations. */
+static void rate_rows(const SimContext *c, Scratch *s, double t, const double *q,
+                      const double *qd, double *H, double *e, double *gamma_v) {
+  const struct eom_model *m = c->m;
+  int nq = m->nq, nc = m->nc, nvc = m->nvc;
+  if (nc > 0) constraints(c, t, q, s->phi, H, s->phi_t);
+  if (nvc > 0) m->velocity_constraint(t, q, qd, c->p, H + (size_t)nc * nq, s->vb, gamma_v);
+  for (int k = 0; k < nc + nvc; k++) {
+    double v = k < nc ? s->phi_t[k] : -s->vb[k - nc];
+    for (int i = 0; i < nq; i++) v += H[k * nq + i] * qd[i];
+    e[k] = v;
+  }
 }
 
 /* The metric of a projection's corrections: the mass matrix at q during a
@@ -134,18 +170,9 @@ static void metric_at(const SimContext *c, Metric metric, const double *q, doubl
   for (int i = 0; i < nq; i++) W[i * nq + i] = 1;
 }
 
-/* Factor the metric (at q) and G for the corrections; G is left in s->G.
-** EOM_EMASS when M is not positive definite. */
-static int factor_at(SimContext *c, Scratch *s, Metric metric, double t, const double *q,
-                     double *phi, double *phi_t) {
-  constraints(c, t, q, phi, s->G, phi_t);
-  metric_at(c, metric, q, s->M);
-  return csolve_factor(&s->solver, s->M, s->G);
-}
-
 /* Gauss–Newton on phi(q, t) = 0 from q, then the rates onto
-** G q' + dphi/dt = 0; both corrections are mass-orthogonal and minimum-norm
-** (constraint_solve.c), so rows that are dependent here (a singular
+** G q' + dphi/dt = 0 and A q' = b; both corrections are minimum-norm in the
+** metric (constraint_solve.c), so rows that are dependent here (a singular
 ** position, redundant joints) neither stop the run nor throw it onto
 ** another assembly branch.  The metric stays at its value at the starting
 ** point (a simplified Newton method): it only picks the direction.
@@ -156,14 +183,18 @@ static int factor_at(SimContext *c, Scratch *s, Metric metric, double t, const d
 static int project(SimContext *c, Metric metric, double t, double *x, int max_iter, double *res,
                    int *worst) {
   const struct eom_model *m = c->m;
-  int nq = m->nq, nc = m->nc;
+  int nq = m->nq, nc = m->nc, nt = m->nc + m->nvc;
   Scratch s = scratch(c);
   double *q = x, *qd = x + nq;
-  constraints(c, t, q, s.phi, NULL, NULL);
-  double r = max_abs(nc, s.phi, worst);
-  int converged = r <= c->cs_tol;
-  int rank_lost = 0;
-  if (!converged && isfinite(r)) metric_at(c, metric, q, s.M);
+  double r = 0;
+  *worst = 0;
+  if (nc > 0) {
+    constraints(c, t, q, s.phi, NULL, NULL);
+    r = max_abs(nc, s.phi, worst);
+  }
+  int converged = r <= c->cs_tol, rank_lost = 0;
+  metric_at(c, metric, q, s.M);
+  solver_rows(&s, nq, nc);
   for (int it = 0; !converged && it < max_iter; it++) {
     if (!isfinite(r)) break;
     constraints(c, t, q, s.phi, s.G, NULL);
@@ -174,7 +205,7 @@ static int project(SimContext *c, Metric metric, double t, double *x, int max_it
     rank_lost = s.solver.rank < nc;
     memcpy(s.q_old, q, (size_t)nq * sizeof(double));
     memset(s.dq, 0, (size_t)nq * sizeof(double));
-    csolve_correct(&s.solver, s.phi, s.mu, s.dq); /* dq = -M⁻¹Gᵀ S⁺ phi */
+    csolve_correct(&s.solver, s.phi, s.mu, s.dq); /* dq = -W⁻¹Gᵀ (G W⁻¹ Gᵀ)⁺ phi */
     /* Halve the step while it makes things worse (a far initial guess). */
     double step = 1, r_new = INFINITY;
     for (int half = 0; half < 30; half++, step /= 2) {
@@ -203,13 +234,12 @@ static int project(SimContext *c, Metric metric, double t, double *x, int max_it
   *res = r;
   if (!converged) return rank_lost ? EOM_ESINGULAR : EOM_ENEWTON;
   /* Rates: the smallest change (in the metric) that makes
-  ** phi' = G q' + dphi/dt = 0. */
-  if (factor_at(c, &s, metric, t, q, s.phi, s.phi_t) != EOM_OK) return EOM_EMASS;
-  for (int k = 0; k < nc; k++) {
-    double v = s.phi_t[k];
-    for (int i = 0; i < nq; i++) v += s.G[k * nq + i] * qd[i];
-    s.r[k] = v;
-  }
+  ** phi' = G q' + dphi/dt = 0 and A q' = b (A, b do not depend on q', so
+  ** one step is exact). */
+  rate_rows(c, &s, t, q, qd, s.G, s.r, s.gamma);
+  metric_at(c, metric, q, s.M);
+  solver_rows(&s, nq, nt);
+  if (csolve_factor(&s.solver, s.M, s.G) != EOM_OK) return EOM_EMASS;
   csolve_correct(&s.solver, s.r, s.mu, qd);
   return EOM_OK;
 }
@@ -262,44 +292,44 @@ int stabilize_sample(SimContext *c, double t, const double *x, double *out) {
   return 0;
 }
 
-/* delta = -2 alpha phi' - beta² phi (phi' = G q' + dphi/dt) into s->mu,
-** with phi, G, phi_t of state x left in the scratch. */
-static void baumgarte_term(SimContext *c, Scratch *s, const double *x) {
-  int nq = c->m->nq, nc = c->m->nc;
-  const double *qd = x + nq;
-  for (int k = 0; k < nc; k++) {
-    double v = s->phi_t[k];
-    for (int i = 0; i < nq; i++) v += s->G[k * nq + i] * qd[i];
-    s->mu[k] = -2 * c->cs_alpha * v - c->cs_beta * c->cs_beta * s->phi[k];
-  }
+/* delta = -2 alpha e - beta² phi into s->mu (nt): e = phi' = G q' + dphi/dt
+** for a position constraint, e = A q' - b (first order only) for a
+** velocity constraint; [G; A] of state x is left in s->G and the velocity
+** constraints' gamma in s->gamma + nc. */
+static void baumgarte_term(SimContext *c, Scratch *s, double t, const double *x) {
+  const struct eom_model *m = c->m;
+  int nq = m->nq, nc = m->nc, nt = m->nc + m->nvc;
+  rate_rows(c, s, t, x, x + nq, s->G, s->mu, s->gamma + nc);
+  for (int k = 0; k < nt; k++)
+    s->mu[k] = -2 * c->cs_alpha * s->mu[k] - (k < nc ? c->cs_beta * c->cs_beta * s->phi[k] : 0);
 }
 
 int stabilize_accel(SimContext *c, double t, const double *x, const double *u, double *qdd) {
   const struct eom_model *m = c->m;
-  int nq = m->nq, nc = m->nc;
-  assert(c->cs_active && m->constraint_gamma);
+  int nq = m->nq, nc = m->nc, nt = m->nc + m->nvc;
+  assert(c->cs_active && (nc == 0 || m->constraint_gamma));
   Scratch s = scratch(c);
   const double *q = x, *qd = x + nq;
-  constraints(c, t, q, s.phi, s.G, s.phi_t);
+  baumgarte_term(c, &s, t, x);
+  if (nc > 0) m->constraint_gamma(t, q, qd, c->p, s.gamma);
+  for (int k = 0; k < nt; k++) s.gamma[k] += s.mu[k];
   m->mass(q, c->p, s.M);
   m->forcing(t, q, qd, u, c->p, s.f);
-  m->constraint_gamma(t, q, qd, c->p, s.gamma);
-  baumgarte_term(c, &s, x);
-  for (int k = 0; k < nc; k++) s.gamma[k] += s.mu[k];
   if (csolve_accel(&s.solver, s.M, s.G, s.f, s.gamma, qdd, c->lambda) != EOM_OK)
     return sim_fail(c, EOM_EMASS, t, x, "the mass matrix is not positive definite");
   return EOM_OK;
 }
 
 int stabilize_baumgarte(SimContext *c, double t, const double *x, double *qdd) {
-  int nc = c->m->nc;
+  int nt = c->m->nc + c->m->nvc;
   if (!c->cs_active || (c->cs_alpha == 0 && c->cs_beta == 0)) return EOM_OK;
   Scratch s = scratch(c);
-  if (factor_at(c, &s, METRIC_MASS, t, x, s.phi, s.phi_t) != EOM_OK)
+  baumgarte_term(c, &s, t, x);
+  metric_at(c, METRIC_MASS, x, s.M);
+  if (csolve_factor(&s.solver, s.M, s.G) != EOM_OK)
     return sim_fail(c, EOM_EMASS, t, x, "the mass matrix is not positive definite");
-  baumgarte_term(c, &s, x);
   csolve_pinv(&s.solver, s.mu, s.r);
   csolve_add_reaction(&s.solver, s.r, 1.0, qdd);
-  for (int k = 0; k < nc; k++) c->lambda[k] += s.r[k];
+  for (int k = 0; k < nt; k++) c->lambda[k] += s.r[k];
   return EOM_OK;
 }
