@@ -194,7 +194,7 @@ static int project(SimContext *c, Metric metric, double t, double *x, int max_it
   }
   int converged = r <= c->cs_tol, rank_lost = 0;
   metric_at(c, metric, q, s.M);
-  solver_rows(&s, nq, nc);
+  if (nc > 0) solver_rows(&s, nq, nc);
   for (int it = 0; !converged && it < max_iter; it++) {
     if (!isfinite(r)) break;
     constraints(c, t, q, s.phi, s.G, NULL);

@@ -424,6 +424,18 @@ START_TEST(dependent_constraints_are_named) {
   ck_assert_msg(strstr(r.err, "implied.eom:10:1: note: this constraint depends on the "
                               "constraint at line 9") != NULL, "%s", r.err);
   run_free(&r);
+  /* a rolling condition written twice the same way is redundant too */
+  static const char rolling[] =
+    "coord x, th\nparam r = 0.1\n"
+    "kinetic 1/2*2*x'^2 + 1/2*0.01*th'^2\n"
+    "constraint x' = r*th'\n"                                            /* 4 */
+    "constraint 2*x' = 2*r*th'\n"                                        /* 5 */
+    "initial th' = 3\n";
+  r = run_model("sim", "rolling.eom", rolling);
+  ck_assert_msg(r.status == 0, "%s", r.err);
+  ck_assert_msg(strstr(r.err, "rolling.eom:5:1: note: this constraint depends on the "
+                              "constraint at line 4") != NULL, "%s", r.err);
+  run_free(&r);
   /* independent constraints pass without a word */
   static const char fine[] =
     "coord x, y\n"

@@ -209,6 +209,8 @@ int constraint_rank_check(const Model *m, const EomSystem *s, Diag *d) {
     if (s->constraint[k] > hi) hi = s->constraint[k];
   for (size_t i = 0; i < (size_t)nvc * nq; i++)
     if (s->vconstraint_A[i] > hi) hi = s->vconstraint_A[i];
+  for (int k = 0; k < nvc; k++)
+    if (s->vconstraint_b[k] > hi) hi = s->vconstraint_b[k];
   v = calloc((size_t)hi + 1, sizeof(double));
   if (!G || !basis || !coef || !comb || !r || !params || !zeros || !of || !lines || !v || !q ||
       !q_old || !phi || !w || !A) {
@@ -303,7 +305,16 @@ int constraint_rank_check(const Model *m, const EomSystem *s, Diag *d) {
     }
     list_lines(lines, nlines, which, sizeof which);
     int alone = nlines == 1 && lines[0] == st->loc.line;
-    if (consistent) {
+    /* A velocity row is consistent when its right side b is the same
+    ** combination of the others' (a position row's is 0 here: time-free
+    ** at t = 0 up to dphi/dt, which a redundant time-free row lacks). */
+    double rhs_gap = 0, rhs_scale = 0;
+    for (int j = 0; j <= k; j++) {
+      double bj = j < np ? 0 : v[s->vconstraint_b[j - np]];
+      rhs_gap += (j == k ? bj : -comb[j] * bj);
+      rhs_scale = fmax(rhs_scale, fabs(bj));
+    }
+    if (consistent && fabs(rhs_gap) <= 1e-9 * fmax(rhs_scale, 1e-300) + 1e-300) {
       /* Redundant: the same motion with or without this row; the run keeps
       ** it and splits the constraint force by minimum norm. */
       if (alone)
@@ -319,17 +330,23 @@ int constraint_rank_check(const Model *m, const EomSystem *s, Diag *d) {
                   nlines == 1 ? "" : "s", nlines == 1 ? "" : "s", which, where, state);
       continue;
     }
+    /* What cannot hold: positions (max|phi|) or, for a velocity row, the
+    ** rates (its right side against the others' combination). */
+    char what[96];
+    if (k < np)
+      snprintf(what, sizeof what, "no configuration near it satisfies them all (max|phi| = %.3g)",
+               residual);
+    else
+      snprintf(what, sizeof what, "no rates satisfy them all (the right sides differ by %.3g)",
+               fabs(rhs_gap));
     if (alone)
-      diag_error(d, st->loc,
-                 "the equations of this constraint are dependent and conflict %s (%s; "
-                 "max|phi| = %.3g): no configuration near it satisfies them",
-                 where, state, residual);
+      diag_error(d, st->loc, "the equations of this constraint are dependent %s (%s) and conflict: %s",
+                 where, state, what);
     else
       diag_error(d, st->loc,
                  "this constraint conflicts with the constraint%s at line%s %s: its gradient "
-                 "depends on theirs %s (%s) but no configuration near it satisfies them all "
-                 "(max|phi| = %.3g); remove one or change the coordinates",
-                 nlines == 1 ? "" : "s", nlines == 1 ? "" : "s", which, where, state, residual);
+                 "depends on theirs %s (%s) but %s; remove one or change the coordinates",
+                 nlines == 1 ? "" : "s", nlines == 1 ? "" : "s", which, where, state, what);
     errors++;
   }
 out:
