@@ -82,6 +82,7 @@ int stabilize_init(SimContext *c, const struct eom_sim_options *o, const double 
   c->cs_alpha = o->baumgarte_alpha;
   c->cs_beta = o->baumgarte_beta;
   c->cs_tol = o->constraint_tol > 0 ? o->constraint_tol : 1e-12;
+  c->cs_hold = o->hold;
   return EOM_OK;
 }
 
@@ -170,6 +171,17 @@ static void metric_at(const SimContext *c, Metric metric, const double *q, doubl
   for (int i = 0; i < nq; i++) W[i * nq + i] = 1;
 }
 
+/* During the initial fix a held coordinate does not move: its column of
+** the rows H (nrows x nq) is dropped, so the minimum-norm correction moves
+** only the others. */
+static void drop_held_columns(const SimContext *c, int nrows, double *H) {
+  int nq = c->m->nq;
+  if (!c->cs_holding || !c->cs_hold) return;
+  for (int i = 0; i < nq; i++)
+    if (c->cs_hold[i])
+      for (int k = 0; k < nrows; k++) H[k * nq + i] = 0;
+}
+
 /* Gauss–Newton on phi(q, t) = 0 from q, then the rates onto
 ** G q' + dphi/dt = 0 and A q' = b; both corrections are minimum-norm in the
 ** metric (constraint_solve.c), so rows that are dependent here (a singular
@@ -198,6 +210,7 @@ static int project(SimContext *c, Metric metric, double t, double *x, int max_it
   for (int it = 0; !converged && it < max_iter; it++) {
     if (!isfinite(r)) break;
     constraints(c, t, q, s.phi, s.G, NULL);
+    drop_held_columns(c, nc, s.G);
     if (csolve_factor(&s.solver, s.M, s.G) != EOM_OK) {
       *res = r;
       return EOM_EMASS;
@@ -237,6 +250,7 @@ static int project(SimContext *c, Metric metric, double t, double *x, int max_it
   ** phi' = G q' + dphi/dt = 0 and A q' = b (A, b do not depend on q', so
   ** one step is exact). */
   rate_rows(c, &s, t, q, qd, s.G, s.r, s.gamma);
+  drop_held_columns(c, nt, s.G);
   metric_at(c, metric, q, s.M);
   solver_rows(&s, nq, nt);
   if (csolve_factor(&s.solver, s.M, s.G) != EOM_OK) return EOM_EMASS;
@@ -257,7 +271,12 @@ static int project_or_fail(SimContext *c, Metric metric, double t, double *x, in
   if (st == EOM_OK) return EOM_OK;
   memcpy(x, s.x, (size_t)n * sizeof(double));
   char what[256];
-  if (st == EOM_EMASS)
+  if (st == EOM_ESINGULAR && c->cs_holding && c->cs_hold)
+    snprintf(what, sizeof what,
+             "%s: with the held coordinates fixed the constraints leave the others no way "
+             "to satisfy them (max|phi| = %.3g); hold fewer coordinates",
+             when, res);
+  else if (st == EOM_EMASS)
     snprintf(what, sizeof what, "%s: the mass matrix is not positive definite", when);
   else if (st == EOM_ESINGULAR)
     snprintf(what, sizeof what,

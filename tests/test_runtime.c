@@ -708,6 +708,41 @@ START_TEST(sample_grid) {
 }
 END_TEST
 
+static int count_only(void *ctx, double t, const double *x, const double *u) {
+  (void)x, (void)u;
+  ((Count *)ctx)->n++;
+  ((Count *)ctx)->last_t = t;
+  return 0;
+}
+
+/* A fixed-step run takes exactly span/h steps, t = t0 + n h, even where
+** t + h rounds below a sample time (far from t = 0 the times carry a
+** rounding of ulp(t), here 1e-4 of a step). */
+START_TEST(fixed_step_count) {
+  static const char *const methods[] = {"rk4", "midpoint"};
+  static const double dts[] = {0, 1e-4, 1e-6};
+  for (size_t i = 0; i < 2; i++)
+    for (size_t d = 0; d < 3; d++) {
+      double x[2] = {1, 0};
+      Count cnt = {0, 0};
+      struct eom_sim_options o;
+      struct eom_report rep;
+      eom_sim_options_init(&o);
+      o.method = methods[i];
+      o.t0 = 1e6;
+      o.t_end = 1e6 + 1e-3;
+      o.step = 1e-6;
+      o.sample_dt = dts[d];
+      ck_assert_int_eq(eom_simulate(&tm_oscillator, NULL, NULL, x, &o, count_only, &cnt, &rep),
+                       EOM_OK);
+      ck_assert_msg(rep.steps == 1000, "%s, samples every %g: %ld steps", methods[i], dts[d],
+                    rep.steps);
+      ck_assert_double_eq(cnt.last_t, o.t_end);
+      if (d == 1) ck_assert_int_eq(cnt.n, 11);
+    }
+}
+END_TEST
+
 /* ------------------------------------------------------------- inputs */
 
 static char *write_temp(const char *text) {
@@ -1109,13 +1144,22 @@ START_TEST(constraint_solve_redundant_rows) {
 }
 END_TEST
 
+#ifdef HAVE_GSL
+/* The checks against GSL, run by tests/gsl.test (`test_runtime gsl`). */
+static Suite *gsl_suite(void) {
+  Suite *s = suite_create("runtime-gsl");
+  TCase *tc = tcase_create("gsl");
+  tcase_set_timeout(tc, 60);
+  tcase_add_loop_test(tc, pendulum_period_large_amplitude, 0, 3);
+  suite_add_tcase(s, tc);
+  return s;
+}
+#endif
+
 static Suite *runtime_suite(void) {
   Suite *s = suite_create("runtime");
   TCase *tc = tcase_create("integrators");
   tcase_set_timeout(tc, 60);
-#ifdef HAVE_GSL
-  tcase_add_loop_test(tc, pendulum_period_large_amplitude, 0, 3);
-#endif
   tcase_add_test(tc, dopri_dense_output);
   tcase_add_test(tc, kepler_period_and_angular_momentum);
   tcase_add_test(tc, integrator_orders);
@@ -1132,6 +1176,7 @@ static Suite *runtime_suite(void) {
   tcase_add_test(tc, failure_collision);
   tcase_add_test(tc, bad_arguments);
   tcase_add_test(tc, sample_grid);
+  tcase_add_test(tc, fixed_step_count);
   suite_add_tcase(s, tc);
   TCase *ti = tcase_create("inputs");
   tcase_set_timeout(ti, 60);
@@ -1158,8 +1203,24 @@ static Suite *runtime_suite(void) {
   return s;
 }
 
-int main(void) {
-  SRunner *sr = srunner_create(runtime_suite());
+/* No argument: the suite.  `gsl`: the checks against GSL, or exit 77
+** (automake's SKIP) when configure found no GSL. */
+int main(int argc, char **argv) {
+  int gsl = argc == 2 && strcmp(argv[1], "gsl") == 0;
+  if (argc > 2 || (argc == 2 && !gsl)) {
+    fprintf(stderr, "usage: %s [gsl]\n", argv[0]);
+    return EXIT_FAILURE;
+  }
+#ifdef HAVE_GSL
+  Suite *suite = gsl ? gsl_suite() : runtime_suite();
+#else
+  if (gsl) {
+    puts("SKIP: configure found no GSL (Debian: libgsl-dev)");
+    return 77;
+  }
+  Suite *suite = runtime_suite();
+#endif
+  SRunner *sr = srunner_create(suite);
   srunner_run_all(sr, CK_NORMAL);
   int failed = srunner_ntests_failed(sr);
   srunner_free(sr);

@@ -17,11 +17,10 @@
 static const double PI = 3.141592653589793238462643383279502884;
 static char *cache_dir, *work_dir;
 
-static const char *eomc(void) { return env_or("EOMC", "./eomc"); }
 
 static char *model_path(const char *name) {
   static char buf[4096];
-  snprintf(buf, sizeof buf, "%s/tests/sim/%s", env_or("SRCDIR", "."), name);
+  snprintf(buf, sizeof buf, "%s/tests/sim/%s", srcdir(), name);
   return buf;
 }
 
@@ -200,11 +199,6 @@ END_TEST
 
 /* ------------------------------------------------------------- sim */
 
-static int count_lines(const char *s) {
-  int n = 0;
-  for (; *s; s++) n += *s == '\n';
-  return n;
-}
 
 START_TEST(sim_csv_columns) {
   char *out = work_path("pair.csv");
@@ -215,7 +209,8 @@ START_TEST(sim_csv_columns) {
   ck_assert_msg(strstr(r.err, "action") && strstr(r.err, "steps"), "summary: %s", r.err);
   char *csv = read_file(out, NULL);
   ck_assert_ptr_nonnull(csv);
-  const char *header = "t,x1,x2,x1',x2',spring_middle,T,V\n";
+  /* SPEC 4.6: t, coordinates, rates, outputs, inputs, multipliers, T, V. */
+  const char *header = "t,x1,x2,x1',x2',spring_middle,F,T,V\n";
   ck_assert_msg(strncmp(csv, header, strlen(header)) == 0, "%s", csv);
   ck_assert_int_eq(count_lines(csv), 12); /* header + t = 0, 0.1, ..., 1 */
   /* First row: t = 0 and the model's initial x1 = 0.05. */
@@ -225,11 +220,11 @@ START_TEST(sim_csv_columns) {
   ck_assert(t == 0 && x1 == 0.05 && x2 == 0);
   /* Sample times print as written: 0.3, not 0.30000000000000004. */
   ck_assert_msg(strstr(csv, "\n0.3,") && strstr(csv, "\n0.7,") && strstr(csv, "\n1,"), "%s", csv);
-  /* Every row has 8 fields. */
+  /* Every row has 9 fields. */
   for (const char *p = row; *p; p = strchr(p, '\n') + 1) {
     int commas = 0;
     for (const char *q = p; *q != '\n'; q++) commas += *q == ',';
-    ck_assert_int_eq(commas, 7);
+    ck_assert_int_eq(commas, 8);
   }
   free(csv);
   run_free(&r);
@@ -662,6 +657,181 @@ START_TEST(sim_vector_outputs) {
 }
 END_TEST
 
+/* ------------------------------------------------------ equilibria */
+
+/* Value after the first "key" in text (ck fails when absent). */
+static double number_after(const char *text, const char *key) {
+  const char *s = strstr(text, key);
+  ck_assert_msg(s != NULL, "no '%s' in\n%s", key, text);
+  return strtod(s + strlen(key), NULL);
+}
+
+/* A trolley free to roll under a constant drive force has no equilibrium:
+** exit 3, naming x and why.  The steady motion instead: the whole hoist
+** accelerates at a = F / (M + m) and the load hangs behind at
+** tan(th) = -a / g (a plumb line in a uniformly accelerating car, Halliday,
+** Resnick & Walker, Fundamentals of Physics, ch. 5-6; from memory). */
+START_TEST(modes_no_equilibrium_under_drive) {
+  char *argv[] = {(char *)eomc(), "modes", model_path("rolling_hoist.eom"), "--set", "F=3", NULL};
+  RunResult r = run_argv(argv);
+  ck_assert_msg(r.status == 3, "status %d\nout %s\nerr %s", r.status, r.out, r.err);
+  ck_assert_msg(r.out[0] == '\0', "no equilibrium may be printed:\n%s", r.out);
+  ck_assert_msg(strstr(r.err, "no static equilibrium: x: a constant generalized force of 3 N acts "
+                              "and nothing restores x") != NULL, "%s", r.err);
+  double M = 20, m = 5, g = 9.81, a = 3 / (M + m);
+  double acc = number_after(r.err, "x'' = "), th = number_after(r.err, "th = ");
+  ck_assert_msg(fabs(acc - a) < 1e-9, "a %.12g, want %.12g", acc, a);
+  ck_assert_msg(fabs(th + atan(a / g)) < 1e-8, "th %.12g, want %.12g\n%s", th, -atan(a / g), r.err);
+  run_free(&r);
+
+  /* Without the drive the same model does have its equilibrium. */
+  char *argv2[] = {(char *)eomc(), "modes", model_path("rolling_hoist.eom"), NULL};
+  r = run_argv(argv2);
+  ck_assert_msg(r.status == 0, "status %d: %s", r.status, r.err);
+  run_free(&r);
+
+  /* With a rolling drag the steady motion is a constant rate, not an
+  ** acceleration: the note says to ask for it with --rate. */
+  const char *text = "model dragged_hoist\ncoord x [m]\nparam m = 25 [kg]\nparam c = 2 [N*s/m]\n"
+                     "input F [N]\nkinetic 1/2*m*x'^2\ndissipation 1/2*c*x'^2\nforce x = F\n";
+  char *dragged = write_file(work_dir, "dragged_hoist.eom", text, strlen(text));
+  char *argv3[] = {(char *)eomc(), "modes", dragged, "--set", "F=3", NULL};
+  r = run_argv(argv3);
+  ck_assert_msg(r.status == 3, "status %d: %s", r.status, r.err);
+  ck_assert_msg(strstr(r.err, "--rate x=") != NULL && strstr(r.err, "x''") == NULL, "%s", r.err);
+  run_free(&r);
+  free(dragged);
+}
+END_TEST
+
+/* Angles of 2 pi periodic dynamics are wrapped into (-pi, pi]; an angle a
+** torsion spring holds several turns round is not (the spring is not
+** periodic).  Equilibria of the pendulum at 0 and pi, of the shaft at its
+** spring's rest angle psi0 = 20 rad (statics, common practice). */
+START_TEST(modes_wraps_periodic_angles) {
+  char *argv[] = {(char *)eomc(), "modes", model_path("wound_pendulum.eom"), "--json", NULL};
+  RunResult r = run_argv(argv);
+  ck_assert_msg(r.status == 0, "status %d: %s", r.status, r.err);
+  ck_assert_msg(fabs(json_number(r.out, "th", 0)) < 1e-9, "%s", r.out);
+  ck_assert_msg(fabs(json_number(r.out, "psi", 0) - 20) < 1e-9, "%s", r.out);
+  run_free(&r);
+  char *argv2[] = {(char *)eomc(), "modes", model_path("wound_pendulum.eom"), "--at", "th=72.4",
+                   "--json", NULL};
+  r = run_argv(argv2);
+  ck_assert_msg(r.status == 0, "status %d: %s", r.status, r.err);
+  double th = json_number(r.out, "th", 0);
+  ck_assert_msg(th > -PI && th <= PI + 1e-12 && fabs(fabs(th) - PI) < 1e-9, "th %.17g", th);
+  run_free(&r);
+}
+END_TEST
+
+/* The JSON's growth_rate_per_s is Re s: for the damped pair -c / (2 m) in
+** both modes (damping proportional to mass; common practice), 0 for an
+** undamped oscillation; no "-0" anywhere. */
+START_TEST(modes_json_growth_rate) {
+  char *argv[] = {(char *)eomc(), "modes", model_path("damped_pair.eom"), "--json", NULL};
+  RunResult r = run_argv(argv);
+  ck_assert_msg(r.status == 0, "status %d: %s", r.status, r.err);
+  for (int k = 0; k < 2; k++)
+    ck_assert_double_eq_tol(json_number(r.out, "growth_rate_per_s", k), -0.9 / (2 * 1.5), 1e-9);
+  ck_assert_ptr_null(strstr(r.out, "rate_per_s\": 0."));
+  run_free(&r);
+  char *argv2[] = {(char *)eomc(), "modes", model_path("rolling_hoist.eom"), "--json", NULL};
+  r = run_argv(argv2);
+  ck_assert_msg(r.status == 0, "status %d: %s", r.status, r.err);
+  ck_assert_msg(strstr(r.out, "-0,") == NULL && strstr(r.out, "-0}") == NULL, "%s", r.out);
+  ck_assert_msg(strstr(r.out, "\"kind\": \"neutral\", \"omega2\": 0,") != NULL, "%s", r.out);
+  ck_assert_double_eq_tol(json_number(r.out, "growth_rate_per_s", 0), 0, 1e-12);
+  run_free(&r);
+}
+END_TEST
+
+/* At a degenerate equilibrium (V = -a x^4: exact stiffness 0, central
+** differences 4 a h^2) the jacobian check must not cry wolf. */
+START_TEST(modes_degenerate_no_false_alarm) {
+  char *argv[] = {(char *)eomc(), "modes", model_path("quartic_hill.eom"), NULL};
+  RunResult r = run_argv(argv);
+  ck_assert_msg(r.status == 0, "status %d: %s", r.status, r.err);
+  ck_assert_msg(strstr(r.err, "disagrees") == NULL, "%s", r.err);
+  ck_assert_msg(fabs(number_after(r.out, "x = ")) < 1e-6, "%s", r.out);
+  run_free(&r);
+}
+END_TEST
+
+/* --hold keeps the crank of a four-bar at its given angle while the initial
+** fix closes the loop with the coupler and the rocker; the closed loop
+** b cos th2 + c cos th3 = a + e cos th4, b sin th2 + c sin th3 = e sin th4
+** (four-bar loop closure, Norton, Design of Machinery, 5th ed., 2012, §4.5;
+** from memory) holds at the first row, and the summary says what moved. */
+START_TEST(sim_hold_crank) {
+  char path[4200];
+  snprintf(path, sizeof path, "%s/examples/barrier_fourbar.eom", srcdir());
+  char *argv[] = {(char *)eomc(), "sim", path, "--set", "th2=0.5", "--hold", "th2", "--until",
+                  "0.01", "--step", "0.01", NULL};
+  RunResult r = run_argv(argv);
+  ck_assert_msg(r.status == 0, "status %d: %s", r.status, r.err);
+  int n;
+  double *th2 = csv_column(r.out, 1, &n), *th3 = csv_column(r.out, 2, &n),
+         *th4 = csv_column(r.out, 3, &n);
+  double a = 0.30, b = 0.08, c = 0.32, e = 0.18;
+  ck_assert_msg(th2[0] == 0.5, "th2 moved to %.17g", th2[0]);
+  ck_assert_msg(fabs(b * cos(th2[0]) + c * cos(th3[0]) - a - e * cos(th4[0])) < 1e-10 &&
+                    fabs(b * sin(th2[0]) + c * sin(th3[0]) - e * sin(th4[0])) < 1e-10,
+                "loop not closed: th3 %.17g th4 %.17g", th3[0], th4[0]);
+  ck_assert_msg(strstr(r.err, "initial fix onto the constraints: th2 held, th3 moved by ") != NULL,
+                "%s", r.err);
+  free(th2), free(th3), free(th4);
+  run_free(&r);
+
+  /* Without --hold the minimum-norm fix moves the crank as well. */
+  char *argv2[] = {(char *)eomc(), "sim", path, "--set", "th2=0.5", "--until", "0.01", "--step",
+                   "0.01", NULL};
+  r = run_argv(argv2);
+  ck_assert_msg(r.status == 0, "status %d: %s", r.status, r.err);
+  th2 = csv_column(r.out, 1, &n);
+  ck_assert_msg(th2[0] != 0.5, "th2 %.17g", th2[0]);
+  ck_assert_msg(strstr(r.err, "th2 moved by ") != NULL, "%s", r.err);
+  free(th2);
+  run_free(&r);
+
+  /* A name that is no coordinate, and a model without constraints: usage errors. */
+  char *argv3[] = {(char *)eomc(), "sim", path, "--hold", "crank", NULL};
+  r = run_argv(argv3);
+  ck_assert_msg(r.status == 2 && strstr(r.err, "no coordinate 'crank'"), "%d %s", r.status, r.err);
+  run_free(&r);
+  char *argv4[] = {(char *)eomc(), "sim", model_path("damped_pair.eom"), "--hold", "x1", NULL};
+  r = run_argv(argv4);
+  ck_assert_msg(r.status == 2 && strstr(r.err, "no constraints"), "%d %s", r.status, r.err);
+  run_free(&r);
+}
+END_TEST
+
+/* A cold build of a big model says what it is doing (off a terminal: one
+** line per step, for six or more coordinates and 64 KB or more of C); a
+** small model stays quiet and so does a warm run. */
+START_TEST(sim_cold_build_says_so) {
+  char path[4200];
+  snprintf(path, sizeof path, "%s/examples/picking_arm6.eom", srcdir());
+  char *argv[] = {(char *)eomc(), "sim", path, "--until", "0.001", "--step", "0.001", "-o",
+                  "/dev/null", NULL};
+  RunResult r = run_argv(argv);
+  ck_assert_msg(r.status == 0, "status %d: %s", r.status, r.err);
+  ck_assert_msg(strstr(r.err, "eomc: first run of picking_arm6: deriving its equations of motion") &&
+                    strstr(r.err, "eomc: first run of picking_arm6: compiling ") &&
+                    strstr(r.err, " KB of generated C with "),
+                "%s", r.err);
+  run_free(&r);
+  r = run_argv(argv);
+  ck_assert_msg(r.status == 0 && strstr(r.err, "first run") == NULL, "%s", r.err);
+  run_free(&r);
+  char *argv2[] = {(char *)eomc(), "sim", model_path("damped_pair.eom"), "--until", "0.01", "-o",
+                   "/dev/null", NULL};
+  r = run_argv(argv2);
+  ck_assert_msg(r.status == 0 && strstr(r.err, "first run") == NULL, "%s", r.err);
+  run_free(&r);
+}
+END_TEST
+
 static Suite *sim_suite(void) {
   Suite *s = suite_create("sim");
   TCase *tc = tcase_create("cli");
@@ -687,6 +857,20 @@ static Suite *sim_suite(void) {
   tcase_add_test(tc, sim_time_dependent_constraint);
   tcase_add_test(tc, sim_vector_outputs);
   suite_add_tcase(s, tc);
+  TCase *te = tcase_create("equilibria");
+  tcase_add_checked_fixture(te, setup, teardown);
+  tcase_set_timeout(te, 120);
+  tcase_add_test(te, modes_no_equilibrium_under_drive);
+  tcase_add_test(te, modes_wraps_periodic_angles);
+  tcase_add_test(te, modes_json_growth_rate);
+  tcase_add_test(te, modes_degenerate_no_false_alarm);
+  suite_add_tcase(s, te);
+  TCase *th = tcase_create("initial");
+  tcase_add_checked_fixture(th, setup, teardown);
+  tcase_set_timeout(th, 300);
+  tcase_add_test(th, sim_hold_crank);
+  tcase_add_test(th, sim_cold_build_says_so);
+  suite_add_tcase(s, th);
   return s;
 }
 
