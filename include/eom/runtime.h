@@ -102,6 +102,9 @@ struct eom_sim_options {
   int keep_step;       /* fixed-step methods: steps of exactly `step` from t0
                           (the last one shortened to end on t_end), samples
                           between steps by cubic Hermite interpolation */
+  const int *hold;     /* NULL, or nq flags: the initial fix keeps the
+                          coordinates flagged 1 (and their rates) at their
+                          given values and moves only the others */
 };
 
 void eom_sim_options_init(struct eom_sim_options *o);
