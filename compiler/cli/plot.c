@@ -82,10 +82,34 @@ static int write_script(FILE *f, const struct eom_model *m, const char *csv, con
 }
 #endif
 
+#ifdef GNUPLOT_PATH
+/* plot_svg's script writer behind plot_run's interface. */
+typedef struct SimPlot {
+  const struct eom_model *m;
+  const char *csv;
+} SimPlot;
+
+static int write_sim_script(FILE *f, void *ctx, const char *out) {
+  const SimPlot *sp = ctx;
+  return write_script(f, sp->m, sp->csv, out);
+}
+#endif
+
 int plot_svg(const struct eom_model *m, const char *csv_path, const char *svg_path, char *err,
              size_t errlen) {
 #ifndef GNUPLOT_PATH
   (void)m, (void)csv_path, (void)svg_path;
+  return plot_available(err, errlen);
+#else
+  SimPlot sp = {m, csv_path};
+  return plot_run(write_sim_script, &sp, svg_path, err, errlen);
+#endif
+}
+
+int plot_run(int (*put_script)(FILE *f, void *ctx, const char *out), void *ctx, const char *svg_path,
+             char *err, size_t errlen) {
+#ifndef GNUPLOT_PATH
+  (void)put_script, (void)ctx, (void)svg_path;
   return plot_available(err, errlen);
 #else
   if (plot_available(err, errlen) != 0) return -1;
@@ -100,7 +124,7 @@ int plot_svg(const struct eom_model *m, const char *csv_path, const char *svg_pa
   }
   snprintf(tmp_svg, tlen, "%s.tmp.%ld", svg_path, (long)getpid());
   f = fdopen(fd, "w");
-  if (!f || write_script(f, m, csv_path, tmp_svg) != 0 || fclose(f) != 0) {
+  if (!f || put_script(f, ctx, tmp_svg) != 0 || fclose(f) != 0) {
     if (!f) close(fd);
     f = NULL;
     snprintf(err, errlen, "cannot write the gnuplot script %s", script);

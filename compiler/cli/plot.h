@@ -5,6 +5,7 @@
 #define EOMC_PLOT_H
 
 #include <stddef.h>
+#include <stdio.h>
 #include "eom/model.h"
 
 /* Is gnuplot available?  0, or -1 with a message in err. */
@@ -16,5 +17,11 @@ int plot_available(char *err, size_t errlen);
 ** a temporary renamed into place.  0, or -1 with a message in err. */
 int plot_svg(const struct eom_model *m, const char *csv_path, const char *svg_path, char *err,
              size_t errlen);
+
+/* Run gnuplot on the script put_script() writes into f, whose output goes to
+** `out` (a temporary renamed to svg_path when gnuplot succeeds).  put_script
+** returns 0, or -1 when it failed.  0, or -1 with a message in err. */
+int plot_run(int (*put_script)(FILE *f, void *ctx, const char *out), void *ctx, const char *svg_path,
+             char *err, size_t errlen);
 
 #endif
