@@ -491,7 +491,7 @@ static int run_and_write(Sweep *s, const struct eom_model *m, const SweepComm *c
   fputs("eomc sweep: ", stderr);
   sweep_table_summary(&table, stderr);
   if (table.failed) rc = EXIT_RUN;
-  if (a->plot && sweep_plot_svg(&table, 0, a->until, a->plot, err, sizeof err) != 0) {
+  if (a->plot && sweep_bands_svg(&table, 0, a->until, a->plot, err, sizeof err) != 0) {
     fprintf(stderr, "eomc sweep: error: %s\n", err);
     rc = EXIT_RUN;
   }

@@ -22,6 +22,7 @@ static const char usage[] =
   "  show MODEL.eom [--latex]   print M, f and the equations of motion\n"
   "  sim MODEL.eom [--until T]  simulate; write CSV and optionally a plot\n"
   "  modes MODEL.eom [--at q=V] natural frequencies and mode shapes at an equilibrium\n"
+  "  linearize MODEL.eom        A, B, C, D of the linear model at an equilibrium\n"
   "  sweep MODEL.eom [--vary NAME=LO:HI:N] [--random NAME=normal(MU,SD)]\n"
   "                             many runs over grids and random samples, in parallel\n"
   "\n"
@@ -41,7 +42,8 @@ int main(int argc, char **argv) {
     int (*run)(int, char **);
   } verbs[] = {
     {"check", cmd_check}, {"gen", cmd_gen}, {"show", cmd_show},
-    {"sim", cmd_sim},     {"modes", cmd_modes}, {"sweep", cmd_sweep},
+    {"sim", cmd_sim},     {"modes", cmd_modes}, {"linearize", cmd_linearize},
+    {"sweep", cmd_sweep},
   };
   if (argc < 2) {
     fputs(usage, stderr);

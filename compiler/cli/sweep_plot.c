@@ -70,15 +70,10 @@ static void put_quoted(FILE *f, const char *s) {
   fputc('\'', f);
 }
 
-typedef struct BandPlot {
-  const SweepTable *t;
-  const char *data;
-} BandPlot;
-
 /* One panel per coordinate and output: two bands and the median. */
-static int write_band_script(FILE *f, void *ctx, const char *out) {
-  const BandPlot *bp = ctx;
-  const struct eom_model *m = bp->t->m;
+static int write_band_script(FILE *f, const void *ctx, const char *data, const char *out) {
+  const SweepTable *t = ctx;
+  const struct eom_model *m = t->m;
   int width = m->nq + m->ny;
   fprintf(f, "set terminal svg size 900,%d dynamic noenhanced font 'sans,11'\n", 240 * width);
   fputs("set output ", f);
@@ -90,11 +85,11 @@ static int write_band_script(FILE *f, void *ctx, const char *out) {
     const char *name = c < m->nq ? m->coord_names[c] : m->output_names[c - m->nq];
     int base = 2 + 5 * c; /* columns of p5 .. p95 */
     char title[300];
-    snprintf(title, sizeof title, "%s over %ld runs", name, bp->t->rows);
+    snprintf(title, sizeof title, "%s over %ld runs", name, t->rows);
     fputs("set title ", f);
     put_quoted(f, title);
     fputs("\nplot ", f);
-    put_quoted(f, bp->data);
+    put_quoted(f, data);
     fprintf(f, " using 1:%d:%d with filledcurves lc rgb '#4a78b0' title '5-95 %%', "
                "'' using 1:%d:%d with filledcurves lc rgb '#1f4e8c' title '25-75 %%', "
                "'' using 1:%d with lines lw 2 lc rgb '#0b2545' title 'median'\n",
@@ -104,7 +99,7 @@ static int write_band_script(FILE *f, void *ctx, const char *out) {
   return ferror(f) ? -1 : 0;
 }
 
-int sweep_plot_svg(const SweepTable *t, double t0, double t_end, const char *svg_path, char *err,
+int sweep_bands_svg(const SweepTable *t, double t0, double t_end, const char *svg_path, char *err,
                    size_t errlen) {
   if (t->trace_points < 2 || !t->traces || t->rows == 0) {
     snprintf(err, errlen, "--plot: no run to plot");
@@ -128,8 +123,7 @@ int sweep_plot_svg(const SweepTable *t, double t0, double t_end, const char *svg
   } else if ((write_bands(f, t, t0, t_end) != 0) | (fclose(f) != 0)) {
     snprintf(err, errlen, "cannot write the plot data %s", data);
   } else {
-    BandPlot bp = {t, data};
-    rc = plot_run(write_band_script, &bp, svg_path, err, errlen);
+    rc = plot_render(write_band_script, t, data, svg_path, err, errlen);
   }
   unlink(data);
   return rc;

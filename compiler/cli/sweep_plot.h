@@ -16,7 +16,7 @@ double sweep_percentile(double *v, size_t *n, double pct);
 
 /* Plot the traces kept in t (trace times t0..t_end) into svg_path.  0, or
 ** -1 with a message in err. */
-int sweep_plot_svg(const SweepTable *t, double t0, double t_end, const char *svg_path, char *err,
+int sweep_bands_svg(const SweepTable *t, double t0, double t_end, const char *svg_path, char *err,
                    size_t errlen);
 
 #endif

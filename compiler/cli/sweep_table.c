@@ -1,8 +1,8 @@
 /*
 ** sweep_table.c — rows, summary, traces and MPI records of `eomc sweep`
-** (see sweep_table.h).  Numbers are written in the shortest of %.15g and
-** %.17g that reads back exactly, so a row depends only on the run's values
-** and never on how the sweep was split.
+** (see sweep_table.h).  Numbers are written as the shortest text that
+** reads back exactly (eom_format_double), so a row depends only on the
+** run's values and never on how the sweep was split.
 */
 #include "cli/sweep_table.h"
 
@@ -14,13 +14,8 @@
 #define MESSAGE_BYTES 512
 
 static void put_number(FILE *f, double v) {
-  char buf[40];
-  if (isnan(v)) {
-    fputs(",nan", f);
-    return;
-  }
-  snprintf(buf, sizeof buf, "%.15g", v);
-  if (strtod(buf, NULL) != v) snprintf(buf, sizeof buf, "%.17g", v);
+  char buf[EOM_NUMBER_MAX];
+  eom_format_double(buf, v);
   fputc(',', f);
   fputs(buf, f);
 }
