@@ -22,6 +22,7 @@
 #include "handmodels.h"
 #include "testutil.h"
 
+static const double PI = 3.141592653589793238462643383279502884;
 static char *cache_dir, *work_dir;
 
 static void setup(void) {
@@ -185,6 +186,31 @@ START_TEST(grid_order) {
     ck_assert_int_eq((int)at(&t, row, "run"), row);
     ck_assert_double_eq(at(&t, row, "m"), 10 + 20.0 * (g / 4));
     ck_assert_double_eq(at(&t, row, "k"), 1000 + 1000.0 * (g % 4));
+  }
+  free_table(&t);
+  run_free(&r);
+}
+END_TEST
+
+/* A pendulum over a grid of lengths at a small amplitude: theta(t) =
+** theta0 cos(2 pi t / P) with P = 2 pi sqrt(L/g) (common practice); the
+** amplitude lengthens the period by theta0^2/16 relative (from memory),
+** which bounds the phase error allowed. */
+START_TEST(pendulum_period_over_lengths) {
+  const double theta0 = 0.01, g = 9.81, T = 3;
+  const char *out = work("sign.csv");
+  RunResult r = sweep(model("shop_sign.eom"), "--vary", "L=0.25:4:6", "--until", "3", "--rtol",
+                      "1e-11", "--atol", "1e-13", "-o", out, NULL);
+  ck_assert_msg(r.status == 0, "%s", r.err);
+  Table t = read_table(out);
+  ck_assert_int_eq(t.nrows, 6);
+  for (int row = 0; row < t.nrows; row++) {
+    double L = at(&t, row, "L"), P = 2 * PI * sqrt(L / g);
+    double expect = theta0 * cos(2 * PI * T / P);
+    double phase_error = 2 * PI * T / P * theta0 * theta0 / 16;
+    ck_assert_msg(fabs(at(&t, row, "final(theta)") - expect) < 2 * theta0 * phase_error + 1e-9,
+                  "L = %g: theta %.10g vs %.10g", L, at(&t, row, "final(theta)"), expect);
+    ck_assert_double_eq_tol(at(&t, row, "max(theta)"), theta0, 1e-12);
   }
   free_table(&t);
   run_free(&r);
@@ -442,6 +468,7 @@ static Suite *sweep_suite(void) {
   tcase_set_timeout(tc, 120);
   tcase_add_test(tc, grid_matches_closed_form);
   tcase_add_test(tc, grid_order);
+  tcase_add_test(tc, pendulum_period_over_lengths);
   tcase_add_test(tc, random_draws_follow_their_distributions);
   tcase_add_test(tc, same_rows_whatever_the_threads);
   tcase_add_test(tc, failing_run_in_its_row);
