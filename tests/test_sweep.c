@@ -495,7 +495,7 @@ START_TEST(mpi_same_rows_whatever_the_ranks) {
   enum { NARGS = sizeof args / sizeof args[0] };
   char *one = NULL;
   for (int ranks = 0; ranks <= 3; ranks++) {
-    char *argv[40], nbuf[8], outbuf[4096];
+    char *argv[40], nbuf[16], outbuf[4096];
     int n = 0;
     snprintf(nbuf, sizeof nbuf, "%d", ranks);
     snprintf(outbuf, sizeof outbuf, "%s/mpi%d.csv", work_dir, ranks);
