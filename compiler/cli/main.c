@@ -23,6 +23,7 @@ static const char usage[] =
   "  sim MODEL.eom [--until T]  simulate; write CSV and optionally a plot\n"
   "  modes MODEL.eom [--at q=V] natural frequencies and mode shapes at an equilibrium\n"
   "  linearize MODEL.eom        A, B, C, D of the linear model at an equilibrium\n"
+  "  import ROBOT.urdf [-o M]   write a robot description (URDF) as a model\n"
   "  sweep MODEL.eom            many runs over value grids and random samples, in parallel\n"
   "\n"
   "options:\n"
@@ -42,6 +43,7 @@ int main(int argc, char **argv) {
   } verbs[] = {
     {"check", cmd_check}, {"gen", cmd_gen}, {"show", cmd_show},
     {"sim", cmd_sim},     {"modes", cmd_modes}, {"linearize", cmd_linearize},
+    {"import", cmd_import},
     {"sweep", cmd_sweep},
   };
   if (argc < 2) {
