@@ -482,6 +482,41 @@ static int mass_row_text(Show *S, int i, const char *times, Text *lhs) {
   return terms;
 }
 
+/* Row k of the velocity constraints A q' into lhs; the number of terms. */
+static int vc_row_text(Show *S, int k, const char *times, Text *lhs) {
+  const EomSystem *s = S->s;
+  int nq = s->nq, terms = 0;
+  for (int j = 0; j < nq; j++) {
+    int r = s->vconstraint_A[k * nq + j];
+    if (is_zero(S, r)) continue;
+    int neg = negative(S, r);
+    if (terms++) put(lhs, neg ? " - " : " + ");
+    else if (neg) put(lhs, "-");
+    const IrNode *x = nd(S, r);
+    if (!(x->op == IR_NUM && fabs(x->num) == 1.0)) {
+      put_at(S, lhs, r, PR_MUL, 1);
+      put(lhs, times);
+    }
+    put_coord(S, lhs, j, 1);
+  }
+  return terms;
+}
+
+/* The velocity constraints A q' = b, whose forces A^T lambda join f. */
+static void print_velocity_constraints(Show *S, FILE *out) {
+  const EomSystem *s = S->s;
+  if (!s->nvc) return;
+  fputs("\nvelocity constraints (A q' = b; their forces +A^T lambda add to f):\n", out);
+  for (int k = 0; k < s->nvc; k++) {
+    Text lhs = {0};
+    int terms = vc_row_text(S, k, "*", &lhs);
+    char *e = render(S, s->vconstraint_b[k]);
+    fprintf(out, "  %s = %s\n", terms ? lhs.s : "0", e);
+    free(e);
+    free(lhs.s);
+  }
+}
+
 static void print_plain(Show *S, FILE *out) {
   const EomSystem *s = S->s;
   int nq = s->nq;
@@ -518,6 +553,7 @@ static void print_plain(Show *S, FILE *out) {
     free(e);
     free(lhs.s);
   }
+  print_velocity_constraints(S, out);
 }
 
 static void print_latex(Show *S, FILE *out) {
@@ -579,6 +615,10 @@ int show_equations(const Model *m, const EomSystem *s, int latex, FILE *out) {
   assert(nq >= 1 && s->mass && s->forcing);
   for (int i = 0; i < nq; i++) count_uses(&S, s->mass + i * nq, i + 1);
   count_uses(&S, s->forcing, nq);
+  if (s->nvc && !latex) {
+    count_uses(&S, s->vconstraint_A, s->nvc * nq);
+    count_uses(&S, s->vconstraint_b, s->nvc);
+  }
   choose_names(&S);
   if (latex) print_latex(&S, out);
   else print_plain(&S, out);
