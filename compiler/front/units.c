@@ -1,7 +1,7 @@
 /*
 ** units.c — unit annotations and the model-wide dimensional check.
 **
-** Rules (SPEC §1 "Units"):
+** Rules (docs/language.md, "Units"):
 **  - kinetic, potential and lagrangian terms are energies (J); dissipation
 **    terms are powers (W); `force q = e` is energy per unit of q (N for a
 **    length, N*m for an angle);
@@ -394,6 +394,8 @@ static void need_dimensionless(UnitCheck *uc, const Expr *call, const Expr *arg)
 
 static Unit call_unit(UnitCheck *uc, const Expr *e) {
   const char *f = e->name;
+  if (strcmp(f, "omega") == 0 && e->args[0]->ref && e->args[0]->ref->kind == DECL_ATTITUDE)
+    return unit_div(unit_base(U_RAD), unit_base(U_S));   /* an angular velocity, as an angle's rate */
   static const char *const scalar_fns[] = {"sin", "cos", "tan", "asin", "acos", "atan", "exp",
                                            "log", "sinh", "cosh", "tanh", "rotx", "roty", "rotz"};
   for (size_t i = 0; i < sizeof scalar_fns / sizeof scalar_fns[0]; i++)
@@ -678,8 +680,16 @@ static void check_statement(UnitCheck *uc, Model *m, Stmt *s) {
   }
   case ST_INITIAL: {
     Decl *q = s->target;
-    assert(q && q->kind == DECL_COORD && q->dim);
+    assert(q && (q->kind == DECL_COORD || q->kind == DECL_ATTITUDE) && q->dim);
     if (!mentions_names(s->e[0])) break;
+    if (q->kind == DECL_ATTITUDE) {
+      if (s->omega)
+        expect_unit(uc, s->e[0], unit_div(unit_base(U_RAD), unit_base(U_S)), s->loc,
+                    "initial angular velocity", "rad/s");
+      else
+        expect_unit(uc, s->e[0], unit_dimensionless(), s->loc, "initial rotation", "a dimensionless rotation");
+      break;
+    }
     Unit want_u = s->rate ? unit_div(*q->dim, unit_base(U_S)) : *q->dim;
     snprintf(what, sizeof what, "initial value of %s%s", s->name, s->rate ? "'" : "");
     snprintf(want, sizeof want, "%s", unit_format(want_u, 1, s1, sizeof s1));
