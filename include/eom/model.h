@@ -15,7 +15,7 @@ extern "C" {
 #endif
 
 /* Bumped whenever the layout of struct eom_model changes. */
-#define EOM_MODEL_ABI 5
+#define EOM_MODEL_ABI 6
 
 struct eom_model {
   int abi;                          /* EOM_MODEL_ABI of the generating eomc */
@@ -101,6 +101,11 @@ struct eom_model {
   int nvc;
   void (*velocity_constraint)(double t, const double *q, const double *qd, const double *p,
                               double *A, double *b, double *gamma);
+  /* Since ABI 6: gamma of the acceleration constraint G qdd = gamma (nc),
+  ** so the runtime can solve M qdd = f + Gᵀλ itself where G loses rank.
+  ** NULL when nc == 0 (and in hand-written descriptors without it). */
+  void (*constraint_gamma)(double t, const double *q, const double *qd, const double *p,
+                           double *gamma);
 };
 
 #ifdef __cplusplus
