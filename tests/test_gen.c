@@ -393,6 +393,50 @@ START_TEST(test_driven_oscillator) {
 }
 END_TEST
 
+/* Branch functions (docs/language.md): the shuttle between two buffers obeys
+**   m x'' = -k max(0, x - L) - k min(0, x + L) - c max(0, x' - v0)
+**           - F sign(x') + clamp(u, -Fm, Fm),
+** written out here by the definitions of min, max, sign and clamp (common
+** practice: a unilateral spring, Coulomb's dry friction, a saturation).
+** The Jacobian is the active branch's: d x''/d x = -k/m inside a buffer and
+** 0 in the free travel, d x''/d x' = -c/m above v0, d x''/d u = 1/m inside
+** the drive limit; away from the kinks it matches central differences. */
+START_TEST(test_buffered_shuttle) {
+  Built b = build_model("tests/models/buffered_shuttle.eom", "buffered_shuttle", NULL, cc());
+  const double m = 3.5, k = 2500, L = 0.6, F = 4, c = 30, v0 = 1.2, Fm = 20;
+  /* x, x', u: free travel, each buffer, overspeed, saturated drive both ways, at rest */
+  const double st[][3] = {{0.1, 0.5, 3},    {0.7, 2.0, 25},  {-0.75, -0.3, -40},
+                          {-0.2, 1.5, -19}, {0.65, -2, 0.5}, {0.3, 0, 1}};
+  const int nst = (int)(sizeof st / sizeof st[0]);
+  char input[2048] = "";
+  for (int i = 0; i < nst; i++) {
+    char line[200];
+    snprintf(line, sizeof line, "s 0 %.17g %.17g %.17g\n", st[i][0], st[i][1], st[i][2]);
+    strcat(input, line);
+  }
+  char *out = drive(&b, input);
+  for (int i = 0; i < nst; i++) {
+    double x = st[i][0], v = st[i][1], u = st[i][2];
+    double spring = x > L ? -k * (x - L) : x < -L ? -k * (x + L) : 0;
+    double damper = v > v0 ? -c * (v - v0) : 0;
+    double friction = v > 0 ? -F : v < 0 ? F : 0;
+    double drive_force = u > Fm ? Fm : u < -Fm ? -Fm : u;
+    CHECK_REL(get1(out, i, "f", 0), spring + damper + friction + drive_force, 1e-13);
+    CHECK_REL(get1(out, i, "qdd", 0), (spring + damper + friction + drive_force) / m, 1e-13);
+    CHECK_REL(get1(out, i, "A", 2), fabs(x) > L ? -k / m : 0.0, 1e-13);  /* d x''/d x */
+    CHECK_REL(get1(out, i, "A", 3), v > v0 ? -c / m : 0.0, 1e-13);       /* d x''/d x' */
+    CHECK_REL(get1(out, i, "B", 1), fabs(u) < Fm ? 1 / m : 0.0, 1e-13);  /* d x''/d u */
+    CHECK_REL(get1(out, i, "y", 0), x > L ? L : x < -L ? -L : x, 0);
+    CHECK_REL(get1(out, i, "y", 1), fabs(x) > L ? 1.0 : 0.0, 0);
+    /* P_inverse: the input's generalized force that gives this x'' */
+    CHECK_REL(get1(out, i, "Q", 0), drive_force, 1e-12);
+    if (v != 0) check_jacobian(out, i, 2, 1);
+  }
+  free(out);
+  built_free(&b);
+}
+END_TEST
+
 /* A 3-DOF nonlinear model with two inputs: the exact Jacobian against central
 ** differences of P_rhs (1e-7 relative), P_inverse(P_accel) against the
 ** applied generalized forces (1e-12), and CSE against --no-cse. */
@@ -878,6 +922,7 @@ static Suite *gen_suite(void) {
   tcase_add_test(phys, test_rotating_hoop);
   tcase_add_test(phys, test_compound_atwood);
   tcase_add_test(phys, test_driven_oscillator);
+  tcase_add_test(phys, test_buffered_shuttle);
   tcase_add_test(phys, test_cart_double_pendulum);
   tcase_add_test(phys, test_not_positive_definite);
   tcase_add_test(phys, test_constrained_pendulum);

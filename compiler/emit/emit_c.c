@@ -237,6 +237,16 @@ static void fn_reset(Emitter *E) {
   E->nroots = 0;
 }
 
+/* Does a call's C form name one of its arguments twice (sign)? */
+static int form_repeats_arg(IrFn fn) {
+  const char *form = scalar_builtins[fn].c_form;
+  for (const char *c = form; *c; c++)
+    if (*c == '%')
+      for (const char *d = c + 2; *d; d++)
+        if (*d == '%' && d[1] == c[1]) return 1;
+  return 0;
+}
+
 /* Decide the temporaries of the function whose roots were just added. */
 static void fn_analyse(Emitter *E) {
   const IrGraph *g = E->g;
@@ -269,11 +279,13 @@ static void fn_analyse(Emitter *E) {
       continue;
     }
     if (!E->no_cse && E->uses[n] > 1) E->tempno[n] = 0;
-    /* A power written as a product, and sign(), repeat their argument:
+    /* A power written as a product, and sign(), repeat an argument:
     ** computed once, unless --no-cse asks for every use in full. */
-    int repeats = (x->op == IR_POW && small_int(E, x->args[1], &k) && (k >= 2 || k <= -2)) ||
-                  (x->op == IR_CALL && x->fn == IRF_SIGN);
+    int repeats = (x->op == IR_POW && small_int(E, x->args[1], &k) && (k >= 2 || k <= -2));
     if (repeats && !E->no_cse && !is_leaf(E, x->args[0])) E->tempno[x->args[0]] = 0;
+    if (x->op == IR_CALL && form_repeats_arg(x->fn) && !E->no_cse)
+      for (int a = 0; a < x->nargs; a++)
+        if (!is_leaf(E, x->args[a])) E->tempno[x->args[a]] = 0;
     long size = 1;
     for (int a = 0; a < x->nargs; a++) {
       int arg = x->args[a];
@@ -473,27 +485,26 @@ static int put_sum(Emitter *E, Buf *b, int n) {
   return PREC_ADD;
 }
 
+/* Write a call by its C form from the table of built-ins (builtins.h):
+** %k is argument k, bare where it fills a whole call slot, else an atom.
+** A form opening with a cast binds as a unary operator. */
 static int put_call(Emitter *E, Buf *b, const IrNode *x) {
-  if (x->fn == IRF_SIGN) {
-    assert(x->nargs == 1);
-    /* (x > 0) - (x < 0) as a double; the argument is a leaf or a temporary. */
-    buf_put(b, "(double)((");
-    put_at(E, b, x->args[0], PREC_ATOM, 0);
-    buf_put(b, " > 0.0) - (");
-    put_at(E, b, x->args[0], PREC_ATOM, 0);
-    buf_put(b, " < 0.0))");
-    return PREC_UNARY;
+  const char *form = scalar_builtins[x->fn].c_form;
+  assert(x->nargs == scalar_builtins[x->fn].arity);
+  for (const char *c = form; *c; c++) {
+    if (*c != '%') {
+      char one[2] = {*c, 0};
+      buf_put(b, one);
+      continue;
+    }
+    int k = c[1] - '0';
+    assert(k >= 0 && k < x->nargs);
+    int whole = c > form && (c[-1] == '(' || (c[-1] == ' ' && c - 1 > form && c[-2] == ',')) &&
+                (c[2] == ')' || c[2] == ',');
+    put_at(E, b, x->args[k], whole ? PREC_LOW : PREC_ATOM, 0);
+    c++;
   }
-  const char *name = ir_fn_name(x->fn);   /* IRF_SIGN was written above */
-  assert(x->nargs == (x->fn == IRF_ATAN2 ? 2 : 1));
-  buf_put(b, name);
-  buf_put(b, "(");
-  for (int a = 0; a < x->nargs; a++) {
-    if (a) buf_put(b, ", ");
-    put_at(E, b, x->args[a], PREC_LOW, 0);
-  }
-  buf_put(b, ")");
-  return PREC_ATOM;
+  return strncmp(form, "(double)", 8) == 0 ? PREC_UNARY : PREC_ATOM;
 }
 
 /* Print |n| (n itself when it is not negative); return its precedence. */

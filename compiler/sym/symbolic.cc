@@ -149,9 +149,10 @@ class DepCache {
 };
 
 /* d/d(var) with a memo: each distinct GiNaC node containing var is
-** differentiated once.  Elementary functions use the textbook derivatives
-** (abs' = csgn, csgn' = 0 away from 0), which keeps GiNaC's conjugate()
-** forms out of the results. */
+** differentiated once.  Built-in functions use the textbook derivatives
+** (abs' = csgn, csgn' = 0 away from 0, branch derivatives of min, max, step,
+** clamp: symbolic_builtins.cc), which keeps GiNaC's conjugate() forms out of
+** the results. */
 class Deriver {
  public:
   Deriver(const ex &var, int id, DepCache *deps) : var_(var), id_(id), deps_(deps) {
@@ -221,29 +222,17 @@ class Deriver {
   }
 
   ex function_derivative(const ex &e) {
-    if (is_ex_the_function(e, atan2)) {
-      const ex &y = e.op(0), &x = e.op(1);
-      ex dy = (*this)(y), dx = (*this)(x);
-      return (x * dy - y * dx) / (pow(x, 2) + pow(y, 2));
+    int f = ginac_builtin(ex_to<function>(e).get_name());
+    if (f < 0 || (int)e.nops() != scalar_builtins[f].arity) return e.diff(ex_to<symbol>(var_));
+    exvector a, d;
+    bool moves = false;
+    for (size_t i = 0; i < e.nops(); i++) {
+      a.push_back(e.op(i));
+      d.push_back((*this)(e.op(i)));
+      moves = moves || !d.back().is_zero();
     }
-    if (e.nops() != 1) return e.diff(ex_to<symbol>(var_));
-    const ex &a = e.op(0);
-    ex da = (*this)(a);
-    if (da.is_zero()) return 0;
-    if (is_ex_the_function(e, sin)) return cos(a) * da;
-    if (is_ex_the_function(e, cos)) return -sin(a) * da;
-    if (is_ex_the_function(e, tan)) return (1 + pow(e, 2)) * da;
-    if (is_ex_the_function(e, asin)) return da / sqrt(1 - pow(a, 2));
-    if (is_ex_the_function(e, acos)) return -da / sqrt(1 - pow(a, 2));
-    if (is_ex_the_function(e, atan)) return da / (1 + pow(a, 2));
-    if (is_ex_the_function(e, exp)) return e * da;
-    if (is_ex_the_function(e, log)) return da / a;
-    if (is_ex_the_function(e, abs)) return csgn(a) * da;
-    if (is_ex_the_function(e, csgn)) return 0;
-    if (is_ex_the_function(e, sinh)) return cosh(a) * da;
-    if (is_ex_the_function(e, cosh)) return sinh(a) * da;
-    if (is_ex_the_function(e, tanh)) return (1 - pow(e, 2)) * da;
-    return e.diff(ex_to<symbol>(var_));
+    if (!moves) return 0;
+    return builtin_derivative((BuiltinFn)f, e, a, d);
   }
 };
 
@@ -852,26 +841,12 @@ Val Derivation::eval_call(const Expr *x) {
                                             : fmt("%s() needs a vector", name)};
     return args[i];
   };
-  static const struct {
-    const char *name;
-    ex (*f)(const ex &);
-  } scalar_fns[] = {
-    {"sin", [](const ex &a) -> ex { return sin(a); }},   {"cos", [](const ex &a) -> ex { return cos(a); }},
-    {"tan", [](const ex &a) -> ex { return tan(a); }},   {"asin", [](const ex &a) -> ex { return asin(a); }},
-    {"acos", [](const ex &a) -> ex { return acos(a); }}, {"atan", [](const ex &a) -> ex { return atan(a); }},
-    {"exp", [](const ex &a) -> ex { return exp(a); }},   {"log", [](const ex &a) -> ex { return log(a); }},
-    {"sqrt", [](const ex &a) -> ex { return sqrt(a); }}, {"abs", [](const ex &a) -> ex { return abs(a); }},
-    {"sinh", [](const ex &a) -> ex { return sinh(a); }}, {"cosh", [](const ex &a) -> ex { return cosh(a); }},
-    {"tanh", [](const ex &a) -> ex { return tanh(a); }},
-  };
-  for (const auto &f : scalar_fns)
-    if (strcmp(name, f.name) == 0) {
-      need(1);
-      return Val(f.f(sarg(0)));
-    }
-  if (strcmp(name, "atan2") == 0) {
-    need(2);
-    return Val(atan2(sarg(0), sarg(1)));
+  int fn = builtin_scalar(name);
+  if (fn >= 0) {
+    need(scalar_builtins[fn].arity);
+    exvector a;
+    for (int i = 0; i < scalar_builtins[fn].arity; i++) a.push_back(sarg(i));
+    return Val(make_builtin((BuiltinFn)fn, a));
   }
   if (strcmp(name, "dot") == 0) {
     need(2);

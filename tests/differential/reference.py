@@ -73,8 +73,9 @@ MATRIX_FUNCTIONS = {
 
 
 def without_delta(x):
-    """abs' = sign and sign' = 2 DiracDelta: zero where the generator
-    evaluates (every abs argument stays >= 0.2)."""
+    """abs' = sign and sign' = 2 DiracDelta, step' = DiracDelta, and the
+    branches of min/max: zero where the generator evaluates (every abs
+    argument stays >= 0.2; the sampled points are off the switches)."""
     return x.replace(sympy.DiracDelta, lambda *a: sympy.Integer(0))
 
 
@@ -298,7 +299,10 @@ class Reference:
             fn = {"sin": sympy.sin, "cos": sympy.cos, "tan": sympy.tan, "asin": sympy.asin,
                   "acos": sympy.acos, "atan": sympy.atan, "atan2": sympy.atan2,
                   "exp": sympy.exp, "log": sympy.log, "sqrt": sympy.sqrt, "abs": sympy.Abs,
-                  "sinh": sympy.sinh, "cosh": sympy.cosh, "tanh": sympy.tanh}[e[1]]
+                  "sinh": sympy.sinh, "cosh": sympy.cosh, "tanh": sympy.tanh,
+                  "min": sympy.Min, "max": sympy.Max, "sign": sympy.sign,
+                  "step": lambda x: sympy.Heaviside(x, 0),
+                  "clamp": lambda x, lo, hi: sympy.Min(sympy.Max(x, lo), hi)}[e[1]]
             return fn(*args)
         a, b = self.to_sympy(e[1]), self.to_sympy(e[2])
         if k == "add":
