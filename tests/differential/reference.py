@@ -85,7 +85,7 @@ class Bundle:
 
     def __init__(self, args, named):
         self.names = [(name, len(exprs)) for name, exprs in named]
-        flat = [x for _, exprs in named for x in exprs]
+        flat = [without_delta(sympy.sympify(x)) for _, exprs in named for x in exprs]
         self.fn = sympy.lambdify(args, flat, modules="mpmath", cse=True)
 
     def __call__(self, args):
@@ -255,10 +255,11 @@ class Reference:
         # q = t/(2 + cos q) depends on t (NaN documented).
         self.timed_G = any(self.t in x.free_symbols for row in G for x in row)
         self.fn_phi = sympy.lambdify(args, phi, modules="mpmath", cse=True)
+        G = [[without_delta(x) for x in row] for row in G]
         self.fn_G = sympy.lambdify(args, G, modules="mpmath", cse=True)
         self.fn_gamma = sympy.lambdify(args, gamma, modules="mpmath", cse=True)
         # P_constraint_at takes t: phi, G and dphi/dt, time-dependent or not
-        self.fn_phi_t = sympy.lambdify(args, [sympy.diff(c, self.t) for c in phi],
+        self.fn_phi_t = sympy.lambdify(args, [without_delta(sympy.diff(c, self.t)) for c in phi],
                                        modules="mpmath", cse=True)
 
     def rate(self, x):
