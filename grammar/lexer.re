@@ -359,6 +359,7 @@ static int scan(Lexer *lx, Token *t) {
       "let"         { return keyword(lx, t, KW_LET); }
       "initial"     { return keyword(lx, t, KW_INITIAL); }
       "output"      { return keyword(lx, t, KW_OUTPUT); }
+      "frame"       { return keyword(lx, t, KW_FRAME); }
       "identify"    { return keyword(lx, t, KW_IDENTIFY); }
       "kinetic"     { return keyword(lx, t, KW_KINETIC); }
       "potential"   { return keyword(lx, t, KW_POTENTIAL); }

@@ -160,7 +160,7 @@ static Stmt *expr_stmt(ParseCtx *ctx, StmtKind sk, YYLTYPE kw, Expr *e0, Expr *e
 %token T_IDX_LBRACK   /* `[` directly after a name, `)`, `]` or `'` */
 %token KW_MODEL KW_COORD KW_PARAM KW_CONST KW_INPUT KW_LET KW_INITIAL KW_OUTPUT
 %token KW_IDENTIFY KW_KINETIC KW_POTENTIAL KW_LAGRANGIAN KW_DISSIPATION
-%token KW_FORCE KW_TORQUE KW_GRAVITY KW_BODY KW_CONSTRAINT
+%token KW_FORCE KW_TORQUE KW_GRAVITY KW_BODY KW_CONSTRAINT KW_FRAME
 /* Contextual words: ordinary names except where `body`, `force` and
 ** `torque` expect them. */
 %token <str> CW_MASS CW_AT CW_ON CW_ORIENT CW_INERTIA
@@ -219,6 +219,10 @@ stmt:
     }
   | KW_OUTPUT name '=' expr unit_opt desc_opt {
       $$ = decl_stmt(ctx, ST_OUTPUT, DECL_OUTPUT, @1, $2, @2, $4, $5, $6);
+    }
+  | KW_FRAME name '=' expr desc_opt {
+      $$ = decl_stmt(ctx, ST_FRAME, DECL_OUTPUT, @1, $2, @2, $4, NULL, $5);
+      $$->decls[0]->frame = 1;
     }
   | KW_INITIAL name '=' expr {
       $$ = expr_stmt(ctx, ST_INITIAL, @1, $4, NULL);
@@ -418,6 +422,7 @@ static void describe(yysymbol_kind_t k, const Token *tok, char *buf, size_t n) {
     {YYSYMBOL_KW_DISSIPATION, "dissipation"}, {YYSYMBOL_KW_FORCE, "force"},
     {YYSYMBOL_KW_TORQUE, "torque"}, {YYSYMBOL_KW_GRAVITY, "gravity"},
     {YYSYMBOL_KW_BODY, "body"}, {YYSYMBOL_KW_CONSTRAINT, "constraint"},
+    {YYSYMBOL_KW_FRAME, "frame"},
     {YYSYMBOL_CW_MASS, "mass"}, {YYSYMBOL_CW_AT, "at"}, {YYSYMBOL_CW_ON, "on"},
     {YYSYMBOL_CW_ORIENT, "orient"}, {YYSYMBOL_CW_INERTIA, "inertia"},
   };

@@ -1,6 +1,8 @@
 /*
 ** dense.c — LU factorization with partial pivoting for the small dense
-** Newton matrices of the implicit integrators and the equilibrium search.
+** Newton matrices of the implicit integrators and the equilibrium searches,
+** and the regularized least-squares step those searches take when the
+** Newton matrix is singular.
 ** (Golub & Van Loan, Matrix Computations, 4th ed., 2013, §3.4; section
 ** from memory.)
 */
@@ -54,4 +56,31 @@ void dense_lu_solve(int n, const double *lu, const int *piv, double *b) {
     for (int j = i + 1; j < n; j++) s -= lu[i * n + j] * b[j];
     b[i] = s / lu[i * n + i];
   }
+}
+
+/* dq = -(JᵀJ + mu I)⁻¹ Jᵀ f for a singular J (row-major nq x nq); work is
+** nq x nq.  mu is 1e-9 of the largest diagonal: small enough that the step
+** is the least-squares one in the directions J sees, large enough that
+** rounding moves the free ones by ~1e-7 of the step only.  Returns -1
+** when J is zero. */
+int least_squares_step(int nq, const double *J, const double *f, double *work,
+                                    double *dq, int *piv) {
+  double diag = 0;
+  for (int i = 0; i < nq; i++)
+    for (int j = 0; j < nq; j++) {
+      double s = 0;
+      for (int k = 0; k < nq; k++) s += J[k * nq + i] * J[k * nq + j];
+      work[i * nq + j] = s;
+      if (i == j) diag = fmax(diag, s);
+    }
+  if (!(diag > 0) || !isfinite(diag)) return -1;
+  for (int i = 0; i < nq; i++) work[i * nq + i] += 1e-9 * diag;
+  if (dense_lu(nq, work, piv) != 0) return -1;
+  for (int i = 0; i < nq; i++) {
+    double s = 0;
+    for (int k = 0; k < nq; k++) s += J[k * nq + i] * f[k];
+    dq[i] = -s;
+  }
+  dense_lu_solve(nq, work, piv, dq);
+  return 0;
 }

@@ -162,6 +162,9 @@ int dopri_run(SimContext *c, const struct eom_sim_options *o, Sampler *smp, doub
   if (!(h > 0)) {
     st = initial_step(c, t, x, s.k1, rtol, atol, span, &h, s.ytmp, s.k2);
     if (st) goto done;
+    /* The probe's absolute floor (1e-6 when nothing moves) can be below
+    ** the smallest step a run over a long span may take. */
+    h = fmax(h, adaptive_h_min(o, t, t_end));
   }
   double facold = 1e-4;
   int last_rejected = 0;

@@ -1,12 +1,11 @@
 /*
 ** dynamics.c — evaluate a model for the integrators: x' = [qd; M⁻¹ f], its
-** jacobian (the model's own or central differences), and failure messages
-** that name the time and the state.
+** jacobian (the model's own or central differences), and the norms the
+** adaptive methods share.  Failure messages are report.c's.
 */
 #include <assert.h>
 #include <float.h>
 #include <math.h>
-#include <stdarg.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -137,37 +136,6 @@ int sim_distrust_jacobian(SimContext *c, double t, const double *x) {
   }
   free(a);
   return switched;
-}
-
-/* Append printf-style text to buf (of size cap, holding len bytes). */
-static size_t append(char *buf, size_t cap, size_t len, const char *fmt, ...) {
-  if (len + 1 >= cap) return len;
-  va_list ap;
-  va_start(ap, fmt);
-  int k = vsnprintf(buf + len, cap - len, fmt, ap);
-  va_end(ap);
-  if (k < 0) return len;
-  len += (size_t)k;
-  return len < cap ? len : cap - 1;
-}
-
-int sim_fail(SimContext *c, int status, double t, const double *x, const char *what) {
-  struct eom_report *r = c->rep;
-  assert(status != EOM_OK);
-  if (r->status != EOM_OK) return r->status; /* keep the first cause */
-  r->status = (eom_status)status;
-  r->t = t;
-  size_t cap = sizeof r->message, len = 0;
-  len = append(r->message, cap, len, "at t = %.10g: %s", t, what);
-  if (x) {
-    const struct eom_model *m = c->m;
-    len = append(r->message, cap, len, "; state");
-    for (int i = 0; i < m->nq; i++)
-      len = append(r->message, cap, len, "%s %s = %.10g", i ? "," : "", m->coord_names[i], x[i]);
-    for (int i = 0; i < m->nq; i++)
-      len = append(r->message, cap, len, ", %s' = %.10g", m->coord_names[i], x[m->nq + i]);
-  }
-  return status;
 }
 
 int all_finite(int n, const double *v) {

@@ -65,43 +65,6 @@ static int forcing_dq_model(const struct eom_model *m, const double *p, const do
   return all_finite(nq * nq, J) ? 0 : -1;
 }
 
-/* dq = -(JᵀJ + mu I)⁻¹ Jᵀ f for a singular J (row-major nq x nq); work is
-** nq x nq.  mu is 1e-9 of the largest diagonal: small enough that the step
-** is the least-squares one in the directions J sees, large enough that
-** rounding moves the free ones by ~1e-7 of the step only.  Returns -1
-** when J is zero. */
-int least_squares_step(int nq, const double *J, const double *f, double *work,
-                                    double *dq, int *piv) {
-  double diag = 0;
-  for (int i = 0; i < nq; i++)
-    for (int j = 0; j < nq; j++) {
-      double s = 0;
-      for (int k = 0; k < nq; k++) s += J[k * nq + i] * J[k * nq + j];
-      work[i * nq + j] = s;
-      if (i == j) diag = fmax(diag, s);
-    }
-  if (!(diag > 0) || !isfinite(diag)) return -1;
-  for (int i = 0; i < nq; i++) work[i * nq + i] += 1e-9 * diag;
-  if (dense_lu(nq, work, piv) != 0) return -1;
-  for (int i = 0; i < nq; i++) {
-    double s = 0;
-    for (int k = 0; k < nq; k++) s += J[k * nq + i] * f[k];
-    dq[i] = -s;
-  }
-  dense_lu_solve(nq, work, piv, dq);
-  return 0;
-}
-
-void describe_coords(const struct eom_model *m, const double *q, char *buf, size_t cap) {
-  size_t len = 0;
-  buf[0] = '\0';
-  for (int i = 0; i < m->nq && len + 1 < cap; i++) {
-    int k = snprintf(buf + len, cap - len, "%s%s = %.10g", i ? ", " : "", m->coord_names[i], q[i]);
-    if (k < 0) break;
-    len += (size_t)k;
-  }
-}
-
 int eom_equilibrium(const struct eom_model *m, const double *p, const double *u, double t,
                     double *q, double tol, int max_iter, struct eom_report *rep) {
   struct eom_report local;

@@ -56,7 +56,8 @@ int sim_jacobian(SimContext *c, double t, const double *x, double *A);
 ** they disagree, use differences from now on.  Returns 1 when it switched. */
 int sim_distrust_jacobian(SimContext *c, double t, const double *x);
 
-/* Record a failure in c->rep: "at t = T: WHAT; state q1 = ..., q1' = ...". */
+/* Record a failure in c->rep (report.c):
+** "at t = T: WHAT; state q1 = ..., q1' = ...". */
 int sim_fail(SimContext *c, int status, double t, const double *x, const char *what);
 
 /* Is every entry of v[n] finite? */
@@ -110,10 +111,10 @@ int dopri_run(SimContext *c, const struct eom_sim_options *o, Sampler *s, double
 int radau5_run(SimContext *c, const struct eom_sim_options *o, Sampler *s, double *x);
 
 /* dx = -(JᵀJ + mu I)⁻¹ Jᵀ f for a singular square J (n x n, row-major);
-** work n x n.  Returns -1 when J is zero. */
+** work n x n.  Returns -1 when J is zero.  (dense.c) */
 int least_squares_step(int n, const double *J, const double *f, double *work, double *dx,
                        int *piv);
-/* "q1 = 0.1, q2 = 0.2" into buf. */
+/* "q1 = 0.1, q2 = 0.2" into buf (report.c). */
 void describe_coords(const struct eom_model *m, const double *q, char *buf, size_t cap);
 
 /* Equilibria and tangent-space linearization of models with constraints

@@ -670,8 +670,9 @@ START_TEST(arm6_against_newton_euler) {
 }
 END_TEST
 
-/* The tool-tip outputs against the product of the DH transforms, and the
-** potential energy against -sum m g.z (common practice). */
+/* The tool-tip outputs and the tool frame (position and rotation) against
+** the product of the DH transforms, and the potential energy against
+** -sum m g.z (common practice). */
 START_TEST(arm6_tip_and_potential) {
   Gen g = gen_example("picking_arm6");
   free(drive(&g, ""));
@@ -691,7 +692,7 @@ START_TEST(arm6_tip_and_potential) {
     put(&b, "\n");
   }
   char *out = drive(&g, b.s);
-  ck_assert_int_eq(g.ny, 3);
+  ck_assert_int_eq(g.ny, 3 + 12);  /* tip_x, tip_y, tip_z, frame tool */
   Rec r;
   for (int s = 0; s < 10; s++) {
     record(&g, out, s, &r);
@@ -714,8 +715,12 @@ START_TEST(arm6_tip_and_potential) {
     double tool[3] = {0, 0, pv[6]}, t[3];
     mul(Rw, tool, t);
     for (int k = 0; k < 3; k++)
-      ck_assert_msg(fabs(r.y[k] - (o[k] + t[k])) < 1e-12, "state %d tip[%d] %.17g vs %.17g", s,
-                    k, r.y[k], o[k] + t[k]);
+      ck_assert_msg(fabs(r.y[k] - (o[k] + t[k])) < 1e-12 && fabs(r.y[3 + k] - (o[k] + t[k])) < 1e-12,
+                    "state %d tip[%d] %.17g, frame %.17g vs %.17g", s, k, r.y[k], r.y[3 + k],
+                    o[k] + t[k]);
+    for (int k = 0; k < 9; k++)  /* the tool frame's axes are the flange's */
+      ck_assert_msg(fabs(r.y[6 + k] - Rw[k / 3][k % 3]) < 1e-13, "state %d tool R[%d] %.17g vs %.17g",
+                    s, k, r.y[6 + k], Rw[k / 3][k % 3]);
     ck_assert_msg(fabs(r.V - V) < 1e-11 * fmax(1, fabs(V)), "V %.17g vs %.17g", r.V, V);
     ck_assert_msg(r.T == 0, "T at rest = %g", r.T);
   }

@@ -236,6 +236,40 @@ START_TEST(inertia_not_positive_definite_warns) {
 }
 END_TEST
 
+/* A coordinate no kinetic term moves has a zero row in M: `check` says so
+** at the coordinate's declaration and fails; `gen` still writes the code
+** (its inverse dynamics are sound) with the same words as a warning.  A
+** coordinate whose inertia only vanishes at some states is no such case. */
+START_TEST(coordinate_without_inertia) {
+  char *dir = make_temp_dir();
+  const char *bad = "model idle\ncoord x [m]\ncoord z [m]\nparam m = 2 [kg]\nparam k = 50 [N/m]\n"
+                    "kinetic m*x'^2/2\npotential k*x^2/2 + k*z^2/2\n";
+  const char *fine = "model fine\ncoord x [m]\ncoord z [m]\nparam m = 2 [kg]\nparam L = 1 [m]\n"
+                     "kinetic m*x'^2/2 + m*(x/L)^2*z'^2/2\ninitial x = 0.1\n";
+  char *mb = write_file(dir, "idle.eom", bad, strlen(bad));
+  char *mf = write_file(dir, "fine.eom", fine, strlen(fine));
+  RunResult r = run2("check", mb);
+  ck_assert_msg(r.status == 1, "status %d: %s", r.status, r.err);
+  ck_assert_msg(strstr(r.err, "idle.eom:3:7: error: coordinate 'z' has no inertia") != NULL, "%s",
+                r.err);
+  ck_assert_msg(strstr(r.err, "'x'") == NULL, "%s", r.err);
+  run_free(&r);
+  char *argv[] = {(char *)eomc(), "gen", mb, "-o", dir, NULL};
+  r = run_argv(argv);
+  ck_assert_msg(r.status == 0, "status %d: %s", r.status, r.err);
+  ck_assert_msg(strstr(r.err, "idle.eom:3:7: warning: coordinate 'z' has no inertia") != NULL,
+                "%s", r.err);
+  run_free(&r);
+  r = run2("check", mf);
+  ck_assert_msg(r.status == 0 && strstr(r.err, "inertia") == NULL, "status %d: %s", r.status,
+                r.err);
+  run_free(&r);
+  free(mb), free(mf);
+  remove_tree(dir);
+  free(dir);
+}
+END_TEST
+
 /* Several models in one `eomc gen`, one depfile for all; --quiet and --verbose. */
 START_TEST(gen_several_models) {
   char *dir = make_temp_dir();
@@ -357,6 +391,7 @@ int main(void) {
   tcase_add_test(tc, catalogue_is_full);
   tcase_add_loop_test(tc, bad_catalogue, 0, catalogue_count);
   tcase_add_test(tc, inertia_not_positive_definite_warns);
+  tcase_add_test(tc, coordinate_without_inertia);
   tcase_add_test(tc, examples_check_clean);
   tcase_add_test(tc, gen_several_models);
   tcase_add_test(tc, gen_memory_limit);

@@ -354,6 +354,11 @@ START_TEST(sim_failure_keeps_rows) {
   RunResult r = run_argv(argv);
   ck_assert_msg(r.status == 3, "status %d: %s", r.status, r.err);
   ck_assert_msg(strstr(r.err, "at t = ") && strstr(r.err, "x = "), "%s", r.err);
+  /* The failure comes first; the run's figures follow only as a note. */
+  const char *error = strstr(r.err, "eomc sim: error: integration failed");
+  const char *figures = strstr(r.err, "steps (");
+  ck_assert_msg(error && figures && error < figures, "%s", r.err);
+  ck_assert_msg(strstr(r.err, "note: up to the failure: ") != NULL, "%s", r.err);
   char *csv = read_file(out, NULL);
   ck_assert_ptr_nonnull(csv);
   ck_assert(strncmp(csv, "t,x,x',T,V\n", 11) == 0);
@@ -361,6 +366,71 @@ START_TEST(sim_failure_keeps_rows) {
   free(csv);
   free(out);
   run_free(&r);
+}
+END_TEST
+
+/* A run that fails at t = 0 (M not positive definite there) prints the
+** failure and no figures that read like a finished run. */
+START_TEST(sim_failure_at_start_has_no_summary) {
+  const char *text = "model upside\ncoord x [m]\nparam m = -2 [kg]\nkinetic m*x'^2/2\n"
+                     "initial x = 0.5\n";
+  char *path = work_path("upside.eom");
+  FILE *f = fopen(path, "w");
+  ck_assert_ptr_nonnull(f);
+  fputs(text, f);
+  fclose(f);
+  char *argv[] = {(char *)eomc(), "sim", path, "--until", "1", NULL};
+  RunResult r = run_argv(argv);
+  ck_assert_msg(r.status == 3, "status %d: %s", r.status, r.err);
+  ck_assert_msg(strncmp(r.err, "eomc sim: error: integration failed at t = 0: ", 46) == 0, "%s",
+                r.err);
+  ck_assert_msg(!strstr(r.err, "energy T+V") && !strstr(r.err, "drift") &&
+                    !strstr(r.err, "action"), "%s", r.err);
+  run_free(&r);
+  free(path);
+}
+END_TEST
+
+/* A coordinate with no inertia is a model error before anything is built. */
+START_TEST(sim_coordinate_without_inertia) {
+  const char *text = "model idle\ncoord x [m]\ncoord z [m]\nparam m = 2 [kg]\n"
+                     "param k = 50 [N/m]\nkinetic m*x'^2/2\npotential k*x^2/2 + k*z^2/2\n";
+  char *path = work_path("idle.eom");
+  FILE *f = fopen(path, "w");
+  ck_assert_ptr_nonnull(f);
+  fputs(text, f);
+  fclose(f);
+  const char *verbs[] = {"sim", "modes"};
+  for (int k = 0; k < 2; k++) {
+    char *argv[] = {(char *)eomc(), (char *)verbs[k], path, NULL};
+    RunResult r = run_argv(argv);
+    ck_assert_msg(r.status == 1, "%s: status %d: %s", verbs[k], r.status, r.err);
+    ck_assert_msg(strstr(r.err, "idle.eom:3:7: error: coordinate 'z' has no inertia"), "%s: %s",
+                  verbs[k], r.err);
+    run_free(&r);
+  }
+  free(path);
+}
+END_TEST
+
+/* A model at rest over an enormous span: every method reaches the end in a
+** few steps (the adaptive ones start no shorter than the smallest step the
+** span allows), and the state stays exactly at rest. */
+START_TEST(sim_at_rest_over_huge_span) {
+  static const char *methods[] = {"dopri", "radau5", "rk4", "midpoint"};
+  for (int k = 0; k < 4; k++) {
+    char *argv[] = {(char *)eomc(), "sim", model_path("damped_pair.eom"), "--until", "1e300",
+                    "--step", "1e299", "--method", (char *)methods[k], "--set", "x1=0",
+                    "--set", "x2=0", "--set", "x1'=0", "--set", "x2'=0", NULL};
+    RunResult r = run_argv(argv);
+    ck_assert_msg(r.status == 0, "%s: status %d: %s", methods[k], r.status, r.err);
+    const char *last = strstr(r.out, "\n1e+300,");
+    ck_assert_msg(last != NULL, "%s: no row at t = 1e300 in\n%s", methods[k], r.out);
+    double v[4];
+    ck_assert_int_eq(sscanf(last + 8, "%lf,%lf,%lf,%lf", &v[0], &v[1], &v[2], &v[3]), 4);
+    for (int i = 0; i < 4; i++) ck_assert_msg(v[i] == 0, "%s: %g", methods[k], v[i]);
+    run_free(&r);
+  }
 }
 END_TEST
 
@@ -606,6 +676,9 @@ static Suite *sim_suite(void) {
   tcase_add_test(tc, sim_bead_small_oscillation_period);
   tcase_add_test(tc, sim_inputs_settle);
   tcase_add_test(tc, sim_failure_keeps_rows);
+  tcase_add_test(tc, sim_failure_at_start_has_no_summary);
+  tcase_add_test(tc, sim_coordinate_without_inertia);
+  tcase_add_test(tc, sim_at_rest_over_huge_span);
   tcase_add_test(tc, sim_stiff_radau5);
   tcase_add_test(tc, sim_usage_errors);
   tcase_add_test(tc, sim_cache);

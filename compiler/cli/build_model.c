@@ -119,7 +119,7 @@ static int generate(Frontend *fe, const char *path, const char *dir) {
   EomSystem sys;
   SymOptions so = {0, 0};
   char err[512], texthash[HASH_HEX_LEN + 1];
-  if (frontend_derive(fe, &so, &sys) != 0) {
+  if (frontend_derive(fe, &so, &sys) != 0 || frontend_check_inertia(fe, &sys, DIAG_ERROR) != 0) {
     sym_free(&sys);
     return EXIT_MODEL;
   }

@@ -138,8 +138,13 @@ static int print_structure(Frontend *fe, FILE *out) {
   SymOptions so = {0, 0.0};
   fflush(out);  /* the summary before any derivation error on stderr */
   int failed = frontend_derive(fe, &so, &sys);
-  if (failed) fputs("equations of motion: not derived (see the errors above)\n", out);
-  else report_structure(&fe->model, &sys, out);
+  if (failed) {
+    fputs("equations of motion: not derived (see the errors above)\n", out);
+  } else {
+    report_structure(&fe->model, &sys, out);
+    fflush(out);
+    failed = frontend_check_inertia(fe, &sys, DIAG_ERROR) != 0;
+  }
   sym_free(&sys);
   return failed;
 }

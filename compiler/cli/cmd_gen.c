@@ -225,6 +225,8 @@ static int gen_one(const GenArgs *a, int i, char **names) {
     frontend_free(&fe);
     return EXIT_MODEL;
   }
+  /* The inverse dynamics of such a model are still of use: written, with a warning. */
+  frontend_check_inertia(&fe, &sys, DIAG_WARNING);
   if (!a->quiet) report_identifiability(&fe.model, &sys, "eomc: note: ", stderr);
   double derive_s = seconds_since(&t0);
 

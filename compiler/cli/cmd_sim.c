@@ -235,6 +235,19 @@ static int on_sample(void *ctx, double t, const double *x, const double *u) {
   return 0;
 }
 
+/* The run's figures on stderr: method, steps, final time, energy change
+** and the action. */
+static void print_run_summary(const SimArgs *a, const struct eom_report *rep, const SimOut *so,
+                              const char *lead) {
+  double drift = so->E - so->E0;
+  fprintf(stderr,
+          "%s%s, %ld steps (%ld rejected), %ld evaluations, t = %.10g; "
+          "energy T+V %.10g -> %.10g (change %.3g%s); action %.10g\n",
+          lead, a->method, rep->steps, rep->rejected, rep->rhs_evals, rep->t, so->E0, so->E,
+          so->E0 != 0 ? drift / fabs(so->E0) : drift, so->E0 != 0 ? " relative" : "",
+          action_total(so));
+}
+
 /* Copy a finished scratch CSV to standard output. */
 static int copy_to_stdout(const char *path) {
   char buf[65536];
@@ -373,18 +386,16 @@ int cmd_sim(int argc, char **argv) {
     rc = EXIT_RUN;
     goto out;
   }
-  double drift = so.E - so.E0;
-  fprintf(stderr,
-          "eomc sim: %s, %ld steps (%ld rejected), %ld evaluations, t = %.10g; "
-          "energy T+V %.10g -> %.10g (change %.3g%s); action %.10g\n",
-          a.method, rep.steps, rep.rejected, rep.rhs_evals, rep.t, so.E0, so.E,
-          so.E0 != 0 ? drift / fabs(so.E0) : drift, so.E0 != 0 ? " relative" : "",
-          action_total(&so));
-  cmon_report(&cmon, "eomc sim: ", stderr);
   rc = 0;
-  if (st != EOM_OK) {
+  if (st == EOM_OK) {
+    print_run_summary(&a, &rep, &so, "eomc sim: ");
+    cmon_report(&cmon, "eomc sim: ", stderr);
+  } else {
+    /* The failure first; figures of the run up to it only as a note, and
+    ** none when it failed before the first step. */
     fprintf(stderr, "eomc sim: error: integration failed %s\n",
             rep.message[0] ? rep.message : eom_status_text((eom_status)st));
+    if (rep.steps > 0) print_run_summary(&a, &rep, &so, "eomc sim: note: up to the failure: ");
     if (a.out) fprintf(stderr, "eomc sim: note: %ld rows up to t = %.10g kept in %s\n", so.rows,
                        so.t_last, a.out);
     rc = EXIT_RUN;

@@ -3,6 +3,7 @@
 */
 #include "cli/frontend.h"
 
+#include <assert.h>
 #include <stdio.h>
 #include <string.h>
 #include "cli/cmd.h"
@@ -45,4 +46,27 @@ int frontend_derive(Frontend *fe, const SymOptions *so, EomSystem *sys) {
   if (failed && fe->diag.nmsgs == printed)
     fprintf(stderr, "eomc: error: %s: the derivation failed\n", fe->src.path);
   return failed;
+}
+
+/* A root that is the number zero: a structural zero of the graph. */
+static int is_zero_root(const EomSystem *sys, int root) {
+  assert(root >= 0 && root < sys->g.nnodes);
+  const IrNode *n = &sys->g.nodes[root];
+  return n->op == IR_NUM && n->num == 0;
+}
+
+int frontend_check_inertia(Frontend *fe, const EomSystem *sys, DiagLevel level) {
+  const Model *m = &fe->model;
+  int printed = fe->diag.nmsgs, found = 0;
+  assert(sys->nq == m->ncoords);
+  for (int i = 0; i < sys->nq; i++) {
+    if (!is_zero_root(sys, sys->mass[i * sys->nq + i])) continue;
+    found++;
+    diag_report(&fe->diag, level, m->coords[i]->loc,
+                "coordinate '%s' has no inertia: the kinetic energy has no term in %s' (its "
+                "row of the mass matrix is zero), so its acceleration is undefined",
+                m->coords[i]->name, m->coords[i]->name);
+  }
+  diag_print_from(&fe->diag, printed, stderr);
+  return found;
 }

@@ -37,4 +37,10 @@ int frontend_open(Frontend *fe, const char *path, int quiet);
 ** either way. */
 int frontend_derive(Frontend *fe, const SymOptions *so, EomSystem *sys);
 
+/* Report, at its declaration and with `level`, every coordinate with no
+** inertia: its diagonal entry of M is identically zero (no rate of it in
+** T), so M is singular everywhere and no acceleration can be computed.
+** Prints what it reports; returns the number of such coordinates. */
+int frontend_check_inertia(Frontend *fe, const EomSystem *sys, DiagLevel level);
+
 #endif

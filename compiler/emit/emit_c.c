@@ -14,6 +14,7 @@
 */
 #include "emit/emit_c.h"
 #include "emit/emit_control.h"
+#include "emit/emit_kinematics.h"
 
 #include <assert.h>
 #include <ctype.h>
@@ -1037,42 +1038,63 @@ static void emit_energy(Emitter *E) {
   fputs("}\n\n", E->out);
 }
 
-/* See emit_control.h. */
-void emit_plain_function(Emitter *E, const char *fname, unsigned args, const char *out,
-                         const int *roots, int n) {
+/* `void P_fname(args..., double *out1, ...)` writing each out[k] = roots[k],
+** or NaN where a root is negative (an entry without a value: see EmitOut
+** in emit_kinematics.h).  A root reading an argument the function lacks
+** makes it write NaN throughout (t and u are first checked numerically). */
+static void emit_function_outs(Emitter *E, const char *fname, unsigned args,
+                               const EmitOut *outs, int nouts) {
   static const Param all[] = {{IRV_T, "double t", "t"}, {IRV_Q, "const double *q", "q"},
                               {IRV_QD, "const double *qd", "qd"},
                               {IRV_QDD, "const double *qdd", "qdd"},
                               {IRV_U, "const double *u", "u"}, {IRV_P, "const double *p", "p"}};
-  Param ps[7];
-  char decl[64], lhs[64], fill[160];
+  enum { MAX_OUTS = 4 };
+  Param ps[6 + MAX_OUTS];
+  char decl[MAX_OUTS][64], lhs[64], fill[600] = "";
   int nps = 0;
   unsigned allowed = 0;
-  assert(n >= 1 && strlen(out) < 16);
+  assert(nouts >= 1 && nouts <= MAX_OUTS);
   for (int k = 0; k < 6; k++)
     if (args & (1u << k)) {
       ps[nps++] = all[k];
       allowed |= VAR_BIT(all[k].var);
     }
-  snprintf(decl, sizeof decl, "double *%s", out);
-  ps[nps].var = -1, ps[nps].decl = decl, ps[nps].name = out, nps++;
   fn_reset(E);
-  add_roots(E, roots, n);
+  for (int k = 0; k < nouts; k++) {
+    assert(outs[k].n >= 1 && strlen(outs[k].name) < 16);
+    snprintf(decl[k], sizeof decl[k], "double *%s", outs[k].name);
+    ps[nps].var = -1, ps[nps].decl = decl[k], ps[nps].name = outs[k].name, nps++;
+    for (int i = 0; i < outs[k].n; i++)
+      if (outs[k].roots[i] >= 0) add_root(E, outs[k].roots[i]);
+  }
   fn_analyse(E);
   emit_signature(E, "void", fname, ps, nps, 0);
   if (resolve_missing(E, allowed)) {
-    snprintf(fill, sizeof fill, "  int i;\n  for (i = 0; i < %d; i++) %s[i] = NAN;\n", n, out);
-    emit_nan_body(E, ps, nps, out, fill, NULL);
+    snprintf(fill, sizeof fill, "  int i;\n");
+    for (int k = 0; k < nouts; k++)
+      snprintf(fill + strlen(fill), sizeof fill - strlen(fill),
+               "  for (i = 0; i < %d; i++) %s[i] = NAN;\n", outs[k].n, outs[k].name);
+    emit_nan_body(E, ps, nps, outs[0].name, fill, NULL);
   } else {
     emit_unused(E, ps, nps);
     emit_fixed_locals(E);
     emit_temps(E);
-    for (int i = 0; i < n; i++) {
-      snprintf(lhs, sizeof lhs, "%s[%d]", out, i);
-      emit_assign(E, lhs, roots[i]);
-    }
+    for (int k = 0; k < nouts; k++)
+      for (int i = 0; i < outs[k].n; i++) {
+        snprintf(lhs, sizeof lhs, "%s[%d]", outs[k].name, i);
+        if (outs[k].roots[i] >= 0) emit_assign(E, lhs, outs[k].roots[i]);
+        else fprintf(E->out, "  %s = NAN;\n", lhs);   /* no such entry */
+      }
   }
   fputs("}\n\n", E->out);
+}
+
+/* `void P_fname(args..., double *out)` writing out[k] = roots[k] (see
+** PlainFunction in emit_control.h). */
+static void emit_plain_function(Emitter *E, const char *fname, unsigned args,
+                                const char *out, const int *roots, int n) {
+  EmitOut o = {out, roots, n};
+  emit_function_outs(E, fname, args, &o, 1);
 }
 
 static void emit_outputs(Emitter *E) {
@@ -1305,7 +1327,9 @@ static void unit_text(Buf *b, const Expr *u) {
 static void emit_decl_comment(Emitter *E, const char *kind, int index, const Decl *d) {
   FILE *o = E->out;
   int size = d->kind == DECL_OUTPUT ? d->shape.rows * d->shape.cols : 1;
-  if (size > 1)  /* a vector or matrix output: its entries, row by row */
+  if (d->frame)  /* a frame: its position, then its rotation row by row */
+    fprintf(o, "**   %s[%d..%d]  %s (frame: position 3, rotation 3x3)", kind, index, index + 11, d->name);
+  else if (size > 1)  /* a vector or matrix output: its entries, row by row */
     fprintf(o, "**   %s[%d..%d]  %s (%dx%d)", kind, index, index + size - 1, d->name, d->shape.rows,
             d->shape.cols);
   else
@@ -1401,6 +1425,7 @@ static void emit_header(Emitter *E) {
       "  const double *p, double *qdd, double *lambda);\n",
       P, P, P, P);
   emit_control_prototypes(o, m, s, P);
+  emit_kinematics_prototypes(o, m, s, P);
   fprintf(o, "\n#ifndef EOM_NO_DESCRIPTOR\nstruct eom_model;\nextern const struct eom_model %s_model;\n#endif\n", P);
   fprintf(o, "\n#ifdef __cplusplus\n}\n#endif\n#endif\n");
 }
@@ -1466,7 +1491,10 @@ static void emit_output_names(Emitter *E) {
     for (int r = 0; r < rows; r++)
       for (int c = 0; c < cols; c++) {
         Buf b = {0};
-        if (rows * cols == 1) buf_put(&b, d->name);
+        int e = r * cols + c;
+        if (d->frame && e < 3) buf_printf(&b, "%s.pos[%d]", d->name, e + 1);
+        else if (d->frame) buf_printf(&b, "%s.rot[%d,%d]", d->name, (e - 3) / 3 + 1, (e - 3) % 3 + 1);
+        else if (rows * cols == 1) buf_put(&b, d->name);
         else if (cols == 1 || rows == 1) buf_printf(&b, "%s[%d]", d->name, r * cols + c + 1);
         else buf_printf(&b, "%s[%d,%d]", d->name, r + 1, c + 1);
         assert(k < m->ny);
@@ -1567,6 +1595,7 @@ static void emit_descriptor(Emitter *E) {
   emit_double_table(E, "q0", q0, s->nq);
   emit_double_table(E, "qd0", qd0, s->nq);
   emit_control_tables(o, s, P);
+  emit_kinematics_tables(o, m, s, P);
   fprintf(o, "\nconst struct eom_model %s_model = {\n", P);
   fprintf(o, "  EOM_MODEL_ABI,\n  ");
   put_c_string(o, P);
@@ -1595,6 +1624,7 @@ static void emit_descriptor(Emitter *E) {
   fprintf(o, "  %s_derived_params,\n", P);
   if (s->nc) fprintf(o, "  %s_constraint_at,\n", P);
   else fputs("  0,\n", o);
+  emit_kinematics_fields(o, s, P);
   fprintf(o, "};\n#endif\n");
   free(q0);
   free(qd0);
@@ -1621,7 +1651,15 @@ static void emit_source(Emitter *E) {
     emit_constraint_at(E);
     emit_accel_constrained(E);
   }
-  emit_control_functions(E, E->out, E->s);
+  PlainFunction fns[EMIT_CONTROL_MAX_FUNCTIONS];
+  int nfns = emit_control_functions(E->s, fns);
+  for (int k = 0; k < nfns; k++)
+    emit_plain_function(E, fns[k].fname, fns[k].args, fns[k].out, fns[k].roots, fns[k].n);
+  KinematicFunction *kfns = NULL;
+  int nk = emit_kinematics_functions(E->m, E->s, &kfns);
+  for (int k = 0; k < nk; k++)
+    emit_function_outs(E, kfns[k].fname, kfns[k].args, kfns[k].outs, kfns[k].nouts);
+  emit_kinematics_free(kfns, nk);
   emit_defaults(E);
   emit_descriptor(E);
 }

@@ -71,21 +71,29 @@ void emit_control_prototypes(FILE *o, const Model *m, const EomSystem *s, const 
     if (s->cyclic[i]) fprintf(o, "#define %s_CYCLIC_%d 1   /* pm[%d] is a constant of the motion */\n", P, i, i);
 }
 
-void emit_control_functions(struct Emitter *E, FILE *o, const EomSystem *s) {
-  (void)o;
+/* Append one PlainFunction to fns[*n]. */
+static void add_function(PlainFunction *fns, int *n, const char *fname, unsigned args,
+                         const char *out, const int *roots, int count) {
+  assert(*n < EMIT_CONTROL_MAX_FUNCTIONS && roots && count >= 1);
+  fns[(*n)++] = (PlainFunction){fname, args, out, roots, count};
+}
+
+int emit_control_functions(const EomSystem *s, PlainFunction fns[EMIT_CONTROL_MAX_FUNCTIONS]) {
+  int n = 0;
   if (has_split(s)) {
-    emit_plain_function(E, "coriolis", EMIT_ARG_Q | EMIT_ARG_QD | EMIT_ARG_P, "C", s->coriolis,
-                        s->nq * s->nq);
-    emit_plain_function(E, "gravity", EMIT_ARG_Q | EMIT_ARG_P, "g", s->gravity, s->nq);
+    add_function(fns, &n, "coriolis", EMIT_ARG_Q | EMIT_ARG_QD | EMIT_ARG_P, "C", s->coriolis,
+                 s->nq * s->nq);
+    add_function(fns, &n, "gravity", EMIT_ARG_Q | EMIT_ARG_P, "g", s->gravity, s->nq);
   }
   if (s->ni > 0 && s->regressor) {
     unsigned args = EMIT_ARG_T | EMIT_ARG_Q | EMIT_ARG_QD | EMIT_ARG_QDD | EMIT_ARG_P;
-    emit_plain_function(E, "regressor", args, "Y", s->regressor, s->nq * s->ni);
-    emit_plain_function(E, "regressor_offset", args, "Q0", s->regressor_offset, s->nq);
+    add_function(fns, &n, "regressor", args, "Y", s->regressor, s->nq * s->ni);
+    add_function(fns, &n, "regressor_offset", args, "Q0", s->regressor_offset, s->nq);
   }
-  if (!has_momenta(s)) return;
-  emit_plain_function(E, "momenta", EMIT_ARG_Q | EMIT_ARG_QD | EMIT_ARG_P, "pm", s->momenta, s->nq);
-  emit_plain_function(E, "hamiltonian", EMIT_ARG_Q | EMIT_ARG_QD | EMIT_ARG_P, "h", &s->hamiltonian, 1);
+  if (!has_momenta(s)) return n;
+  add_function(fns, &n, "momenta", EMIT_ARG_Q | EMIT_ARG_QD | EMIT_ARG_P, "pm", s->momenta, s->nq);
+  add_function(fns, &n, "hamiltonian", EMIT_ARG_Q | EMIT_ARG_QD | EMIT_ARG_P, "h", &s->hamiltonian, 1);
+  return n;
 }
 
 void emit_control_tables(FILE *o, const EomSystem *s, const char *P) {

@@ -74,6 +74,8 @@ typedef struct Decl {
   int index;             /* position among the Decls of the same kind (0-based) */
   int used;              /* referenced anywhere (for unused warnings) */
   double number;         /* param/const: evaluated default */
+  int frame;             /* an output made by `frame`: its value is a 4x4 transform,
+                            its shape 12x1 (position, then rotation row by row) */
   Shape shape;
   struct Unit *dim;      /* parsed unit, or NULL when none */
 } Decl;
@@ -98,7 +100,8 @@ typedef enum StmtKind {
   ST_GRAVITY,      /* gravity G                      : e[0] */
   ST_BODY,         /* body N mass m at P [orient R] [inertia I]
                       : decls[0] (DECL_BODY), e[0]=m, e[1]=P, e[2]=R|NULL, e[3]=I|NULL */
-  ST_CONSTRAINT    /* constraint a = b               : e[0]=a, e[1]=b */
+  ST_CONSTRAINT,   /* constraint a = b               : e[0]=a, e[1]=b */
+  ST_FRAME         /* frame a = T "d"                : decls[0] (DECL_OUTPUT, frame = 1) */
 } StmtKind;
 
 typedef struct Stmt {

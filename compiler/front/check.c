@@ -33,7 +33,7 @@
 static const char *const keywords[] = {
   "model", "coord", "param", "const", "input", "let", "initial", "output", "identify",
   "kinetic", "potential", "lagrangian", "dissipation", "force", "torque", "gravity",
-  "body", "constraint",
+  "body", "constraint", "frame",
 };
 
 int check_is_keyword(const char *s) {
@@ -887,6 +887,20 @@ static void check_statement(Checker *c, Stmt *s, int position) {
     /* a vector or matrix output gives one entry of y per element */
     declare(c, dc, is_err(r.shape) ? SHAPE_SCALAR : r.shape);
     declare_unit(c, dc);
+    break;
+  }
+  case ST_FRAME: {
+    /* y gets the frame's position and its rotation, row by row */
+    Decl *dc = s->decls[0];
+    Shape transform = {4, 4}, entries = {12, 1};
+    Info r = expect_shape(c, dc->value, transform, "a frame's transform");
+    if (r.order > 0)
+      diag_error(c->d, dc->value->loc, "a frame's transform must depend on the coordinates, "
+                 "not on their rates");
+    else if (r.input)
+      diag_error(c->d, dc->value->loc, "a frame's transform must not depend on the input '%s'",
+                 r.input->name);
+    declare(c, dc, entries);
     break;
   }
   case ST_INITIAL: check_initial(c, s); break;

@@ -634,6 +634,17 @@ static void check_statement(UnitCheck *uc, Model *m, Stmt *s) {
   case ST_PARAM: check_decl_value(uc, s->decls[0], "param"); break;
   case ST_CONST: check_decl_value(uc, s->decls[0], "const"); break;
   case ST_OUTPUT: check_decl_value(uc, s->decls[0], "output"); break;
+  case ST_FRAME: {
+    /* a transform's translation is a length (its rotation is dimensionless) */
+    Unit u = expr_unit(uc, s->decls[0]->value);
+    if (u.kind == UNIT_TRANSFORM) {
+      u.kind = UNIT_KNOWN;
+      if (!unit_same(unit_strip_rad(u), unit_base(U_M)))
+        uerror(uc, s->decls[0]->value->loc, "the translation of frame '%s' must be a length (m), not %s",
+               s->decls[0]->name, unit_format(u, 0, (char[96]){0}, 96));
+    }
+    break;
+  }
   case ST_LET: {
     Decl *dc = s->decls[0];
     if (dc->unit) {  /* a let with a declared unit */

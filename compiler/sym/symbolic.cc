@@ -1548,16 +1548,37 @@ void Derivation::run(EomSystem *out) {
 
   std::vector<ex> outs;
   std::vector<SrcLoc> out_locs;
+  KinematicsInput kin;
   for (int i = 0; i < m_->noutputs; i++) {
     const Decl *d = m_->outputs[i];
     Val v = let_value(d);  /* a vector or matrix: its entries, row by row */
-    assert(v.rows == d->shape.rows && v.cols == d->shape.cols);
+    if (d->frame) {        /* a transform: its position, then its rotation */
+      assert(v.rows == 4 && v.cols == 4 && d->shape.rows == 12);
+      Val y(12, 1);
+      for (int r = 0; r < 3; r++) y.a[r] = v.at(r, 3);
+      for (int r = 0; r < 3; r++)
+        for (int c = 0; c < 3; c++) y.a[3 + 3 * r + c] = v.at(r, c);
+      v = y;
+    }
+    assert(v.rows * v.cols == d->shape.rows * d->shape.cols);
+    kin.groups.push_back({outs.size(), v.a.size(), d->frame != 0, d->loc});
     for (const ex &e : v.a) {
       outs.push_back(unatom(e));
       out_locs.push_back(d->loc);
     }
   }
   tick("computing the outputs");
+  kin.nq = nq_;
+  kin.nu = nu_;
+  kin.qd = qd_;
+  kin.outputs = outs;
+  kin.d_dq = [this](int i, const ex &e) { return dq_[i](e); };
+  kin.d_dqd = [this](int i, const ex &e) { return dqd_[i](e); };
+  kin.d_du = [this](int i, const ex &e) { return du_[i](e); };
+  kin.d_dt = [this](const ex &e) { return dt_(e); };
+  kin.tick = [this](const char *step) { tick(step); };
+  KinematicsResult kr;
+  derive_kinematics(kin, &kr);
 
   /* one graph for everything; root handles are kept in this order */
   IrBuilder b(vars_);
@@ -1601,6 +1622,14 @@ void Derivation::run(EomSystem *out) {
     for (int k = 0; k < np_; k++) reads_params = reads_params || (k != i && e.has(p_[k]));
     if (reads_params) h_rule[i] = b.add_root(e, d->loc);
   }
+  std::vector<int> h_ojac, h_obias, h_fjac, h_fbias;
+  for (size_t k = 0; k < outs.size(); k++) {
+    if (!kr.kinematic[k]) continue;
+    for (int j = 0; j < n; j++) h_ojac.push_back(b.add_root(kr.jacobian[k * n + j], none));
+    h_obias.push_back(b.add_root(kr.bias[k], none));
+  }
+  for (const ex &e : kr.frame_jacobian) h_fjac.push_back(b.add_root(e, none));
+  for (const ex &e : kr.frame_bias) h_fbias.push_back(b.add_root(e, none));
   std::vector<int> h_reg, h_reg0;
   for (const ex &e : reg.Y) h_reg.push_back(b.add_root(e, none));
   for (const ex &e : reg.offset) h_reg0.push_back(b.add_root(e, none));
@@ -1645,6 +1674,33 @@ void Derivation::run(EomSystem *out) {
   for (int k = 0; k < ni; k++) out->identified[k] = pi_index_[k];
   out->regressor = ni ? place(h_reg, (size_t)n * ni) : nullptr;
   out->regressor_offset = ni ? place(h_reg0, n) : nullptr;
+  /* output Jacobians: rows of outputs that are not y(q, p) stay -1 */
+  out->output_kinematic = alloc_roots(outs.size());
+  out->output_jacobian = alloc_roots(outs.size() * (size_t)n);
+  out->output_bias = alloc_roots(outs.size());
+  for (size_t k = 0, r = 0; k < outs.size(); k++) {
+    out->output_kinematic[k] = kr.kinematic[k];
+    out->output_bias[k] = -1;
+    for (int j = 0; j < n; j++) out->output_jacobian[k * n + j] = -1;
+    if (!kr.kinematic[k]) continue;
+    for (int j = 0; j < n; j++) out->output_jacobian[k * n + j] = roots[h_ojac[r * n + j]];
+    out->output_bias[k] = roots[h_obias[r]];
+    out->nkinematic++;
+    r++;
+  }
+  out->nframes = (int)(kr.frame_bias.size() / 6);
+  out->frame_output = alloc_roots(out->nframes);
+  out->frame_decl = alloc_roots(out->nframes);
+  for (int i = 0, f = 0, first = 0; i < m_->noutputs; i++) {
+    const Decl *d = m_->outputs[i];
+    if (d->frame) {
+      out->frame_output[f] = first;
+      out->frame_decl[f++] = i;
+    }
+    first += d->shape.rows * d->shape.cols;
+  }
+  out->frame_jacobian = place(h_fjac, (size_t)out->nframes * 6 * n);
+  out->frame_bias = place(h_fbias, (size_t)out->nframes * 6);
   out->param_rule = alloc_roots(np_);
   out->nderived = 0;
   for (int i = 0; i < np_; i++) {
@@ -1750,5 +1806,12 @@ extern "C" void sym_free(EomSystem *s) {
   free(s->regressor);
   free(s->regressor_offset);
   free(s->param_rule);
+  free(s->output_kinematic);
+  free(s->output_jacobian);
+  free(s->output_bias);
+  free(s->frame_output);
+  free(s->frame_decl);
+  free(s->frame_jacobian);
+  free(s->frame_bias);
   memset(s, 0, sizeof *s);
 }

@@ -51,6 +51,16 @@ typedef struct EomSystem {
   int *identified;           /* ni     their indices in p */
   int *regressor;            /* nq*ni  Y(t, q, qd, qdd, p) */
   int *regressor_offset;     /* nq     tau0: P_inverse at pi = 0 */
+  /* symbolic_outputs.cc: outputs that depend on q and p only ("kinematic") */
+  int nkinematic;            /* entries of y that are kinematic */
+  int *output_kinematic;     /* ny     1 when y_i = y_i(q, p) */
+  int *output_jacobian;      /* ny*nq  dy_i/dq_j; -1 in rows that are not kinematic */
+  int *output_bias;          /* ny     J' qd (y'' = J qdd + J' qd); -1 where not kinematic */
+  int nframes;               /* `frame` outputs, in declaration order */
+  int *frame_output;         /* nframes  index in y of the frame's first entry */
+  int *frame_decl;           /* nframes  index in Model.outputs */
+  int *frame_jacobian;       /* nframes*6*nq  world linear (3 rows) over world angular (3) */
+  int *frame_bias;           /* nframes*6     J' qd */
   /* params whose default is an expression of earlier params */
   int *param_rule;           /* np     that expression of p, or -1 for a plain default */
   int nderived;              /* entries of param_rule that are not -1 */

@@ -235,6 +235,34 @@ struct RegressorResult {
 };
 void derive_regressor(const RegressorInput &in, RegressorResult *out);
 
+/* The outputs' kinematics (symbolic_outputs.cc): every output entry in
+** t, q, q', u, p (atoms replaced), grouped by declaration. */
+struct KinematicsInput {
+  int nq, nu;
+  std::vector<GiNaC::ex> qd;
+  std::vector<GiNaC::ex> outputs;                /* ny */
+  struct Group {
+    size_t first, count;                         /* its entries of y */
+    bool frame;                                  /* 12 entries: position, R row by row */
+    SrcLoc loc;
+  };
+  std::vector<Group> groups;                     /* in declaration order */
+  std::function<GiNaC::ex(int, const GiNaC::ex &)> d_dq, d_dqd, d_du;
+  std::function<GiNaC::ex(const GiNaC::ex &)> d_dt;
+  std::function<void(const char *)> tick;
+};
+struct KinematicsResult {
+  std::vector<int> kinematic;                    /* ny: 1 when the output is y(q, p) */
+  std::vector<GiNaC::ex> jacobian;               /* ny*nq dy/dq (0 rows where not kinematic) */
+  std::vector<GiNaC::ex> bias;                   /* ny: J' q' */
+  std::vector<GiNaC::ex> frame_jacobian;         /* per frame 6*nq: linear over angular */
+  std::vector<GiNaC::ex> frame_bias;             /* per frame 6 */
+};
+/* Throws SymError at a frame whose transform depends on t. */
+void derive_kinematics(const KinematicsInput &in, KinematicsResult *out);
+/* J' q' = sum_j (sum_k dJ_j/dq_k q'_k) q'_j for a row J(q) of nq entries. */
+GiNaC::ex bias_of(const KinematicsInput &in, const std::vector<GiNaC::ex> &row);
+
 }  // namespace eomsym
 
 #endif

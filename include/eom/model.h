@@ -15,7 +15,7 @@ extern "C" {
 #endif
 
 /* Bumped whenever the layout of struct eom_model changes. */
-#define EOM_MODEL_ABI 3
+#define EOM_MODEL_ABI 4
 
 struct eom_model {
   int abi;                          /* EOM_MODEL_ABI of the generating eomc */
@@ -74,6 +74,25 @@ struct eom_model {
   ** NULL when nc == 0 (and in hand-written descriptors without it). */
   void (*constraint_at)(double t, const double *q, const double *p, double *phi, double *G,
                         double *phi_t);
+
+  /* Since ABI 4: the outputs that depend on q and p only are "kinematic"
+  ** (output_kinematic[i] == 1, ny flags); output_jacobian writes
+  ** J = dy/dq (ny x nq, NaN in the rows of the other outputs) and
+  ** output_bias J' qd (ny), so y'' = J qdd + J' qd.  All three NULL when
+  ** no output is kinematic. */
+  const int *output_kinematic;
+  void (*output_jacobian)(const double *q, const double *p, double *J);
+  void (*output_bias)(const double *q, const double *qd, const double *p, double *b);
+  /* Since ABI 4: the `frame` outputs.  Frame k fills y[frame_outputs[k]]
+  ** onwards with its position (3) and rotation (9, row by row); its
+  ** function writes the same pos and R, the geometric Jacobian J (6 x nq:
+  ** world velocity of the origin over world angular velocity) and the bias
+  ** Jdv = J' qd (6).  NULL arrays when nframes == 0. */
+  int nframes;
+  const char *const *frame_names;
+  const int *frame_outputs;
+  void (*const *frames)(const double *q, const double *qd, const double *p, double *pos,
+                        double *R, double *J, double *Jdv);
 };
 
 #ifdef __cplusplus
