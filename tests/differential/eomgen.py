@@ -168,14 +168,6 @@ class ExprGen:
         if k == 20 and r.random() < 0.3:
             # abs of something that stays away from zero: a smooth function
             return ("call", "abs", [("sub", self.positive(d - 1, allow), num("0.2"))])
-        if k == 20 and r.random() < 0.5:
-            # the branch functions: non-smooth, compared away from their switches
-            f = r.choice(["min", "max", "sign", "step", "clamp"])
-            if f in ("min", "max"):
-                return ("call", f, [self.expr(d, allow), self.expr(d, allow)])
-            if f == "clamp":
-                return ("call", f, [self.expr(d, allow), num("-0.6"), num("0.8")])
-            return ("call", f, [self.expr(d, allow)])
         return self.leaf(allow)
 
 
