@@ -33,7 +33,7 @@ int eom_csv_write_header(FILE *f, const struct eom_model *m) {
   for (int i = 0; i < m->ny; i++) fprintf(f, ",%s", m->output_names[i]);
   fputs(",T,V", f);
   if (m->accel_constrained)
-    for (int k = 0; k < m->nc; k++) fprintf(f, ",lambda%d", k + 1);
+    for (int k = 0; k < m->nc + m->nvc; k++) fprintf(f, ",lambda%d", k + 1);
   fputc('\n', f);
   return ferror(f) ? -1 : 0;
 }
@@ -56,21 +56,21 @@ int eom_csv_write_row(FILE *f, const struct eom_model *m, const double *p, doubl
   if (m->energy) m->energy(x, x + m->nq, p, &T, &V);
   put_number(f, ",", T);
   put_number(f, ",", V);
-  if (m->nc > 0 && m->accel_constrained) {
-    double *qdd = malloc(((size_t)m->nq + (size_t)m->nc + (size_t)m->nu + 1) * sizeof(double));
+  if (m->nc + m->nvc > 0 && m->accel_constrained) {
+    double *qdd = malloc(((size_t)m->nq + (size_t)m->nc + (size_t)m->nvc + (size_t)m->nu + 1) * sizeof(double));
     if (!qdd) {
       if (y != y_small) free(y);
       return -1;
     }
-    double *lambda = qdd + m->nq, *zeros = lambda + m->nc;
+    double *lambda = qdd + m->nq, *zeros = lambda + m->nc + m->nvc;
     if (!u) {
       memset(zeros, 0, ((size_t)m->nu + 1) * sizeof(double));
       u = zeros;
     }
     /* NaN when the saddle-point system is singular there. */
     if (m->accel_constrained(t, x, x + m->nq, u, p, qdd, lambda) != 0)
-      for (int k = 0; k < m->nc; k++) lambda[k] = NAN;
-    for (int k = 0; k < m->nc; k++) put_number(f, ",", lambda[k]);
+      for (int k = 0; k < m->nc + m->nvc; k++) lambda[k] = NAN;
+    for (int k = 0; k < m->nc + m->nvc; k++) put_number(f, ",", lambda[k]);
     free(qdd);
   }
   fputc('\n', f);

@@ -28,7 +28,7 @@ int simctx_init(SimContext *c, const struct eom_model *m, const double *p,
   c->rtol = 1e-8;
   c->atol = 1e-10;
   c->u = alloc_doubles((size_t)m->nu);
-  c->lambda = alloc_doubles((size_t)m->nc);
+  c->lambda = alloc_doubles((size_t)m->nc + (size_t)m->nvc);
   c->jac_b = alloc_doubles((size_t)c->n * (size_t)m->nu);
   c->fd_x = alloc_doubles((size_t)c->n);
   c->fd_f1 = alloc_doubles((size_t)c->n);
@@ -69,7 +69,8 @@ static void load_inputs(SimContext *c, double t) {
 static int model_accel(const struct eom_model *m, const double *p, double t, const double *x,
                        const double *u, double *qdd, double *lambda) {
   const double *q = x, *qd = x + m->nq;
-  if (m->nc > 0 && m->accel_constrained) return m->accel_constrained(t, q, qd, u, p, qdd, lambda);
+  if (m->nc + m->nvc > 0 && m->accel_constrained)
+    return m->accel_constrained(t, q, qd, u, p, qdd, lambda);
   return m->accel(t, q, qd, u, p, qdd);
 }
 
@@ -81,7 +82,7 @@ int sim_rhs(SimContext *c, double t, const double *x, double *xdot) {
   memcpy(xdot, x + nq, (size_t)nq * sizeof(double));
   int bad = model_accel(m, c->p, t, x, c->u, xdot + nq, c->lambda);
   /* accel_constrained: 1 for M, 2 for G M^-1 G^T (dependent constraints). */
-  if (bad == 2 && m->nc > 0)
+  if (bad == 2 && m->nc + m->nvc > 0)
     return sim_fail(c, EOM_ESINGULAR, t, x,
                     "the constraints are dependent here (G M^-1 G^T is singular)");
   if (bad != 0) return sim_fail(c, EOM_EMASS, t, x, "the mass matrix is not positive definite");
@@ -92,7 +93,7 @@ int sim_rhs(SimContext *c, double t, const double *x, double *xdot) {
 int sim_jacobian(SimContext *c, double t, const double *x, double *A) {
   const struct eom_model *m = c->m;
   int n = c->n;
-  if (m->jacobian && m->nc == 0 && !c->jacobian_by_fd) {
+  if (m->jacobian && m->nc + m->nvc == 0 && !c->jacobian_by_fd) {
     load_inputs(c, t);
     m->jacobian(t, x, c->u, c->p, A, c->jac_b);
     return EOM_OK;
@@ -117,7 +118,7 @@ int sim_jacobian(SimContext *c, double t, const double *x, double *A) {
 int sim_distrust_jacobian(SimContext *c, double t, const double *x) {
   const struct eom_model *m = c->m;
   int n = c->n;
-  if (!m->jacobian || m->nc > 0 || c->jacobian_by_fd) return 0;
+  if (!m->jacobian || m->nc + m->nvc > 0 || c->jacobian_by_fd) return 0;
   double *a = malloc(2 * (size_t)n * (size_t)n * sizeof(double));
   if (!a) return 0;
   double *d = a + (size_t)n * n, diff = 0, scale = 1e-300;
@@ -161,8 +162,8 @@ int eom_dynamics(const struct eom_model *m, const double *p, double t, const dou
   double lambda_small[16];
   double *lambda = lambda_small, *zero_u = NULL;
   assert(m && x && xdot);
-  if (m->nc > (int)(sizeof lambda_small / sizeof lambda_small[0])) {
-    lambda = malloc((size_t)m->nc * sizeof(double));
+  if (m->nc + m->nvc > (int)(sizeof lambda_small / sizeof lambda_small[0])) {
+    lambda = malloc(((size_t)m->nc + (size_t)m->nvc) * sizeof(double));
     if (!lambda) return EOM_ENOMEM;
   }
   if (!u && m->nu > 0) {

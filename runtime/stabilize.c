@@ -19,6 +19,12 @@
 **    projection puts the user's initial guess on the constraints before
 **    the run.
 **
+** Velocity constraints A(t, q) q' = b(t, q) (nvc rows) only constrain the
+** rates: they join the rows of G in the rate projection (minimum-norm
+** change of q' onto [G; A] q' = [-dphi/dt; b]) and in the Baumgarte term,
+** where their error e = A q' - b gets the first-order part: e' = -2 alpha e
+** (it has no position part to bring back).  The positions stay free.
+**
 ** Constraints are read through the descriptor's constraint_at(t, ...), so
 ** time-dependent ones are kept too.  A hand-written descriptor without it
 ** falls back to the time-free constraint(); a constraint that depends on t
@@ -109,15 +115,17 @@ static void subtract_min_norm(int nq, int nc, const double *G, const double *S, 
 
 int stabilize_init(SimContext *c, const struct eom_sim_options *o, const double *x) {
   const struct eom_model *m = c->m;
-  int nq = m->nq, nc = m->nc;
+  int nq = m->nq, nc = m->nc, nt = m->nc + m->nvc;
   c->cs_active = 0;
-  if (nc <= 0 || (!m->constraint_at && (!m->constraint || !m->constraint_jacobian))) return EOM_OK;
-  size_t size = (size_t)nq * nq + 3 * (size_t)nc * nq + (size_t)nc * nc + 4 * (size_t)nc +
-                3 * (size_t)nq + (size_t)c->n;
+  if (nt <= 0) return EOM_OK;
+  if (nc > 0 && !m->constraint_at && (!m->constraint || !m->constraint_jacobian)) return EOM_OK;
+  if (m->nvc > 0 && !m->velocity_constraint) return EOM_OK;
+  size_t size = (size_t)nq * nq + 3 * (size_t)nt * nq + (size_t)nt * nt + 4 * (size_t)nt +
+                2 * (size_t)m->nvc + 3 * (size_t)nq + (size_t)c->n;
   c->cs_work = calloc(size + (size_t)c->n, sizeof(double));
   if (!c->cs_work) return EOM_ENOMEM;
   c->cs_sample = c->cs_work + size;
-  if (!m->constraint_at) { /* time-free only: a time-dependent one is NaN here */
+  if (nc > 0 && !m->constraint_at) { /* time-free only: a time-dependent one is NaN here */
     m->constraint(x, c->p, c->cs_work);
     for (int k = 0; k < nc; k++)
       if (isnan(c->cs_work[k])) return EOM_OK;
@@ -130,25 +138,28 @@ int stabilize_init(SimContext *c, const struct eom_sim_options *o, const double 
   return EOM_OK;
 }
 
-/* Scratch of the stabilizer: M (nq x nq), G, Y and G_spare (nc x nq),
-** S (nc x nc), phi, phi_t, r, mu (nc), dq, q_old, y (nq), a state copy (n). */
+/* Scratch of the stabilizer, with nt = nc + nvc rows: M (nq x nq), G, Y
+** and G_spare (nt x nq), S (nt x nt), phi, phi_t, r, mu (nt), b and gamma
+** of the velocity constraints (nvc), dq, q_old, y (nq), a state copy (n). */
 typedef struct Scratch {
-  double *M, *G, *Y, *G_spare, *S, *phi, *phi_t, *r, *mu, *dq, *q_old, *y, *x;
+  double *M, *G, *Y, *G_spare, *S, *phi, *phi_t, *r, *mu, *vb, *vgamma, *dq, *q_old, *y, *x;
 } Scratch;
 
 static Scratch scratch(const SimContext *c) {
-  int nq = c->m->nq, nc = c->m->nc;
+  int nq = c->m->nq, nt = c->m->nc + c->m->nvc;
   Scratch s;
   s.M = c->cs_work;
   s.G = s.M + (size_t)nq * nq;
-  s.Y = s.G + (size_t)nc * nq;
-  s.G_spare = s.Y + (size_t)nc * nq;
-  s.S = s.G_spare + (size_t)nc * nq;
-  s.phi = s.S + (size_t)nc * nc;
-  s.phi_t = s.phi + nc;
-  s.r = s.phi_t + nc;
-  s.mu = s.r + nc;
-  s.dq = s.mu + nc;
+  s.Y = s.G + (size_t)nt * nq;
+  s.G_spare = s.Y + (size_t)nt * nq;
+  s.S = s.G_spare + (size_t)nt * nq;
+  s.phi = s.S + (size_t)nt * nt;
+  s.phi_t = s.phi + nt;
+  s.r = s.phi_t + nt;
+  s.mu = s.r + nt;
+  s.vb = s.mu + nt;
+  s.vgamma = s.vb + c->m->nvc;
+  s.dq = s.vgamma + c->m->nvc;
   s.q_old = s.dq + nq;
   s.y = s.q_old + nq;
   s.x = s.y + nq;
@@ -169,18 +180,38 @@ static void constraints(const SimContext *c, double t, const double *q, double *
   if (phi_t) memset(phi_t, 0, (size_t)m->nc * sizeof(double));
 }
 
+/* The rows that constrain the rates at (t, q, q'): H = [G; A] (nt x nq)
+** and the residual e = [G q' + dphi/dt; A q' - b] (nt); phi (nc) too. */
+static void rate_rows(const SimContext *c, double t, const double *q, const double *qd,
+                      double *H, double *e, double *phi) {
+  const struct eom_model *m = c->m;
+  int nq = m->nq, nc = m->nc, nvc = m->nvc;
+  Scratch s = scratch(c);
+  if (nc > 0) constraints(c, t, q, phi, H, s.phi_t);
+  if (nvc > 0) m->velocity_constraint(t, q, qd, c->p, H + (size_t)nc * nq, s.vb, s.vgamma);
+  for (int k = 0; k < nc + nvc; k++) {
+    double v = k < nc ? s.phi_t[k] : -s.vb[k - nc];
+    for (int i = 0; i < nq; i++) v += H[k * nq + i] * qd[i];
+    e[k] = v;
+  }
+}
+
 /* Gauss–Newton on phi(q, t) = 0 from q, then the rates onto
-** G q' + dphi/dt = 0.
+** G q' + dphi/dt = 0 and A q' = b.
 ** Returns EOM_OK, EOM_ENEWTON (no convergence within max_iter) or
 ** EOM_ESINGULAR (G loses rank); *res and *worst give max|phi| and the
 ** equation where it is largest. */
 static int project(SimContext *c, double t, double *x, int max_iter, double *res, int *worst) {
   const struct eom_model *m = c->m;
-  int nq = m->nq, nc = m->nc;
+  int nq = m->nq, nc = m->nc, nt = m->nc + m->nvc;
   Scratch s = scratch(c);
   double *q = x, *qd = x + nq;
-  constraints(c, t, q, s.phi, NULL, NULL);
-  double r = max_abs(nc, s.phi, worst);
+  double r = 0;
+  *worst = 0;
+  if (nc > 0) {
+    constraints(c, t, q, s.phi, NULL, NULL);
+    r = max_abs(nc, s.phi, worst);
+  }
   int converged = r <= c->cs_tol;
   for (int it = 0; !converged && it < max_iter; it++) {
     if (!isfinite(r)) break;
@@ -220,15 +251,11 @@ static int project(SimContext *c, double t, double *x, int max_iter, double *res
   }
   *res = r;
   if (!converged) return EOM_ENEWTON;
-  /* Rates: the minimum-norm change that makes phi' = G q' + dphi/dt = 0. */
-  constraints(c, t, q, s.phi, s.G, s.phi_t);
-  if (factor_ggt(nq, nc, s.G, s.S) != 0) return EOM_ESINGULAR;
-  for (int k = 0; k < nc; k++) {
-    double v = s.phi_t[k];
-    for (int i = 0; i < nq; i++) v += s.G[k * nq + i] * qd[i];
-    s.r[k] = v;
-  }
-  subtract_min_norm(nq, nc, s.G, s.S, s.r, qd);
+  /* Rates: the minimum-norm change that makes phi' = G q' + dphi/dt = 0
+  ** and A q' = b (A, b do not depend on q', so one step is exact). */
+  rate_rows(c, t, q, qd, s.G, s.r, s.phi);
+  if (factor_ggt(nq, nt, s.G, s.S) != 0) return EOM_ESINGULAR;
+  subtract_min_norm(nq, nt, s.G, s.S, s.r, qd);
   return EOM_OK;
 }
 
@@ -268,17 +295,15 @@ int stabilize_sample(SimContext *c, double t, const double *x, double *out) {
 
 int stabilize_baumgarte(SimContext *c, double t, const double *x, double *qdd) {
   const struct eom_model *m = c->m;
-  int nq = m->nq, nc = m->nc;
+  int nq = m->nq, nc = m->nc + m->nvc;
   if (!c->cs_active || (c->cs_alpha == 0 && c->cs_beta == 0)) return EOM_OK;
   Scratch s = scratch(c);
   const double *q = x, *qd = x + nq;
-  constraints(c, t, q, s.phi, s.G, s.phi_t);
-  /* delta = -2 alpha phi' - beta² phi with phi' = G q' + dphi/dt */
-  for (int k = 0; k < nc; k++) {
-    double v = s.phi_t[k];
-    for (int i = 0; i < nq; i++) v += s.G[k * nq + i] * qd[i];
-    s.mu[k] = -2 * c->cs_alpha * v - c->cs_beta * c->cs_beta * s.phi[k];
-  }
+  rate_rows(c, t, q, qd, s.G, s.mu, s.phi);
+  /* delta = -2 alpha phi' - beta² phi with phi' = G q' + dphi/dt; for a
+  ** velocity constraint -2 alpha (A q' - b) */
+  for (int k = 0; k < nc; k++)
+    s.mu[k] = -2 * c->cs_alpha * s.mu[k] - (k < m->nc ? c->cs_beta * c->cs_beta * s.phi[k] : 0);
   m->mass(q, c->p, s.M);
   if (cholesky(nq, s.M) != 0)
     return sim_fail(c, EOM_EMASS, t, x, "the mass matrix is not positive definite");

@@ -32,9 +32,6 @@
 #define BUILDDIR "."
 #endif
 
-static const char *eomc(void) { return env_or("EOMC", BUILDDIR "/eomc"); }
-static const char *srcdir(void) { return env_or("SRCDIR", SRCDIR); }
-static const char *cc(void) { return env_or("CC", "cc"); }
 
 /* ------------------------------------------------------------------ the driver */
 

@@ -13,8 +13,6 @@
 
 #include "testutil.h"
 
-static const char *eomc(void) { return env_or("EOMC", BUILDDIR "/eomc"); }
-static const char *srcdir(void) { return env_or("SRCDIR", SRCDIR); }
 
 static RunResult run2(const char *verb, const char *arg) {
   char *argv[] = {(char *)eomc(), (char *)verb, (char *)arg, NULL};

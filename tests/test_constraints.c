@@ -20,13 +20,12 @@
 static const double PI = 3.141592653589793238462643383279502884;
 static char *cache_dir, *work_dir;
 
-static const char *eomc(void) { return env_or("EOMC", "./eomc"); }
 
 static char *example(const char *name) {
   static char buf[4][4096];
   static int k;
   k = (k + 1) % 4;
-  snprintf(buf[k], sizeof buf[k], "%s/examples/%s", env_or("SRCDIR", "."), name);
+  snprintf(buf[k], sizeof buf[k], "%s/examples/%s", srcdir(), name);
   return buf[k];
 }
 
@@ -478,7 +477,7 @@ static char *run_driver(const char *model, const char *stem, const char *driver)
   run_free(&r);
   char *drv = write_file(work_dir, "drv.c", driver, strlen(driver));
   char inc[4200], dinc[4200], csrc[4200], exe[4200];
-  snprintf(inc, sizeof inc, "-I%s/include", env_or("SRCDIR", "."));
+  snprintf(inc, sizeof inc, "-I%s/include", srcdir());
   snprintf(dinc, sizeof dinc, "-I%s", work_dir);
   snprintf(csrc, sizeof csrc, "%s/%s.c", work_dir, stem);
   snprintf(exe, sizeof exe, "%s/drv", work_dir);

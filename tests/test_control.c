@@ -25,9 +25,6 @@
 #define BUILDDIR "."
 #endif
 
-static const char *eomc(void) { return env_or("EOMC", BUILDDIR "/eomc"); }
-static const char *srcdir(void) { return env_or("SRCDIR", SRCDIR); }
-static const char *cc(void) { return env_or("CC", "cc"); }
 
 static char *model_path(const char *rel) {
   char *p = malloc(strlen(srcdir()) + strlen(rel) + 2);

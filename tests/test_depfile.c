@@ -103,18 +103,6 @@ static time_t mtime_of(const char *path) {
   return st.st_mtime;
 }
 
-/* Number of entries in dir besides . and .. */
-static int count_entries(const char *dir) {
-  DIR *d = opendir(dir);
-  struct dirent *e;
-  int n = 0;
-  ck_assert_ptr_nonnull(d);
-  while ((e = readdir(d)) != NULL)
-    if (strcmp(e->d_name, ".") != 0 && strcmp(e->d_name, "..") != 0) n++;
-  closedir(d);
-  return n;
-}
-
 static char *path_in(const char *dir, const char *name) {
   char *p = malloc(strlen(dir) + strlen(name) + 2);
   sprintf(p, "%s/%s", dir, name);

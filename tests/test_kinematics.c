@@ -25,17 +25,6 @@
 #include <string.h>
 #include "testutil.h"
 
-#ifndef SRCDIR
-#define SRCDIR "."
-#endif
-#ifndef BUILDDIR
-#define BUILDDIR "."
-#endif
-
-static const char *eomc(void) { return env_or("EOMC", BUILDDIR "/eomc"); }
-static const char *srcdir(void) { return env_or("SRCDIR", SRCDIR); }
-static const char *cc(void) { return env_or("CC", "cc"); }
-
 static const char driver_src[] =
   "#include <stdio.h>\n#include <math.h>\n#include <eom/model.h>\n"
   "extern const struct eom_model MODEL;\n"

@@ -1035,13 +1035,22 @@ START_TEST(linearize_moving_state) {
 }
 END_TEST
 
+#ifdef HAVE_GSL
+/* The checks against GSL, run by tests/gsl.test (`test_runtime gsl`). */
+static Suite *gsl_suite(void) {
+  Suite *s = suite_create("runtime-gsl");
+  TCase *tc = tcase_create("gsl");
+  tcase_set_timeout(tc, 60);
+  tcase_add_loop_test(tc, pendulum_period_large_amplitude, 0, 3);
+  suite_add_tcase(s, tc);
+  return s;
+}
+#endif
+
 static Suite *runtime_suite(void) {
   Suite *s = suite_create("runtime");
   TCase *tc = tcase_create("integrators");
   tcase_set_timeout(tc, 60);
-#ifdef HAVE_GSL
-  tcase_add_loop_test(tc, pendulum_period_large_amplitude, 0, 3);
-#endif
   tcase_add_test(tc, dopri_dense_output);
   tcase_add_test(tc, kepler_period_and_angular_momentum);
   tcase_add_test(tc, integrator_orders);
@@ -1083,8 +1092,24 @@ static Suite *runtime_suite(void) {
   return s;
 }
 
-int main(void) {
-  SRunner *sr = srunner_create(runtime_suite());
+/* No argument: the suite.  `gsl`: the checks against GSL, or exit 77
+** (automake's SKIP) when configure found no GSL. */
+int main(int argc, char **argv) {
+  int gsl = argc == 2 && strcmp(argv[1], "gsl") == 0;
+  if (argc > 2 || (argc == 2 && !gsl)) {
+    fprintf(stderr, "usage: %s [gsl]\n", argv[0]);
+    return EXIT_FAILURE;
+  }
+#ifdef HAVE_GSL
+  Suite *suite = gsl ? gsl_suite() : runtime_suite();
+#else
+  if (gsl) {
+    puts("SKIP: configure found no GSL (Debian: libgsl-dev)");
+    return 77;
+  }
+  Suite *suite = runtime_suite();
+#endif
+  SRunner *sr = srunner_create(suite);
   srunner_run_all(sr, CK_NORMAL);
   int failed = srunner_ntests_failed(sr);
   srunner_free(sr);

@@ -17,11 +17,10 @@
 static const double PI = 3.141592653589793238462643383279502884;
 static char *cache_dir, *work_dir;
 
-static const char *eomc(void) { return env_or("EOMC", "./eomc"); }
 
 static char *model_path(const char *name) {
   static char buf[4096];
-  snprintf(buf, sizeof buf, "%s/tests/sim/%s", env_or("SRCDIR", "."), name);
+  snprintf(buf, sizeof buf, "%s/tests/sim/%s", srcdir(), name);
   return buf;
 }
 
@@ -200,11 +199,6 @@ END_TEST
 
 /* ------------------------------------------------------------- sim */
 
-static int count_lines(const char *s) {
-  int n = 0;
-  for (; *s; s++) n += *s == '\n';
-  return n;
-}
 
 START_TEST(sim_csv_columns) {
   char *out = work_path("pair.csv");

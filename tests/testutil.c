@@ -1,11 +1,14 @@
 /*
-** testutil.c — run programs and handle temporary files for end-to-end tests.
+** testutil.c — what the end-to-end tests share: run programs, handle
+** temporary files, name the eomc, sources and C compiler under test, and
+** the main() of a suite with its two passes (ordinary and clang).
 **
 ** Output is captured through temporary files rather than pipes so a chatty
 ** child can never deadlock the test.
 */
 #include "testutil.h"
 
+#include <assert.h>
 #include <dirent.h>
 #include <fcntl.h>
 #include <stdio.h>
@@ -14,6 +17,63 @@
 #include <sys/stat.h>
 #include <sys/wait.h>
 #include <unistd.h>
+
+#ifndef SRCDIR
+#define SRCDIR "."
+#endif
+#ifndef BUILDDIR
+#define BUILDDIR "."
+#endif
+
+static int the_clang_pass;
+
+const char *eomc(void) { return env_or("EOMC", BUILDDIR "/eomc"); }
+const char *srcdir(void) { return env_or("SRCDIR", SRCDIR); }
+int clang_pass(void) { return the_clang_pass; }
+
+const char *cc(void) {
+  if (!the_clang_pass) return env_or("CC", "cc");
+  const char *clang = getenv("CLANG");
+  assert(clang && *clang); /* run_test_main skips the pass without one */
+  return clang;
+}
+
+int run_test_main(int argc, char **argv, Suite *(*make_suite)(void)) {
+  if (argc > 2 || (argc == 2 && strcmp(argv[1], "clang") != 0)) {
+    fprintf(stderr, "usage: %s [clang]\n", argv[0]);
+    return EXIT_FAILURE;
+  }
+  if (argc == 2) {
+    const char *clang = getenv("CLANG");
+    if (!clang || !*clang) {
+      printf("SKIP: configure found no clang ($CLANG is empty)\n");
+      return TEST_SKIPPED;
+    }
+    the_clang_pass = 1;
+  }
+  SRunner *sr = srunner_create(make_suite());
+  srunner_run_all(sr, CK_NORMAL);
+  int failed = srunner_ntests_failed(sr);
+  srunner_free(sr);
+  return failed ? EXIT_FAILURE : EXIT_SUCCESS;
+}
+
+int count_lines(const char *s) {
+  int n = 0;
+  for (; *s; s++) n += *s == '\n';
+  return n;
+}
+
+int count_entries(const char *dir) {
+  DIR *d = opendir(dir);
+  if (!d) return -1;
+  int n = 0;
+  struct dirent *e;
+  while ((e = readdir(d)))
+    if (strcmp(e->d_name, ".") != 0 && strcmp(e->d_name, "..") != 0) n++;
+  closedir(d);
+  return n;
+}
 
 const char *env_or(const char *name, const char *fallback) {
   const char *v = getenv(name);

@@ -5,7 +5,34 @@
 #ifndef EOMC_TESTUTIL_H
 #define EOMC_TESTUTIL_H
 
+#include <check.h>
 #include <stddef.h>
+
+/* Exit status of a test program that lacks a tool: automake's SKIP. */
+#define TEST_SKIPPED 77
+
+/* The eomc under test ($EOMC, else the build tree's), the source tree
+** ($SRCDIR, else the configured one). */
+const char *eomc(void);
+const char *srcdir(void);
+
+/* A test program runs one of two passes.  The ordinary pass compiles
+** generated code with $CC (default cc); the clang pass (argument `clang`,
+** run by tests/clang.test) compiles it with the clang configure found. */
+int clang_pass(void);
+/* The C compiler of this pass. */
+const char *cc(void);
+
+/* main() of a Check program: the argument `clang` selects the clang pass
+** (exit TEST_SKIPPED, saying why, when configure found no clang); then
+** make_suite() builds the suite of the pass and it runs.  EXIT_SUCCESS,
+** EXIT_FAILURE or TEST_SKIPPED. */
+int run_test_main(int argc, char **argv, Suite *(*make_suite)(void));
+
+/* Lines (newlines) in s; entries of a directory besides . and .., -1 when
+** it cannot be read. */
+int count_lines(const char *s);
+int count_entries(const char *dir);
 
 typedef struct RunResult {
   int status;        /* exit status, or 128 + signal number */

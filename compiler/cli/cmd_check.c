@@ -9,6 +9,7 @@
 #include "cli/cmd.h"
 #include "cli/conserved_report.h"
 #include "cli/frontend.h"
+#include "front/rate_degree.h"
 #include "sym/symbolic.h"
 #include "front/units.h"
 
@@ -128,7 +129,29 @@ static void print_summary(const Model *m, const char *path, FILE *out) {
     fputc('\n', out);
   }
   if (m->nconstraints) fprintf(out, "constraint equations: %d\n", m->nconstraints);
+  if (m->nvconstraints)
+    fprintf(out, "velocity constraint equations: %d (A(t, q) q' = b(t, q))\n", m->nvconstraints);
   fprintf(out, "units: %s\n", m->has_units ? "checked" : "not checked (not every coordinate and param has one)");
+}
+
+/* Velocity constraints that pass Frobenius' test could be written as
+** position constraints (fewer states to keep, no drift of the positions):
+** a note at the first of them.  They stay as they are. */
+static void note_integrable(Frontend *fe) {
+  const Model *m = &fe->model;
+  int printed = fe->diag.nmsgs;
+  for (int i = 0; i < m->nterms; i++) {
+    const Stmt *s = m->terms[i];
+    SrcLoc where;
+    if (s->kind != ST_CONSTRAINT) continue;
+    if (rate_degree(s->e[0], &where) == RATES_NONE && rate_degree(s->e[1], &where) == RATES_NONE)
+      continue;
+    diag_note(&fe->diag, s->loc,
+              "the velocity constraints are integrable (they pass Frobenius' test): they could be "
+              "written as position constraints; they are kept as velocity constraints");
+    break;
+  }
+  diag_print_from(&fe->diag, printed, stderr);
 }
 
 /* Derive the equations of motion and report the M/C/g split and the
@@ -144,6 +167,7 @@ static int print_structure(Frontend *fe, FILE *out) {
     report_structure(&fe->model, &sys, out);
     fflush(out);
     failed = frontend_check_inertia(fe, &sys, DIAG_ERROR) != 0;
+    if (sys.vc_integrable) note_integrable(fe);
   }
   sym_free(&sys);
   return failed;

@@ -1196,19 +1196,55 @@ static void emit_constraint_at(Emitter *E) {
   fputs("}\n\n", E->out);
 }
 
+/* Velocity constraints A(t, q) qd = b(t, q) and gamma(t, q, qd) with
+** A qdd = gamma (their time derivative): one function, the three share
+** most terms. */
+static void emit_velocity_constraint(Emitter *E) {
+  const Param ps[] = {P_T, P_Q, P_QD, P_P, {-1, "double *A", "A"}, {-1, "double *b", "b"},
+                      {-1, "double *gamma", "gamma"}};
+  const EomSystem *s = E->s;
+  int nvc = s->nvc, nq = s->nq;
+  char lhs[64];
+  fn_reset(E);
+  add_roots(E, s->vconstraint_A, nvc * nq);
+  add_roots(E, s->vconstraint_b, nvc);
+  add_roots(E, s->vconstraint_gamma, nvc);
+  fn_analyse(E);
+  assert(!needs_missing(E, VAR_BIT(IRV_T) | VAR_BIT(IRV_Q) | VAR_BIT(IRV_QD) | VAR_BIT(IRV_P)));
+  emit_signature(E, "void", "velocity_constraint", ps, NPARAMS(ps), 0);
+  emit_unused(E, ps, NPARAMS(ps));
+  emit_temps(E);
+  for (int i = 0; i < nvc * nq; i++) {
+    snprintf(lhs, sizeof lhs, "A[%d]", i);
+    emit_assign(E, lhs, s->vconstraint_A[i]);
+  }
+  for (int i = 0; i < nvc; i++) {
+    snprintf(lhs, sizeof lhs, "b[%d]", i);
+    emit_assign(E, lhs, s->vconstraint_b[i]);
+  }
+  for (int i = 0; i < nvc; i++) {
+    snprintf(lhs, sizeof lhs, "gamma[%d]", i);
+    emit_assign(E, lhs, s->vconstraint_gamma[i]);
+  }
+  fputs("}\n\n", E->out);
+}
+
 /* M qdd = f + G^T lambda with G qdd = gamma: qdd = M^-1 f + Y lambda where
-** Y = M^-1 G^T, and (G Y) lambda = gamma - G M^-1 f (a small dense system). */
+** Y = M^-1 G^T, and (G Y) lambda = gamma - G M^-1 f (a small dense system).
+** G stacks the position constraints' dphi/dq and the velocity ones' A. */
 static void emit_accel_constrained(Emitter *E) {
   const Param ps[] = {P_T, P_Q, P_QD, P_U, P_P, {-1, "double *qdd", "qdd"}, {-1, "double *lambda", "lambda"}};
   FILE *o = E->out;
   const EomSystem *s = E->s;
-  int nq = s->nq, nc = s->nc;
+  int nq = s->nq, np = s->nc, nvc = s->nvc, nc = np + nvc;
   char lhs[64];
   fn_reset(E);
   add_lower(E, s->mass);
   add_roots(E, s->forcing, nq);
-  add_roots(E, s->constraint_jacobian, nc * nq);
-  add_roots(E, s->constraint_gamma, nc);
+  add_roots(E, s->constraint_jacobian, np * nq);
+  add_roots(E, s->constraint_gamma, np);
+  add_roots(E, s->vconstraint_A, nvc * nq);
+  add_roots(E, s->vconstraint_gamma, nvc);
   fn_analyse(E);
   assert(!needs_missing(E, VARS_STATE));
   emit_signature(E, "int", "accel_constrained", ps, NPARAMS(ps), 0);
@@ -1223,13 +1259,21 @@ static void emit_accel_constrained(Emitter *E) {
     emit_assign(E, lhs, s->forcing[i]);
   }
   fprintf(o, "  %s_ldl_solve(a, acc);\n", E->P);
-  for (int i = 0; i < nc * nq; i++) {
+  for (int i = 0; i < np * nq; i++) {
     snprintf(lhs, sizeof lhs, "G[%d]", i);
     emit_assign(E, lhs, s->constraint_jacobian[i]);
   }
-  for (int i = 0; i < nc; i++) {
+  for (int i = 0; i < nvc * nq; i++) {
+    snprintf(lhs, sizeof lhs, "G[%d]", np * nq + i);
+    emit_assign(E, lhs, s->vconstraint_A[i]);
+  }
+  for (int i = 0; i < np; i++) {
     snprintf(lhs, sizeof lhs, "r[%d]", i);
     emit_assign(E, lhs, s->constraint_gamma[i]);
+  }
+  for (int i = 0; i < nvc; i++) {
+    snprintf(lhs, sizeof lhs, "r[%d]", np + i);
+    emit_assign(E, lhs, s->vconstraint_gamma[i]);
   }
   fprintf(o,
     "  for (k = 0; k < %d; k++) {   /* row k of Y^T: M^-1 times row k of G */\n"
@@ -1366,7 +1410,13 @@ static void emit_header(Emitter *E) {
   fprintf(o, "#define %s_NU %d   /* inputs */\n", P, s->nu);
   fprintf(o, "#define %s_NP %d   /* parameters */\n", P, s->np);
   fprintf(o, "#define %s_NY %d   /* outputs */\n", P, s->ny);
-  fprintf(o, "#define %s_NC %d   /* constraints */\n\n", P, s->nc);
+  if (s->nvc) {
+    fprintf(o, "#define %s_NC %d   /* position constraints */\n", P, s->nc);
+    fprintf(o, "#define %s_NVC %d   /* velocity constraints (multipliers after the NC) */\n\n", P,
+            s->nvc);
+  } else {
+    fprintf(o, "#define %s_NC %d   /* constraints */\n\n", P, s->nc);
+  }
   /* Index macros, e.g. p[P_P_mass], and the meaning of every slot. */
   static const struct { const char *tag, *arr, *what; } kinds[] = {
     {"Q", "q", "coordinates (qd, qdd: their rates)"}, {"P", "p", "parameters (= default)"},
@@ -1424,6 +1474,25 @@ static void emit_header(Emitter *E) {
       "int %s_accel_constrained(double t, const double *q, const double *qd, const double *u,\n"
       "  const double *p, double *qdd, double *lambda);\n",
       P, P, P, P);
+  if (s->nvc)
+    fprintf(o,
+      "/* The velocity constraints A(t, q) qd = b(t, q) (NVC x NQ and NVC), one\n"
+      "** row per entry of each `constraint` that mentions rates (source order),\n"
+      "** and gamma (NVC) with A qdd = gamma, their time derivative. */\n"
+      "void %s_velocity_constraint(double t, const double *q, const double *qd, const double *p,\n"
+      "  double *A, double *b, double *gamma);\n", P);
+  if (s->nvc && !s->nc)
+    fprintf(o,
+      "/* M qdd = f + A^T lambda with A qdd = gamma: the generalized force of\n"
+      "** the velocity constraints is +A^T lambda (NVC).  Returns 1 when M, 2\n"
+      "** when A M^-1 A^T is not positive definite (dependent constraints). */\n"
+      "int %s_accel_constrained(double t, const double *q, const double *qd, const double *u,\n"
+      "  const double *p, double *qdd, double *lambda);\n", P);
+  else if (s->nvc)
+    fprintf(o,
+      "/* With velocity constraints too, accel_constrained stacks [G; A]: lambda\n"
+      "** has NC + NVC entries, the velocity constraints' after the NC, and the\n"
+      "** generalized constraint force is +[G; A]^T lambda. */\n");
   emit_control_prototypes(o, m, s, P);
   emit_kinematics_prototypes(o, m, s, P);
   fprintf(o, "\n#ifndef EOM_NO_DESCRIPTOR\nstruct eom_model;\nextern const struct eom_model %s_model;\n#endif\n", P);
@@ -1618,6 +1687,8 @@ static void emit_descriptor(Emitter *E) {
           P, P, P, P, P, P, P, P);
   if (s->nc)
     fprintf(o, "  %s_constraint, %s_constraint_jacobian, %s_accel_constrained,\n", P, P, P);
+  else if (s->nvc)
+    fprintf(o, "  0, 0, %s_accel_constrained,\n", P);
   else
     fprintf(o, "  0, 0, 0,\n");
   emit_control_fields(o, s, P);
@@ -1625,6 +1696,8 @@ static void emit_descriptor(Emitter *E) {
   if (s->nc) fprintf(o, "  %s_constraint_at,\n", P);
   else fputs("  0,\n", o);
   emit_kinematics_fields(o, s, P);
+  if (s->nvc) fprintf(o, "  %d, %s_velocity_constraint,\n", s->nvc, P);
+  else fputs("  0, 0,\n", o);
   fprintf(o, "};\n#endif\n");
   free(q0);
   free(qd0);
@@ -1649,8 +1722,9 @@ static void emit_source(Emitter *E) {
     emit_constraint(E);
     emit_constraint_jacobian(E);
     emit_constraint_at(E);
-    emit_accel_constrained(E);
   }
+  if (E->s->nvc) emit_velocity_constraint(E);
+  if (E->s->nc + E->s->nvc) emit_accel_constrained(E);
   PlainFunction fns[EMIT_CONTROL_MAX_FUNCTIONS];
   int nfns = emit_control_functions(E->s, fns);
   for (int k = 0; k < nfns; k++)

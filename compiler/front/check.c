@@ -15,6 +15,7 @@
 ** once per statement.
 */
 #include "front/check.h"
+#include "front/rate_degree.h"
 
 #include "front/builtins.h"
 
@@ -124,7 +125,7 @@ typedef struct Checker {
   size_t letcap;
   PtrVec identify;
   Stmt *gravity;
-  int nconstraints;
+  int nconstraints, nvconstraints;
   int has_energy, has_coord_stmt;
   /* Undefined names already reported in the current statement. */
   const char *undefined[16];
@@ -832,14 +833,21 @@ static void check_constraint(Checker *c, Stmt *s) {
     return;
   }
   Info r = info_merge(a, b, a.shape);
-  if (r.order >= 1) {
-    diag_error(c->d, s->loc, "a constraint cannot use rates: only holonomic constraints (among "
-               "coordinates, params and t) are supported");
-    return;
-  }
   if (r.input) {
     diag_error(c->d, s->loc, "a constraint cannot use input '%s': constraints may depend on "
-               "coordinates, params and t only", r.input->name);
+               "coordinates, their rates, params and t only", r.input->name);
+    return;
+  }
+  if (r.order >= 1) {
+    /* a velocity constraint A(t, q) q' = b(t, q): the rates enter linearly */
+    SrcLoc where = s->loc;
+    for (int k = 0; k < 2; k++)
+      if (rate_degree(s->e[k], &where) == RATES_NONLINEAR) {
+        diag_error(c->d, where, "the rates enter this velocity constraint non-linearly here: "
+                   "a velocity constraint must be linear in the rates (A(t, q) q' = b(t, q))");
+        return;
+      }
+    c->nvconstraints += a.shape.rows * a.shape.cols;
     return;
   }
   c->nconstraints += a.shape.rows * a.shape.cols;
@@ -1032,6 +1040,7 @@ int check_model(Ast *ast, Diag *d, Model *m) {
   m->nterms = c.terms.n;
   m->terms = (Stmt **)arena_copy_ptrs(a, c.terms.v, (size_t)c.terms.n);
   m->nconstraints = c.nconstraints;
+  m->nvconstraints = c.nvconstraints;
   free(c.terms.v);
   free(c.tab);
   free(c.init);

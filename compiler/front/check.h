@@ -25,7 +25,8 @@ typedef struct Model {
   Decl **identify; int nidentify; /* params named by `identify` */
   /* Energy, force, body, gravity and constraint statements in source order. */
   Stmt **terms;    int nterms;
-  int nconstraints;
+  int nconstraints;               /* position constraint equations phi(t, q) = 0 */
+  int nvconstraints;             /* velocity constraint equations A(t, q) q' = b(t, q) */
   double *q0, *qd0;              /* initial state, ncoords each (default 0) */
   int has_units;                 /* every coord and param carries a unit: units were checked */
   int ny;                        /* entries of y: every element of a vector or matrix output */

@@ -20,6 +20,7 @@
 ** gradients line up, which the test catches as well.
 */
 #include "sym/constraint_rank.h"
+#include "front/rate_degree.h"
 
 #include <assert.h>
 #include <math.h>
@@ -36,16 +37,23 @@
 #define INVOLVED_REL 1e-8
 
 
-/* The constraint statement of each equation (vector constraints give several). */
-static void equation_statements(const Model *m, int nc, const Stmt **of) {
-  int k = 0;
-  for (int i = 0; i < m->nterms && k < nc; i++) {
+/* The constraint statement of each equation (vector constraints give
+** several): the nc position ones, then the nvc velocity ones. */
+static void equation_statements(const Model *m, int nc, int nvc, const Stmt **of) {
+  int k = 0, kv = nc;
+  for (int i = 0; i < m->nterms; i++) {
     const Stmt *s = m->terms[i];
     if (s->kind != ST_CONSTRAINT) continue;
+    SrcLoc where;
+    int rates = rate_degree(s->e[0], &where) != RATES_NONE ||
+                rate_degree(s->e[1], &where) != RATES_NONE;
     int count = s->e[0]->shape.rows * s->e[0]->shape.cols;
-    for (int j = 0; j < count && k < nc; j++) of[k++] = s;
+    for (int j = 0; j < count; j++) {
+      if (rates && kv < nc + nvc) of[kv++] = s;
+      else if (!rates && k < nc) of[k++] = s;
+    }
   }
-  assert(k == nc);
+  assert(k == nc && kv == nc + nvc);
 }
 
 /* "x = 0.3, y = -1.2" for the coordinate values q. */
@@ -174,8 +182,9 @@ static void list_lines(const int *lines, int n, char *buf, size_t cap) {
 
 int constraint_rank_check(const Model *m, const EomSystem *s, Diag *d) {
   assert(m && s && d);
-  int nq = s->nq, nc = s->nc, errors = 0;
-  assert(nq == m->ncoords && nc == m->nconstraints);
+  /* rows of G: the position constraints' dphi/dq, then the velocity ones' A */
+  int nq = s->nq, np = s->nc, nvc = s->nvc, nc = np + nvc, errors = 0;
+  assert(nq == m->ncoords && np == m->nconstraints && nvc == m->nvconstraints);
   if (nc == 0) return 0;
   size_t nqc = (size_t)nq * nc;
   double *G = calloc(nqc, sizeof(double));
@@ -194,8 +203,10 @@ int constraint_rank_check(const Model *m, const EomSystem *s, Diag *d) {
   int hi = 0;
   for (size_t i = 0; i < nqc; i++)
     if (s->constraint_jacobian[i] > hi) hi = s->constraint_jacobian[i];
-  for (int k = 0; k < nc; k++)
+  for (int k = 0; k < np; k++)
     if (s->constraint[k] > hi) hi = s->constraint[k];
+  for (size_t i = 0; i < (size_t)nvc * nq; i++)
+    if (s->vconstraint_A[i] > hi) hi = s->vconstraint_A[i];
   v = calloc((size_t)hi + 1, sizeof(double));
   if (!G || !basis || !coef || !comb || !r || !params || !zeros || !of || !lines || !v || !q ||
       !q_old || !phi || !w || !A) {
@@ -218,11 +229,12 @@ int constraint_rank_check(const Model *m, const EomSystem *s, Diag *d) {
   e.vars[IRV_U] = zeros;
   e.vars[IRV_P] = params;
   memcpy(q, m->q0, (size_t)nq * sizeof(double));
-  approach_constraints(&e, phi, G, A, w, q_old);
+  if (np > 0) approach_constraints(&e, phi, G, A, w, q_old);
   eval_at(&e, phi, G);
+  for (size_t i = 0; i < (size_t)nvc * nq; i++) G[(size_t)np * nq + i] = v[s->vconstraint_A[i]];
   for (size_t i = 0; i < nqc; i++)
     if (!isfinite(G[i])) goto out; /* no verdict here; the run reports it */
-  equation_statements(m, nc, of);
+  equation_statements(m, np, nvc, of);
 
   char state[256], which[256];
   describe_state(m, q, state, sizeof state);
@@ -247,6 +259,13 @@ int constraint_rank_check(const Model *m, const EomSystem *s, Diag *d) {
     for (int i = 0; i < nq; i++) norm += r[i] * r[i];
     norm = sqrt(norm);
     const Stmt *st = of[k];
+    if (norm0 == 0 && k >= np) {
+      diag_error(d, st->loc,
+                 "this velocity constraint's rates drop out %s (%s): its matrix A is zero "
+                 "there, so it does not constrain the rates", where, state);
+      errors++;
+      continue;
+    }
     if (norm0 == 0) {
       /* Most often an initial state far from the constraint (a default of
       ** zero): a warning here, and the run's Gauss–Newton start says more. */
@@ -277,14 +296,15 @@ int constraint_rank_check(const Model *m, const EomSystem *s, Diag *d) {
     if (nlines == 1 && lines[0] == st->loc.line)
       diag_error(d, st->loc,
                  "the equations of this constraint are dependent %s (%s): redundant or "
-                 "conflicting constraints (the constraint Jacobian dphi/dq loses rank)",
-                 where, state);
+                 "conflicting constraints (the constraint Jacobian %s loses rank)",
+                 where, state, nvc ? "[dphi/dq; A]" : "dphi/dq");
     else
       diag_error(d, st->loc,
                  "this constraint depends on the constraint%s at line%s %s %s (%s): redundant "
-                 "or conflicting constraints (the constraint Jacobian dphi/dq loses rank); "
+                 "or conflicting constraints (the constraint Jacobian %s loses rank); "
                  "remove one or change the coordinates",
-                 nlines == 1 ? "" : "s", nlines == 1 ? "" : "s", which, where, state);
+                 nlines == 1 ? "" : "s", nlines == 1 ? "" : "s", which, where, state,
+                 nvc ? "[dphi/dq; A]" : "dphi/dq");
     errors++;
   }
 out:

@@ -28,6 +28,7 @@
 */
 #include "sym/symbolic_internal.h"  /* first: wraps the C headers in extern "C" */
 
+#include <algorithm>
 #include <array>
 #include <cassert>
 #include <chrono>
@@ -402,6 +403,7 @@ class Derivation {
   std::vector<Body> bodies_;
   std::vector<std::pair<const Stmt *, Val>> gravity_;
   std::vector<std::pair<const Stmt *, ex>> constraints_;  /* phi = 0, one per entry */
+  std::vector<std::pair<const Stmt *, ex>> vconstraints_;  /* A q' - b = 0, one per entry */
 
   void tick(const char *step);
   ex totald(const ex &e);
@@ -432,13 +434,16 @@ class Derivation {
   void add_force_at(const Stmt *s);
   void add_torque(const Stmt *s);
   void add_constraint(const Stmt *s);
+  void derive_velocity_constraints(std::vector<ex> &A, std::vector<ex> &b, std::vector<ex> &gamma);
+  bool velocity_constraints_integrable(const std::vector<ex> &A, const std::vector<ex> &b);
   bool depends_on_rates(const ex &e);
   void check_no_qdd(const ex &L);
   void check_mass(std::vector<std::vector<ex>> &M);
   bool nonzero_somewhere(const ex &e, const ex &scale);
   void derive_control_quantities(const ex &L, const std::vector<std::vector<ex>> &M,
                                  const std::vector<ex> &dM, const std::vector<ex> &dDdqd,
-                                 const std::vector<ex> &phi, ControlResult *out);
+                                 const std::vector<ex> &phi, const std::vector<ex> &vc_A,
+                                 const std::vector<ex> &vc_b, ControlResult *out);
   /* the `identify` parameters: indices in p, and derivatives in them (made
   ** before any expression, so that the DepCache knows them from the start) */
   std::vector<int> pi_index_;
@@ -1339,10 +1344,111 @@ void Derivation::add_constraint(const Stmt *s) {
   for (int k = 0; k < a.size(); k++) {
     ex phi = a.a[k] - b.a[k];
     if (depends_on_rates(phi))
-      throw SymError{s->loc, "a constraint must not depend on rates (only holonomic "
-                             "constraints are supported)"};
-    constraints_.push_back({s, phi});
+      vconstraints_.push_back({s, unatom(phi)});  /* a velocity constraint */
+    else
+      constraints_.push_back({s, phi});
   }
+}
+
+/* Velocity constraints c(t, q, q') = A q' - b = 0: A = dc/dq', b = -c(q' = 0)
+** and gamma = -(c' at q'' = 0), so that A q'' = gamma.  A must not depend on
+** the rates (the checker names a non-linear term; this is the exact test). */
+void Derivation::derive_velocity_constraints(std::vector<ex> &A, std::vector<ex> &b,
+                                             std::vector<ex> &gamma) {
+  const int nvc = (int)vconstraints_.size(), n = nq_;
+  exmap at_rest, no_accel;
+  for (int i = 0; i < n; i++) at_rest[qd_[i]] = 0, no_accel[qdd_[i]] = 0;
+  Subst zero_qd(at_rest), zero_qdd(no_accel);
+  A.assign((size_t)nvc * n, ex(0));
+  b.assign(nvc, ex(0));
+  gamma.assign(nvc, ex(0));
+  for (int c = 0; c < nvc; c++) {
+    const ex &cv = vconstraints_[c].second;
+    for (int j = 0; j < n; j++) {
+      ex a = dqd_[j](cv);
+      for (int k = 0; k < n; k++)
+        if (!dqd_[k](a).is_zero() && nonzero_somewhere(dqd_[k](a), a))
+          throw SymError{vconstraints_[c].first->loc,
+                         "the rates enter this velocity constraint non-linearly: a velocity "
+                         "constraint must be linear in the rates (A(t, q) q' = b(t, q))"};
+      A[(size_t)c * n + j] = zero_qd(a);
+    }
+    b[c] = -zero_qd(cv);
+    gamma[c] = -zero_qdd(totald(cv));
+    tick("deriving the velocity constraints");
+  }
+}
+
+/* Can the velocity constraints be integrated to position constraints?  By
+** Frobenius' theorem (e.g. Neimark & Fufaev, Dynamics of Nonholonomic
+** Systems, 1972, ch. I) the forms w_k = A_k dq - b_k dt, in the space of
+** (q, t), are integrable exactly when every dw_k vanishes on the vectors X
+** with w(X) = 0: Z^T W_k Z = 0 for a basis Z of the null space of [A, -b],
+** with W_k the curl (dA_kj/dq_i - dA_ki/dq_j, t as coordinate n).  Tested
+** numerically at a few fixed points. */
+bool Derivation::velocity_constraints_integrable(const std::vector<ex> &A,
+                                                 const std::vector<ex> &b) {
+  const int nvc = (int)b.size(), n = nq_, ne = nq_ + 1;
+  auto coef = [&](int k, int j) -> ex { return j < n ? A[(size_t)k * n + j] : -b[k]; };
+  auto d = [&](int i, const ex &e) -> ex { return i < n ? dq_[i](e) : dt_(e); };
+  std::vector<ex> curl((size_t)nvc * ne * ne, ex(0));
+  for (int k = 0; k < nvc; k++)
+    for (int i = 0; i < ne; i++)
+      for (int j = i + 1; j < ne; j++) {
+        ex w = d(i, coef(k, j)) - d(j, coef(k, i));
+        curl[((size_t)k * ne + i) * ne + j] = w;
+        curl[((size_t)k * ne + j) * ne + i] = -w;
+      }
+  uint64_t state = 0x9e3779b97f4a7c15ULL;
+  for (int trial = 0; trial < 3; trial++) {
+    Subst at(random_point(state, false));
+    /* rows of [A, -b] at the point, then the null space by Gram-Schmidt */
+    std::vector<std::vector<double>> rows, basis;
+    for (int k = 0; k < nvc; k++) {
+      std::vector<double> r(ne);
+      for (int j = 0; j < ne; j++) r[j] = value_at(coef(k, j), at);
+      rows.push_back(r);
+    }
+    std::vector<std::vector<double>> Z;
+    for (int pass = 0; pass < 2; pass++)
+      for (int r = 0; r < (pass ? ne : nvc); r++) {
+        std::vector<double> v(ne, 0.0);
+        if (pass) v[r] = 1; else v = rows[r];
+        double norm0 = 0;
+        for (double x : v) norm0 = std::max(norm0, std::fabs(x));
+        for (const auto &e : basis) {
+          double dd = 0;
+          for (int i = 0; i < ne; i++) dd += e[i] * v[i];
+          for (int i = 0; i < ne; i++) v[i] -= dd * e[i];
+        }
+        double norm = 0;
+        for (double x : v) norm += x * x;
+        norm = std::sqrt(norm);
+        if (!(norm > 1e-8 * norm0) || !std::isfinite(norm) || (pass && norm < 0.5)) continue;
+        for (double &x : v) x /= norm;
+        basis.push_back(v);
+        if (pass) Z.push_back(v);
+      }
+    for (int k = 0; k < nvc; k++) {
+      std::vector<double> W((size_t)ne * ne);
+      double scale = 0;
+      for (size_t e = 0; e < W.size(); e++) {
+        W[e] = curl[(size_t)k * ne * ne + e].is_zero() ? 0 : value_at(curl[(size_t)k * ne * ne + e], at);
+        if (std::isnan(W[e])) return false;
+        scale = std::max(scale, std::fabs(W[e]));
+      }
+      double rowscale = 0;
+      for (double x : rows[k]) rowscale = std::max(rowscale, std::fabs(x));
+      for (size_t a = 0; a < Z.size(); a++)
+        for (size_t c = a + 1; c < Z.size(); c++) {
+          double s = 0;
+          for (int i = 0; i < ne; i++)
+            for (int j = 0; j < ne; j++) s += Z[a][i] * W[(size_t)i * ne + j] * Z[c][j];
+          if (std::fabs(s) > 1e-9 * (1 + scale + rowscale)) return false;
+        }
+    }
+  }
+  return true;
 }
 
 /* Numerically non-zero at one of a few fixed pseudo-random points (relative
@@ -1539,8 +1645,12 @@ void Derivation::run(EomSystem *out) {
     tick("deriving the constraints");
   }
 
+  std::vector<ex> vc_A, vc_b, vc_gamma;
+  derive_velocity_constraints(vc_A, vc_b, vc_gamma);
+  const int nvc = (int)vc_b.size();
+
   ControlResult ctl;
-  derive_control_quantities(L + T_rot - add(Vr), M, dM, dDdqd, phi, &ctl);
+  derive_control_quantities(L + T_rot - add(Vr), M, dM, dDdqd, phi, vc_A, vc_b, &ctl);
   tick("deriving the Coriolis matrix, momenta and constants of the motion");
   RegressorResult reg;
   derive_regressor_quantities(inv, &reg);
@@ -1607,6 +1717,10 @@ void Derivation::run(EomSystem *out) {
   for (int c = 0; c < nc; c++) h_gamma.push_back(b.add_root(gamma[c], none));
   std::vector<int> h_phi_t;
   for (int c = 0; c < nc; c++) h_phi_t.push_back(b.add_root(phi_t[c], none));
+  std::vector<int> h_vA, h_vb, h_vgamma;
+  for (const ex &e : vc_A) h_vA.push_back(b.add_root(e, none));
+  for (int c = 0; c < nvc; c++) h_vb.push_back(b.add_root(vc_b[c], vconstraints_[c].first->loc));
+  for (const ex &e : vc_gamma) h_vgamma.push_back(b.add_root(e, none));
   std::vector<int> h_cor, h_grav, h_mom;
   for (const ex &e : ctl.coriolis) h_cor.push_back(b.add_root(e, none));
   for (const ex &e : ctl.gravity) h_grav.push_back(b.add_root(e, none));
@@ -1658,6 +1772,11 @@ void Derivation::run(EomSystem *out) {
   out->constraint_jacobian = place(h_G, (size_t)nc * n);
   out->constraint_gamma = place(h_gamma, nc);
   out->constraint_dt = place(h_phi_t, nc);
+  out->nvc = nvc;
+  out->vconstraint_A = place(h_vA, (size_t)nvc * n);
+  out->vconstraint_b = place(h_vb, nvc);
+  out->vconstraint_gamma = place(h_vgamma, nvc);
+  out->vc_integrable = nvc > 0 && velocity_constraints_integrable(vc_A, vc_b);
   out->has_split = ctl.split;
   snprintf(out->split_why, sizeof out->split_why, "%s", ctl.split_why.c_str());
   out->coriolis = ctl.split ? place(h_cor, (size_t)n * n) : nullptr;
@@ -1732,7 +1851,9 @@ void Derivation::derive_regressor_quantities(const std::vector<ex> &inv, Regress
 void Derivation::derive_control_quantities(const ex &L, const std::vector<std::vector<ex>> &M,
                                            const std::vector<ex> &dM,
                                            const std::vector<ex> &dDdqd,
-                                           const std::vector<ex> &phi, ControlResult *out) {
+                                           const std::vector<ex> &phi,
+                                           const std::vector<ex> &vc_A,
+                                           const std::vector<ex> &vc_b, ControlResult *out) {
   ControlInput in;
   in.nq = nq_;
   in.nu = nu_;
@@ -1745,6 +1866,8 @@ void Derivation::derive_control_quantities(const ex &L, const std::vector<std::v
   for (const ex &Q : force_) in.force.push_back(unatom(Q));
   in.dDdqd = dDdqd;
   in.constraints = phi;
+  in.vc_A = vc_A;
+  in.vc_b = vc_b;
   in.d_dq = [this](int i, const ex &e) { return dq_[i](e); };
   in.d_dqd = [this](int i, const ex &e) { return dqd_[i](e); };
   in.d_du = [this](int i, const ex &e) { return du_[i](e); };
@@ -1771,7 +1894,7 @@ extern "C" int sym_derive(const Model *m, const SymOptions *opt, Diag *d, EomSys
     eomsym::Derivation dv(m, opt, d);
     dv.run(out);
     /* Dependent constraint equations make the multipliers non-unique. */
-    return out->nc > 0 && constraint_rank_check(m, out, d) != 0;
+    return out->nc + out->nvc > 0 && constraint_rank_check(m, out, d) != 0;
   } catch (const eomsym::SymError &e) {
     diag_error(d, e.loc, "%s", e.msg.c_str());
   } catch (const std::bad_alloc &) {
@@ -1798,6 +1921,9 @@ extern "C" void sym_free(EomSystem *s) {
   free(s->constraint_jacobian);
   free(s->constraint_gamma);
   free(s->constraint_dt);
+  free(s->vconstraint_A);
+  free(s->vconstraint_b);
+  free(s->vconstraint_gamma);
   free(s->coriolis);
   free(s->gravity);
   free(s->momenta);

@@ -35,6 +35,12 @@ typedef struct EomSystem {
   int *constraint_jacobian;  /* nc*nq  G = dphi/dq */
   int *constraint_gamma;     /* nc     gamma with G qdd = gamma */
   int *constraint_dt;        /* nc     dphi/dt (explicit time), so phi' = G qd + dphi/dt */
+  /* velocity constraints A(t, q) qd = b(t, q), after the nc position ones */
+  int nvc;
+  int *vconstraint_A;        /* nvc*nq */
+  int *vconstraint_b;        /* nvc */
+  int *vconstraint_gamma;    /* nvc    gamma(t, q, qd) with A qdd = gamma */
+  int vc_integrable;         /* 1: together they pass Frobenius' test (could be positions) */
   /* symbolic_control.cc: M qdd + C qd + g = Q - dD/dqd, momenta, constants
   ** of the motion */
   int has_split;             /* L = qd^T M qd / 2 - V(q), free of t and u */

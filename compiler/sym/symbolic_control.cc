@@ -64,6 +64,13 @@ std::string energy_obstacle(const ControlInput &in, const ex &L) {
   }
   for (const ex &phi : in.constraints)
     if (!vanishes(in, in.d_dt(phi), phi)) return "a constraint depends on the time t";
+  /* a velocity constraint's force A^T lambda does work A q' . lambda = b . lambda */
+  for (size_t k = 0; k < in.vc_b.size(); k++) {
+    ex row = in.vc_b[k];
+    for (int i = 0; i < in.nq; i++) row += in.vc_A[k * in.nq + i] * in.qd[i];
+    if (!vanishes(in, in.vc_b[k], row)) return "a velocity constraint has a right side b != 0";
+    if (!vanishes(in, in.d_dt(row), row)) return "a velocity constraint depends on the time t";
+  }
   return "";
 }
 
@@ -74,6 +81,8 @@ bool is_cyclic(const ControlInput &in, const ex &L, int i) {
   if (!vanishes(in, in.force[i], L) || !vanishes(in, in.dDdqd[i], L)) return false;
   for (const ex &phi : in.constraints)
     if (!vanishes(in, in.d_dq(i, phi), phi)) return false;
+  for (size_t k = 0; k < in.vc_b.size(); k++)  /* column i of A: a force on q_i */
+    if (!vanishes(in, in.vc_A[k * in.nq + i], in.vc_A[k * in.nq + i])) return false;
   return true;
 }
 

@@ -195,6 +195,7 @@ struct ControlInput {
   std::vector<GiNaC::ex> force;                  /* Q_i from force and torque statements */
   std::vector<GiNaC::ex> dDdqd;                  /* dD/dq'_i */
   std::vector<GiNaC::ex> constraints;            /* phi */
+  std::vector<GiNaC::ex> vc_A, vc_b;             /* velocity constraints A q' = b (nvc*nq, nvc) */
   std::function<GiNaC::ex(int, const GiNaC::ex &)> d_dq, d_dqd, d_du;
   std::function<GiNaC::ex(const GiNaC::ex &)> d_dt;
   std::function<GiNaC::ex(const GiNaC::ex &, const GiNaC::exmap &)> substitute;

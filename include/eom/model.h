@@ -15,7 +15,7 @@ extern "C" {
 #endif
 
 /* Bumped whenever the layout of struct eom_model changes. */
-#define EOM_MODEL_ABI 4
+#define EOM_MODEL_ABI 5
 
 struct eom_model {
   int abi;                          /* EOM_MODEL_ABI of the generating eomc */
@@ -93,6 +93,14 @@ struct eom_model {
   const int *frame_outputs;
   void (*const *frames)(const double *q, const double *qd, const double *p, double *pos,
                         double *R, double *J, double *Jdv);
+  /* Since ABI 5: velocity constraints A(t, q) qd = b(t, q) (nvc x nq and
+  ** nvc) and gamma(t, q, qd) (nvc) with A qdd = gamma.  accel_constrained
+  ** then takes both kinds: lambda has nc + nvc entries, the velocity
+  ** constraints' last, and the constraint force is [G; A]ᵀ lambda.
+  ** nvc = 0 and NULL when the model has none. */
+  int nvc;
+  void (*velocity_constraint)(double t, const double *q, const double *qd, const double *p,
+                              double *A, double *b, double *gamma);
 };
 
 #ifdef __cplusplus

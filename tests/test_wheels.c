@@ -1,0 +1,473 @@
+/*
+** test_wheels.c — velocity constraints end to end: `eomc sim` and `eomc
+** check` on the wheeled examples (cargo sledge, warehouse robot, rolling
+** coin) and on small models written here, checked against closed-form
+** mechanics: the sledge's straightening, a wheel on a rail written both ways,
+** a vertical disk's circle and a differential-drive robot's arc.
+** The binary is $EOMC, the sources $SRCDIR; generated objects go to a
+** private cache directory ($EOMC_CACHE_DIR).
+*/
+#include <check.h>
+#include <math.h>
+#include <stdarg.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "testutil.h"
+
+static char *cache_dir, *work_dir;
+
+static const char *eomc(void) { return env_or("EOMC", "./eomc"); }
+
+static char *example(const char *name) {
+  static char buf[4][4096];
+  static int k;
+  k = (k + 1) % 4;
+  snprintf(buf[k], sizeof buf[k], "%s/examples/%s", env_or("SRCDIR", "."), name);
+  return buf[k];
+}
+
+static char *work_path(const char *name) {
+  static char buf[4][4096];
+  static int k;
+  k = (k + 1) % 4;
+  snprintf(buf[k], sizeof buf[k], "%s/%s", work_dir, name);
+  return buf[k];
+}
+
+static void setup(void) {
+  cache_dir = make_temp_dir();
+  work_dir = make_temp_dir();
+  setenv("EOMC_CACHE_DIR", cache_dir, 1);
+}
+
+static void teardown(void) {
+  remove_tree(cache_dir);
+  remove_tree(work_dir);
+  free(cache_dir);
+  free(work_dir);
+}
+
+/* ------------------------------------------------------------ CSV tables */
+
+typedef struct Table {
+  int ncols, nrows;
+  char **names;
+  double *v; /* nrows x ncols */
+} Table;
+
+static void table_free(Table *t) {
+  for (int i = 0; i < t->ncols; i++) free(t->names[i]);
+  free(t->names);
+  free(t->v);
+  memset(t, 0, sizeof *t);
+}
+
+static Table read_csv(const char *path) {
+  Table t = {0, 0, NULL, NULL};
+  char *text = read_file(path, NULL);
+  ck_assert_msg(text != NULL, "cannot read %s", path);
+  char *line = strtok(text, "\n");
+  ck_assert(line != NULL);
+  for (char *s = line; s; s = strchr(s, ',') ? strchr(s, ',') + 1 : NULL) t.ncols++;
+  t.names = calloc((size_t)t.ncols, sizeof(char *));
+  char *s = line;
+  for (int i = 0; i < t.ncols; i++) {
+    size_t n = strcspn(s, ",");
+    t.names[i] = malloc(n + 1);
+    memcpy(t.names[i], s, n);
+    t.names[i][n] = '\0';
+    s += n + 1;
+  }
+  int cap = 64;
+  t.v = malloc((size_t)cap * t.ncols * sizeof(double));
+  while ((line = strtok(NULL, "\n"))) {
+    if (t.nrows == cap) {
+      cap *= 2;
+      t.v = realloc(t.v, (size_t)cap * t.ncols * sizeof(double));
+    }
+    char *p = line;
+    for (int i = 0; i < t.ncols; i++) {
+      char *end;
+      t.v[(size_t)t.nrows * t.ncols + i] = strtod(p, &end);
+      ck_assert_msg(end != p, "bad number in row %d of %s", t.nrows + 1, path);
+      p = *end == ',' ? end + 1 : end;
+    }
+    t.nrows++;
+  }
+  free(text);
+  return t;
+}
+
+static int col(const Table *t, const char *name) {
+  for (int i = 0; i < t->ncols; i++)
+    if (strcmp(t->names[i], name) == 0) return i;
+  ck_abort_msg("no column %s", name);
+  return -1;
+}
+
+static double at(const Table *t, int row, int c) { return t->v[(size_t)row * t->ncols + c]; }
+
+/* Run `eomc sim MODEL -o OUT ARGS... NULL`; must succeed. */
+static Table sim(const char *model, const char *out, ...) {
+  char *argv[64];
+  int n = 0;
+  argv[n++] = (char *)eomc();
+  argv[n++] = "sim";
+  argv[n++] = (char *)model;
+  argv[n++] = "-o";
+  argv[n++] = (char *)out;
+  va_list ap;
+  va_start(ap, out);
+  for (char *a; (a = va_arg(ap, char *)) != NULL && n < 63;) argv[n++] = a;
+  va_end(ap);
+  argv[n] = NULL;
+  RunResult r = run_argv(argv);
+  ck_assert_msg(r.status == 0, "eomc sim %s: status %d\n%s", model, r.status, r.err);
+  run_free(&r);
+  return read_csv(out);
+}
+
+static char *setf(const char *name, double v) {
+  static char buf[16][128];
+  static int k;
+  k = (k + 1) % 16;
+  snprintf(buf[k], sizeof buf[k], "--set=%s=%.17g", name, v);
+  return buf[k];
+}
+
+/* Run `eomc ARGS... NULL` and keep its output. */
+static RunResult run_eomc(const char *verb, ...) {
+  char *argv[64];
+  int n = 0;
+  argv[n++] = (char *)eomc();
+  argv[n++] = (char *)verb;
+  va_list ap;
+  va_start(ap, verb);
+  for (char *a; (a = va_arg(ap, char *)) != NULL && n < 63;) argv[n++] = a;
+  va_end(ap);
+  argv[n] = NULL;
+  return run_argv(argv);
+}
+
+static const char *tight[] = {"--rtol", "1e-12", "--atol", "1e-13"};
+#define TIGHT tight[0], tight[1], tight[2], tight[3]
+
+/* ------------------------------------------------------------ sledge */
+
+/* The sledge on one runner (Chaplygin's sleigh; Neimark & Fufaev, Dynamics
+** of Nonholonomic Systems, 1972, ch. V, from memory): with v the speed of
+** the contact point along the runner and w = th', the constraint forces do
+** no work and
+**   m v' = m a w^2,   (I + m a^2) w' = -m a v w,
+** so v^2 + k w^2 = c^2 with k = (I + m a^2)/m is constant, and
+** v' = (a/k)(c^2 - v^2) integrates to v = c tanh(a c t / k + atanh(v0/c)):
+** the turning dies out and the sledge runs straight at speed c, mass centre
+** leading (v > 0 for a > 0). */
+START_TEST(sledge_straightens_mass_centre_leading) {
+  const double m = 18, a = 0.35, I = 0.9, v0 = 0.5, w0 = 1.2;
+  const double k = (I + m * a * a) / m, c = sqrt(v0 * v0 + k * w0 * w0);
+  Table s = sim(example("cargo_sledge.eom"), work_path("sledge.csv"), "--until", "20", "--step",
+                "0.01", TIGHT, NULL);
+  int th = col(&s, "th"), xd = col(&s, "x'"), yd = col(&s, "y'"), thd = col(&s, "th'");
+  int T = col(&s, "T"), sp = col(&s, "speed");
+  double E0 = at(&s, 0, T), worst_v = 0, worst_w = 0, worst_e = 0, worst_slip = 0;
+  for (int i = 0; i < s.nrows; i++) {
+    double t = at(&s, i, 0), h = at(&s, i, th), v = at(&s, i, sp), w = at(&s, i, thd);
+    double v_ref = c * tanh(a * c * t / k + atanh(v0 / c));
+    double w_ref = sqrt(fmax(0, c * c - v_ref * v_ref) / k);  /* w keeps its sign (> 0) */
+    worst_v = fmax(worst_v, fabs(v - v_ref));
+    worst_w = fmax(worst_w, fabs(w - w_ref));
+    worst_e = fmax(worst_e, fabs(at(&s, i, T) - E0) / E0);
+    worst_slip = fmax(worst_slip, fabs(-sin(h) * at(&s, i, xd) + cos(h) * at(&s, i, yd)));
+  }
+  ck_assert_msg(worst_v < 1e-8, "speed off the closed form by %.3g", worst_v);
+  ck_assert_msg(worst_w < 1e-7, "turning rate off the closed form by %.3g", worst_w);
+  ck_assert_msg(worst_e < 1e-10, "energy drifts by %.3g relative", worst_e);
+  ck_assert_msg(worst_slip < 1e-10, "the runner slides sideways at %.3g m/s", worst_slip);
+  /* the end: straight, mass centre leading */
+  int last = s.nrows - 1;
+  ck_assert(fabs(at(&s, last, thd)) < 1e-6);
+  ck_assert(at(&s, last, sp) > 0.999 * c);
+  ck_assert_int_eq(col(&s, "lambda1"), s.ncols - 1);
+  table_free(&s);
+}
+END_TEST
+
+/* A sledge whose mass centre trails the runner (a < 0) also ends straight,
+** but running backwards along the runner: v -> -c (same closed form). */
+START_TEST(sledge_with_trailing_mass_centre_turns_round) {
+  Table s = sim(example("cargo_sledge.eom"), work_path("trail.csv"), "--until", "40", "--step",
+                "0.1", setf("a", -0.35), NULL);
+  int last = s.nrows - 1;
+  double c = sqrt(0.25 + (0.9 + 18 * 0.35 * 0.35) / 18 * 1.44);
+  ck_assert_msg(at(&s, last, col(&s, "speed")) < -0.99 * c, "speed %g",
+                at(&s, last, col(&s, "speed")));
+  table_free(&s);
+}
+END_TEST
+
+/* ------------------------------------------------------------ rail */
+
+/* A wheel on a straight rail with a spring on its centre: x' = r th' is
+** integrable (x = r th + const), so the velocity form and the position form
+** must give the same motion, and both the closed form of a mass-spring with
+** the effective mass m + J/r^2 (common practice): x = x0 cos(omega t). */
+static const char rail_head[] =
+  "coord x [m]\ncoord th [rad]\n"
+  "param m = 2 [kg]\nparam J = 0.01 [kg*m^2]\nparam r = 0.1 [m]\nparam k = 40 [N/m]\n"
+  "kinetic 1/2*m*x'^2 + 1/2*J*th'^2\npotential 1/2*k*x^2\ninitial x = 0.2\n"
+  "initial th = 2\n";
+
+START_TEST(rail_velocity_form_matches_position_form) {
+  char text[1024];
+  snprintf(text, sizeof text, "%sconstraint x' = r*th'\n", rail_head);
+  char *vel = write_file(work_dir, "rail_v.eom", text, strlen(text));
+  snprintf(text, sizeof text, "%sconstraint x = r*th\n", rail_head);
+  char *pos = write_file(work_dir, "rail_p.eom", text, strlen(text));
+  Table a = sim(vel, work_path("v.csv"), "--until", "5", "--step", "0.01", TIGHT, NULL);
+  Table b = sim(pos, work_path("p.csv"), "--until", "5", "--step", "0.01", TIGHT, NULL);
+  ck_assert_int_eq(a.nrows, b.nrows);
+  const double omega = sqrt(40 / (2 + 0.01 / 0.01));
+  double worst = 0, worst_ref = 0;
+  for (int i = 0; i < a.nrows; i++)
+    for (int j = 1; j <= 4; j++) {
+      worst = fmax(worst, fabs(at(&a, i, j) - at(&b, i, j)));
+      if (j == 1) worst_ref = fmax(worst_ref, fabs(at(&a, i, j) - 0.2 * cos(omega * at(&a, i, 0))));
+    }
+  ck_assert_msg(worst < 1e-9, "the two forms differ by %.3g", worst);
+  ck_assert_msg(worst_ref < 1e-9, "off x0 cos(omega t) by %.3g", worst_ref);
+  /* the multipliers are the same force: lambda (x' - r th') vs lambda (x - r th) */
+  int la = col(&a, "lambda1"), lb = col(&b, "lambda1");
+  for (int i = 0; i < a.nrows; i++)
+    ck_assert_msg(fabs(at(&a, i, la) - at(&b, i, lb)) < 1e-7, "multipliers differ at row %d", i);
+  table_free(&a);
+  table_free(&b);
+  /* check notes that this one could be a position constraint */
+  RunResult r = run_eomc("check", vel, NULL);
+  ck_assert_int_eq(r.status, 0);
+  ck_assert_msg(strstr(r.err, "note: the velocity constraints are integrable"), "%s", r.err);
+  ck_assert(strstr(r.out, "velocity constraint equations: 1"));
+  run_free(&r);
+  r = run_eomc("check", example("cargo_sledge.eom"), NULL);
+  ck_assert_int_eq(r.status, 0);
+  ck_assert_msg(!strstr(r.err, "integrable"), "%s", r.err);
+  run_free(&r);
+  free(vel);
+  free(pos);
+}
+END_TEST
+
+/* Frobenius' test on a few more: a time-dependent affine one that
+** integrates (x' = v0 + y' cos(t)... no: x' = sin(t) y' + y cos(t) is
+** (y sin t)'), and a pair on three coordinates that does not. */
+START_TEST(integrability_note_in_general) {
+  static const char yes[] = "coord x, y\nkinetic x'^2 + y'^2\nconstraint x' = sin(t)*y' + y*cos(t)\n"
+                            "initial y = 1\n";
+  static const char no[] = "coord x, y, z\nkinetic x'^2 + y'^2 + z'^2\nconstraint z' = y*x'\n"
+                           "initial y = 1\n";
+  static const char pair[] = "coord x, y, z\nkinetic x'^2 + y'^2 + z'^2\n"
+                             "constraint [x', y'] = [z', 2*z']\n";
+  const char *texts[] = {yes, no, pair};
+  int want[] = {1, 0, 1};
+  for (int k = 0; k < 3; k++) {
+    char name[32];
+    snprintf(name, sizeof name, "frob%d.eom", k);
+    char *path = write_file(work_dir, name, texts[k], strlen(texts[k]));
+    RunResult r = run_eomc("check", path, NULL);
+    ck_assert_msg(r.status == 0, "%s", r.err);
+    ck_assert_msg((strstr(r.err, "integrable") != NULL) == want[k], "model %d: %s", k, r.err);
+    run_free(&r);
+    free(path);
+  }
+}
+END_TEST
+
+/* ------------------------------------------------------------ vertical disk */
+
+/* A disk held upright rolls on a plane (x, y contact point, psi heading,
+** ph spin): psi' and ph' stay constant and the contact point runs round a
+** circle of radius r ph'/psi' at constant speed, energy conserved
+** (Greenwood, Principles of Dynamics, 2nd ed., 1988, the rolling-disk
+** sections; from memory). */
+START_TEST(vertical_disk_runs_on_a_circle) {
+  static const char disk[] =
+    "coord x [m]\ncoord y [m]\ncoord psi [rad]\ncoord ph [rad]\n"
+    "param m = 1.3 [kg]\nparam r = 0.25 [m]\n"
+    "kinetic 1/2*m*(x'^2 + y'^2) + 1/2*(m*r^2/4)*psi'^2 + 1/2*(m*r^2/2)*ph'^2\n"
+    "constraint [x', y'] = r*ph'*[cos(psi), sin(psi)]\n"
+    "initial psi' = 0.8\ninitial ph' = 6\ninitial x' = 1.5\n";
+  char *path = write_file(work_dir, "disk.eom", disk, strlen(disk));
+  Table s = sim(path, work_path("disk.csv"), "--until", "20", "--step", "0.05", TIGHT, NULL);
+  const double R = 0.25 * 6 / 0.8, w = 0.8;
+  int x = col(&s, "x"), y = col(&s, "y"), T = col(&s, "T");
+  double worst = 0, worst_e = 0;
+  for (int i = 0; i < s.nrows; i++) {
+    double t = at(&s, i, 0);
+    worst = fmax(worst, fabs(at(&s, i, x) - R * sin(w * t)));
+    worst = fmax(worst, fabs(at(&s, i, y) - R * (1 - cos(w * t))));
+    worst = fmax(worst, fabs(at(&s, i, col(&s, "ph'")) - 6));
+    worst_e = fmax(worst_e, fabs(at(&s, i, T) - at(&s, 0, T)));
+  }
+  ck_assert_msg(worst < 1e-8, "off the circle by %.3g", worst);
+  ck_assert_msg(worst_e < 1e-9 * at(&s, 0, T), "energy changes by %.3g", worst_e);
+  table_free(&s);
+  free(path);
+}
+END_TEST
+
+/* ------------------------------------------------------------ warehouse robot */
+
+/* A differential-drive robot with its mass centre on the axle and no motor
+** torque keeps its wheel speeds, and the axle's middle runs on the arc of
+** the kinematic model: v = r (wl + wr)/2, w = r (wr - wl)/(2 b), and
+** x = (v/w)(sin(th0 + w t) - sin th0), y = -(v/w)(cos(th0 + w t) - cos th0)
+** (Siegwart & Nourbakhsh, Introduction to Autonomous Mobile Robots, 2004,
+** §3.2; from memory). */
+START_TEST(robot_follows_the_kinematic_arc) {
+  const double r = 0.075, b = 0.21, wl = 8, wr = 10;
+  const double v = r * (wl + wr) / 2, w = r * (wr - wl) / (2 * b);
+  Table s = sim(example("warehouse_robot.eom"), work_path("robot.csv"), "--until", "10", "--step",
+                "0.05", setf("d", 0), TIGHT, NULL);
+  int x = col(&s, "x"), y = col(&s, "y"), th = col(&s, "th");
+  double worst = 0;
+  for (int i = 0; i < s.nrows; i++) {
+    double t = at(&s, i, 0);
+    worst = fmax(worst, fabs(at(&s, i, x) - v / w * sin(w * t)));
+    worst = fmax(worst, fabs(at(&s, i, y) + v / w * (cos(w * t) - 1)));
+    worst = fmax(worst, fabs(at(&s, i, th) - w * t));
+    worst = fmax(worst, fabs(at(&s, i, col(&s, "pl'")) - wl));
+    worst = fmax(worst, fabs(at(&s, i, col(&s, "pr'")) - wr));
+  }
+  ck_assert_msg(worst < 1e-8, "off the arc by %.3g", worst);
+  table_free(&s);
+}
+END_TEST
+
+/* With the mass centre ahead of the axle and driven wheels, the rates keep
+** all three constraints at every sample and the drive does the work that
+** the energy gains: dE/dt = tl pl' + tr pr' (common practice). */
+START_TEST(robot_keeps_its_constraints_under_drive) {
+  const double r = 0.075, b = 0.21;
+  Table s = sim(example("warehouse_robot.eom"), work_path("drive.csv"), "--until", "6", "--step",
+                "0.01", "--set", "tl=0.4", "--set", "tr=-0.3", TIGHT, NULL);
+  int th = col(&s, "th"), xd = col(&s, "x'"), yd = col(&s, "y'"), thd = col(&s, "th'");
+  int pl = col(&s, "pl"), pr = col(&s, "pr"), pld = col(&s, "pl'"), prd = col(&s, "pr'");
+  double worst = 0;
+  for (int i = 0; i < s.nrows; i++) {
+    double h = at(&s, i, th), X = at(&s, i, xd), Y = at(&s, i, yd);
+    worst = fmax(worst, fabs(-sin(h) * X + cos(h) * Y));
+    worst = fmax(worst, fabs(cos(h) * X + sin(h) * Y - r / 2 * (at(&s, i, pld) + at(&s, i, prd))));
+    worst = fmax(worst, fabs(at(&s, i, thd) - r / (2 * b) * (at(&s, i, prd) - at(&s, i, pld))));
+  }
+  ck_assert_msg(worst < 1e-10, "a constraint is off by %.3g", worst);
+  int last = s.nrows - 1, T = col(&s, "T");
+  double work = 0.4 * (at(&s, last, pl) - at(&s, 0, pl)) - 0.3 * (at(&s, last, pr) - at(&s, 0, pr));
+  double gain = at(&s, last, T) - at(&s, 0, T);
+  ck_assert_msg(fabs(gain - work) < 1e-8 * fmax(1, fabs(work)), "energy gain %.12g, work %.12g",
+                gain, work);
+  table_free(&s);
+}
+END_TEST
+
+/* ------------------------------------------------------------ rolling coin */
+
+/* A thin disk rolling on a plane: energy conserved and the material point
+** at the contact at rest, over a 20 s run (the defining properties of
+** rolling without slipping; Neimark & Fufaev 1972, ch. II, from memory). */
+START_TEST(coin_rolls_without_slipping) {
+  Table s = sim(example("rolling_coin.eom"), work_path("coin.csv"), "--until", "20", "--step",
+                "0.02", NULL);
+  int T = col(&s, "T"), V = col(&s, "V");
+  int s1 = col(&s, "slip[1]"), s2 = col(&s, "slip[2]"), s3 = col(&s, "slip[3]");
+  double E0 = at(&s, 0, T) + at(&s, 0, V), worst_e = 0, worst_slip = 0;
+  for (int i = 0; i < s.nrows; i++) {
+    worst_e = fmax(worst_e, fabs(at(&s, i, T) + at(&s, i, V) - E0) / E0);
+    for (int c = s1; c <= s3; c++) worst_slip = fmax(worst_slip, fabs(at(&s, i, c)));
+  }
+  ck_assert(s2 == s1 + 1 && s3 == s1 + 2);
+  ck_assert_msg(worst_e < 1e-8, "energy drifts by %.3g relative", worst_e);
+  ck_assert_msg(worst_slip < 1e-9, "the contact point slips at %.3g m/s", worst_slip);
+  /* fast enough, it stays up */
+  int last = s.nrows - 1;
+  ck_assert_msg(fabs(at(&s, last, col(&s, "th"))) < 0.3, "tilt %g", at(&s, last, col(&s, "th")));
+  table_free(&s);
+}
+END_TEST
+
+/* The generated interface: P_velocity_constraint gives A, b and gamma, and
+** accel_constrained's qdd satisfies A qdd = gamma. */
+START_TEST(generated_velocity_constraint_functions) {
+  char *dir = make_temp_dir();
+  RunResult r = run_eomc("gen", example("cargo_sledge.eom"), "-o", dir, NULL);
+  ck_assert_msg(r.status == 0, "%s", r.err);
+  run_free(&r);
+  char path[4200];
+  snprintf(path, sizeof path, "%s/cargo_sledge.h", dir);
+  char *h = read_file(path, NULL);
+  ck_assert(h && strstr(h, "#define cargo_sledge_NVC 1"));
+  ck_assert(strstr(h, "void cargo_sledge_velocity_constraint(double t, const double *q, "
+                      "const double *qd, const double *p,\n  double *A, double *b, double *gamma);"));
+  free(h);
+  snprintf(path, sizeof path, "%s/main.c", dir);
+  static const char driver[] =
+    "#include <math.h>\n#include <stdio.h>\n#include \"cargo_sledge.h\"\n"
+    "int main(void) {\n"
+    "  double p[3], q[3] = {0.3, -0.2, 0.7}, qd[3], A[3], b[1], g[1], qdd[3], lam[1];\n"
+    "  cargo_sledge_default_params(p);\n"
+    "  qd[0] = 0.4 * cos(0.7); qd[1] = 0.4 * sin(0.7); qd[2] = -0.9;\n"
+    "  cargo_sledge_velocity_constraint(0, q, qd, p, A, b, g);\n"
+    "  if (cargo_sledge_accel_constrained(0, q, qd, NULL, p, qdd, lam)) return 1;\n"
+    "  printf(\"%.17g %.17g %.17g %.17g %.17g %.17g\\n\", A[0], A[1], A[2], b[0],\n"
+    "         A[0]*qdd[0] + A[1]*qdd[1] + A[2]*qdd[2] - g[0], g[0]);\n"
+    "  return 0;\n}\n";
+  FILE *f = fopen(path, "w");
+  ck_assert(f);
+  fputs(driver, f);
+  fclose(f);
+  char cmd[13000];
+  snprintf(cmd, sizeof cmd,
+           "cd '%s' && ${CC:-cc} -std=c99 -pedantic -Wall -Wextra -Werror -DEOM_NO_DESCRIPTOR "
+           "-o drv main.c cargo_sledge.c -lm 2>&1 && ./drv > out.txt", dir);
+  ck_assert_msg(system(cmd) == 0, "driver failed");
+  snprintf(path, sizeof path, "%s/out.txt", dir);
+  char *out = read_file(path, NULL);
+  double v[6];
+  ck_assert_int_eq(read_numbers(out, v, 6), 6);
+  /* A = [-sin th, cos th, 0], b = 0; gamma = -(A')qd = th'(cos th x' + sin th y') */
+  ck_assert(fabs(v[0] + sin(0.7)) < 1e-15 && fabs(v[1] - cos(0.7)) < 1e-15 && v[2] == 0);
+  ck_assert(v[3] == 0);
+  ck_assert_msg(fabs(v[4]) < 1e-14, "A qdd - gamma = %g", v[4]);
+  ck_assert(fabs(v[5] - (-0.9) * 0.4) < 1e-14);
+  free(out);
+  remove_tree(dir);
+  free(dir);
+}
+END_TEST
+
+static Suite *wheels_suite(void) {
+  Suite *s = suite_create("wheels");
+  TCase *tc = tcase_create("end to end");
+  tcase_add_checked_fixture(tc, setup, teardown);
+  tcase_set_timeout(tc, 300);
+  tcase_add_test(tc, sledge_straightens_mass_centre_leading);
+  tcase_add_test(tc, sledge_with_trailing_mass_centre_turns_round);
+  tcase_add_test(tc, rail_velocity_form_matches_position_form);
+  tcase_add_test(tc, integrability_note_in_general);
+  tcase_add_test(tc, vertical_disk_runs_on_a_circle);
+  tcase_add_test(tc, robot_follows_the_kinematic_arc);
+  tcase_add_test(tc, robot_keeps_its_constraints_under_drive);
+  tcase_add_test(tc, coin_rolls_without_slipping);
+  tcase_add_test(tc, generated_velocity_constraint_functions);
+  suite_add_tcase(s, tc);
+  return s;
+}
+
+int main(void) {
+  SRunner *sr = srunner_create(wheels_suite());
+  srunner_run_all(sr, CK_NORMAL);
+  int failed = srunner_ntests_failed(sr);
+  srunner_free(sr);
+  return failed ? EXIT_FAILURE : EXIT_SUCCESS;
+}
