@@ -18,13 +18,11 @@
 
 static char *cache_dir, *work_dir;
 
-static const char *eomc(void) { return env_or("EOMC", "./eomc"); }
-
 static char *example(const char *name) {
   static char buf[4][4096];
   static int k;
   k = (k + 1) % 4;
-  snprintf(buf[k], sizeof buf[k], "%s/examples/%s", env_or("SRCDIR", "."), name);
+  snprintf(buf[k], sizeof buf[k], "%s/examples/%s", srcdir(), name);
   return buf[k];
 }
 
