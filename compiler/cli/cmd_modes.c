@@ -7,6 +7,8 @@
 ** depend on time explicitly are taken at t = 0.  Undamped
 ** models give K v = omega^2 M v; with damping, the state matrix's
 ** eigenvalues give natural frequencies and damping ratios (modal.c).
+** With --rate, --sweep-rate, or velocity constraints, the analysis is
+** about a steady motion instead (modes_steady.c).
 */
 #include <math.h>
 #include <stdio.h>
@@ -16,7 +18,9 @@
 #include "cli/build_model.h"
 #include "cli/cmd.h"
 #include "eom/runtime.h"
+#include "cli/json_out.h"
 #include "cli/modal.h"
+#include "cli/modes_steady.h"
 #include "cli/run_values.h"
 
 static const char modes_usage[] =
@@ -32,6 +36,18 @@ static const char modes_usage[] =
   "  --set NAME=VALUE   a parameter or a constant input (repeatable)\n"
   "  --json             machine-readable output\n"
   "\n"
+  "steady motions (vehicles, spinning wheels; always for a model with velocity\n"
+  "constraints):\n"
+  "  --rate NAME=VALUE  coordinate NAME turns at the constant rate VALUE and does\n"
+  "                     not enter the dynamics (repeatable); the other coordinates\n"
+  "                     stand still, rates fixed by velocity constraints follow.\n"
+  "                     Prints the steady motion and the eigenvalues of the reduced\n"
+  "                     system: growth rates (above 0: unstable) and frequencies\n"
+  "  --sweep-rate NAME=LO:HI:N\n"
+  "                     the same for N rates of NAME from LO to HI: a CSV table of\n"
+  "                     the eigenvalues against the rate\n"
+  "  --plot FILE.svg    with --sweep-rate: growth rates and frequencies against it\n"
+  "\n"
   "exit status: 0 success, 1 model error, 2 usage error,\n"
   "             3 no equilibrium found or the analysis failed\n";
 
@@ -45,23 +61,6 @@ static const char *kind_name(ModeKind k) {
   case MODE_DECAYING: return "decaying";
   }
   return "?";
-}
-
-/* A JSON number, or null when not finite. */
-static void json_num(FILE *f, double v) {
-  if (isfinite(v)) fprintf(f, "%.12g", v);
-  else fputs("null", f);
-}
-
-/* Identifiers need no escaping, but stay safe for any name. */
-static void json_str(FILE *f, const char *s) {
-  fputc('"', f);
-  for (; *s; s++) {
-    if (*s == '"' || *s == '\\') fputc('\\', f);
-    if ((unsigned char)*s < 0x20) fprintf(f, "\\u%04x", *s);
-    else fputc(*s, f);
-  }
-  fputc('"', f);
 }
 
 static void print_json(FILE *f, const struct eom_model *m, const double *q,
@@ -176,10 +175,13 @@ int cmd_modes(int argc, char **argv) {
   const char *model = NULL;
   char **at = calloc((size_t)argc + 1, sizeof(char *)), **set = calloc((size_t)argc + 1, sizeof(char *));
   int nat = 0, nset = 0, json = 0, rc = 0;
+  char **rates = calloc((size_t)argc + 1, sizeof(char *));
+  SteadyOptions so = {rates, 0, NULL, NULL, 0};
   char err[1024] = "";
-  if (!at || !set) {
+  if (!at || !set || !rates) {
     free(at);
     free(set);
+    free(rates);
     fputs("eomc modes: out of memory\n", stderr);
     return EXIT_RUN;
   }
@@ -198,6 +200,22 @@ int cmd_modes(int argc, char **argv) {
       }
       if (arg[2] == 'a') at[nat++] = argv[++i];
       else set[nset++] = argv[++i];
+    } else if (strcmp(arg, "--rate") == 0 || strcmp(arg, "--sweep-rate") == 0 ||
+               strcmp(arg, "--plot") == 0) {
+      if (i + 1 >= argc) {
+        fprintf(stderr, "eomc modes: option '%s' needs a value (try 'eomc modes --help')\n", arg);
+        rc = EXIT_USAGE;
+        goto done;
+      }
+      if (arg[2] == 'r') rates[so.nrates++] = argv[++i];
+      else if (arg[2] == 's') so.sweep = argv[++i];
+      else so.plot = argv[++i];
+    } else if (strncmp(arg, "--rate=", 7) == 0) {
+      rates[so.nrates++] = (char *)arg + 7;
+    } else if (strncmp(arg, "--sweep-rate=", 13) == 0) {
+      so.sweep = arg + 13;
+    } else if (strncmp(arg, "--plot=", 7) == 0) {
+      so.plot = arg + 7;
     } else if (strncmp(arg, "--at=", 5) == 0) {
       at[nat++] = (char *)arg + 5;
     } else if (strncmp(arg, "--set=", 6) == 0) {
@@ -250,6 +268,11 @@ int cmd_modes(int argc, char **argv) {
     goto unload;
   }
 
+  if (so.nrates > 0 || so.sweep || so.plot || m->nvc > 0) {
+    so.json = json;
+    rc = modes_steady(m, &rv, &so);
+    goto unload;
+  }
   struct eom_report eq, lin;
   double *q = rv.x, *qd = rv.x + m->nq;
   if (eom_equilibrium(m, rv.p, rv.u, 0, q, 0, 0, &eq) != EOM_OK) {
@@ -302,5 +325,6 @@ unload:
 done:
   free(at);
   free(set);
+  free(rates);
   return rc;
 }

@@ -22,6 +22,7 @@ static const char usage[] =
   "  show MODEL.eom [--latex]   print M, f and the equations of motion\n"
   "  sim MODEL.eom [--until T]  simulate; write CSV and optionally a plot\n"
   "  modes MODEL.eom [--at q=V] natural frequencies and mode shapes at an equilibrium\n"
+  "  linearize MODEL.eom        A, B, C, D of the linear model at an equilibrium\n"
   "\n"
   "options:\n"
   "  -h, --help                 this text; `eomc COMMAND --help` for a command's options\n"
@@ -39,7 +40,7 @@ int main(int argc, char **argv) {
     int (*run)(int, char **);
   } verbs[] = {
     {"check", cmd_check}, {"gen", cmd_gen}, {"show", cmd_show},
-    {"sim", cmd_sim},     {"modes", cmd_modes},
+    {"sim", cmd_sim},     {"modes", cmd_modes}, {"linearize", cmd_linearize},
   };
   if (argc < 2) {
     fputs(usage, stderr);

@@ -2,7 +2,8 @@
 ** plot.c — write a gnuplot script for a simulation CSV and run gnuplot on
 ** it (fork + execvp, never a shell).  Panels, top to bottom: coordinates
 ** against time; T, V and T + V against time; one phase portrait per
-** coordinate.
+** coordinate.  For a sweep of steady motions: growth rates and
+** frequencies of the eigenvalues against the swept rate.
 */
 #include "cli/plot.h"
 
@@ -82,13 +83,13 @@ static int write_script(FILE *f, const struct eom_model *m, const char *csv, con
 }
 #endif
 
-int plot_svg(const struct eom_model *m, const char *csv_path, const char *svg_path, char *err,
-             size_t errlen) {
-#ifndef GNUPLOT_PATH
-  (void)m, (void)csv_path, (void)svg_path;
-  return plot_available(err, errlen);
-#else
-  if (plot_available(err, errlen) != 0) return -1;
+#ifdef GNUPLOT_PATH
+typedef int (*ScriptWriter)(FILE *f, const void *ctx, const char *data, const char *out);
+
+/* Write a gnuplot script with `write` into a temporary file, run gnuplot on
+** it and rename its SVG into place. */
+static int render(ScriptWriter write, const void *ctx, const char *data_path,
+                  const char *svg_path, char *err, size_t errlen) {
   char script[] = "/tmp/eomc-plot-XXXXXX";
   size_t tlen = strlen(svg_path) + 32;
   char *tmp_svg = malloc(tlen);
@@ -100,7 +101,7 @@ int plot_svg(const struct eom_model *m, const char *csv_path, const char *svg_pa
   }
   snprintf(tmp_svg, tlen, "%s.tmp.%ld", svg_path, (long)getpid());
   f = fdopen(fd, "w");
-  if (!f || write_script(f, m, csv_path, tmp_svg) != 0 || fclose(f) != 0) {
+  if (!f || write(f, ctx, data_path, tmp_svg) != 0 || fclose(f) != 0) {
     if (!f) close(fd);
     f = NULL;
     snprintf(err, errlen, "cannot write the gnuplot script %s", script);
@@ -136,5 +137,64 @@ out:
 out_keep_script:
   free(tmp_svg);
   return rc;
+}
+
+static int write_sim_script(FILE *f, const void *ctx, const char *csv, const char *out) {
+  return write_script(f, (const struct eom_model *)ctx, csv, out);
+}
+
+/* Growth rates and frequencies against the swept rate (plot_sweep_svg). */
+typedef struct SweepPlot {
+  const char *name;
+  int neig;
+} SweepPlot;
+
+static int write_sweep_script(FILE *f, const void *ctx, const char *csv, const char *out) {
+  const SweepPlot *sp = ctx;
+  char buf[300];
+  fputs("set terminal svg size 900,760 dynamic noenhanced font 'sans,11'\nset output ", f);
+  put_quoted(f, out);
+  fputs("\nset datafile separator ','\nset grid\nset key off\nset multiplot layout 2,1\n", f);
+  snprintf(buf, sizeof buf, "%s'", sp->name);
+  fputs("set xlabel ", f);
+  put_quoted(f, buf);
+  fputs("\nset title 'growth rates Re(s) (above 0: unstable)'\nset ylabel '1/s'\n"
+        "set xzeroaxis lt -1\nplot ", f);
+  for (int k = 0; k < sp->neig; k++) {
+    fputs(k ? ", '' " : "", f);
+    if (!k) put_quoted(f, csv);
+    fprintf(f, " using 1:%d with points pt 7 ps 0.5", 4 + 2 * k);
+  }
+  fputs("\nset title 'frequencies |Im(s)|'\nset ylabel 'rad/s'\nplot ", f);
+  for (int k = 0; k < sp->neig; k++) {
+    fputs(k ? ", '' " : "", f);
+    if (!k) put_quoted(f, csv);
+    fprintf(f, " using 1:(abs(column(%d))) with points pt 7 ps 0.5", 5 + 2 * k);
+  }
+  fputs("\nunset multiplot\nset output\n", f);
+  return ferror(f) ? -1 : 0;
+}
+#endif
+
+int plot_svg(const struct eom_model *m, const char *csv_path, const char *svg_path, char *err,
+             size_t errlen) {
+#ifndef GNUPLOT_PATH
+  (void)m, (void)csv_path, (void)svg_path;
+  return plot_available(err, errlen);
+#else
+  if (plot_available(err, errlen) != 0) return -1;
+  return render(write_sim_script, m, csv_path, svg_path, err, errlen);
+#endif
+}
+
+int plot_sweep_svg(const char *name, int neig, const char *csv_path, const char *svg_path,
+                   char *err, size_t errlen) {
+#ifndef GNUPLOT_PATH
+  (void)name, (void)neig, (void)csv_path, (void)svg_path;
+  return plot_available(err, errlen);
+#else
+  if (plot_available(err, errlen) != 0) return -1;
+  SweepPlot sp = {name, neig};
+  return render(write_sweep_script, &sp, csv_path, svg_path, err, errlen);
 #endif
 }

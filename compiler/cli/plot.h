@@ -1,5 +1,6 @@
 /*
-** plot.h — draw a simulation CSV as an SVG with gnuplot (`eomc sim --plot`).
+** plot.h — draw a simulation CSV (`eomc sim --plot`) or a sweep of steady
+** motions (`eomc modes --sweep-rate --plot`) as an SVG with gnuplot.
 */
 #ifndef EOMC_PLOT_H
 #define EOMC_PLOT_H
@@ -16,5 +17,12 @@ int plot_available(char *err, size_t errlen);
 ** a temporary renamed into place.  0, or -1 with a message in err. */
 int plot_svg(const struct eom_model *m, const char *csv_path, const char *svg_path, char *err,
              size_t errlen);
+
+/* Plot the table of `eomc modes --sweep-rate` (columns: the swept rate,
+** max growth, stable flag, then Re and Im of each of neig eigenvalues)
+** into svg_path: growth rates and frequencies against the rate of `name`.
+** 0, or -1 with a message in err. */
+int plot_sweep_svg(const char *name, int neig, const char *csv_path, const char *svg_path,
+                   char *err, size_t errlen);
 
 #endif
