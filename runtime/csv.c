@@ -1,12 +1,13 @@
 /*
-** csv.c — write simulation samples as CSV: a header naming every column
-** (t, coordinates, rates as name', outputs, T, V and, for a model with
-** constraints, the multipliers lambda1..lambdaNC) and one row per sample.
-** The multipliers are those of accel_constrained at the sample: the
-** generalized constraint force is +Gᵀλ (G = dphi/dq, phi = left - right).
-** Each number is printed as %.15g when that reads back as the same double
-** (short and readable for round values), else as %.17g (always exact);
-** a negative zero is written as 0.
+** csv.c — the rows of a run: which columns there are, their values at a
+** sample, and CSV text for them.  The columns, in this order: t, the
+** coordinates, their rates (name'), the outputs, the inputs, the
+** multipliers lambda1..lambdaNC (only for a model with constraints) and the
+** energies T, V.  The multipliers are those of accel_constrained at the
+** sample: the generalized constraint force is +Gᵀλ (G = dphi/dq).
+**
+** Numbers are written by eom_format_double (shortest exact round trip) into
+** one buffer per row, so a row costs one fwrite.
 */
 #include <assert.h>
 #include <math.h>
@@ -16,64 +17,135 @@
 
 #include "eom/runtime.h"
 
-static void put_number(FILE *f, const char *sep, double v) {
-  char buf[40];
-  if (v == 0) v = 0;  /* -0 (from -sin 0, say) reads as 0 */
-  snprintf(buf, sizeof buf, "%.15g", v);
-  if (strtod(buf, NULL) != v) snprintf(buf, sizeof buf, "%.17g", v);
-  fputs(sep, f);
-  fputs(buf, f);
+static int multipliers(const struct eom_model *m) {
+  return m->accel_constrained ? m->nc + m->nvc : 0;
+}
+
+int eom_row_width(const struct eom_model *m) {
+  assert(m);
+  return 1 + 2 * m->nq + m->ny + m->nu + multipliers(m) + 2;
+}
+
+/* Column k's name into buf ("" for k out of range); its unit into *unit
+** when unit is not NULL ("" when unknown: outputs and multipliers). */
+const char *eom_row_column(const struct eom_model *m, int k, char *buf, size_t size,
+                           const char **unit) {
+  const char *u = "";
+  assert(m && buf && size >= 2);
+  buf[0] = '\0';
+  if (k == 0) snprintf(buf, size, "t"), u = "s";
+  else if ((k -= 1) < m->nq) {
+    snprintf(buf, size, "%s", m->coord_names[k]);
+    u = m->coord_units ? m->coord_units[k] : "";
+  } else if ((k -= m->nq) < m->nq) {
+    snprintf(buf, size, "%s'", m->coord_names[k]);
+    u = m->coord_units ? m->coord_units[k] : "";  /* per second: see eom_row_unit */
+  } else if ((k -= m->nq) < m->ny) snprintf(buf, size, "%s", m->output_names[k]);
+  else if ((k -= m->ny) < m->nu) {
+    snprintf(buf, size, "%s", m->input_names[k]);
+    u = m->input_units ? m->input_units[k] : "";
+  } else if ((k -= m->nu) < multipliers(m)) snprintf(buf, size, "lambda%d", k + 1);
+  else if ((k -= multipliers(m)) < 2) snprintf(buf, size, "%s", k == 0 ? "T" : "V"), u = "J";
+  if (unit) *unit = u;
+  return buf;
+}
+
+/* The unit of column k as text: a rate's unit is its coordinate's per
+** second ("m/s", "rad/s", "1/s" for a unitless one). */
+const char *eom_row_unit(const struct eom_model *m, int k, char *buf, size_t size) {
+  char name[8];
+  const char *u;
+  assert(buf && size > 0);
+  eom_row_column(m, k, name, sizeof name, &u);
+  if (k >= 1 + m->nq && k < 1 + 2 * m->nq)
+    snprintf(buf, size, "%s/s", u && *u ? u : "1");
+  else
+    snprintf(buf, size, "%s", u ? u : "");
+  return buf;
+}
+
+int eom_row_eval(const struct eom_model *m, const double *p, double t, const double *x,
+                 const double *u, double *row) {
+  int nmul = multipliers(m), st = 0;
+  double T = 0, V = 0;
+  assert(m && x && row);
+  if (!p) p = m->param_defaults;
+  double *r = row;
+  *r++ = t;
+  memcpy(r, x, 2 * (size_t)m->nq * sizeof(double));
+  r += 2 * m->nq;
+  double *zeros = NULL;
+  if (!u && (m->nu > 0 || nmul > 0)) {
+    zeros = calloc((size_t)m->nu + 1, sizeof(double));
+    if (!zeros) return -1;
+    u = zeros;
+  }
+  if (m->ny > 0) {
+    if (m->outputs) m->outputs(t, x, x + m->nq, u, p, r);
+    else memset(r, 0, (size_t)m->ny * sizeof(double));
+    r += m->ny;
+  }
+  if (m->nu > 0) memcpy(r, u, (size_t)m->nu * sizeof(double));
+  r += m->nu;
+  if (nmul > 0) {
+    double *qdd = malloc((size_t)m->nq * sizeof(double));
+    /* NaN when the saddle-point system is singular there. */
+    if (!qdd) st = -1;
+    else if (m->accel_constrained(t, x, x + m->nq, u, p, qdd, r) != 0)
+      for (int k = 0; k < nmul; k++) r[k] = NAN;
+    free(qdd);
+    r += nmul;
+  }
+  if (m->energy) m->energy(x, x + m->nq, p, &T, &V);
+  *r++ = T;
+  *r++ = V;
+  assert(r - row == eom_row_width(m));
+  free(zeros);
+  return st;
+}
+
+int eom_csv_write_names(FILE *f, const struct eom_model *m, const int *cols, int ncols) {
+  char name[256];
+  assert(f && m);
+  int width = eom_row_width(m), n = cols ? ncols : width;
+  for (int i = 0; i < n; i++) {
+    int k = cols ? cols[i] : i;
+    assert(k >= 0 && k < width);
+    if (i > 0) fputc(',', f);
+    fputs(eom_row_column(m, k, name, sizeof name, NULL), f);
+  }
+  fputc('\n', f);
+  return ferror(f) ? -1 : 0;
+}
+
+int eom_csv_write_values(FILE *f, const double *row, const int *cols, int ncols) {
+  char small[64 * EOM_NUMBER_MAX], *buf = small, *p;
+  size_t need = (size_t)ncols * EOM_NUMBER_MAX + 1;
+  assert(f && row && ncols > 0);
+  if (need > sizeof small && !(buf = malloc(need))) return -1;
+  p = buf;
+  for (int i = 0; i < ncols; i++) {
+    if (i > 0) *p++ = ',';
+    p += eom_format_double(p, row[cols ? cols[i] : i]);
+  }
+  *p++ = '\n';
+  size_t len = (size_t)(p - buf);
+  int bad = fwrite(buf, 1, len, f) != len;
+  if (buf != small) free(buf);
+  return bad ? -1 : 0;
 }
 
 int eom_csv_write_header(FILE *f, const struct eom_model *m) {
-  assert(f && m);
-  fputs("t", f);
-  for (int i = 0; i < m->nq; i++) fprintf(f, ",%s", m->coord_names[i]);
-  for (int i = 0; i < m->nq; i++) fprintf(f, ",%s'", m->coord_names[i]);
-  for (int i = 0; i < m->ny; i++) fprintf(f, ",%s", m->output_names[i]);
-  fputs(",T,V", f);
-  if (m->accel_constrained)
-    for (int k = 0; k < m->nc + m->nvc; k++) fprintf(f, ",lambda%d", k + 1);
-  fputc('\n', f);
-  return ferror(f) ? -1 : 0;
+  return eom_csv_write_names(f, m, NULL, 0);
 }
 
 int eom_csv_write_row(FILE *f, const struct eom_model *m, const double *p, double t,
                       const double *x, const double *u) {
-  double y_small[32], *y = y_small, T = 0, V = 0;
-  assert(f && m && x);
-  if (!p) p = m->param_defaults;
-  if (m->ny > (int)(sizeof y_small / sizeof y_small[0])) {
-    y = malloc((size_t)m->ny * sizeof(double));
-    if (!y) return -1;
-  }
-  put_number(f, "", t);
-  for (int i = 0; i < 2 * m->nq; i++) put_number(f, ",", x[i]);
-  if (m->ny > 0 && m->outputs) {
-    m->outputs(t, x, x + m->nq, u, p, y);
-    for (int i = 0; i < m->ny; i++) put_number(f, ",", y[i]);
-  }
-  if (m->energy) m->energy(x, x + m->nq, p, &T, &V);
-  put_number(f, ",", T);
-  put_number(f, ",", V);
-  if (m->nc + m->nvc > 0 && m->accel_constrained) {
-    double *qdd = malloc(((size_t)m->nq + (size_t)m->nc + (size_t)m->nvc + (size_t)m->nu + 1) * sizeof(double));
-    if (!qdd) {
-      if (y != y_small) free(y);
-      return -1;
-    }
-    double *lambda = qdd + m->nq, *zeros = lambda + m->nc + m->nvc;
-    if (!u) {
-      memset(zeros, 0, ((size_t)m->nu + 1) * sizeof(double));
-      u = zeros;
-    }
-    /* NaN when the saddle-point system is singular there. */
-    if (m->accel_constrained(t, x, x + m->nq, u, p, qdd, lambda) != 0)
-      for (int k = 0; k < m->nc + m->nvc; k++) lambda[k] = NAN;
-    for (int k = 0; k < m->nc + m->nvc; k++) put_number(f, ",", lambda[k]);
-    free(qdd);
-  }
-  fputc('\n', f);
-  if (y != y_small) free(y);
-  return ferror(f) ? -1 : 0;
+  double small[64], *row = small;
+  int width = eom_row_width(m), st;
+  if (width > 64 && !(row = malloc((size_t)width * sizeof(double)))) return -1;
+  st = eom_row_eval(m, p, t, x, u, row);
+  if (st == 0) st = eom_csv_write_values(f, row, NULL, width);
+  if (row != small) free(row);
+  return st;
 }

@@ -209,7 +209,8 @@ START_TEST(sim_csv_columns) {
   ck_assert_msg(strstr(r.err, "action") && strstr(r.err, "steps"), "summary: %s", r.err);
   char *csv = read_file(out, NULL);
   ck_assert_ptr_nonnull(csv);
-  const char *header = "t,x1,x2,x1',x2',spring_middle,T,V\n";
+  /* SPEC 4.6: t, coordinates, rates, outputs, inputs, multipliers, T, V. */
+  const char *header = "t,x1,x2,x1',x2',spring_middle,F,T,V\n";
   ck_assert_msg(strncmp(csv, header, strlen(header)) == 0, "%s", csv);
   ck_assert_int_eq(count_lines(csv), 12); /* header + t = 0, 0.1, ..., 1 */
   /* First row: t = 0 and the model's initial x1 = 0.05. */
@@ -219,11 +220,11 @@ START_TEST(sim_csv_columns) {
   ck_assert(t == 0 && x1 == 0.05 && x2 == 0);
   /* Sample times print as written: 0.3, not 0.30000000000000004. */
   ck_assert_msg(strstr(csv, "\n0.3,") && strstr(csv, "\n0.7,") && strstr(csv, "\n1,"), "%s", csv);
-  /* Every row has 8 fields. */
+  /* Every row has 9 fields. */
   for (const char *p = row; *p; p = strchr(p, '\n') + 1) {
     int commas = 0;
     for (const char *q = p; *q != '\n'; q++) commas += *q == ',';
-    ck_assert_int_eq(commas, 7);
+    ck_assert_int_eq(commas, 8);
   }
   free(csv);
   run_free(&r);

@@ -1,6 +1,7 @@
 /*
 ** cmd_sim.c — `eomc sim`: build the model, integrate it with libeomrt, write
-** the samples as CSV (t, coordinates, rates, outputs, T, V) and optionally
+** the samples as CSV (t, coordinates, rates, outputs, inputs, multipliers,
+** T, V) and optionally
 ** plot them.
 **
 ** The summary line on stderr gives the steps, the final time, the energy
@@ -28,7 +29,8 @@ static const char sim_usage[] =
   "usage: eomc sim MODEL.eom [OPTIONS]\n"
   "\n"
   "Build the model (generated C, compiled and cached), integrate it and write\n"
-  "a CSV with columns t, the coordinates, their rates (name'), the outputs, T, V.\n"
+  "a CSV with columns t, the coordinates, their rates (name'), the outputs, the\n"
+  "inputs, the multipliers lambda1.. (models with constraints), T, V.\n"
   "\n"
   "options:\n"
   "  --until T          end time (default 10); the run starts at t = 0\n"
@@ -47,7 +49,7 @@ static const char sim_usage[] =
   "  -o OUT.csv         write the CSV there (default: standard output)\n"
   "  --plot OUT.svg     plot coordinates, energies and phase portraits (gnuplot)\n"
   "\n"
-  "models with constraints (the CSV adds lambda1.., the multipliers; the\n"
+  "models with constraints (lambda1.. are the multipliers; the\n"
   "generalized constraint force is +G^T lambda with G = dphi/dq):\n"
   "  --baumgarte A,B    Baumgarte gains in 1/s: G q'' = gamma - 2A phi' - B^2 phi\n"
   "                     (default 10,10; 0,0 turns the term off)\n"

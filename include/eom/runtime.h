@@ -170,12 +170,43 @@ int eom_linearize_tangent(const struct eom_model *m, const double *p, const doub
 int eom_state_matrix(const struct eom_model *m, const double *p, double t, const double *x,
                      const double *u, double *A);
 
+/* ------------------------------------------------------------- run rows */
+
+/* A run's row has eom_row_width(m) columns, in this order: t, the
+** coordinates, their rates (name'), the outputs, the inputs, the
+** multipliers lambda1..lambdaNC (models with constraints: the constraint
+** force is Gᵀλ) and the energies T, V. */
+int eom_row_width(const struct eom_model *m);
+/* Column k's name written into buf (e.g. "x'", "lambda2"); *unit (when unit
+** is not NULL) is its declared unit, "" when unknown. */
+const char *eom_row_column(const struct eom_model *m, int k, char *buf, size_t size,
+                           const char **unit);
+/* Column k's unit as text ("m", "m/s" for a rate, "J"; "" when unknown). */
+const char *eom_row_unit(const struct eom_model *m, int k, char *buf, size_t size);
+/* All columns' values at (t, x, u) into row (u NULL: zero inputs); outputs,
+** energies and multipliers (NaN where singular) are evaluated here. */
+int eom_row_eval(const struct eom_model *m, const double *p, double t, const double *x,
+                 const double *u, double *row);
+
+/* ---------------------------------------------------------------- numbers */
+
+/* Longest text eom_format_double writes, with its terminating NUL. */
+#define EOM_NUMBER_MAX 32
+/* The shortest decimal text that strtod reads back as exactly v (Ryu,
+** Adams 2018), printf-%g-like ("0.25", "1e-07", "-3.5e+20"); -0 as "0",
+** "nan", "inf", "-inf".  Writes at most EOM_NUMBER_MAX bytes with the NUL
+** into buf and returns the length. */
+int eom_format_double(char *buf, double v);
+
 /* ---------------------------------------------------------------- CSV out */
 
-/* Header line: t, coordinates, rates (name'), outputs, T, V and, with
-** constraints, lambda1..lambdaNC (the multipliers: constraint force Gᵀλ). */
+/* Header line naming columns cols[0..ncols) (cols NULL: every column). */
+int eom_csv_write_names(FILE *f, const struct eom_model *m, const int *cols, int ncols);
+/* One line of row[cols[i]] (cols NULL: row[0..ncols)), buffered into one write. */
+int eom_csv_write_values(FILE *f, const double *row, const int *cols, int ncols);
+/* Header line of every column (see eom_row_width). */
 int eom_csv_write_header(FILE *f, const struct eom_model *m);
-/* One row for (t, x, u); outputs, energies and multipliers are evaluated here. */
+/* One row of every column for (t, x, u). */
 int eom_csv_write_row(FILE *f, const struct eom_model *m, const double *p, double t,
                       const double *x, const double *u);
 
