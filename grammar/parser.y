@@ -258,7 +258,10 @@ stmt:
   | KW_FORCE expr CW_AT expr       { $$ = expr_stmt(ctx, ST_FORCE_AT, @1, $2, $4); }
   | KW_TORQUE expr CW_ON expr      { $$ = expr_stmt(ctx, ST_TORQUE, @1, $2, $4); }
   | KW_GRAVITY expr                { $$ = expr_stmt(ctx, ST_GRAVITY, @1, $2, NULL); }
-  | KW_CONSTRAINT expr '=' expr    { $$ = expr_stmt(ctx, ST_CONSTRAINT, @1, $2, $4); }
+  | KW_CONSTRAINT expr '=' expr unit_opt {
+      $$ = expr_stmt(ctx, ST_CONSTRAINT, @1, $2, $4);
+      if ($$) $$->e[2] = $5;
+    }
   | KW_BODY name body_parts {
       $$ = $3;
       if ($$) {

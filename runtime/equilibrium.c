@@ -23,6 +23,10 @@
 
 #include "integrators.h"
 
+/* An accepted equilibrium leaves max|f| below this fraction of the force
+** scale (the starting force, or df/dq times the size of q). */
+#define FORCE_TOL 1e-8
+
 static double max_abs(int n, const double *v) {
   double m = 0;
   for (int i = 0; i < n; i++) m = fmax(m, fabs(v[i]));
@@ -94,7 +98,7 @@ int eom_equilibrium(const struct eom_model *m, const double *p, const double *u,
   int st = EOM_ENEWTON;
 
   m->forcing(t, q, qd, u, p, f);
-  double res = max_abs(nq, f);
+  double res = max_abs(nq, f), res0 = isfinite(res) ? res : 0;
   /* Away from the solution M·(dq''/dq) is only an approximation of df/dq;
   ** when it gives no descent, switch to differences for good. */
   int use_fd = 0;
@@ -114,6 +118,11 @@ int eom_equilibrium(const struct eom_model *m, const double *p, const double *u,
     if (dense_lu(nq, J, piv) == 0) {
       for (int i = 0; i < nq; i++) dq[i] = -f[i];
       dense_lu_solve(nq, J, piv, dq);
+    } else if (res <= FORCE_TOL * fmax(1.0, res0) * DBL_EPSILON) {
+      /* df/dq vanishes where f does too (V = -x^4 at x = 0): this is the
+      ** equilibrium, degenerate, and no step is needed. */
+      st = EOM_OK;
+      goto out;
     } else if (least_squares_step(nq, Jcopy, f, J, dq, piv) != 0) {
       describe_coords(m, q, where, sizeof where);
       snprintf(rep->message, sizeof rep->message,
@@ -124,11 +133,24 @@ int eom_equilibrium(const struct eom_model *m, const double *p, const double *u,
     }
     double step = max_abs(nq, dq);
     if (step <= tol * (1 + max_abs(nq, q))) {
-      /* Converged: the remaining correction is negligible; take it. */
+      /* The remaining correction is negligible; take it.  Where df/dq is
+      ** singular a small step does not mean a small force: the force may
+      ** lie outside what any motion of q can cancel (a constant push on a
+      ** free coordinate), and that point is no equilibrium. */
       for (int i = 0; i < nq; i++) q[i] += dq[i];
       m->forcing(t, q, qd, u, p, f);
       rep->steps = it + 1;
       rep->residual = max_abs(nq, f);
+      double fscale = fmax(1.0, fmax(res0, max_abs(nq * nq, Jcopy) * (1 + max_abs(nq, q))));
+      if (rep->residual > FORCE_TOL * fscale) {
+        describe_coords(m, q, where, sizeof where);
+        snprintf(rep->message, sizeof rep->message,
+                 "the generalized force cannot vanish: max|f| = %.3g at %s, and no change "
+                 "of the coordinates reduces it",
+                 rep->residual, where);
+        st = EOM_ENEWTON;
+        goto out;
+      }
       st = EOM_OK;
       goto out;
     }

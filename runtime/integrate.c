@@ -7,6 +7,7 @@
 */
 #include <assert.h>
 #include <float.h>
+#include <limits.h>
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -167,13 +168,31 @@ static int fixed_run(SimContext *c, const Method *m, const struct eom_sim_option
     st = EOM_ENOMEM;
     goto done;
   }
+  /* Steps are counted in integers while the samples lie on the step grid
+  ** t0 + n h: the step count is then exactly (b - t0)/h whatever the
+  ** rounding of t + h near a sample (which would otherwise add a sliver
+  ** step), and no time drifts by summing h. */
+  long n_done = 0;
+  int on_grid = o->step > 0;
   while (t < t_end) {
     double b = s->every_step ? t_end : fmin(sampler_next(s), t_end);
     assert(b > t);
-    /* Equal steps no longer than hmax that land exactly on the sample. */
-    long nsteps = (long)ceil((b - t) / hmax - 1e-9);
-    if (nsteps < 1) nsteps = 1;
-    double h = (b - t) / (double)nsteps, ta = t;
+    /* Slack, in steps, for the rounding of the times themselves. */
+    double slack = 1e-9 + 4 * DBL_EPSILON * fmax(fabs(o->t0), fabs(b)) / hmax;
+    double kb = (b - o->t0) / hmax, nb = floor(kb + 0.5);
+    long nsteps;
+    double h, ta = t;
+    if (on_grid && fabs(kb - nb) <= slack * fmax(1.0, kb) && nb > (double)n_done &&
+        nb < (double)LONG_MAX) {
+      nsteps = (long)nb - n_done;
+      h = hmax;
+    } else {
+      /* Equal steps no longer than hmax that land exactly on the sample. */
+      on_grid = 0;
+      nsteps = (long)ceil((b - t) / hmax - slack);
+      if (nsteps < 1) nsteps = 1;
+      h = (b - t) / (double)nsteps;
+    }
     double hmin = o->h_min > 0 ? o->h_min : 1e-12 * fmax(span, fabs(t_end));
     for (long i = 0; i < nsteps; i++) {
       if (o->max_steps > 0 && rep->steps >= o->max_steps) {
@@ -184,7 +203,9 @@ static int fixed_run(SimContext *c, const Method *m, const struct eom_sim_option
       }
       memcpy(before, x, (size_t)n * sizeof(double));
       if ((st = guarded_step(c, m, t, h, hmin, x, work, backup))) goto restore;
-      double t_next = i + 1 == nsteps ? b : ta + (double)(i + 1) * h;
+      double t_next = i + 1 == nsteps ? b
+                      : on_grid     ? o->t0 + (double)(n_done + i + 1) * h
+                                    : ta + (double)(i + 1) * h;
       if (!all_finite(n, x)) {
         memcpy(x, before, (size_t)n * sizeof(double));
         st = sim_fail(c, EOM_ENONFINITE, t, x,
@@ -199,6 +220,7 @@ static int fixed_run(SimContext *c, const Method *m, const struct eom_sim_option
       rep->steps++;
       if (s->every_step && (st = sampler_emit(c, s, t, x))) goto done;
     }
+    n_done += nsteps;
     if (!s->every_step && (st = sampler_emit(c, s, b, x))) goto done;
   }
   goto done;

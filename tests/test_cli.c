@@ -280,6 +280,13 @@ START_TEST(gen_several_models) {
   ck_assert_msg(r.status == 0, "status %d: %s", r.status, r.err);
   ck_assert_ptr_nonnull(strstr(r.err, "seat_rig.h and"));
   ck_assert_ptr_nonnull(strstr(r.err, "gantry_crane.h and"));
+  /* -v tells writing from finding the files up to date. */
+  ck_assert_msg(strstr(r.err, "wrote ") != NULL && strstr(r.err, "up to date") == NULL, "%s", r.err);
+  run_free(&r);
+  r = run_argv(argv);
+  ck_assert_msg(r.status == 0, "status %d: %s", r.status, r.err);
+  ck_assert_msg(strstr(r.err, "wrote ") == NULL && strstr(r.err, "already up to date") != NULL,
+                "%s", r.err);
   run_free(&r);
   const char *files[] = {"seat_rig.h", "seat_rig.c", "gantry_crane.h", "gantry_crane.c"};
   char *rule = read_file(dep, NULL);

@@ -707,6 +707,41 @@ START_TEST(sample_grid) {
 }
 END_TEST
 
+static int count_only(void *ctx, double t, const double *x, const double *u) {
+  (void)x, (void)u;
+  ((Count *)ctx)->n++;
+  ((Count *)ctx)->last_t = t;
+  return 0;
+}
+
+/* A fixed-step run takes exactly span/h steps, t = t0 + n h, even where
+** t + h rounds below a sample time (far from t = 0 the times carry a
+** rounding of ulp(t), here 1e-4 of a step). */
+START_TEST(fixed_step_count) {
+  static const char *const methods[] = {"rk4", "midpoint"};
+  static const double dts[] = {0, 1e-4, 1e-6};
+  for (size_t i = 0; i < 2; i++)
+    for (size_t d = 0; d < 3; d++) {
+      double x[2] = {1, 0};
+      Count cnt = {0, 0};
+      struct eom_sim_options o;
+      struct eom_report rep;
+      eom_sim_options_init(&o);
+      o.method = methods[i];
+      o.t0 = 1e6;
+      o.t_end = 1e6 + 1e-3;
+      o.step = 1e-6;
+      o.sample_dt = dts[d];
+      ck_assert_int_eq(eom_simulate(&tm_oscillator, NULL, NULL, x, &o, count_only, &cnt, &rep),
+                       EOM_OK);
+      ck_assert_msg(rep.steps == 1000, "%s, samples every %g: %ld steps", methods[i], dts[d],
+                    rep.steps);
+      ck_assert_double_eq(cnt.last_t, o.t_end);
+      if (d == 1) ck_assert_int_eq(cnt.n, 11);
+    }
+}
+END_TEST
+
 /* ------------------------------------------------------------- inputs */
 
 static char *write_temp(const char *text) {
@@ -1067,6 +1102,7 @@ static Suite *runtime_suite(void) {
   tcase_add_test(tc, failure_collision);
   tcase_add_test(tc, bad_arguments);
   tcase_add_test(tc, sample_grid);
+  tcase_add_test(tc, fixed_step_count);
   suite_add_tcase(s, tc);
   TCase *ti = tcase_create("inputs");
   tcase_set_timeout(ti, 60);

@@ -657,6 +657,107 @@ START_TEST(sim_vector_outputs) {
 }
 END_TEST
 
+/* ------------------------------------------------------ equilibria */
+
+/* Value after the first "key" in text (ck fails when absent). */
+static double number_after(const char *text, const char *key) {
+  const char *s = strstr(text, key);
+  ck_assert_msg(s != NULL, "no '%s' in\n%s", key, text);
+  return strtod(s + strlen(key), NULL);
+}
+
+/* A trolley free to roll under a constant drive force has no equilibrium:
+** exit 3, naming x and why.  The steady motion instead: the whole hoist
+** accelerates at a = F / (M + m) and the load hangs behind at
+** tan(th) = -a / g (a plumb line in a uniformly accelerating car, Halliday,
+** Resnick & Walker, Fundamentals of Physics, ch. 5-6; from memory). */
+START_TEST(modes_no_equilibrium_under_drive) {
+  char *argv[] = {(char *)eomc(), "modes", model_path("rolling_hoist.eom"), "--set", "F=3", NULL};
+  RunResult r = run_argv(argv);
+  ck_assert_msg(r.status == 3, "status %d\nout %s\nerr %s", r.status, r.out, r.err);
+  ck_assert_msg(r.out[0] == '\0', "no equilibrium may be printed:\n%s", r.out);
+  ck_assert_msg(strstr(r.err, "no static equilibrium: x: a constant generalized force of 3 N acts "
+                              "and nothing restores x") != NULL, "%s", r.err);
+  double M = 20, m = 5, g = 9.81, a = 3 / (M + m);
+  double acc = number_after(r.err, "x'' = "), th = number_after(r.err, "th = ");
+  ck_assert_msg(fabs(acc - a) < 1e-9, "a %.12g, want %.12g", acc, a);
+  ck_assert_msg(fabs(th + atan(a / g)) < 1e-8, "th %.12g, want %.12g\n%s", th, -atan(a / g), r.err);
+  run_free(&r);
+
+  /* Without the drive the same model does have its equilibrium. */
+  char *argv2[] = {(char *)eomc(), "modes", model_path("rolling_hoist.eom"), NULL};
+  r = run_argv(argv2);
+  ck_assert_msg(r.status == 0, "status %d: %s", r.status, r.err);
+  run_free(&r);
+
+  /* With a rolling drag the steady motion is a constant rate, not an
+  ** acceleration: the note says to ask for it with --rate. */
+  const char *text = "model dragged_hoist\ncoord x [m]\nparam m = 25 [kg]\nparam c = 2 [N*s/m]\n"
+                     "input F [N]\nkinetic 1/2*m*x'^2\ndissipation 1/2*c*x'^2\nforce x = F\n";
+  char *dragged = write_file(work_dir, "dragged_hoist.eom", text, strlen(text));
+  char *argv3[] = {(char *)eomc(), "modes", dragged, "--set", "F=3", NULL};
+  r = run_argv(argv3);
+  ck_assert_msg(r.status == 3, "status %d: %s", r.status, r.err);
+  ck_assert_msg(strstr(r.err, "--rate x=") != NULL && strstr(r.err, "x''") == NULL, "%s", r.err);
+  run_free(&r);
+  free(dragged);
+}
+END_TEST
+
+/* Angles of 2 pi periodic dynamics are wrapped into (-pi, pi]; an angle a
+** torsion spring holds several turns round is not (the spring is not
+** periodic).  Equilibria of the pendulum at 0 and pi, of the shaft at its
+** spring's rest angle psi0 = 20 rad (statics, common practice). */
+START_TEST(modes_wraps_periodic_angles) {
+  char *argv[] = {(char *)eomc(), "modes", model_path("wound_pendulum.eom"), "--json", NULL};
+  RunResult r = run_argv(argv);
+  ck_assert_msg(r.status == 0, "status %d: %s", r.status, r.err);
+  ck_assert_msg(fabs(json_number(r.out, "th", 0)) < 1e-9, "%s", r.out);
+  ck_assert_msg(fabs(json_number(r.out, "psi", 0) - 20) < 1e-9, "%s", r.out);
+  run_free(&r);
+  char *argv2[] = {(char *)eomc(), "modes", model_path("wound_pendulum.eom"), "--at", "th=72.4",
+                   "--json", NULL};
+  r = run_argv(argv2);
+  ck_assert_msg(r.status == 0, "status %d: %s", r.status, r.err);
+  double th = json_number(r.out, "th", 0);
+  ck_assert_msg(th > -PI && th <= PI + 1e-12 && fabs(fabs(th) - PI) < 1e-9, "th %.17g", th);
+  run_free(&r);
+}
+END_TEST
+
+/* The JSON's growth_rate_per_s is Re s: for the damped pair -c / (2 m) in
+** both modes (damping proportional to mass; common practice), 0 for an
+** undamped oscillation; no "-0" anywhere. */
+START_TEST(modes_json_growth_rate) {
+  char *argv[] = {(char *)eomc(), "modes", model_path("damped_pair.eom"), "--json", NULL};
+  RunResult r = run_argv(argv);
+  ck_assert_msg(r.status == 0, "status %d: %s", r.status, r.err);
+  for (int k = 0; k < 2; k++)
+    ck_assert_double_eq_tol(json_number(r.out, "growth_rate_per_s", k), -0.9 / (2 * 1.5), 1e-9);
+  ck_assert_ptr_null(strstr(r.out, "rate_per_s\": 0."));
+  run_free(&r);
+  char *argv2[] = {(char *)eomc(), "modes", model_path("rolling_hoist.eom"), "--json", NULL};
+  r = run_argv(argv2);
+  ck_assert_msg(r.status == 0, "status %d: %s", r.status, r.err);
+  ck_assert_msg(strstr(r.out, "-0,") == NULL && strstr(r.out, "-0}") == NULL, "%s", r.out);
+  ck_assert_msg(strstr(r.out, "\"kind\": \"neutral\", \"omega2\": 0,") != NULL, "%s", r.out);
+  ck_assert_double_eq_tol(json_number(r.out, "growth_rate_per_s", 0), 0, 1e-12);
+  run_free(&r);
+}
+END_TEST
+
+/* At a degenerate equilibrium (V = -a x^4: exact stiffness 0, central
+** differences 4 a h^2) the jacobian check must not cry wolf. */
+START_TEST(modes_degenerate_no_false_alarm) {
+  char *argv[] = {(char *)eomc(), "modes", model_path("quartic_hill.eom"), NULL};
+  RunResult r = run_argv(argv);
+  ck_assert_msg(r.status == 0, "status %d: %s", r.status, r.err);
+  ck_assert_msg(strstr(r.err, "disagrees") == NULL, "%s", r.err);
+  ck_assert_msg(fabs(number_after(r.out, "x = ")) < 1e-6, "%s", r.out);
+  run_free(&r);
+}
+END_TEST
+
 static Suite *sim_suite(void) {
   Suite *s = suite_create("sim");
   TCase *tc = tcase_create("cli");
@@ -682,6 +783,14 @@ static Suite *sim_suite(void) {
   tcase_add_test(tc, sim_time_dependent_constraint);
   tcase_add_test(tc, sim_vector_outputs);
   suite_add_tcase(s, tc);
+  TCase *te = tcase_create("equilibria");
+  tcase_add_checked_fixture(te, setup, teardown);
+  tcase_set_timeout(te, 120);
+  tcase_add_test(te, modes_no_equilibrium_under_drive);
+  tcase_add_test(te, modes_wraps_periodic_angles);
+  tcase_add_test(te, modes_json_growth_rate);
+  tcase_add_test(te, modes_degenerate_no_false_alarm);
+  suite_add_tcase(s, te);
   return s;
 }
 

@@ -261,6 +261,21 @@ START_TEST(vectors_constraints_and_declared_values) {
   expect_error(src, 7, 1, "sides of the constraint have different units", NULL);
   snprintf(src, sizeof src, "%sconstraint x = L*sin(th)\npotential m*g*x\n", head);
   expect_clean(src);
+  /* A bare number is dimensionless: the error says how to give it a unit,
+  ** and the constraint's unit annotation does. */
+  snprintf(src, sizeof src, "%sconstraint x = 0.1\n", head);
+  expect_error(src, 7, 1, "sides of the constraint have different units: m and 1",
+               "write the constraint's unit after it: 0.1 [m]");
+  snprintf(src, sizeof src, "%sconstraint 0.25 = x\n", head);
+  expect_error(src, 7, 1, "0.25 [m]", NULL);
+  snprintf(src, sizeof src, "%sconstraint x = 0.1 [m]\nconstraint 2*th = 1.5 [rad]\npotential m*g*x\n", head);
+  expect_clean(src);
+  snprintf(src, sizeof src, "%sconstraint x = 0.1 [kg]\n", head);
+  expect_error(src, 7, 12, "left side of the constraint has unit m, expected kg", NULL);
+  /* The annotation gives its unit to a side that is a bare number, not to
+  ** numbers inside a sum. */
+  snprintf(src, sizeof src, "%sconstraint x = L + 0.1 [m]\npotential m*g*x\n", head);
+  expect_error(src, 7, 18, "operands of '+' have different units: m and 1", NULL);
   snprintf(src, sizeof src, "%soutput y = x [s]\n", head);
   expect_error(src, 7, 8, "value of output 'y' has unit m, expected s", NULL);
   snprintf(src, sizeof src, "%soutput y = x + m\n", head);

@@ -233,6 +233,7 @@ static int gen_one(const GenArgs *a, int i, char **names) {
   char hash[HASH_HEX_LEN + 1];
   hash_hex(fe.src.text, fe.src.len, hash);
   EmitOptions eo = {a->prefix, hash, a->no_cse};
+  int replaced = 0;
   const char *P = a->prefix ? a->prefix : fe.model.name;
   *name = strdup(P);
   for (int j = 0; j < i && rc == 0; j++)
@@ -243,15 +244,26 @@ static int gen_one(const GenArgs *a, int i, char **names) {
     }
   if (rc != 0) {
     /* nothing written */
-  } else if (emit_c_to_dir(&fe.model, &sys, &eo, a->dir, err, sizeof err) != 0) {
+  } else if (emit_c_files(&fe.model, &sys, &eo, a->dir, &replaced, err, sizeof err) != 0) {
     /* The emitter words problems of the model itself as "the model ..."; the
     ** rest are failures to write. */
     fprintf(stderr, "eomc: error: %s: %s\n", path, err);
     rc = strncmp(err, "the model", 9) == 0 ? EXIT_MODEL : EXIT_RUN;
   } else if (a->verbose) {
-    fprintf(stderr, "eomc: %s: %d coordinate%s, %d graph nodes; derived in %.3f s, "
-            "%s/%s.h and %s/%s.c up to date after %.3f s\n", path, sys.nq, sys.nq == 1 ? "" : "s",
-            sys.g.nnodes, derive_s, a->dir, P, a->dir, P, seconds_since(&t0));
+    /* Say what happened to the files: written, or left as they were. */
+    char what[1200];
+    if (replaced == (EMIT_WROTE_HEADER | EMIT_WROTE_SOURCE))
+      snprintf(what, sizeof what, "wrote %s/%s.h and %s/%s.c", a->dir, P, a->dir, P);
+    else if (replaced)
+      snprintf(what, sizeof what, "wrote %s/%s.%c (%s/%s.%c up to date)", a->dir, P,
+               replaced == EMIT_WROTE_HEADER ? 'h' : 'c', a->dir, P,
+               replaced == EMIT_WROTE_HEADER ? 'c' : 'h');
+    else
+      snprintf(what, sizeof what, "%s/%s.h and %s/%s.c already up to date (not rewritten)",
+               a->dir, P, a->dir, P);
+    fprintf(stderr, "eomc: %s: %d coordinate%s, %d graph nodes; derived in %.3f s, %s after "
+            "%.3f s\n", path, sys.nq, sys.nq == 1 ? "" : "s", sys.g.nnodes, derive_s, what,
+            seconds_since(&t0));
   }
   if (!*name && rc == 0) {
     fputs("eomc: error: out of memory\n", stderr);

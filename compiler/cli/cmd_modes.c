@@ -21,6 +21,7 @@
 #include "cli/json_out.h"
 #include "cli/modal.h"
 #include "cli/modes_steady.h"
+#include "cli/no_equilibrium.h"
 #include "cli/run_values.h"
 
 static const char modes_usage[] =
@@ -52,6 +53,9 @@ static const char modes_usage[] =
   "             3 no equilibrium found or the analysis failed\n";
 
 static const double TWO_PI = 6.283185307179586476925286766559;
+#ifndef M_PI
+#define M_PI 3.14159265358979323846
+#endif
 
 static const char *kind_name(ModeKind k) {
   switch (k) {
@@ -61,6 +65,18 @@ static const char *kind_name(ModeKind k) {
   case MODE_DECAYING: return "decaying";
   }
   return "?";
+}
+
+/* The real part of the mode's eigenvalue s: > 0 grows as exp(rate t),
+** < 0 decays, 0 neither (undamped oscillation, neutral direction). */
+static double growth_rate(const Mode *md) {
+  switch (md->kind) {
+  case MODE_UNSTABLE: return md->rate;
+  case MODE_DECAYING: return -md->rate;
+  case MODE_OSCILLATING: return -md->zeta * md->omega;
+  case MODE_NEUTRAL: return 0;
+  }
+  return NAN;
 }
 
 static void print_json(FILE *f, const struct eom_model *m, const double *q,
@@ -81,7 +97,7 @@ static void print_json(FILE *f, const struct eom_model *m, const double *q,
     const Mode *md = &r->modes[k];
     int osc = md->kind == MODE_OSCILLATING;
     fprintf(f, "%s\n    {\"kind\": \"%s\", \"omega2\": ", k ? "," : "", kind_name(md->kind));
-    json_num(f, r->damped ? NAN : md->omega2);
+    json_num(f, r->damped ? NAN : md->kind == MODE_NEUTRAL ? 0.0 : md->omega2);
     fputs(", \"omega_rad_s\": ", f);
     json_num(f, osc || (r->damped && md->kind == MODE_UNSTABLE && md->omega_d > 0) ? md->omega : NAN);
     fputs(", \"frequency_hz\": ", f);
@@ -94,8 +110,8 @@ static void print_json(FILE *f, const struct eom_model *m, const double *q,
     json_num(f, r->damped && md->omega_d > 0 ? md->omega_d : NAN);
     fputs(", \"damped_frequency_hz\": ", f);
     json_num(f, r->damped && md->omega_d > 0 ? md->omega_d / TWO_PI : NAN);
-    fputs(", \"rate_per_s\": ", f);
-    json_num(f, md->kind == MODE_UNSTABLE || md->kind == MODE_DECAYING ? md->rate : NAN);
+    fputs(", \"growth_rate_per_s\": ", f);
+    json_num(f, growth_rate(md));
     fputs(", \"shape\": {", f);
     for (int i = 0; i < m->nq; i++) {
       fputs(i ? ", " : "", f);
@@ -169,6 +185,73 @@ static void print_text(FILE *f, const struct eom_model *m, const double *q,
     }
     print_shape(f, m, md);
   }
+}
+
+/* Why Newton found no equilibrium: the runtime's message, and for models
+** without constraints the coordinates whose force cannot vanish (and the
+** steady acceleration where there is one). */
+static void report_no_equilibrium(const struct eom_model *m, const RunValues *rv,
+                                  const struct eom_report *eq) {
+  char why[2048];
+  if (m->nc > 0 || (eq->status != EOM_ENEWTON && eq->status != EOM_ESINGULAR) ||
+      explain_no_equilibrium(m, rv->p, rv->u, rv->x, why, sizeof why) != 0) {
+    fprintf(stderr, "eomc modes: error: no static equilibrium: %s\n", eq->message);
+    return;
+  }
+  char *note = strstr(why, "\nnote: ");
+  if (note) *note++ = '\0';
+  else why[strcspn(why, "\n")] = '\0';
+  fprintf(stderr, "eomc modes: error: no static equilibrium: %s\n", why);
+  if (note) fprintf(stderr, "eomc modes: %s", note);
+}
+
+/* 1 when M and f at rest are the same with coordinate j moved by `by`. */
+static int same_dynamics(const struct eom_model *m, const double *p, const double *u,
+                         const double *q, int j, double by, double *w) {
+  int nq = m->nq;
+  size_t nn = (size_t)nq * nq;
+  double *qt = w, *qd = qt + nq, *f0 = qd + nq, *f1 = f0 + nq, *M0 = f1 + nq, *M1 = M0 + nn;
+  memcpy(qt, q, (size_t)nq * sizeof(double));
+  memset(qd, 0, (size_t)nq * sizeof(double));
+  m->forcing(0, qt, qd, u, p, f0);
+  m->mass(qt, p, M0);
+  qt[j] += by;
+  m->forcing(0, qt, qd, u, p, f1);
+  m->mass(qt, p, M1);
+  double fs = 1e-300, ms = 1e-300;
+  for (int i = 0; i < nq; i++) fs = fmax(fs, fabs(f0[i]));
+  for (size_t i = 0; i < nn; i++) ms = fmax(ms, fabs(M0[i]));
+  for (int i = 0; i < nq; i++)
+    if (!(fabs(f1[i] - f0[i]) <= 1e-9 * fs + 1e-12)) return 0;
+  for (size_t i = 0; i < nn; i++)
+    if (!(fabs(M1[i] - M0[i]) <= 1e-9 * ms)) return 0;
+  return 1;
+}
+
+/* Angles in radians whose dynamics repeat every 2 pi are reported in
+** (-pi, pi]: Newton may land several turns away from the start.  The
+** period is tested numerically here and at two other points, since the
+** descriptor does not say which coordinates are periodic. */
+static void wrap_periodic(const struct eom_model *m, const double *p, const double *u,
+                          double *q) {
+  int nq = m->nq;
+  double *w = malloc((5 * (size_t)nq + 2 * (size_t)nq * nq) * sizeof(double));
+  double *qs = malloc((size_t)nq * sizeof(double));
+  if (!w || !qs) goto out;
+  for (int j = 0; j < nq; j++) {
+    if (strcmp(m->coord_units[j], "rad") != 0 || (q[j] > -M_PI && q[j] <= M_PI)) continue;
+    double turns = floor((q[j] + M_PI) / TWO_PI), wrapped = q[j] - turns * TWO_PI;
+    if (wrapped <= -M_PI) wrapped += TWO_PI;
+    int periodic = 1;
+    for (int k = 1; k <= 3 && periodic; k++) {
+      for (int i = 0; i < nq; i++) qs[i] = q[i] + 0.3 * k * (i + 1);
+      periodic = same_dynamics(m, p, u, qs, j, wrapped - q[j], w);
+    }
+    if (periodic) q[j] = wrapped;
+  }
+out:
+  free(w);
+  free(qs);
 }
 
 int cmd_modes(int argc, char **argv) {
@@ -276,7 +359,7 @@ int cmd_modes(int argc, char **argv) {
   struct eom_report eq, lin;
   double *q = rv.x, *qd = rv.x + m->nq;
   if (eom_equilibrium(m, rv.p, rv.u, 0, q, 0, 0, &eq) != EOM_OK) {
-    fprintf(stderr, "eomc modes: error: no static equilibrium: %s\n", eq.message);
+    report_no_equilibrium(m, &rv, &eq);
     rc = EXIT_RUN;
     goto unload;
   }
@@ -309,6 +392,7 @@ int cmd_modes(int argc, char **argv) {
     rc = EXIT_RUN;
     goto unload;
   }
+  wrap_periodic(m, rv.p, rv.u, q);
   /* Print Newton's leftovers (1e-30 where the answer is 0) as 0. */
   double qscale = 0;
   for (int i = 0; i < m->nq; i++) qscale = fmax(qscale, fabs(q[i]));

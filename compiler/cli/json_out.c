@@ -5,6 +5,7 @@
 #include "cli/json_out.h"
 
 void json_num(FILE *f, double v) {
+  if (v == 0) v = 0; /* -0 prints as 0 */
   if (isfinite(v)) fprintf(f, "%.12g", v);
   else fputs("null", f);
 }

@@ -1809,6 +1809,11 @@ int emit_c(const Model *m, const EomSystem *s, const EmitOptions *o, FILE *h_out
 
 int emit_c_to_dir(const Model *m, const EomSystem *s, const EmitOptions *o, const char *dir,
                   char *err, size_t errlen) {
+  return emit_c_files(m, s, o, dir, NULL, err, errlen);
+}
+
+int emit_c_files(const Model *m, const EomSystem *s, const EmitOptions *o, const char *dir,
+                 int *replaced, char *err, size_t errlen) {
   char *hbuf = NULL, *cbuf = NULL;
   size_t hlen = 0, clen = 0;
   FsStaged hs = {0}, cs = {0};
@@ -1843,7 +1848,10 @@ int emit_c_to_dir(const Model *m, const EomSystem *s, const EmitOptions *o, cons
   /* Stage both, then rename both: never a new header beside an old source. */
   if (fs_stage(&hs, dir, hname, hbuf, hlen, err, errlen) != 0) goto done;
   if (fs_stage(&cs, dir, cname, cbuf, clen, err, errlen) != 0) goto done;
-  if (fs_commit(&hs, NULL, err, errlen) != 0 || fs_commit(&cs, NULL, err, errlen) != 0) goto done;
+  int h_changed = 0, c_changed = 0;
+  if (fs_commit(&hs, &h_changed, err, errlen) != 0 || fs_commit(&cs, &c_changed, err, errlen) != 0)
+    goto done;
+  if (replaced) *replaced = (h_changed ? EMIT_WROTE_HEADER : 0) | (c_changed ? EMIT_WROTE_SOURCE : 0);
   rc = 0;
 done:
   fs_discard(&hs);

@@ -30,4 +30,10 @@ int emit_c(const Model *m, const EomSystem *s, const EmitOptions *o, FILE *h_out
 int emit_c_to_dir(const Model *m, const EomSystem *s, const EmitOptions *o, const char *dir,
                   char *err, size_t errlen);
 
+/* The same, telling which files it replaced: *replaced is a mask of
+** EMIT_WROTE_HEADER and EMIT_WROTE_SOURCE (0: both were up to date). */
+enum { EMIT_WROTE_HEADER = 1, EMIT_WROTE_SOURCE = 2 };
+int emit_c_files(const Model *m, const EomSystem *s, const EmitOptions *o, const char *dir,
+                 int *replaced, char *err, size_t errlen);
+
 #endif

@@ -100,7 +100,7 @@ typedef enum StmtKind {
   ST_GRAVITY,      /* gravity G                      : e[0] */
   ST_BODY,         /* body N mass m at P [orient R] [inertia I]
                       : decls[0] (DECL_BODY), e[0]=m, e[1]=P, e[2]=R|NULL, e[3]=I|NULL */
-  ST_CONSTRAINT,   /* constraint a = b               : e[0]=a, e[1]=b */
+  ST_CONSTRAINT,   /* constraint a = b [u]           : e[0]=a, e[1]=b, e[2]=unit or NULL */
   ST_FRAME         /* frame a = T "d"                : decls[0] (DECL_OUTPUT, frame = 1) */
 } StmtKind;
 

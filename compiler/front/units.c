@@ -576,6 +576,44 @@ static void check_decl_value(UnitCheck *uc, Decl *dc, const char *kind) {
   expect_unit(uc, dc->value, *dc->dim, dc->loc, what, want);
 }
 
+/* `constraint LEFT = RIGHT [UNIT]`: the sides agree; with the annotation
+** they are in UNIT, and a side that is a bare number is read in UNIT (as
+** in `param L = 0.1 [m]`).  Without it a bare number is dimensionless, and
+** the error says how to give it the other side's unit. */
+static void check_constraint(UnitCheck *uc, const Stmt *s) {
+  char su[96], sn[64];
+  const Expr *side[2] = {s->e[0], s->e[1]};
+  if (s->e[2]) {
+    Unit want;
+    if (unit_parse(s->e[2], uc->d, &want) != 0) {
+      uc->nerrors++;
+      return;
+    }
+    for (int k = 0; k < 2; k++)
+      if (mentions_names(side[k]))
+        expect_unit(uc, side[k], want, side[k]->loc,
+                    k ? "right side of the constraint" : "left side of the constraint",
+                    unit_format(want, 1, su, sizeof su));
+    return;
+  }
+  Unit u[2] = {expr_unit(uc, side[0]), expr_unit(uc, side[1])};
+  for (int k = 0; k < 2; k++) {
+    const Expr *num = side[k];
+    Unit other = u[1 - k];
+    if (num->kind != EX_NUM || other.kind != UNIT_KNOWN || unit_is_dimensionless(other) ||
+        num->num == 0)
+      continue;
+    unit_format(other, 1, su, sizeof su);
+    snprintf(sn, sizeof sn, "%.15g", num->num);
+    uerror(uc, s->loc,
+           "sides of the constraint have different units: %s and 1 (a bare number is "
+           "dimensionless; write the constraint's unit after it: %s [%s])",
+           unit_format(unit_strip_rad(other), 0, (char[96]){0}, 96), sn, su);
+    return;
+  }
+  agree(uc, u[0], u[1], s->loc, "sides of the constraint");
+}
+
 static void check_statement(UnitCheck *uc, Model *m, Stmt *s) {
   const Unit energy = unit_kms(1, 2, -2), power = unit_kms(1, 2, -3), force = unit_kms(1, 1, -2);
   const Unit length = unit_base(U_M), mass = unit_base(U_KG);
@@ -629,7 +667,7 @@ static void check_statement(UnitCheck *uc, Model *m, Stmt *s) {
     }
     break;
   case ST_CONSTRAINT:
-    agree(uc, expr_unit(uc, s->e[0]), expr_unit(uc, s->e[1]), s->loc, "sides of the constraint");
+    check_constraint(uc, s);
     break;
   case ST_PARAM: check_decl_value(uc, s->decls[0], "param"); break;
   case ST_CONST: check_decl_value(uc, s->decls[0], "const"); break;

@@ -134,7 +134,10 @@ int eom_dynamics(const struct eom_model *m, const double *p, double t, const dou
 ** the free coordinates at their guess.  With constraints (nc > 0) it solves
 ** f + Gᵀλ = 0, phi(q) = 0 for q and the multipliers λ together (G =
 ** dphi/dq).  Converged when the update is below tol * (1 + max|q|); tol 0:
-** 1e-10, max_iter 0: 100.  Returns EOM_OK, EOM_ENEWTON (no convergence),
+** 1e-10, max_iter 0: 100.  A point where the update vanishes but the force
+** does not (above 1e-8 of the force scale: a constant force on a free
+** coordinate) is no equilibrium.  Returns EOM_OK, EOM_ENEWTON (no convergence
+** or a force no coordinate can cancel),
 ** EOM_ESINGULAR (singular equations: df/dq is zero) or EOM_EINVAL (a
 ** constrained model without its constraint functions); rep->residual is
 ** the final max-norm residual and rep->steps the iterations. */
