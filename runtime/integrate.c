@@ -233,6 +233,15 @@ done:
   return st;
 }
 
+/* Move the initial state onto the constraints, keeping the held coordinates. */
+static int initial_fix(SimContext *c, double t0, double *x) {
+  c->cs_holding = 1;
+  int st = stabilize_project(c, t0, x, 50,
+                             "the initial state is not on the constraints and cannot be put there");
+  c->cs_holding = 0;
+  return st;
+}
+
 /* ---------------------------------------------------------------- the API */
 
 int eom_simulate(const struct eom_model *m, const double *p, const eom_inputs *in, double *x,
@@ -273,9 +282,7 @@ int eom_simulate(const struct eom_model *m, const double *p, const eom_inputs *i
   } else if ((st = stabilize_init(&c, o, x)) != EOM_OK) {
     snprintf(rep->message, sizeof rep->message, "out of memory");
   } else if (c.cs_active && !o->no_initial_fix &&
-             (st = stabilize_project(&c, o->t0, x, 50,
-                                     "the initial state is not on the constraints and "
-                                     "cannot be put there")) != EOM_OK) {
+             (st = initial_fix(&c, o->t0, x)) != EOM_OK) {
     /* x is the user's state: the failed sample below shows it. */
   } else if ((st = sampler_emit(&c, &s, o->t0, x)) == EOM_OK) {
     /* fixed_step: exactly o->step, no error control (order studies). */

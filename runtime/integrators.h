@@ -37,6 +37,8 @@ typedef struct SimContext {
   double cs_tol;            /* max|phi| the projection aims for */
   double *cs_work;          /* scratch of stabilize.c */
   double *cs_sample;        /* n: a sample projected onto the constraints */
+  const int *cs_hold;       /* nq flags or NULL: coordinates the initial fix keeps */
+  int cs_holding;           /* 1 during the initial fix: honour cs_hold */
 } SimContext;
 
 /* Allocate the scratch of c for model m (everything else set by the caller).

@@ -135,6 +135,7 @@ int stabilize_init(SimContext *c, const struct eom_sim_options *o, const double 
   c->cs_alpha = o->baumgarte_alpha;
   c->cs_beta = o->baumgarte_beta;
   c->cs_tol = o->constraint_tol > 0 ? o->constraint_tol : 1e-12;
+  c->cs_hold = o->hold;
   return EOM_OK;
 }
 
@@ -196,6 +197,17 @@ static void rate_rows(const SimContext *c, double t, const double *q, const doub
   }
 }
 
+/* During the initial fix a held coordinate does not move: its column of
+** the rows H (nrows x nq) is dropped, so the minimum-norm correction moves
+** only the others. */
+static void drop_held_columns(const SimContext *c, int nrows, double *H) {
+  int nq = c->m->nq;
+  if (!c->cs_holding || !c->cs_hold) return;
+  for (int i = 0; i < nq; i++)
+    if (c->cs_hold[i])
+      for (int k = 0; k < nrows; k++) H[k * nq + i] = 0;
+}
+
 /* Gauss–Newton on phi(q, t) = 0 from q, then the rates onto
 ** G q' + dphi/dt = 0 and A q' = b.
 ** Returns EOM_OK, EOM_ENEWTON (no convergence within max_iter) or
@@ -216,6 +228,7 @@ static int project(SimContext *c, double t, double *x, int max_iter, double *res
   for (int it = 0; !converged && it < max_iter; it++) {
     if (!isfinite(r)) break;
     constraints(c, t, q, s.phi, s.G, NULL);
+    drop_held_columns(c, nc, s.G);
     if (factor_ggt(nq, nc, s.G, s.S) != 0) {
       *res = r;
       return EOM_ESINGULAR;
@@ -254,6 +267,7 @@ static int project(SimContext *c, double t, double *x, int max_iter, double *res
   /* Rates: the minimum-norm change that makes phi' = G q' + dphi/dt = 0
   ** and A q' = b (A, b do not depend on q', so one step is exact). */
   rate_rows(c, t, q, qd, s.G, s.r, s.phi);
+  drop_held_columns(c, nt, s.G);
   if (factor_ggt(nq, nt, s.G, s.S) != 0) return EOM_ESINGULAR;
   subtract_min_norm(nq, nt, s.G, s.S, s.r, qd);
   return EOM_OK;
@@ -269,7 +283,12 @@ int stabilize_project(SimContext *c, double t, double *x, int max_iter, const ch
   if (st == EOM_OK) return EOM_OK;
   memcpy(x, s.x, (size_t)n * sizeof(double));
   char what[256];
-  if (st == EOM_ESINGULAR)
+  if (st == EOM_ESINGULAR && c->cs_holding && c->cs_hold)
+    snprintf(what, sizeof what,
+             "%s: with the held coordinates fixed the constraints leave the others no way "
+             "to satisfy them (max|phi| = %.3g); hold fewer coordinates",
+             when, res);
+  else if (st == EOM_ESINGULAR)
     snprintf(what, sizeof what,
              "%s: the constraints are dependent here (G = dphi/dq loses rank; max|phi| = %.3g)",
              when, res);

@@ -905,6 +905,25 @@ START_TEST(test_show) {
   ck_assert_ptr_nonnull(strstr(r.out, "\\tau"));
   run_free(&r);
   free(model);
+
+  /* Shared subexpressions get names no model can declare ($1, and
+  ** \mathsf{w}_{1} in LaTeX), never w1 which a model may use; omitted
+  ** zero entries of M are said to be 0. */
+  model = model_path("tests/models/arm2_planar.eom");
+  r = run_eomc("show", model, NULL, NULL, NULL, NULL, NULL);
+  ck_assert_msg(r.status == 0, "%s", r.err);
+  ck_assert_msg(strstr(r.out, "\n  $1 = ") != NULL && strstr(r.out, "\n  w1 = ") == NULL, "%s", r.out);
+  run_free(&r);
+  r = run_eomc("show", model, "--latex", NULL, NULL, NULL, NULL);
+  ck_assert_msg(strstr(r.out, "\\mathsf{w}_{1} &= ") != NULL, "%s", r.out);
+  run_free(&r);
+  free(model);
+  model = model_path("tests/models/cartesian_pendulum.eom");
+  r = run_eomc("show", model, NULL, NULL, NULL, NULL, NULL);
+  ck_assert_msg(r.status == 0, "%s", r.err);
+  ck_assert_msg(strstr(r.out, "upper triangle shown; all other entries are 0):") != NULL, "%s", r.out);
+  run_free(&r);
+  free(model);
 }
 END_TEST
 

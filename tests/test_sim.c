@@ -758,6 +758,80 @@ START_TEST(modes_degenerate_no_false_alarm) {
 }
 END_TEST
 
+/* --hold keeps the crank of a four-bar at its given angle while the initial
+** fix closes the loop with the coupler and the rocker; the closed loop
+** b cos th2 + c cos th3 = a + e cos th4, b sin th2 + c sin th3 = e sin th4
+** (four-bar loop closure, Norton, Design of Machinery, 5th ed., 2012, §4.5;
+** from memory) holds at the first row, and the summary says what moved. */
+START_TEST(sim_hold_crank) {
+  char path[4200];
+  snprintf(path, sizeof path, "%s/examples/barrier_fourbar.eom", srcdir());
+  char *argv[] = {(char *)eomc(), "sim", path, "--set", "th2=0.5", "--hold", "th2", "--until",
+                  "0.01", "--step", "0.01", NULL};
+  RunResult r = run_argv(argv);
+  ck_assert_msg(r.status == 0, "status %d: %s", r.status, r.err);
+  int n;
+  double *th2 = csv_column(r.out, 1, &n), *th3 = csv_column(r.out, 2, &n),
+         *th4 = csv_column(r.out, 3, &n);
+  double a = 0.30, b = 0.08, c = 0.32, e = 0.18;
+  ck_assert_msg(th2[0] == 0.5, "th2 moved to %.17g", th2[0]);
+  ck_assert_msg(fabs(b * cos(th2[0]) + c * cos(th3[0]) - a - e * cos(th4[0])) < 1e-10 &&
+                    fabs(b * sin(th2[0]) + c * sin(th3[0]) - e * sin(th4[0])) < 1e-10,
+                "loop not closed: th3 %.17g th4 %.17g", th3[0], th4[0]);
+  ck_assert_msg(strstr(r.err, "initial fix onto the constraints: th2 held, th3 moved by ") != NULL,
+                "%s", r.err);
+  free(th2), free(th3), free(th4);
+  run_free(&r);
+
+  /* Without --hold the minimum-norm fix moves the crank as well. */
+  char *argv2[] = {(char *)eomc(), "sim", path, "--set", "th2=0.5", "--until", "0.01", "--step",
+                   "0.01", NULL};
+  r = run_argv(argv2);
+  ck_assert_msg(r.status == 0, "status %d: %s", r.status, r.err);
+  th2 = csv_column(r.out, 1, &n);
+  ck_assert_msg(th2[0] != 0.5, "th2 %.17g", th2[0]);
+  ck_assert_msg(strstr(r.err, "th2 moved by ") != NULL, "%s", r.err);
+  free(th2);
+  run_free(&r);
+
+  /* A name that is no coordinate, and a model without constraints: usage errors. */
+  char *argv3[] = {(char *)eomc(), "sim", path, "--hold", "crank", NULL};
+  r = run_argv(argv3);
+  ck_assert_msg(r.status == 2 && strstr(r.err, "no coordinate 'crank'"), "%d %s", r.status, r.err);
+  run_free(&r);
+  char *argv4[] = {(char *)eomc(), "sim", model_path("damped_pair.eom"), "--hold", "x1", NULL};
+  r = run_argv(argv4);
+  ck_assert_msg(r.status == 2 && strstr(r.err, "no constraints"), "%d %s", r.status, r.err);
+  run_free(&r);
+}
+END_TEST
+
+/* A cold build of a big model says what it is doing (off a terminal: one
+** line per step, for six or more coordinates and 64 KB or more of C); a
+** small model stays quiet and so does a warm run. */
+START_TEST(sim_cold_build_says_so) {
+  char path[4200];
+  snprintf(path, sizeof path, "%s/examples/picking_arm6.eom", srcdir());
+  char *argv[] = {(char *)eomc(), "sim", path, "--until", "0.001", "--step", "0.001", "-o",
+                  "/dev/null", NULL};
+  RunResult r = run_argv(argv);
+  ck_assert_msg(r.status == 0, "status %d: %s", r.status, r.err);
+  ck_assert_msg(strstr(r.err, "eomc: first run of picking_arm6: deriving its equations of motion") &&
+                    strstr(r.err, "eomc: first run of picking_arm6: compiling ") &&
+                    strstr(r.err, " KB of generated C with "),
+                "%s", r.err);
+  run_free(&r);
+  r = run_argv(argv);
+  ck_assert_msg(r.status == 0 && strstr(r.err, "first run") == NULL, "%s", r.err);
+  run_free(&r);
+  char *argv2[] = {(char *)eomc(), "sim", model_path("damped_pair.eom"), "--until", "0.01", "-o",
+                   "/dev/null", NULL};
+  r = run_argv(argv2);
+  ck_assert_msg(r.status == 0 && strstr(r.err, "first run") == NULL, "%s", r.err);
+  run_free(&r);
+}
+END_TEST
+
 static Suite *sim_suite(void) {
   Suite *s = suite_create("sim");
   TCase *tc = tcase_create("cli");
@@ -791,6 +865,12 @@ static Suite *sim_suite(void) {
   tcase_add_test(te, modes_json_growth_rate);
   tcase_add_test(te, modes_degenerate_no_false_alarm);
   suite_add_tcase(s, te);
+  TCase *th = tcase_create("initial");
+  tcase_add_checked_fixture(th, setup, teardown);
+  tcase_set_timeout(th, 300);
+  tcase_add_test(th, sim_hold_crank);
+  tcase_add_test(th, sim_cold_build_says_so);
+  suite_add_tcase(s, th);
   return s;
 }
 

@@ -15,10 +15,12 @@
 #include <assert.h>
 #include <dlfcn.h>
 #include <errno.h>
+#include <signal.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 #include <sys/stat.h>
+#include <sys/time.h>
 #include <sys/types.h>
 #include <sys/wait.h>
 #include <unistd.h>
@@ -112,6 +114,84 @@ static void cache_key(const Frontend *fe, const char *cc, char hex[HASH_HEX_LEN 
   memcpy(buf + lt, ident, li);
   hash_hex(buf, lt + li, hex);
   free(buf);
+}
+
+/* ------------------------------------------------------------ progress */
+
+/* A cold build of a big model (deriving, then compiling the C) can take a
+** minute.  On a terminal a status line says what is going on, with the
+** elapsed seconds, from the first second on (a one-second interval timer
+** redraws it; cleared at the end).  Elsewhere (logs, scripts, tests) one
+** line is printed at the start, only for a big model, decided by its size
+** and not by the clock so that the same run always prints the same: six or
+** more coordinates for the derivation, 64 KB or more of generated C for
+** the compilation.  The handler only formats digits and calls write(),
+** which is async-signal-safe. */
+static volatile sig_atomic_t progress_seconds;
+static char progress_text[256];
+static size_t progress_len;
+static int progress_tty, progress_said;
+static struct sigaction progress_old_action;
+
+static void progress_tick(int sig) {
+  (void)sig;
+  int saved = errno;
+  char line[320], digits[24];
+  size_t n = 0;
+  int k = 0;
+  progress_seconds++;
+  line[n++] = '\r';
+  memcpy(line + n, progress_text, progress_len);
+  n += progress_len;
+  for (long v = progress_seconds; v > 0 && k < 20; v /= 10) digits[k++] = (char)('0' + v % 10);
+  memcpy(line + n, " (", 2);
+  n += 2;
+  while (k > 0) line[n++] = digits[--k];
+  memcpy(line + n, " s) ", 4);
+  n += 4;
+  progress_said = 1;
+  ssize_t w = write(STDERR_FILENO, line, n);
+  (void)w;
+  errno = saved;
+}
+
+/* Start saying `what` ("eomc: first run of P: ..."): on a terminal after a
+** second and then each second; elsewhere at once when `big`. */
+static void progress_start(const char *what, int big) {
+  progress_len = (size_t)snprintf(progress_text, sizeof progress_text, "%s", what);
+  if (progress_len >= sizeof progress_text) progress_len = sizeof progress_text - 1;
+  progress_seconds = 0;
+  progress_said = 0;
+  progress_tty = isatty(STDERR_FILENO);
+  if (!progress_tty) {
+    if (big) fprintf(stderr, "%s\n", progress_text);
+    return;
+  }
+  struct sigaction sa;
+  memset(&sa, 0, sizeof sa);
+  sa.sa_handler = progress_tick;
+  sa.sa_flags = SA_RESTART;
+  sigemptyset(&sa.sa_mask);
+  sigaction(SIGALRM, &sa, &progress_old_action);
+  struct itimerval tv = {{1, 0}, {1, 0}};
+  setitimer(ITIMER_REAL, &tv, NULL);
+}
+
+static void progress_stop(void) {
+  if (!progress_tty) return;
+  struct itimerval off;
+  memset(&off, 0, sizeof off);
+  setitimer(ITIMER_REAL, &off, NULL);
+  sigaction(SIGALRM, &progress_old_action, NULL);
+  if (progress_tty && progress_said) fprintf(stderr, "\r%*s\r", (int)progress_len + 16, "");
+}
+
+/* Size in bytes of dir/P.c (0 when it cannot be read). */
+static long generated_size(const char *dir, const char *prefix) {
+  char path[4400];
+  struct stat st;
+  snprintf(path, sizeof path, "%s/%s.c", dir, prefix);
+  return stat(path, &st) == 0 ? (long)st.st_size : 0;
 }
 
 /* Generate P.c/P.h into dir.  Returns 0 or an exit status (printed). */
@@ -258,8 +338,20 @@ int build_model(const char *path, BuiltModel *out) {
     goto out;
   }
   /* Cold (or unusable) cache entry: generate, compile, load. */
-  if ((rc = generate(&fe, path, out->dir)) != 0) goto out;
-  if ((rc = compile(out->dir, prefix, cc, so_path)) != 0) goto out;
+  char what[300];
+  snprintf(what, sizeof what, "eomc: first run of %.100s: deriving its equations of motion "
+           "(cached for later runs)...", prefix);
+  progress_start(what, fe.model.ncoords >= 6);
+  rc = generate(&fe, path, out->dir);
+  progress_stop();
+  if (rc != 0) goto out;
+  long c_bytes = generated_size(out->dir, prefix);
+  snprintf(what, sizeof what, "eomc: first run of %.100s: compiling %ld KB of generated C with "
+           "%.60s...", prefix, (c_bytes + 1023) / 1024, cc);
+  progress_start(what, c_bytes >= 64 * 1024);
+  rc = compile(out->dir, prefix, cc, so_path);
+  progress_stop();
+  if (rc != 0) goto out;
   if (load(so_path, prefix, out, err, sizeof err) != 0) {
     fprintf(stderr, "eomc: error: %s\n", err);
     rc = EXIT_RUN;

@@ -58,6 +58,8 @@ static const char sim_usage[] =
   "  --no-initial-fix   start from the initial state as given (default: moved\n"
   "                     onto the constraints by Gauss-Newton first)\n"
   "  --constraint-tol E max|phi| the projections aim for (default 1e-12)\n"
+  "  --hold NAME        the initial fix keeps coordinate NAME (and its rate) at\n"
+  "                     its given value and moves the others (repeatable)\n"
   "\n"
   "Cache: $EOMC_CACHE_DIR, else $XDG_CACHE_HOME/eomc, else ~/.cache/eomc.\n"
   "Compiler: $CC (default cc).\n"
@@ -71,6 +73,8 @@ typedef struct SimArgs {
   /* constraints */
   double alpha, beta, constraint_tol;
   int no_projection, no_initial_fix;
+  char **holds;   /* --hold NAME: coordinates the initial fix keeps */
+  int nholds;
 } SimArgs;
 
 /* "A,B": two numbers >= 0 separated by a comma; 0 or -1. */
@@ -107,7 +111,8 @@ static int parse_args(int argc, char **argv, SimArgs *a) {
   a->until = 10;
   a->alpha = a->beta = -1; /* the runtime's defaults */
   a->sets = calloc((size_t)argc + 1, sizeof(char *));
-  if (!a->sets) return usage_error("%s", "out of memory");
+  a->holds = calloc((size_t)argc + 1, sizeof(char *));
+  if (!a->sets || !a->holds) return usage_error("%s", "out of memory");
   for (int i = 1; i < argc; i++) {
     const char *v;
     double *num = NULL;
@@ -118,6 +123,7 @@ static int parse_args(int argc, char **argv, SimArgs *a) {
     else if ((v = option_value(argc, argv, &i, "--atol"))) num = &a->atol;
     else if ((v = option_value(argc, argv, &i, "--method"))) a->method = v;
     else if ((v = option_value(argc, argv, &i, "--set"))) a->sets[a->nsets++] = (char *)v;
+    else if ((v = option_value(argc, argv, &i, "--hold"))) a->holds[a->nholds++] = (char *)v;
     else if ((v = option_value(argc, argv, &i, "--inputs"))) a->inputs = v;
     else if ((v = option_value(argc, argv, &i, "--plot"))) a->plot = v;
     else if ((v = option_value(argc, argv, &i, "-o"))) a->out = v;
@@ -173,6 +179,7 @@ typedef struct SimOut {
   double t_end, started, last_draw;
   int drawn;
   ConservedMonitor *conserved;  /* constants of the motion, watched per sample */
+  double *x_first;              /* 2 nq: the first row's state (after the initial fix) */
 } SimOut;
 
 static double now_seconds(void) {
@@ -229,6 +236,7 @@ static int on_sample(void *ctx, double t, const double *x, const double *u) {
   if (m->energy) m->energy(x, x + m->nq, s->p, &T, &V);
   cmon_sample(s->conserved, x, s->p);
   if (s->rows == 0) s->E0 = T + V;
+  if (s->rows == 0 && s->x_first) memcpy(s->x_first, x, 2 * (size_t)m->nq * sizeof(double));
   s->E = T + V;
   s->rows++;
   s->t_last = t;
@@ -248,6 +256,47 @@ static void print_run_summary(const SimArgs *a, const struct eom_report *rep, co
           lead, a->method, rep->steps, rep->rejected, rep->rhs_evals, rep->t, so->E0, so->E,
           so->E0 != 0 ? drift / fabs(so->E0) : drift, so->E0 != 0 ? " relative" : "",
           action_total(so));
+}
+
+/* Flags of the --hold coordinates (nq ints), or NULL with a message when a
+** name is not a coordinate or the model has no constraints. */
+static int *hold_flags(const SimArgs *a, const struct eom_model *m) {
+  int *hold = calloc((size_t)m->nq + 1, sizeof(int));
+  if (!hold) return NULL;
+  for (int h = 0; h < a->nholds; h++) {
+    int found = -1;
+    for (int i = 0; i < m->nq; i++)
+      if (strcmp(m->coord_names[i], a->holds[h]) == 0) found = i;
+    if (found < 0) {
+      fprintf(stderr, "eomc sim: --hold %s: the model has no coordinate '%s'\n", a->holds[h],
+              a->holds[h]);
+      free(hold);
+      return NULL;
+    }
+    hold[found] = 1;
+  }
+  if (a->nholds > 0 && m->nc + m->nvc == 0) {
+    fprintf(stderr, "eomc sim: --hold %s: the model has no constraints, so no initial fix to "
+            "hold it in\n", a->holds[0]);
+    free(hold);
+    return NULL;
+  }
+  return hold;
+}
+
+/* How far the initial fix moved each coordinate onto the constraints. */
+static void print_fix_summary(const struct eom_model *m, const double *given, const double *first,
+                              const int *hold) {
+  fputs("eomc sim: initial fix onto the constraints:", stderr);
+  for (int i = 0; i < m->nq; i++) {
+    double d = first[i] - given[i];
+    const char *u = m->coord_units[i];
+    fprintf(stderr, "%s %s", i ? "," : "", m->coord_names[i]);
+    if (hold[i]) fputs(" held", stderr);
+    else if (d == 0) fputs(" unchanged", stderr);
+    else fprintf(stderr, " moved by %.6g%s%s (to %.10g)", d, u[0] ? " " : "", u, first[i]);
+  }
+  fputc('\n', stderr);
 }
 
 /* Copy a finished scratch CSV to standard output. */
@@ -301,19 +350,24 @@ int cmd_sim(int argc, char **argv) {
     }
   if ((rc = parse_args(argc, argv, &a)) != 0) {
     free(a.sets);
+    free(a.holds);
     return rc;
   }
   if (a.plot && plot_available(err, sizeof err) != 0) {
     fprintf(stderr, "eomc sim: error: %s\n", err);
     free(a.sets);
+    free(a.holds);
     return EXIT_RUN;
   }
   if ((rc = build_model(a.model, &bm)) != 0) {
     free(a.sets);
+    free(a.holds);
     return rc;
   }
   const struct eom_model *m = bm.model;
   eom_inputs *in = NULL;
+  int *hold = NULL;
+  double *x_given = NULL;
   memset(&cmon, 0, sizeof cmon);
   FILE *csv = NULL;
   char *tmp_csv = NULL;
@@ -337,6 +391,17 @@ int cmd_sim(int argc, char **argv) {
     rc = EXIT_USAGE;
     goto out;
   }
+  if (!(hold = hold_flags(&a, m))) {
+    rc = EXIT_USAGE;
+    goto out;
+  }
+  x_given = malloc(4 * (size_t)m->nq * sizeof(double) + 1);
+  if (!x_given) {
+    fprintf(stderr, "eomc sim: error: out of memory\n");
+    rc = EXIT_RUN;
+    goto out;
+  }
+  memcpy(x_given, rv.x, 2 * (size_t)m->nq * sizeof(double));
   csv = open_csv(&a, &tmp_csv);
   if (!csv) {
     fprintf(stderr, "eomc sim: error: cannot write %s: %s\n", tmp_csv ? tmp_csv : "the CSV",
@@ -356,6 +421,7 @@ int cmd_sim(int argc, char **argv) {
   so.tty = isatty(STDERR_FILENO);
   so.t_end = a.until;
   so.started = so.last_draw = now_seconds();
+  so.x_first = x_given + 2 * m->nq;
   eom_sim_options_init(&o);
   o.method = a.method;
   o.t0 = 0;
@@ -368,6 +434,7 @@ int cmd_sim(int argc, char **argv) {
   o.no_projection = a.no_projection;
   o.no_initial_fix = a.no_initial_fix;
   o.constraint_tol = a.constraint_tol;
+  o.hold = hold;
 
   eom_csv_write_header(csv, m);
   int st = eom_simulate(m, rv.p, in, rv.x, &o, on_sample, &so, &rep);
@@ -389,6 +456,8 @@ int cmd_sim(int argc, char **argv) {
     goto out;
   }
   rc = 0;
+  if (m->nc + m->nvc > 0 && !a.no_initial_fix && so.rows > 0 && (st == EOM_OK || rep.steps > 0))
+    print_fix_summary(m, x_given, so.x_first, hold);
   if (st == EOM_OK) {
     print_run_summary(&a, &rep, &so, "eomc sim: ");
     cmon_report(&cmon, "eomc sim: ", stderr);
@@ -428,6 +497,9 @@ out:
   cmon_free(&cmon);
   run_values_free(&rv);
   built_model_close(&bm);
+  free(hold);
+  free(x_given);
   free(a.sets);
+  free(a.holds);
   return rc;
 }

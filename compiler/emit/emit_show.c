@@ -6,6 +6,8 @@
 ** are folded into subtractions, negative powers become denominators.
 */
 #include "emit/emit_show.h"
+#include "front/rate_degree.h"
+#include "front/units.h"
 
 #include <assert.h>
 #include <math.h>
@@ -366,10 +368,16 @@ static int put_call(Show *S, Text *t, const IrNode *x) {
   return PR_ATOM;
 }
 
+/* A shared subexpression's name: $1 in text and \mathsf{w}_{1} in LaTeX,
+** which no model name can spell (names are letters, digits and '_'). */
+static void put_temp_name(const Show *S, Text *t, int k) {
+  putf(t, S->latex ? "\\mathsf{w}_{%d}" : "$%d", k);
+}
+
 static int put_mag(Show *S, Text *t, int n) {
   const IrNode *x = nd(S, n);
   if (named(S, n)) {
-    putf(t, S->latex ? "w_{%d}" : "w%d", S->name[n]);
+    put_temp_name(S, t, S->name[n]);
     return PR_ATOM;
   }
   switch (x->op) {
@@ -475,6 +483,175 @@ static int mass_row_text(Show *S, int i, const char *times, Text *lhs) {
   return terms;
 }
 
+/* ------------------------------------------------------------ constraints */
+
+/* Where a constraint equation comes from: its statement, which entry of
+** a vector or matrix constraint, and whether it constrains velocities. */
+typedef struct Origin {
+  const Stmt *stmt;   /* NULL when it cannot be told */
+  int entry, nentries, velocity;
+} Origin;
+
+/* The constraint equations in the generated order: the position ones in
+** source order, then the velocity ones (as the multipliers are numbered). */
+static void constraint_origins(const Show *S, Origin *o) {
+  const Model *m = S->m;
+  int nc = S->s->nc, nvc = S->s->nvc, kp = 0, kv = 0;
+  for (int i = 0; i < m->nterms; i++) {
+    const Stmt *st = m->terms[i];
+    if (st->kind != ST_CONSTRAINT) continue;
+    SrcLoc w;
+    int vel = rate_degree(st->e[0], &w) != RATES_NONE || rate_degree(st->e[1], &w) != RATES_NONE;
+    int n = st->e[0]->shape.rows * st->e[0]->shape.cols;
+    for (int e = 0; e < n; e++) {
+      if (vel && kv < nvc) o[nc + kv] = (Origin){st, e, n, 1};
+      if (!vel && kp < nc) o[kp] = (Origin){st, e, n, 0};
+      if (vel) kv++;
+      else kp++;
+    }
+  }
+}
+
+static void put_multiplier(const Show *S, Text *t, int k) {
+  putf(t, S->latex ? "\\lambda_{%d}" : "lambda%d", k + 1);
+}
+
+/* Entry (k, i) of [G; A]: equation k's coefficient of coordinate i. */
+static int constraint_coef(const Show *S, int k, int i) {
+  const EomSystem *s = S->s;
+  return k < s->nc ? s->constraint_jacobian[k * s->nq + i]
+                   : s->vconstraint_A[(k - s->nc) * s->nq + i];
+}
+
+/* Row k of [G; A] times the rates of order `rate`: "2*x*x'' + 2*y*y''". */
+static int constraint_row_text(Show *S, int k, int rate, const char *times, Text *t) {
+  int terms = 0;
+  for (int j = 0; j < S->s->nq; j++) {
+    int r = constraint_coef(S, k, j);
+    if (is_zero(S, r)) continue;
+    int neg = negative(S, r);
+    if (terms++) put(t, neg ? " - " : " + ");
+    else if (neg) put(t, "-");
+    const IrNode *x = nd(S, r);
+    if (!(x->op == IR_NUM && fabs(x->num) == 1.0)) {
+      S->defining = r;
+      put_at(S, t, r, PR_MUL, 1);
+      S->defining = -1;
+      put(t, times);
+    }
+    put_coord(S, t, j, rate);
+  }
+  if (!terms) put(t, "0");
+  return terms;
+}
+
+/* f_i + sum over k of [G; A]_ki lambda_k, the constraint forces written out. */
+static void force_with_multipliers(Show *S, int i, const char *times, Text *t) {
+  int ncall = S->s->nc + S->s->nvc, terms = 0;
+  int f = S->s->forcing[i];
+  if (!is_zero(S, f)) {
+    char *e = render(S, f);
+    put(t, e);
+    free(e);
+    terms++;
+  }
+  for (int k = 0; k < ncall; k++) {
+    int r = constraint_coef(S, k, i);
+    if (is_zero(S, r)) continue;
+    int neg = negative(S, r);
+    if (terms++) put(t, neg ? " - " : " + ");
+    else if (neg) put(t, "-");
+    const IrNode *x = nd(S, r);
+    if (!(x->op == IR_NUM && fabs(x->num) == 1.0)) {
+      S->defining = r;
+      put_at(S, t, r, PR_MUL, 1);
+      S->defining = -1;
+      put(t, times);
+    }
+    put_multiplier(S, t, k);
+  }
+  if (!terms) put(t, "0");
+}
+
+/* "line 9", "line 9, entry 2 of 3", "unit N/m" parts of a description. */
+static void describe_origin(const Show *S, const Origin *o, Text *t) {
+  if (!o->stmt) return;
+  putf(t, "line %d", o->stmt->loc.line);
+  if (o->nentries > 1) putf(t, ", entry %d of %d", o->entry + 1, o->nentries);
+  (void)S;
+}
+
+/* The multiplier's unit, when the model's units were checked. */
+static int multiplier_unit(const Show *S, const Origin *o, char *buf, size_t cap) {
+  Unit phi;
+  if (!S->m->has_units || !o->stmt || units_of_constraint(o->stmt, &phi) != 0) return 0;
+  unit_format(units_of_multiplier(phi, o->velocity), 0, buf, cap);
+  return 1;
+}
+
+static void print_constraints_plain(Show *S, const Origin *o, FILE *out) {
+  const EomSystem *s = S->s;
+  int nc = s->nc, nvc = s->nvc;
+  fputs("\nconstraints (phi = left - right = 0; velocity constraints A q' = b):\n", out);
+  for (int k = 0; k < nc + nvc; k++) {
+    Text eq = {0}, where = {0};
+    if (k < nc) {
+      char *e = render(S, s->constraint[k]);
+      put(&eq, e);
+      free(e);
+      put(&eq, " = 0");
+    } else {
+      constraint_row_text(S, k, 1, "*", &eq);
+      char *e = render(S, s->vconstraint_b[k - nc]);
+      putf(&eq, " = %s", e);
+      free(e);
+    }
+    describe_origin(S, &o[k], &where);
+    fprintf(out, "  (%d) %s%s%s%s\n", k + 1, eq.s, where.s ? "    [" : "", where.s ? where.s : "",
+            where.s ? "]" : "");
+    free(eq.s);
+    free(where.s);
+  }
+  fputs("\nmultipliers (constraint force +G^T lambda, G = dphi/dq: lambda > 0 pushes towards "
+        "larger phi; sim's columns lambda1, ...):\n", out);
+  for (int k = 0; k < nc + nvc; k++) {
+    char unit[96];
+    Text where = {0};
+    describe_origin(S, &o[k], &where);
+    fprintf(out, "  lambda%d: of constraint (%d)%s%s%s", k + 1, k + 1,
+            k >= nc ? ", a velocity constraint" : "", where.s ? ", " : "", where.s ? where.s : "");
+    if (multiplier_unit(S, &o[k], unit, sizeof unit)) fprintf(out, ", unit %s", unit);
+    fputc('\n', out);
+    free(where.s);
+  }
+}
+
+static void print_plain_equations(Show *S, FILE *out) {
+  const EomSystem *s = S->s;
+  int nq = s->nq, ncall = s->nc + s->nvc;
+  fputs(ncall ? "\nequations of motion (M q'' = f + G^T lambda):\n"
+              : "\nequations of motion (M q'' = f):\n", out);
+  for (int i = 0; i < nq; i++) {
+    Text lhs = {0}, rhs = {0};
+    int terms = mass_row_text(S, i, "*", &lhs);
+    force_with_multipliers(S, i, "*", &rhs);
+    fprintf(out, "  %s = %s\n", terms ? lhs.s : "0", rhs.s);
+    free(lhs.s);
+    free(rhs.s);
+  }
+  if (!ncall) return;
+  fputs("\nconstraints at acceleration level (G q'' = gamma), solved with the above for q'' "
+        "and lambda:\n", out);
+  for (int k = 0; k < ncall; k++) {
+    Text lhs = {0};
+    constraint_row_text(S, k, 2, "*", &lhs);
+    char *e = render(S, k < s->nc ? s->constraint_gamma[k] : s->vconstraint_gamma[k - s->nc]);
+    fprintf(out, "  (%d) %s = %s\n", k + 1, lhs.s, e);
+    free(e);
+    free(lhs.s);
+  }
+}
+
 static void print_plain(Show *S, FILE *out) {
   const EomSystem *s = S->s;
   int nq = s->nq;
@@ -483,11 +660,15 @@ static void print_plain(Show *S, FILE *out) {
     if (!S->name[n]) continue;
     if (!any++) fputs("where\n", out);
     char *e = render(S, n);
-    fprintf(out, "  w%d = %s\n", S->name[n], e);
+    fprintf(out, "  $%d = %s\n", S->name[n], e);
     free(e);
   }
   if (any) fputc('\n', out);
-  fputs("mass matrix M (symmetric; upper triangle shown):\n", out);
+  int omitted = 0;
+  for (int i = 0; i < nq; i++)
+    for (int j = i + 1; j < nq; j++) omitted |= is_zero(S, s->mass[j * nq + i]);
+  fprintf(out, "mass matrix M (symmetric; upper triangle shown%s):\n",
+          omitted ? "; all other entries are 0" : "");
   for (int i = 0; i < nq; i++)
     for (int j = i; j < nq; j++) {
       int r = s->mass[j * nq + i];
@@ -502,26 +683,77 @@ static void print_plain(Show *S, FILE *out) {
     fprintf(out, "  f[%s] = %s\n", coord_name(S, i), e);
     free(e);
   }
-  fputs("\nequations of motion (M q'' = f):\n", out);
-  for (int i = 0; i < nq; i++) {
+  if (s->nc + s->nvc > 0) {
+    Origin *o = calloc((size_t)(s->nc + s->nvc), sizeof *o);
+    if (!o) {
+      fputs("eomc: out of memory\n", stderr);
+      abort();
+    }
+    constraint_origins(S, o);
+    print_constraints_plain(S, o, out);
+    free(o);
+  }
+  print_plain_equations(S, out);
+}
+
+/* The constraints phi = 0 (A q' = b), their acceleration form and, as
+** comments, what each multiplier is; inside the equations' align*. */
+static void print_constraints_latex(Show *S, FILE *out) {
+  const EomSystem *s = S->s;
+  int nc = s->nc, ncall = nc + s->nvc;
+  Origin *o = calloc((size_t)ncall, sizeof *o);
+  if (!o) {
+    fputs("eomc: out of memory\n", stderr);
+    abort();
+  }
+  constraint_origins(S, o);
+  for (int k = 0; k < ncall; k++) {
+    Text eq = {0};
+    if (k < nc) {
+      char *e = render(S, s->constraint[k]);
+      putf(&eq, "%s &= 0", e);
+      free(e);
+    } else {
+      constraint_row_text(S, k, 1, " ", &eq);
+      char *e = render(S, s->vconstraint_b[k - nc]);
+      putf(&eq, " &= %s", e);
+      free(e);
+    }
+    fprintf(out, "  %s \\\\\n", eq.s);
+    free(eq.s);
+  }
+  for (int k = 0; k < ncall; k++) {
     Text lhs = {0};
-    int terms = mass_row_text(S, i, "*", &lhs);
-    char *e = render(S, s->forcing[i]);
-    fprintf(out, "  %s = %s\n", terms ? lhs.s : "0", e);
+    constraint_row_text(S, k, 2, " ", &lhs);
+    char *e = render(S, k < nc ? s->constraint_gamma[k] : s->vconstraint_gamma[k - nc]);
+    fprintf(out, "  %s &= %s%s\n", lhs.s, e, k + 1 < ncall ? " \\\\" : "");
     free(e);
     free(lhs.s);
   }
+  for (int k = 0; k < ncall; k++) {
+    Text where = {0};
+    char unit[96];
+    describe_origin(S, &o[k], &where);
+    fprintf(out, "%% \\lambda_{%d}: multiplier of constraint %d%s%s%s", k + 1, k + 1,
+            where.s ? " (" : "", where.s ? where.s : "", where.s ? ")" : "");
+    if (multiplier_unit(S, &o[k], unit, sizeof unit)) fprintf(out, ", unit %s", unit);
+    fputc('\n', out);
+    free(where.s);
+  }
+  free(o);
 }
 
 static void print_latex(Show *S, FILE *out) {
   const EomSystem *s = S->s;
   int nq = s->nq;
-  fputs("% equations of motion M(q) \\ddot q = f, written by eomc show\n", out);
+  fputs(s->nc + s->nvc ? "% equations of motion M(q) \\ddot q = f + G^T \\lambda with the constraints "
+                       "and G \\ddot q = \\gamma, written by eomc show\n"
+                     : "% equations of motion M(q) \\ddot q = f, written by eomc show\n", out);
   fputs("\\begin{align*}\n", out);
   for (int n = 0; n < S->g->nnodes; n++) {
     if (!S->name[n]) continue;
     char *e = render(S, n);
-    fprintf(out, "  w_{%d} &= %s \\\\\n", S->name[n], e);
+    fprintf(out, "  \\mathsf{w}_{%d} &= %s \\\\\n", S->name[n], e);
     free(e);
   }
   fputs("  M &= \\begin{bmatrix}\n", out);
@@ -542,14 +774,16 @@ static void print_latex(Show *S, FILE *out) {
     free(e);
   }
   fputs("  \\end{bmatrix}\n\\end{align*}\n\\begin{align*}\n", out);
+  int ncall = s->nc + s->nvc;
   for (int i = 0; i < nq; i++) {
-    Text lhs = {0};
+    Text lhs = {0}, rhs = {0};
     int terms = mass_row_text(S, i, " ", &lhs);
-    char *e = render(S, s->forcing[i]);
-    fprintf(out, "  %s &= %s%s\n", terms ? lhs.s : "0", e, i + 1 < nq ? " \\\\" : "");
-    free(e);
+    force_with_multipliers(S, i, " ", &rhs);
+    fprintf(out, "  %s &= %s%s\n", terms ? lhs.s : "0", rhs.s, i + 1 < nq || ncall ? " \\\\" : "");
+    free(rhs.s);
     free(lhs.s);
   }
+  if (ncall) print_constraints_latex(S, out);
   fputs("\\end{align*}\n", out);
 }
 
@@ -572,6 +806,16 @@ int show_equations(const Model *m, const EomSystem *s, int latex, FILE *out) {
   assert(nq >= 1 && s->mass && s->forcing);
   for (int i = 0; i < nq; i++) count_uses(&S, s->mass + i * nq, i + 1);
   count_uses(&S, s->forcing, nq);
+  if (s->nc > 0) {
+    count_uses(&S, s->constraint, s->nc);
+    count_uses(&S, s->constraint_jacobian, s->nc * nq);
+    count_uses(&S, s->constraint_gamma, s->nc);
+  }
+  if (s->nvc > 0) {
+    count_uses(&S, s->vconstraint_A, s->nvc * nq);
+    count_uses(&S, s->vconstraint_b, s->nvc);
+    count_uses(&S, s->vconstraint_gamma, s->nvc);
+  }
   choose_names(&S);
   if (latex) print_latex(&S, out);
   else print_plain(&S, out);

@@ -4,7 +4,10 @@
 ** Prints M, f and the equations M q'' = f from the shared IrGraph, with the
 ** model's names for coordinates, parameters and inputs, q' and q'' for rates
 ** (\dot q, \ddot q in LaTeX), infix with minimal parentheses.  Subexpressions
-** that are large and repeated are named once (w1, w2, ...) and listed first.
+** that are large and repeated are named once ($1, $2, ...: names no model
+** can declare) and listed first.  With constraints: M q'' = f + G^T lambda
+** with the constraint forces written out, phi = 0 (A q' = b), what each
+** multiplier is (its constraint, line and unit) and G q'' = gamma.
 ** Output is deterministic.
 */
 #ifndef EOMC_EMIT_SHOW_H

@@ -742,3 +742,33 @@ int units_check_model(Model *m, Diag *d) {
   for (int i = 0; i < m->ast->nstmts; i++) check_statement(&uc, m, m->ast->stmts[i]);
   return uc.nerrors;
 }
+
+/* The unit of a constraint statement's equations phi = LEFT - RIGHT
+** (velocity constraints: of A q' - b), in a unit-checked model. */
+int units_of_constraint(const Stmt *s, Unit *u) {
+  assert(s && s->kind == ST_CONSTRAINT && u);
+  Diag scratch;
+  diag_init(&scratch, "", "", 0);
+  UnitCheck uc = {&scratch, 0};
+  int rc = -1;
+  if (s->e[2]) {
+    rc = unit_parse(s->e[2], &scratch, u) == 0 ? 0 : -1;
+  } else {
+    for (int k = 0; k < 2 && rc != 0; k++) {
+      Unit side = expr_unit(&uc, s->e[k]);
+      if (side.kind == UNIT_KNOWN && (mentions_names(s->e[k]) || k == 1)) {
+        *u = side;
+        rc = 0;
+      }
+    }
+  }
+  diag_free(&scratch);
+  return rc;
+}
+
+/* The unit of the multiplier of a constraint whose equation has unit phi:
+** its generalized force +G^T lambda does work, so lambda = J / phi; for a
+** velocity constraint (phi a rate), W / phi. */
+Unit units_of_multiplier(Unit phi, int velocity) {
+  return unit_div(velocity ? unit_kms(1, 2, -3) : unit_kms(1, 2, -2), phi);
+}

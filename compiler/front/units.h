@@ -66,4 +66,13 @@ char *unit_text(Arena *a, const Expr *unit);
 ** the number of errors. */
 int units_check_model(struct Model *m, Diag *d);
 
+/* The unit of the equations of `constraint LEFT = RIGHT [UNIT]` in a
+** unit-checked model (its annotation, else its sides').  Returns 0, or -1
+** when it is not known. */
+int units_of_constraint(const Stmt *s, Unit *u);
+
+/* A constraint multiplier's unit from its equation's: energy per unit
+** (power per unit for a velocity constraint). */
+Unit units_of_multiplier(Unit phi, int velocity);
+
 #endif

@@ -99,6 +99,9 @@ struct eom_sim_options {
                           term: G q'' = gamma - 2 alpha phi' - beta^2 phi;
                           eom_sim_options_init sets 10 and 10; 0, 0: none */
   double constraint_tol;  /* max|phi| the projections aim for (0: 1e-12) */
+  const int *hold;     /* NULL, or nq flags: the initial fix keeps the
+                          coordinates flagged 1 (and their rates) at their
+                          given values and moves only the others */
 };
 
 void eom_sim_options_init(struct eom_sim_options *o);
