@@ -60,7 +60,7 @@ static const char driver_src[] =
   "int main(int argc, char **argv) {\n"
   "  const struct eom_model *m = &MODEL;\n"
   "  static double p[64], q[16], qd[16], u[16], qdd[16], M[256], f[16], Q[16], y[16];\n"
-  "  static double x[32], xd[32], A[1024], B[512], FA[1024], FB[512], xp[32], up[16], fp[32], fm[32];\n"
+  "  static double sw[64], x[32], xd[32], A[1024], B[512], FA[1024], FB[512], xp[32], up[16], fp[32], fm[32];\n"
   "  double T, V, t;\n  char cmd[16];\n  int i, j, rc, n, nx, nu;\n"
   "  FILE *in;\n"
   "  if (argc < 2 || !(in = fopen(argv[1], \"r\"))) return 2;\n"
@@ -68,6 +68,8 @@ static const char driver_src[] =
   "  n = m->nq; nx = 2*n; nu = m->nu;\n"
   "  for (i = 0; i < m->np; i++) p[i] = m->param_defaults[i];\n"
   "  printf(\"model %s nq %d nu %d np %d ny %d\\n\", m->name, m->nq, m->nu, m->np, m->ny);\n"
+  "  if (m->ns > 64) return 3;\n"
+  "  for (i = 0; i < m->ns; i++) printf(\"switch %s\\n\", m->switch_names[i]);\n"
   "  while (fscanf(in, \"%15s\", cmd) == 1) {\n"
   "    if (strcmp(cmd, \"p\") == 0) {\n"
   "      if (fscanf(in, \"%d\", &i) != 1 || fscanf(in, \"%lf\", &p[i]) != 1) return 4;\n"
@@ -86,6 +88,7 @@ static const char driver_src[] =
   "    if (rc == 0) { m->inverse(t, q, qd, qdd, p, Q); vec(\"Q\", Q, n); }\n"
   "    m->energy(q, qd, p, &T, &V); printf(\"TV %.17g %.17g\\n\", T, V);\n"
   "    m->outputs(t, q, qd, u, p, y); vec(\"y\", y, m->ny);\n"
+  "    if (m->ns) { m->switches(t, q, qd, u, p, sw); vec(\"s\", sw, m->ns); }\n"
   "    m->rhs(t, x, u, p, xd); vec(\"xd\", xd, nx);\n"
   "    m->jacobian(t, x, u, p, A, B); vec(\"A\", A, nx*nx); vec(\"B\", B, nx*nu);\n"
   "    for (j = 0; j < nx + nu; j++) {\n"
@@ -428,7 +431,20 @@ START_TEST(test_buffered_shuttle) {
     /* P_inverse: the input's generalized force that gives this x'' */
     CHECK_REL(get1(out, i, "Q", 0), drive_force, 1e-12);
     if (v != 0) check_jacobian(out, i, 2, 1);
+    /* the switching functions of the terms, in source order (the outputs'
+    ** clamp and step are not among them: they do not act on the motion) */
+    double sw[8];
+    ck_assert_int_eq(get(out, i, "s", sw, 8), 6);
+    CHECK_REL(sw[0], 0 - (x - L), 1e-15);  /* max(0, x - L): 0 - (x - L) */
+    CHECK_REL(sw[1], 0 - (x + L), 1e-15);
+    CHECK_REL(sw[2], 0 - (v - v0), 1e-15);
+    CHECK_REL(sw[3], v, 0);
+    CHECK_REL(sw[4], u + Fm, 1e-15);
+    CHECK_REL(sw[5], u - Fm, 1e-15);
   }
+  ck_assert_ptr_nonnull(strstr(out, "\nswitch 15:17 max\nswitch 15:41 min\nswitch 16:19 max\n"
+                                    "switch 17:14 sign\nswitch 17:25 clamp lower\n"
+                                    "switch 17:25 clamp upper\n"));
   free(out);
   built_free(&b);
 }

@@ -1115,6 +1115,26 @@ static void emit_outputs(Emitter *E) {
   fputs("}\n\n", E->out);
 }
 
+/* P_switches: the switching functions (generated only when the model has
+** branch functions, so other models' code is unchanged). */
+static void emit_switches(Emitter *E) {
+  const Param ps[] = {P_T, P_Q, P_QD, P_U, P_P, {-1, "double *s", "s"}};
+  char lhs[64];
+  assert(E->s->ns > 0);
+  fn_reset(E);
+  add_roots(E, E->s->switches, E->s->ns);
+  fn_analyse(E);
+  assert(!needs_missing(E, VARS_STATE));
+  emit_signature(E, "void", "switches", ps, NPARAMS(ps), 0);
+  emit_unused(E, ps, NPARAMS(ps));
+  emit_temps(E);
+  for (int i = 0; i < E->s->ns; i++) {
+    snprintf(lhs, sizeof lhs, "s[%d]", i);
+    emit_assign(E, lhs, E->s->switches[i]);
+  }
+  fputs("}\n\n", E->out);
+}
+
 static void emit_constraint(Emitter *E) {
   const Param ps[] = {P_Q, P_P, {-1, "double *phi", "phi"}};
   int nc = E->s->nc;
@@ -1493,6 +1513,14 @@ static void emit_header(Emitter *E) {
       "/* With velocity constraints too, accel_constrained stacks [G; A]: lambda\n"
       "** has NC + NVC entries, the velocity constraints' after the NC, and the\n"
       "** generalized constraint force is +[G; A]^T lambda. */\n");
+  if (s->ns)
+    fprintf(o,
+      "/* The %d switching functions (P_switch_names): where one changes sign, a\n"
+      "** non-smooth term (min, max, sign, step, clamp, abs) changes branch. */\n"
+      "#define %s_NS %d\n"
+      "void %s_switches(double t, const double *q, const double *qd, const double *u,\n"
+      "  const double *p, double *s);\n",
+      s->ns, P, s->ns, P);
   emit_control_prototypes(o, m, s, P);
   emit_kinematics_prototypes(o, m, s, P);
   fprintf(o, "\n#ifndef EOM_NO_DESCRIPTOR\nstruct eom_model;\nextern const struct eom_model %s_model;\n#endif\n", P);
@@ -1572,6 +1600,23 @@ static void emit_output_names(Emitter *E) {
   }
   assert(k == m->ny);
   emit_texts(E, "output_names", texts, m->ny);
+  free(texts);
+}
+
+/* "LINE:COL fn" (and "lower"/"upper" for a clamp's bounds) per switch. */
+static void emit_switch_names(Emitter *E) {
+  const EomSystem *s = E->s;
+  if (!s->ns) return;
+  char **texts = calloc((size_t)s->ns, sizeof *texts);
+  assert(texts);
+  for (int i = 0; i < s->ns; i++) {
+    const EomSwitch *w = &s->switch_info[i];
+    Buf b = {0};
+    buf_printf(&b, "%d:%d %s%s", w->line, w->col, scalar_builtins[w->fn].name,
+               w->part == 1 ? " lower" : w->part == 2 ? " upper" : "");
+    texts[i] = b.s;
+  }
+  emit_texts(E, "switch_names", texts, s->ns);
   free(texts);
 }
 
@@ -1661,6 +1706,7 @@ static void emit_descriptor(Emitter *E) {
   emit_string_table(E, "input_names", m->inputs, m->ninputs, 0);
   emit_string_table(E, "input_units", m->inputs, m->ninputs, 1);
   emit_output_names(E);
+  emit_switch_names(E);
   emit_double_table(E, "q0", q0, s->nq);
   emit_double_table(E, "qd0", qd0, s->nq);
   emit_control_tables(o, s, P);
@@ -1698,6 +1744,8 @@ static void emit_descriptor(Emitter *E) {
   emit_kinematics_fields(o, s, P);
   if (s->nvc) fprintf(o, "  %d, %s_velocity_constraint,\n", s->nvc, P);
   else fputs("  0, 0,\n", o);
+  if (s->ns) fprintf(o, "  %d, %s_switches, %s_switch_names,\n", s->ns, P, P);
+  else fputs("  0, 0, 0,\n", o);
   fprintf(o, "};\n#endif\n");
   free(q0);
   free(qd0);
@@ -1718,6 +1766,7 @@ static void emit_source(Emitter *E) {
   emit_inverse(E);
   emit_energy(E);
   emit_outputs(E);
+  if (E->s->ns) emit_switches(E);
   if (E->s->nc) {
     emit_constraint(E);
     emit_constraint_jacobian(E);

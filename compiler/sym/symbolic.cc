@@ -332,6 +332,15 @@ struct Term {
   ex e;
 };
 
+/* A switching function: e changes sign where the branch function at loc
+** changes branch (part: which bound of a clamp). */
+struct SwitchFn {
+  SrcLoc loc;
+  BuiltinFn fn;
+  int part;
+  ex e;
+};
+
 class Derivation {
  public:
   Derivation(const Model *m, const SymOptions *opt, Diag *d);
@@ -404,6 +413,10 @@ class Derivation {
   std::vector<std::pair<const Stmt *, Val>> gravity_;
   std::vector<std::pair<const Stmt *, ex>> constraints_;  /* phi = 0, one per entry */
   std::vector<std::pair<const Stmt *, ex>> vconstraints_;  /* A q' - b = 0, one per entry */
+  /* switching functions of the branch functions in the terms, in source order */
+  bool collecting_ = false;
+  std::vector<SwitchFn> switches_;
+  void note_switches(const Expr *x, BuiltinFn f, const exvector &a);
 
   void tick(const char *step);
   ex totald(const ex &e);
@@ -851,6 +864,7 @@ Val Derivation::eval_call(const Expr *x) {
     need(scalar_builtins[fn].arity);
     exvector a;
     for (int i = 0; i < scalar_builtins[fn].arity; i++) a.push_back(sarg(i));
+    if (collecting_) note_switches(x, (BuiltinFn)fn, a);
     return Val(make_builtin((BuiltinFn)fn, a));
   }
   if (strcmp(name, "dot") == 0) {
@@ -955,7 +969,21 @@ Val Derivation::eval_call(const Expr *x) {
 
 /* ---- statements ---- */
 
+/* The switching functions of a branch function met in the equations'
+** terms (see SwitchFn): its argument, or the differences that pick its
+** branch. */
+void Derivation::note_switches(const Expr *x, BuiltinFn f, const exvector &a) {
+  auto add = [&](const ex &e, int part) { switches_.push_back(SwitchFn{x->loc, f, part, e}); };
+  switch (f) {
+  case BF_SIGN: case BF_STEP: case BF_ABS: add(a[0], 0); break;
+  case BF_MIN: case BF_MAX: add(a[0] - a[1], 0); break;
+  case BF_CLAMP: add(a[0] - a[1], 1), add(a[0] - a[2], 2); break;
+  default: break;
+  }
+}
+
 void Derivation::collect_terms() {
+  collecting_ = true;
   for (int i = 0; i < m_->nterms; i++) {
     const Stmt *s = m_->terms[i];
     tick("reading the model");
@@ -989,6 +1017,7 @@ void Derivation::collect_terms() {
       throw SymError{s->loc, fmt("cannot evaluate this statement: %s", e.what())};
     }
   }
+  collecting_ = false;
   /* gravity acts on every body, wherever the statements stand */
   for (const auto &g : gravity_)
     for (size_t k = 0; k < bodies_.size(); k++) {
@@ -1744,6 +1773,22 @@ void Derivation::run(EomSystem *out) {
   }
   for (const ex &e : kr.frame_jacobian) h_fjac.push_back(b.add_root(e, none));
   for (const ex &e : kr.frame_bias) h_fbias.push_back(b.add_root(e, none));
+  /* switching functions: those that can change sign, each once */
+  std::vector<int> h_sw;
+  std::vector<EomSwitch> sw_info;
+  std::vector<ex> sw;
+  for (const SwitchFn &w : switches_) {
+    ex e = unatom(w.e);
+    bool moves = e.has(t_);
+    for (int i = 0; i < n; i++) moves = moves || e.has(q_[i]) || e.has(qd_[i]);
+    for (const ex &u : u_) moves = moves || e.has(u);
+    bool again = false;
+    for (const ex &o : sw) again = again || (e - o).is_zero() || (e + o).is_zero();
+    if (!moves || again) continue;
+    sw.push_back(e);
+    sw_info.push_back(EomSwitch{w.loc.line, w.loc.col, (int)w.fn, w.part});
+    h_sw.push_back(b.add_root(e, w.loc));
+  }
   std::vector<int> h_reg, h_reg0;
   for (const ex &e : reg.Y) h_reg.push_back(b.add_root(e, none));
   for (const ex &e : reg.offset) h_reg0.push_back(b.add_root(e, none));
@@ -1786,6 +1831,11 @@ void Derivation::run(EomSystem *out) {
   out->cyclic = alloc_roots(n);
   for (int i = 0; i < n; i++) out->cyclic[i] = ctl.cyclic[i];
   out->energy_conserved = ctl.energy_conserved;
+  out->ns = (int)sw.size();
+  out->switches = place(h_sw, sw.size());
+  out->switch_info = (EomSwitch *)calloc(sw.size() + 1, sizeof(EomSwitch));
+  if (!out->switch_info) throw std::bad_alloc();
+  for (size_t k = 0; k < sw.size(); k++) out->switch_info[k] = sw_info[k];
   snprintf(out->energy_why, sizeof out->energy_why, "%s", ctl.energy_why.c_str());
   const int ni = (int)pi_index_.size();
   out->ni = ni;
@@ -1939,5 +1989,7 @@ extern "C" void sym_free(EomSystem *s) {
   free(s->frame_decl);
   free(s->frame_jacobian);
   free(s->frame_bias);
+  free(s->switches);
+  free(s->switch_info);
   memset(s, 0, sizeof *s);
 }

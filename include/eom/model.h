@@ -15,7 +15,7 @@ extern "C" {
 #endif
 
 /* Bumped whenever the layout of struct eom_model changes. */
-#define EOM_MODEL_ABI 5
+#define EOM_MODEL_ABI 6
 
 struct eom_model {
   int abi;                          /* EOM_MODEL_ABI of the generating eomc */
@@ -101,6 +101,16 @@ struct eom_model {
   int nvc;
   void (*velocity_constraint)(double t, const double *q, const double *qd, const double *p,
                               double *A, double *b, double *gamma);
+
+  /* Since ABI 6: the ns switching functions s(t, q, qd, u, p); where one
+  ** changes sign a non-smooth term (min, max, sign, step, clamp, abs)
+  ** changes branch.  switch_names[k] is "LINE:COL FUNCTION" of its call
+  ** ("... lower"/"... upper" for a clamp's bounds).  0 and NULL when the
+  ** model has none. */
+  int ns;
+  void (*switches)(double t, const double *q, const double *qd, const double *u,
+                   const double *p, double *s);
+  const char *const *switch_names;
 };
 
 #ifdef __cplusplus

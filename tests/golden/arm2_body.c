@@ -406,5 +406,6 @@ const struct eom_model arm2_body_model = {
   arm2_body_output_kinematic, arm2_body_output_jacobian, arm2_body_output_bias,
   0, 0, 0, 0,
   0, 0,
+  0, 0, 0,
 };
 #endif

@@ -541,5 +541,6 @@ const struct eom_model barrier_fourbar_model = {
   barrier_fourbar_output_kinematic, barrier_fourbar_output_jacobian, barrier_fourbar_output_bias,
   0, 0, 0, 0,
   0, 0,
+  0, 0, 0,
 };
 #endif

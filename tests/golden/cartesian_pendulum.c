@@ -329,5 +329,6 @@ const struct eom_model cartesian_pendulum_model = {
   cartesian_pendulum_output_kinematic, cartesian_pendulum_output_jacobian, cartesian_pendulum_output_bias,
   0, 0, 0, 0,
   0, 0,
+  0, 0, 0,
 };
 #endif

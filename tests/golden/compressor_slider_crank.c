@@ -503,5 +503,6 @@ const struct eom_model compressor_slider_crank_model = {
   compressor_slider_crank_output_kinematic, compressor_slider_crank_output_jacobian, compressor_slider_crank_output_bias,
   0, 0, 0, 0,
   0, 0,
+  0, 0, 0,
 };
 #endif

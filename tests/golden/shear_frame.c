@@ -387,5 +387,6 @@ const struct eom_model shear_frame_model = {
   shear_frame_output_kinematic, shear_frame_output_jacobian, shear_frame_output_bias,
   0, 0, 0, 0,
   0, 0,
+  0, 0, 0,
 };
 #endif
