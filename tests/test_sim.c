@@ -828,6 +828,10 @@ START_TEST(sim_cold_build_says_so) {
                    "/dev/null", NULL};
   r = run_argv(argv2);
   ck_assert_msg(r.status == 0 && strstr(r.err, "first run") == NULL, "%s", r.err);
+  run_free(&r);
+}
+END_TEST
+
 /* The parcel on its pad, piecewise analytic (Newton's law in each phase;
 ** from memory, derived here): free fall from h for t1 = sqrt(2h/g), landing
 ** at v1 = -sqrt(2gh); pressed, x(tau) = -a + a cos(w tau) + (v1/w) sin(w tau)
