@@ -192,7 +192,7 @@ START_TEST(pendulum_rod_tension_from_lambda) {
                 "--step", "0.01", NULL);
   int x = col(&c, "x"), y = col(&c, "y"), xd = col(&c, "x'"), yd = col(&c, "y'");
   int lam = col(&c, "lambda1");
-  ck_assert_int_eq(lam, c.ncols - 3); /* SPEC order: ..., multipliers, T, V */
+  ck_assert_int_eq(lam, c.ncols - 3); /* docs/runtime.md's order: ..., multipliers, T, V */
   for (int i = 0; i < c.nrows; i++) {
     double X = at(&c, i, x), Y = at(&c, i, y), Xd = at(&c, i, xd), Yd = at(&c, i, yd);
     double theta = atan2(X, -Y), w = (X * Yd - Y * Xd) / (L * L);

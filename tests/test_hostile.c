@@ -6,7 +6,7 @@
 ** output directories, and the derivation time limit.
 **
 ** When eomc accepts a model, the C it writes must compile with the flags of
-** SPEC §2 (-std=c99 -pedantic -Wall -Wextra -Werror) and give the right
+** docs/generated-c.md (-std=c99 -pedantic -Wall -Wextra -Werror) and give the right
 ** numbers; the expected values are closed forms of the Euler–Lagrange
 ** equations worked by hand (common practice) unless noted.  test_cli.c
 ** already covers empty files, garbage bytes, deep nesting and long lines.
@@ -46,7 +46,7 @@ static RunResult gen_text(const char *dir, const char *outdir, const char *text,
   return r;
 }
 
-/* Compile DIR/PREFIX.c with a driver (SPEC §2 flags plus `extra_flag`), run
+/* Compile DIR/PREFIX.c with a driver (docs/generated-c.md's flags plus `extra_flag`), run
 ** it, and return its stdout (malloc'd); fails the test on any error. */
 static char *compile_and_run(const char *dir, const char *prefix, const char *driver, const char *extra_flag) {
   char *drv = write_file(dir, "driver.c", driver, strlen(driver));

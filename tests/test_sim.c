@@ -209,7 +209,7 @@ START_TEST(sim_csv_columns) {
   ck_assert_msg(strstr(r.err, "action") && strstr(r.err, "steps"), "summary: %s", r.err);
   char *csv = read_file(out, NULL);
   ck_assert_ptr_nonnull(csv);
-  /* SPEC 4.6: t, coordinates, rates, outputs, inputs, multipliers, T, V. */
+  /* docs/runtime.md, `eomc sim`: t, coordinates, rates, outputs, inputs, multipliers, T, V. */
   const char *header = "t,x1,x2,x1',x2',spring_middle,F,T,V\n";
   ck_assert_msg(strncmp(csv, header, strlen(header)) == 0, "%s", csv);
   ck_assert_int_eq(count_lines(csv), 12); /* header + t = 0, 0.1, ..., 1 */

@@ -1,5 +1,5 @@
 /*
-** cmd.h — the verbs of the eomc command line (SPEC §3).
+** cmd.h — the verbs of the eomc command line (docs/eomc.1).
 **
 ** Each verb parses its own options from argv (argv[0] is the verb) and returns
 ** the process exit status: 0 success, 1 model error, 2 usage error (bad

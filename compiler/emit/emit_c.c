@@ -1,5 +1,5 @@
 /*
-** emit_c.c — the C back end: P.h and P.c from an EomSystem (SPEC §2).
+** emit_c.c — the C back end: P.h and P.c from an EomSystem (docs/generated-c.md).
 **
 ** One generated function at a time: collect its roots in the shared IrGraph,
 ** count how often each node is used inside that function, and turn every
@@ -788,7 +788,7 @@ static void emit_fixed_locals(Emitter *E) {
   if (E->fixed & VAR_BIT(IRV_U)) fprintf(E->out, "  const double u[%d] = {0.0};\n", E->s->nu);
 }
 
-/* The quantity reads a variable the SPEC signature does not pass (e.g. a
+/* The quantity reads a variable the documented signature does not pass (e.g. a
 ** mass matrix that depends on t): the function writes NaN rather than a
 ** value computed at a made-up time.  The header says so; `also` (or NULL)
 ** names the function of this model that gives the value (after the prefix). */

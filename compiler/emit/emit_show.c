@@ -460,6 +460,21 @@ static void choose_names(Show *S) {
   }
 }
 
+/* One signed term of a sum, "coefficient times": the coefficient r is
+** printed by magnitude after " + " or " - " (just "-" first), and left out
+** when it is 1. */
+static void put_coef(Show *S, Text *t, int r, const char *times, int *terms) {
+  int neg = negative(S, r);
+  if ((*terms)++) put(t, neg ? " - " : " + ");
+  else if (neg) put(t, "-");
+  const IrNode *x = nd(S, r);
+  if (x->op == IR_NUM && fabs(x->num) == 1.0) return;
+  S->defining = r;
+  put_at(S, t, r, PR_MUL, 1);
+  S->defining = -1;
+  put(t, times);
+}
+
 /* Row i of M q'' into lhs ("m*q'' + c*r''"), products joined by `times`;
 ** returns the number of terms (0: the row is structurally zero). */
 static int mass_row_text(Show *S, int i, const char *times, Text *lhs) {
@@ -468,16 +483,7 @@ static int mass_row_text(Show *S, int i, const char *times, Text *lhs) {
   for (int j = 0; j < nq; j++) {
     int r = i >= j ? s->mass[i * nq + j] : s->mass[j * nq + i];
     if (is_zero(S, r)) continue;
-    int neg = negative(S, r);
-    if (terms++) put(lhs, neg ? " - " : " + ");
-    else if (neg) put(lhs, "-");
-    const IrNode *x = nd(S, r);
-    if (!(x->op == IR_NUM && fabs(x->num) == 1.0)) {
-      S->defining = r;
-      put_at(S, lhs, r, PR_MUL, 1);
-      S->defining = -1;
-      put(lhs, times);
-    }
+    put_coef(S, lhs, r, times, &terms);
     put_coord(S, lhs, j, 2);
   }
   return terms;
@@ -529,16 +535,7 @@ static int constraint_row_text(Show *S, int k, int rate, const char *times, Text
   for (int j = 0; j < S->s->nq; j++) {
     int r = constraint_coef(S, k, j);
     if (is_zero(S, r)) continue;
-    int neg = negative(S, r);
-    if (terms++) put(t, neg ? " - " : " + ");
-    else if (neg) put(t, "-");
-    const IrNode *x = nd(S, r);
-    if (!(x->op == IR_NUM && fabs(x->num) == 1.0)) {
-      S->defining = r;
-      put_at(S, t, r, PR_MUL, 1);
-      S->defining = -1;
-      put(t, times);
-    }
+    put_coef(S, t, r, times, &terms);
     put_coord(S, t, j, rate);
   }
   if (!terms) put(t, "0");
@@ -558,27 +555,17 @@ static void force_with_multipliers(Show *S, int i, const char *times, Text *t) {
   for (int k = 0; k < ncall; k++) {
     int r = constraint_coef(S, k, i);
     if (is_zero(S, r)) continue;
-    int neg = negative(S, r);
-    if (terms++) put(t, neg ? " - " : " + ");
-    else if (neg) put(t, "-");
-    const IrNode *x = nd(S, r);
-    if (!(x->op == IR_NUM && fabs(x->num) == 1.0)) {
-      S->defining = r;
-      put_at(S, t, r, PR_MUL, 1);
-      S->defining = -1;
-      put(t, times);
-    }
+    put_coef(S, t, r, times, &terms);
     put_multiplier(S, t, k);
   }
   if (!terms) put(t, "0");
 }
 
 /* "line 9", "line 9, entry 2 of 3", "unit N/m" parts of a description. */
-static void describe_origin(const Show *S, const Origin *o, Text *t) {
+static void describe_origin(const Origin *o, Text *t) {
   if (!o->stmt) return;
   putf(t, "line %d", o->stmt->loc.line);
   if (o->nentries > 1) putf(t, ", entry %d of %d", o->entry + 1, o->nentries);
-  (void)S;
 }
 
 /* The multiplier's unit, when the model's units were checked. */
@@ -606,7 +593,7 @@ static void print_constraints_plain(Show *S, const Origin *o, FILE *out) {
       putf(&eq, " = %s", e);
       free(e);
     }
-    describe_origin(S, &o[k], &where);
+    describe_origin(&o[k], &where);
     fprintf(out, "  (%d) %s%s%s%s\n", k + 1, eq.s, where.s ? "    [" : "", where.s ? where.s : "",
             where.s ? "]" : "");
     free(eq.s);
@@ -617,7 +604,7 @@ static void print_constraints_plain(Show *S, const Origin *o, FILE *out) {
   for (int k = 0; k < nc + nvc; k++) {
     char unit[96];
     Text where = {0};
-    describe_origin(S, &o[k], &where);
+    describe_origin(&o[k], &where);
     fprintf(out, "  lambda%d: of constraint (%d)%s%s%s", k + 1, k + 1,
             k >= nc ? ", a velocity constraint" : "", where.s ? ", " : "", where.s ? where.s : "");
     if (multiplier_unit(S, &o[k], unit, sizeof unit)) fprintf(out, ", unit %s", unit);
@@ -733,7 +720,7 @@ static void print_constraints_latex(Show *S, FILE *out) {
   for (int k = 0; k < ncall; k++) {
     Text where = {0};
     char unit[96];
-    describe_origin(S, &o[k], &where);
+    describe_origin(&o[k], &where);
     fprintf(out, "%% \\lambda_{%d}: multiplier of constraint %d%s%s%s", k + 1, k + 1,
             where.s ? " (" : "", where.s ? where.s : "", where.s ? ")" : "");
     if (multiplier_unit(S, &o[k], unit, sizeof unit)) fprintf(out, ", unit %s", unit);

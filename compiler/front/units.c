@@ -1,7 +1,7 @@
 /*
 ** units.c — unit annotations and the model-wide dimensional check.
 **
-** Rules (SPEC §1 "Units"):
+** Rules (docs/language.md, "Units"):
 **  - kinetic, potential and lagrangian terms are energies (J); dissipation
 **    terms are powers (W); `force q = e` is energy per unit of q (N for a
 **    length, N*m for an angle);

@@ -201,7 +201,7 @@ int constraint_rank_check(const Model *m, const EomSystem *s, Diag *d) {
   double *A = calloc((size_t)nc * nc + 1, sizeof(double));
   double *v = NULL;
   int hi = 0;
-  for (size_t i = 0; i < nqc; i++)
+  for (size_t i = 0; i < (size_t)np * nq; i++) /* G has the position rows only */
     if (s->constraint_jacobian[i] > hi) hi = s->constraint_jacobian[i];
   for (int k = 0; k < np; k++)
     if (s->constraint[k] > hi) hi = s->constraint[k];

@@ -6,7 +6,7 @@
 ** row-major arrays of node indices.  A root may be a structural zero (an
 ** IR_NUM node with num == 0); the emitter skips those.
 **
-** Conventions (SPEC §2): M(q) q'' = f(t, q, q', u); the state is x = [q; q'].
+** Conventions (docs/generated-c.md): M(q) q'' = f(t, q, q', u); the state is x = [q; q'].
 */
 #ifndef EOMC_SYMBOLIC_H
 #define EOMC_SYMBOLIC_H
