@@ -360,6 +360,7 @@ static int scan(Lexer *lx, Token *t) {
       "initial"     { return keyword(lx, t, KW_INITIAL); }
       "output"      { return keyword(lx, t, KW_OUTPUT); }
       "frame"       { return keyword(lx, t, KW_FRAME); }
+      "attitude"    { return keyword(lx, t, KW_ATTITUDE); }
       "identify"    { return keyword(lx, t, KW_IDENTIFY); }
       "kinetic"     { return keyword(lx, t, KW_KINETIC); }
       "potential"   { return keyword(lx, t, KW_POTENTIAL); }

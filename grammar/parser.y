@@ -160,7 +160,7 @@ static Stmt *expr_stmt(ParseCtx *ctx, StmtKind sk, YYLTYPE kw, Expr *e0, Expr *e
 %token T_IDX_LBRACK   /* `[` directly after a name, `)`, `]` or `'` */
 %token KW_MODEL KW_COORD KW_PARAM KW_CONST KW_INPUT KW_LET KW_INITIAL KW_OUTPUT
 %token KW_IDENTIFY KW_KINETIC KW_POTENTIAL KW_LAGRANGIAN KW_DISSIPATION
-%token KW_FORCE KW_TORQUE KW_GRAVITY KW_BODY KW_CONSTRAINT KW_FRAME
+%token KW_FORCE KW_TORQUE KW_GRAVITY KW_BODY KW_CONSTRAINT KW_FRAME KW_ATTITUDE
 /* Contextual words: ordinary names except where `body`, `force` and
 ** `torque` expect them. */
 %token <str> CW_MASS CW_AT CW_ON CW_ORIENT CW_INERTIA
@@ -199,6 +199,13 @@ stmt:
   | KW_COORD namelist name_unit_opt desc_opt {
       $$ = list_stmt(ctx, ST_COORD, DECL_COORD, @1, $2, $3, $4);
     }
+  | KW_ATTITUDE namelist name_unit_opt desc_opt {
+      if ($3)
+        $$ = bad_stmt(ctx, @3, "an attitude takes no unit: it is a rotation, and omega(%s) is in rad/s",
+                      ((Decl *)$2->v[0])->name);
+      else
+        $$ = list_stmt(ctx, ST_ATTITUDE, DECL_ATTITUDE, @1, $2, NULL, $4);
+    }
   | KW_INPUT namelist name_unit_opt desc_opt {
       $$ = list_stmt(ctx, ST_INPUT, DECL_INPUT, @1, $2, $3, $4);
     }
@@ -234,6 +241,17 @@ stmt:
       $$->name = $2;
       $$->name_loc = LOC(@2);
       $$->rate = 1;
+    }
+  | KW_INITIAL name '(' name ')' '=' expr {
+      if (strcmp($2, "omega") != 0) {
+        $$ = bad_stmt(ctx, @2, "'initial %s(...)': only omega(ATTITUDE) can be given an initial "
+                      "value this way", $2);
+      } else {
+        $$ = expr_stmt(ctx, ST_INITIAL, @1, $7, NULL);
+        $$->name = $4;
+        $$->name_loc = LOC(@4);
+        $$->omega = 1;
+      }
     }
   | KW_IDENTIFY namelist {
       $$ = ast_stmt(A, ST_IDENTIFY, LOC(@1));
@@ -425,7 +443,7 @@ static void describe(yysymbol_kind_t k, const Token *tok, char *buf, size_t n) {
     {YYSYMBOL_KW_DISSIPATION, "dissipation"}, {YYSYMBOL_KW_FORCE, "force"},
     {YYSYMBOL_KW_TORQUE, "torque"}, {YYSYMBOL_KW_GRAVITY, "gravity"},
     {YYSYMBOL_KW_BODY, "body"}, {YYSYMBOL_KW_CONSTRAINT, "constraint"},
-    {YYSYMBOL_KW_FRAME, "frame"},
+    {YYSYMBOL_KW_FRAME, "frame"}, {YYSYMBOL_KW_ATTITUDE, "attitude"},
     {YYSYMBOL_CW_MASS, "mass"}, {YYSYMBOL_CW_AT, "at"}, {YYSYMBOL_CW_ON, "on"},
     {YYSYMBOL_CW_ORIENT, "orient"}, {YYSYMBOL_CW_INERTIA, "inertia"},
   };

@@ -14,6 +14,7 @@
 #include <string.h>
 #include <sys/wait.h>
 
+#include "front/attitude.h"
 #include "front/check.h"
 #include "front/parse.h"
 
@@ -638,6 +639,170 @@ START_TEST(check_command_statuses) {
 }
 END_TEST
 
+/* ------------------------------------------------------------ attitudes */
+
+static const char att_base[] =
+  "coord x\n"
+  "attitude R \"hull\"\n"
+  "kinetic x'^2 + dot(omega(R), omega(R))\n";
+
+static char *att_src(const char *extra) {
+  size_t n = strlen(att_base) + strlen(extra) + 1;
+  char *s = malloc(n);
+  ck_assert_ptr_nonnull(s);
+  snprintf(s, n, "%s%s", att_base, extra);
+  return s;
+}
+
+static void att_error(const char *extra, int line, int col, const char *substr) {
+  char *s = att_src(extra);
+  expect_error(s, line, col, substr);
+  free(s);
+}
+
+/* Hamilton product a (x) b, [w, x, y, z]. */
+static void quat_mul(const double a[4], const double b[4], double r[4]) {
+  r[0] = a[0] * b[0] - a[1] * b[1] - a[2] * b[2] - a[3] * b[3];
+  r[1] = a[0] * b[1] + a[1] * b[0] + a[2] * b[3] - a[3] * b[2];
+  r[2] = a[0] * b[2] - a[1] * b[3] + a[2] * b[0] + a[3] * b[1];
+  r[3] = a[0] * b[3] + a[1] * b[2] - a[2] * b[1] + a[3] * b[0];
+}
+
+START_TEST(attitude_declaration_and_shapes) {
+  char *s = att_src("let w = R*omega(R)\noutput heading = R[1,1]*w[3]\ntorque [0, 0, x] on R\n");
+  Checked *c = expect_clean(s);
+  ck_assert_int_eq(c->m.nattitudes, 1);
+  ck_assert_str_eq(c->m.attitudes[0]->name, "R");
+  ck_assert_str_eq(c->m.attitudes[0]->desc, "hull");
+  ck_assert_int_eq(c->m.ncoords, 1);
+  /* defaults: body axes along the world's, at rest */
+  ck_assert(c->m.attitude_q0[0] == 1 && c->m.attitude_q0[1] == 0 && c->m.attitude_q0[2] == 0 &&
+            c->m.attitude_q0[3] == 0);
+  ck_assert(c->m.omega0[0] == 0 && c->m.omega0[1] == 0 && c->m.omega0[2] == 0);
+  unload(c);
+  free(s);
+  /* a model whose only coordinate is an attitude is complete */
+  expect_ok("attitude B\nkinetic dot(omega(B), omega(B))\n");
+  /* `omega` is not reserved: a model may still declare it */
+  expect_ok("coord x\nparam omega = 2\nkinetic x'^2 - omega^2*x^2\n");
+}
+END_TEST
+
+START_TEST(attitude_misuse_errors) {
+  att_error("potential R\n", 4, 11, "must be a scalar, not 3x3");
+  att_error("potential 1 + R\n", 4, 13, "cannot add scalar and 3x3");
+  att_error("potential sin(R)\n", 4, 15, "argument 1 of sin must be a scalar");
+  att_error("potential R'[1,1]\n", 4, 12, "the rate of attitude 'R' is not a state: use omega(R)");
+  att_error("potential omega(x)[1]\n", 4, 17, "needs the name of an attitude, not coordinate");
+  att_error("potential omega(R*R)[1]\n", 4, 18, "needs the name of an attitude");
+  att_error("potential omega(Q)[1]\n", 4, 17, "undefined name 'Q'");
+  att_error("force R = 1\n", 4, 7, "'R' is an attitude: it takes no generalized force");
+  att_error("initial R' = 1\n", 4, 1, "give 'initial omega(R) = [a, b, c]'");
+  att_error("initial omega(x) = [1, 2, 3]\n", 4, 15, "'x' is not an attitude");
+  att_error("initial omega(R) = 1\n", 4, 20, "must be a 3-vector");
+  att_error("initial omega(R) = [x, 0, 0]\n", 4, 21, "'x' is a coordinate");
+  att_error("initial R = [1, 0, 0]\n", 4, 13, "must be a 3x3 matrix");
+  att_error("initial R = rotz(x)\n", 4, 18, "'x' is a coordinate");
+  att_error("initial R = rotz(0.1)\ninitial R = rotz(0.2)\n", 5, 1, "duplicate initial value for 'R'");
+  att_error("initial omega(R) = [1, 0, 0]\ninitial omega(R) = [1, 0, 0]\n", 5, 1,
+            "duplicate initial value for 'omega(R)'");
+}
+END_TEST
+
+/* The note says which operand is the attitude. */
+START_TEST(attitude_scalar_use_is_explained) {
+  char *s = att_src("potential 1 + R\n");
+  Checked *c = load(s);
+  const DiagMsg *note = first_of(c, DIAG_NOTE);
+  ck_assert_ptr_nonnull(note);
+  ck_assert_int_eq(note->loc.line, 4);
+  ck_assert_int_eq(note->loc.col, 15);
+  ck_assert_ptr_nonnull(strstr(note->text, "'R' is an attitude: a 3x3 rotation"));
+  unload(c);
+  free(s);
+}
+END_TEST
+
+/* A 3x3 that is not orthonormal, or a reflection, is no orientation. */
+START_TEST(attitude_initial_must_be_rotation) {
+  att_error("initial R = [[1, 0, 0], [0, 1, 0.1], [0, 0, 1]]\n", 4, 13,
+            "is not a rotation: it is 0.1 from orthonormal");
+  att_error("initial R = 2*rotx(0.3)\n", 4, 14, "is not a rotation: it is 3 from orthonormal");
+  att_error("initial R = diag(1, 1, -1)\n", 4, 13, "is a reflection (determinant -1)");
+  /* seven typed digits are close enough; the stored quaternion is unit */
+  char *s = att_src("initial R = [[0.7071068, -0.7071068, 0], [0.7071068, 0.7071068, 0], [0, 0, 1]]\n");
+  Checked *c = expect_clean(s);
+  const double *q = c->m.attitude_q0;
+  ck_assert(fabs(q[0] * q[0] + q[1] * q[1] + q[2] * q[2] + q[3] * q[3] - 1) < 1e-15);
+  /* an eighth of a turn about z: [cos(pi/8), 0, 0, sin(pi/8)] (half angles) */
+  ck_assert(fabs(q[0] - cos(0.39269908169872414)) < 1e-7 && fabs(q[3] - sin(0.39269908169872414)) < 1e-7);
+  ck_assert(q[1] == 0 && q[2] == 0);
+  unload(c);
+  free(s);
+}
+END_TEST
+
+/* The quaternion of a rotation by angle a about unit axis n is
+** [cos(a/2), sin(a/2) n], and composing rotations multiplies quaternions
+** (Hamilton product): K. Shoemake, "Animating rotation with quaternion
+** curves", SIGGRAPH 1985, section 2 (the form is common practice). */
+START_TEST(attitude_initial_quaternion_values) {
+  char *s = att_src("param a = 0.3\ninitial R = rotz(a)*rotx(0.1)\ninitial omega(R) = [0.5, -1, 2*a]\n");
+  Checked *c = expect_clean(s);
+  double qz[4] = {cos(0.15), 0, 0, sin(0.15)}, qx[4] = {cos(0.05), sin(0.05), 0, 0}, want[4];
+  quat_mul(qz, qx, want);
+  for (int i = 0; i < 4; i++)
+    ck_assert_msg(fabs(c->m.attitude_q0[i] - want[i]) < 1e-15, "q[%d] = %.17g, want %.17g", i,
+                  c->m.attitude_q0[i], want[i]);
+  ck_assert(c->m.omega0[0] == 0.5 && c->m.omega0[1] == -1 && fabs(c->m.omega0[2] - 0.6) < 1e-15);
+  unload(c);
+  free(s);
+  /* a half turn about y: w = 0, so another pivot than w is needed */
+  s = att_src("let turn = roty(pi)\ninitial R = transpose(turn)\n");
+  c = expect_clean(s);
+  ck_assert(fabs(c->m.attitude_q0[0]) < 1e-15 && fabs(fabs(c->m.attitude_q0[2]) - 1) < 1e-15);
+  unload(c);
+  free(s);
+  /* the rotation part of a Denavit–Hartenberg transform */
+  s = att_src("initial R = rot(dh(0.4, 1, 2, 0))\n");
+  c = expect_clean(s);
+  ck_assert(fabs(c->m.attitude_q0[0] - cos(0.2)) < 1e-15 && fabs(c->m.attitude_q0[3] - sin(0.2)) < 1e-15);
+  unload(c);
+  free(s);
+}
+END_TEST
+
+/* Round trips over rotations about many axes and angles, including near a
+** half turn where the scalar part vanishes: R(q(R)) = R. */
+START_TEST(attitude_quaternion_round_trip) {
+  for (int k = 0; k < 2000; k++) {
+    double a = -3.14159 + 6.28318 * (k % 97) / 96.0;
+    double n[3] = {sin(0.37 * k + 0.1), cos(0.91 * k), sin(1.7 * k) + 0.2};
+    double len = sqrt(n[0] * n[0] + n[1] * n[1] + n[2] * n[2]);
+    double q[4] = {cos(a / 2), sin(a / 2) * n[0] / len, sin(a / 2) * n[1] / len, sin(a / 2) * n[2] / len};
+    double R[9], back[9], p[4];
+    attitude_rotation_from_quaternion(q, R);
+    ck_assert(attitude_orthonormality_error(R) < 1e-14);
+    ck_assert(fabs(attitude_det3(R) - 1) < 1e-14);
+    attitude_quaternion_from_rotation(R, p);
+    ck_assert(p[0] >= 0);
+    attitude_rotation_from_quaternion(p, back);
+    for (int i = 0; i < 9; i++) ck_assert_msg(fabs(back[i] - R[i]) < 1e-14, "k %d entry %d", k, i);
+    double sign = q[0] < 0 ? -1 : 1;
+    for (int i = 0; i < 4; i++) ck_assert(fabs(p[i] - sign * q[i]) < 1e-12);
+  }
+}
+END_TEST
+
+/* Units: omega(R) is an angular velocity (rad/s, like the rate of an angle). */
+START_TEST(attitude_units) {
+  expect_ok("coord x [m]\nattitude R\nparam m = 1 [kg]\nparam J = 0.1 [kg*m^2]\n"
+            "kinetic m*x'^2/2 + J*dot(omega(R), omega(R))/2\ninitial omega(R) = [0, 0, 1]\n");
+  expect_error("coord x [m]\nattitude R\nparam m = 1 [kg]\n"
+               "kinetic m*x'^2/2 + m*dot(omega(R), omega(R))/2\n", 4, 18, "operands of '+'");
+}
+END_TEST
+
 int main(void) {
   Suite *s = suite_create("check");
   TCase *tc = tcase_create("names");
@@ -696,6 +861,16 @@ int main(void) {
   tcase_add_test(tc, model_needs_coordinates_and_energy);
   tcase_add_test(tc, model_arrays_and_terms);
   tcase_add_test(tc, unused_warnings);
+  suite_add_tcase(s, tc);
+  tc = tcase_create("attitudes");
+  tcase_set_timeout(tc, 60);
+  tcase_add_test(tc, attitude_declaration_and_shapes);
+  tcase_add_test(tc, attitude_misuse_errors);
+  tcase_add_test(tc, attitude_scalar_use_is_explained);
+  tcase_add_test(tc, attitude_initial_must_be_rotation);
+  tcase_add_test(tc, attitude_initial_quaternion_values);
+  tcase_add_test(tc, attitude_quaternion_round_trip);
+  tcase_add_test(tc, attitude_units);
   suite_add_tcase(s, tc);
   tc = tcase_create("command");
   tcase_set_timeout(tc, 60);

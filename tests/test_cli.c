@@ -238,6 +238,39 @@ END_TEST
 ** at the coordinate's declaration and fails; `gen` still writes the code
 ** (its inverse dynamics are sound) with the same words as a warning.  A
 ** coordinate whose inertia only vanishes at some states is no such case. */
+/* `check` lists each attitude with its initial quaternion and angular
+** velocity; the verbs that need the equations refuse the model with an
+** error at the attitude, not a crash or a wrong file. */
+START_TEST(attitude_check_summary) {
+  static const char model[] =
+    "coord x, y, z [m]\n"
+    "attitude hull \"survey float\"\n"
+    "param m = 40 [kg]\n"
+    "param J = 3 [kg*m^2]\n"
+    "kinetic m*(x'^2 + y'^2 + z'^2)/2 + J*dot(omega(hull), omega(hull))/2\n"
+    "initial hull = rotx(pi)\n"
+    "initial omega(hull) = [0, 0.25, 0]\n";
+  RunResult r = check_text(model, sizeof model - 1);
+  ck_assert_msg(r.status == 0, "status %d: %s", r.status, r.err);
+  ck_assert_msg(strstr(r.out, "attitudes (1):") != NULL, "%s", r.out);
+  /* a half turn about x is the quaternion [0, 1, 0, 0] (common practice) */
+  ck_assert_msg(strstr(r.out, "hull  initial [0, 1, 0, 0], omega [0, 0.25, 0]  survey float") != NULL,
+                "%s", r.out);
+  ck_assert_ptr_nonnull(strstr(r.out, "equations of motion: not derived"));
+  run_free(&r);
+  char *dir = make_temp_dir();
+  char *path = write_file(dir, "float.eom", model, sizeof model - 1);
+  char *argv[] = {(char *)eomc(), "gen", path, "-o", dir, NULL};
+  r = run_argv(argv);
+  ck_assert_int_eq(r.status, 1);
+  ck_assert_msg(strstr(r.err, "float.eom:2:10: error: attitude 'hull'") != NULL, "%s", r.err);
+  run_free(&r);
+  free(path);
+  remove_tree(dir);
+  free(dir);
+}
+END_TEST
+
 START_TEST(coordinate_without_inertia) {
   char *dir = make_temp_dir();
   const char *bad = "model idle\ncoord x [m]\ncoord z [m]\nparam m = 2 [kg]\nparam k = 50 [N/m]\n"
@@ -397,6 +430,7 @@ int main(void) {
   tcase_add_loop_test(tc, bad_catalogue, 0, catalogue_count);
   tcase_add_test(tc, inertia_not_positive_definite_warns);
   tcase_add_test(tc, coordinate_without_inertia);
+  tcase_add_test(tc, attitude_check_summary);
   tcase_add_test(tc, examples_check_clean);
   tcase_add_test(tc, gen_several_models);
   tcase_add_test(tc, gen_memory_limit);

@@ -722,6 +722,17 @@ START_TEST(modes_wraps_periodic_angles) {
   double th = json_number(r.out, "th", 0);
   ck_assert_msg(th > -PI && th <= PI + 1e-12 && fabs(fabs(th) - PI) < 1e-9, "th %.17g", th);
   run_free(&r);
+
+  /* A model without units: its periodic coordinate is wrapped too. */
+  const char *text = "model bare_pendulum\ncoord th\nparam g = 9.81\nkinetic 1/2*th'^2\n"
+                     "potential -g*cos(th)\ninitial th = 75.5\n";
+  char *bare = write_file(work_dir, "bare_pendulum.eom", text, strlen(text));
+  char *argv3[] = {(char *)eomc(), "modes", bare, "--json", NULL};
+  r = run_argv(argv3);
+  ck_assert_msg(r.status == 0, "status %d: %s", r.status, r.err);
+  ck_assert_msg(fabs(json_number(r.out, "th", 0)) < 1e-9, "%s", r.out);
+  run_free(&r);
+  free(bare);
 }
 END_TEST
 

@@ -4,6 +4,7 @@
 ** Diagnostics go to stderr; the summary (coordinates, params, inputs,
 ** outputs, terms) goes to stdout so it can be piped or compared.
 */
+#include <math.h>
 #include <stdio.h>
 #include <string.h>
 #include "cli/cmd.h"
@@ -100,6 +101,27 @@ static void print_decls(const Model *m, const char *title, Decl **v, int n, int 
   }
 }
 
+/* The attitudes: name, initial quaternion [w, x, y, z], initial body-frame
+** angular velocity when not zero, description. */
+/* Round-off of the rotation's trigonometry (cos(pi) + 1) shows as 0. */
+static double tidy(double v) { return fabs(v) < 1e-12 ? 0.0 : v; }
+
+static void print_attitudes(const Model *m, FILE *out) {
+  if (m->nattitudes == 0) return;
+  fprintf(out, "attitudes (%d):  quaternion [w, x, y, z], omega in body axes\n", m->nattitudes);
+  for (int i = 0; i < m->nattitudes; i++) {
+    const double *q = m->attitude_q0 + 4 * i, *w = m->omega0 + 3 * i;
+    fprintf(out, "  %s  initial [%.6g, %.6g, %.6g, %.6g]", m->attitudes[i]->name, tidy(q[0]), tidy(q[1]),
+            tidy(q[2]), tidy(q[3]));
+    if (w[0] != 0 || w[1] != 0 || w[2] != 0) fprintf(out, ", omega [%.6g, %.6g, %.6g]", w[0], w[1], w[2]);
+    if (m->attitudes[i]->desc) {
+      fputs("  ", out);
+      put_clean(m->attitudes[i]->desc, out);
+    }
+    fputc('\n', out);
+  }
+}
+
 static const char *term_kind(const Stmt *s) {
   switch (s->kind) {
   case ST_FORCE_AT: return "force at a point";
@@ -111,6 +133,7 @@ static const char *term_kind(const Stmt *s) {
 static void print_summary(const Model *m, const char *path, FILE *out) {
   fprintf(out, "model %s  (%s)\n", m->name, path);
   print_decls(m, "coordinates", m->coords, m->ncoords, COORD, out);
+  print_attitudes(m, out);
   print_decls(m, "parameters", m->params, m->nparams, VALUE, out);
   print_decls(m, "constants", m->consts, m->nconsts, VALUE, out);
   print_decls(m, "inputs", m->inputs, m->ninputs, PLAIN, out);
@@ -203,7 +226,11 @@ int cmd_check(int argc, char **argv) {
   int rc = frontend_open(&fe, path, 0);
   if (rc != 0) return rc;
   print_summary(&fe.model, path, stdout);
-  if (derive) rc = print_structure(&fe, stdout) ? EXIT_MODEL : 0;
+  if (derive && fe.model.nattitudes > 0)
+    fputs("equations of motion: not derived (attitudes are read and checked; their derivation is "
+          "not implemented yet)\n", stdout);
+  else if (derive)
+    rc = print_structure(&fe, stdout) ? EXIT_MODEL : 0;
   frontend_free(&fe);
   return rc;
 }

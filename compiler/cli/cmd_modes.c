@@ -228,7 +228,7 @@ static int same_dynamics(const struct eom_model *m, const double *p, const doubl
   return 1;
 }
 
-/* Angles in radians whose dynamics repeat every 2 pi are reported in
+/* Angles (rad, or no unit) whose dynamics repeat every 2 pi are reported in
 ** (-pi, pi]: Newton may land several turns away from the start.  The
 ** period is tested numerically here and at two other points, since the
 ** descriptor does not say which coordinates are periodic. */
@@ -239,7 +239,9 @@ static void wrap_periodic(const struct eom_model *m, const double *p, const doub
   double *qs = malloc((size_t)nq * sizeof(double));
   if (!w || !qs) goto out;
   for (int j = 0; j < nq; j++) {
-    if (strcmp(m->coord_units[j], "rad") != 0 || (q[j] > -M_PI && q[j] <= M_PI)) continue;
+    /* angles: in rad, or without a unit (a model without units) */
+    const char *unit = m->coord_units[j];
+    if ((unit[0] && strcmp(unit, "rad") != 0) || (q[j] > -M_PI && q[j] <= M_PI)) continue;
     double turns = floor((q[j] + M_PI) / TWO_PI), wrapped = q[j] - turns * TWO_PI;
     if (wrapped <= -M_PI) wrapped += TWO_PI;
     int periodic = 1;

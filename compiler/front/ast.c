@@ -126,6 +126,7 @@ const char *ast_stmt_keyword(StmtKind k) {
     case ST_BODY: return "body";
     case ST_CONSTRAINT: return "constraint";
     case ST_FRAME: return "frame";
+    case ST_ATTITUDE: return "attitude";
   }
   return "?";
 }

@@ -59,7 +59,8 @@ typedef struct Expr {
 /* What a name was declared as. */
 typedef enum DeclKind {
   DECL_COORD, DECL_PARAM, DECL_CONST, DECL_INPUT, DECL_LET, DECL_OUTPUT,
-  DECL_BODY
+  DECL_BODY,
+  DECL_ATTITUDE  /* a free orientation: a 3x3 rotation stored as a unit quaternion */
 } DeclKind;
 
 /* One declared name.  `coord a, b` makes two Decls sharing unit and text. */
@@ -101,7 +102,8 @@ typedef enum StmtKind {
   ST_BODY,         /* body N mass m at P [orient R] [inertia I]
                       : decls[0] (DECL_BODY), e[0]=m, e[1]=P, e[2]=R|NULL, e[3]=I|NULL */
   ST_CONSTRAINT,   /* constraint a = b [u]           : e[0]=a, e[1]=b, e[2]=unit or NULL */
-  ST_FRAME         /* frame a = T "d"                : decls[0] (DECL_OUTPUT, frame = 1) */
+  ST_FRAME,        /* frame a = T "d"                : decls[0] (DECL_OUTPUT, frame = 1) */
+  ST_ATTITUDE      /* attitude R, S "d"              : decls (DECL_ATTITUDE) */
 } StmtKind;
 
 typedef struct Stmt {
@@ -110,6 +112,7 @@ typedef struct Stmt {
   const char *name;      /* ST_MODEL, ST_INITIAL, ST_FORCE: the named target */
   SrcLoc name_loc;
   int rate;              /* ST_INITIAL: 1 for `initial q' = ...` */
+  int omega;             /* ST_INITIAL: 1 for `initial omega(R) = ...` */
   Decl **decls;
   int ndecls;
   const char **names;    /* ST_IDENTIFY */

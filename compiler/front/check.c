@@ -24,6 +24,7 @@
 #include <stdint.h>
 #include <stdlib.h>
 #include <string.h>
+#include "front/attitude.h"
 #include "front/units.h"
 
 /* pi to double precision (M_PI is not C99). */
@@ -34,7 +35,7 @@
 static const char *const keywords[] = {
   "model", "coord", "param", "const", "input", "let", "initial", "output", "identify",
   "kinetic", "potential", "lagrangian", "dissipation", "force", "torque", "gravity",
-  "body", "constraint", "frame",
+  "body", "constraint", "frame", "attitude",
 };
 
 int check_is_keyword(const char *s) {
@@ -49,8 +50,9 @@ int check_builtin_arity(const char *name) { return builtin_arity(name); }
 static int is_scalar_function(const char *f) { return builtin_scalar(f) >= 0; }
 
 static const char *kind_name(DeclKind k) {
-  static const char *const names[] = {"coordinate", "param", "const", "input", "let", "output", "body"};
-  assert((int)k >= 0 && k <= DECL_BODY);
+  static const char *const names[] = {"coordinate", "param", "const", "input", "let", "output", "body",
+                                      "attitude"};
+  assert((int)k >= 0 && k <= DECL_ATTITUDE);
   return names[k];
 }
 
@@ -105,6 +107,12 @@ typedef struct CoordInit {
   Stmt *q0_stmt, *qd0_stmt;   /* the `initial` that set it (for duplicates) */
 } CoordInit;
 
+/* Per-attitude initial state, indexed by Decl.index. */
+typedef struct AttitudeInit {
+  double quat[4], omega[3];   /* unit quaternion [w, x, y, z]; body-frame rad/s */
+  Stmt *quat_stmt, *omega_stmt;
+} AttitudeInit;
+
 typedef struct LetInfo {
   int order;
   Decl *input;
@@ -117,10 +125,12 @@ typedef struct Checker {
   /* Symbol table: open addressing on the name. */
   Decl **tab;
   size_t tabcap, tabcount;
-  PtrVec by_kind[DECL_BODY + 1];
+  PtrVec by_kind[DECL_ATTITUDE + 1];
   PtrVec terms;
   CoordInit *init;
   size_t initcap;
+  AttitudeInit *attinit;
+  size_t attcap;
   LetInfo *lets;
   size_t letcap;
   PtrVec identify;
@@ -312,9 +322,21 @@ static Info check_name(Checker *c, Expr *e) {
   case DECL_BODY:
     diag_error(c->d, e->loc, "'%s' is a body, not a value", e->name);
     return info_err();
+  case DECL_ATTITUDE:
+    r.shape = shape(3, 3);
+    r.order = 0;
+    break;
   }
   e->shape = r.shape;
   return r;
+}
+
+/* Say so when a shape error is about an attitude used as a plain value. */
+static void note_if_attitude(Checker *c, const Expr *e, int msgs_before) {
+  if (c->d->nmsgs == msgs_before) return;   /* the error was suppressed */
+  if (e->kind == EX_NAME && e->ref && e->ref->kind == DECL_ATTITUDE)
+    diag_note(c->d, e->loc, "'%s' is an attitude: a 3x3 rotation (body axes to world), not a scalar",
+              e->name);
 }
 
 static Info check_rate(Checker *c, Expr *e) {
@@ -331,6 +353,13 @@ static Info check_rate(Checker *c, Expr *e) {
       x->ref = dc;
       dc->used = 1;
       diag_error(c->d, e->loc, "'%s' has no known time rate: it is an input", x->name);
+      return info_err();
+    }
+    if (dc && dc->kind == DECL_ATTITUDE) {
+      x->ref = dc;
+      dc->used = 1;
+      diag_error(c->d, e->loc, "the rate of attitude '%s' is not a state: use omega(%s), its body-frame "
+                 "angular velocity (world frame: %s*omega(%s))", x->name, x->name, x->name, x->name);
       return info_err();
     }
   }
@@ -359,8 +388,10 @@ static Info check_binary(Checker *c, Expr *e) {
   switch (e->op) {
   case OP_ADD: case OP_SUB:
     if (!same_shape(sa, sb)) {
+      int before = c->d->nmsgs;
       diag_error(c->d, e->loc, "cannot %s %s and %s: shapes must be equal",
                  e->op == OP_ADD ? "add" : "subtract", shape_str(sa), shape_str(sb));
+      note_if_attitude(c, e->args[is_scalar(sa) ? 1 : 0], before);
       return info_err();
     }
     return info_merge(a, b, sa);
@@ -375,14 +406,18 @@ static Info check_binary(Checker *c, Expr *e) {
     return info_merge(a, b, shape(sa.rows, sb.cols));
   case OP_DIV:
     if (!is_scalar(sb)) {
+      int before = c->d->nmsgs;
       diag_error(c->d, e->loc, "divisor must be a scalar, not %s", shape_str(sb));
+      note_if_attitude(c, e->args[1], before);
       return info_err();
     }
     return info_merge(a, b, sa);
   case OP_POW:
     if (!is_scalar(sa) || !is_scalar(sb)) {
+      int before = c->d->nmsgs;
       diag_error(c->d, e->loc, "%s of ^ must be a scalar, not %s", is_scalar(sa) ? "exponent" : "base",
                  shape_str(is_scalar(sa) ? sb : sa));
+      note_if_attitude(c, e->args[is_scalar(sa) ? 1 : 0], before);
       return info_err();
     }
     return info_merge(a, b, SHAPE_SCALAR);
@@ -394,8 +429,34 @@ static Info check_binary(Checker *c, Expr *e) {
 
 static int is_vector(Shape s) { return s.cols == 1 && s.rows >= 1; }
 
+/* omega(R): the body-frame angular velocity of attitude R, a 3-vector of
+** rates.  `omega` is not reserved: a model that declares that name keeps it. */
+static Info check_omega(Checker *c, Expr *e) {
+  Info r = {SHAPE_ERR, 1, NULL};
+  if (e->nargs != 1) {
+    diag_error(c->d, e->loc, "omega takes 1 argument (an attitude), not %d", e->nargs);
+    return info_err();
+  }
+  Expr *x = e->args[0];
+  Decl *dc = x->kind == EX_NAME ? lookup(c, x->name) : NULL;
+  if (!dc || dc->kind != DECL_ATTITUDE) {
+    if (x->kind == EX_NAME && !dc && strcmp(x->name, "t") != 0 && strcmp(x->name, "pi") != 0)
+      report_undefined(c, x);
+    else
+      diag_error(c->d, x->loc, "omega() needs the name of an attitude, not %s",
+                 dc ? kind_name(dc->kind) : "an expression");
+    return info_err();
+  }
+  x->ref = dc;
+  x->shape = shape(3, 3);
+  dc->used = 1;
+  r.shape = shape(3, 1);
+  return r;
+}
+
 static Info check_call(Checker *c, Expr *e) {
   Info r = {SHAPE_SCALAR, -1, NULL};
+  if (strcmp(e->name, "omega") == 0 && !lookup(c, "omega")) return check_omega(c, e);
   int err = 0;
   Info args[4];
   for (int i = 0; i < e->nargs; i++) {
@@ -431,8 +492,10 @@ static Info check_call(Checker *c, Expr *e) {
       strcmp(f, "rotz") == 0 || strcmp(f, "diag") == 0) {
     for (int i = 0; i < e->nargs; i++)
       if (!is_scalar(e->args[i]->shape)) {
+        int before = c->d->nmsgs;
         diag_error(c->d, e->args[i]->loc, "argument %d of %s must be a scalar, not %s", i + 1, f,
                    shape_str(e->args[i]->shape));
+        note_if_attitude(c, e->args[i], before);
         return info_err();
       }
     if (strcmp(f, "dh") == 0) r.shape = shape(4, 4);
@@ -644,6 +707,16 @@ static int declare(Checker *c, Decl *dc, Shape s) {
       c->initcap = ncap;
     }
   }
+  if (dc->kind == DECL_ATTITUDE && (size_t)list->n > c->attcap) {
+    size_t ncap = c->attcap ? 2 * c->attcap : 8;
+    c->attinit = realloc(c->attinit, ncap * sizeof *c->attinit);
+    if (!c->attinit) abort();
+    for (size_t i = c->attcap; i < ncap; i++) {
+      memset(&c->attinit[i], 0, sizeof c->attinit[i]);
+      c->attinit[i].quat[0] = 1;   /* default: body axes along the world's */
+    }
+    c->attcap = ncap;
+  }
   if (dc->kind == DECL_LET && (size_t)list->n > c->letcap) {
     size_t ncap = c->letcap ? 2 * c->letcap : 16;
     c->lets = realloc(c->lets, ncap * sizeof *c->lets);
@@ -702,9 +775,14 @@ static Decl *target_coord(Checker *c, Stmt *s) {
     diag_error(c->d, s->name_loc, "undefined name '%s'", s->name);
     return NULL;
   }
+  if (dc->kind == DECL_ATTITUDE && s->kind == ST_FORCE) {
+    diag_error(c->d, s->name_loc, "'%s' is an attitude: it takes no generalized force; apply a "
+               "world-frame torque with 'torque TAU on %s'", s->name, s->name);
+    return NULL;
+  }
   if (dc->kind != DECL_COORD) {
     diag_error(c->d, s->name_loc, "'%s' is not a coordinate (it is %s %s)", s->name,
-               dc->kind == DECL_INPUT ? "an" : "a", kind_name(dc->kind));
+               dc->kind == DECL_INPUT || dc->kind == DECL_ATTITUDE ? "an" : "a", kind_name(dc->kind));
     return NULL;
   }
   return dc;
@@ -715,8 +793,11 @@ static Info expect_shape(Checker *c, Expr *e, Shape want, const char *what) {
   Info r = check_expr(c, e);
   if (is_err(r.shape)) return r;
   if (!same_shape(r.shape, want)) {
-    if (is_scalar(want))
+    int before = c->d->nmsgs;
+    if (is_scalar(want)) {
       diag_error(c->d, e->loc, "%s must be a scalar, not %s", what, shape_str(r.shape));
+      note_if_attitude(c, e, before);
+    }
     else
       diag_error(c->d, e->loc, "%s must be %s, not %s", what,
                  want.cols == 1 ? "a 3-vector (3x1)" : want.rows == 3 ? "a 3x3 matrix" : "a 4x4 matrix",
@@ -726,8 +807,108 @@ static Info expect_shape(Checker *c, Expr *e, Shape want, const char *what) {
   return r;
 }
 
+static int eval_const_with_params(const Expr *e, double *v, const Expr **bad) {
+  return eval_const(e, 1, v, bad);
+}
+
+/* Largest |R^T R - I| entry accepted in `initial R = ...`: room for
+** rotations typed with six or seven digits; the quaternion is normalised. */
+#define ROTATION_TOLERANCE 1e-6
+
+/* initial R = ROTATION: a constant proper rotation, stored as a quaternion. */
+static void initial_rotation(Checker *c, Stmt *s, AttitudeInit *ai) {
+  char why[160];
+  ConstMat m;
+  const Expr *bad = NULL;
+  Info r = expect_shape(c, s->e[0], shape(3, 3), "the initial value of an attitude");
+  if (is_err(r.shape)) return;
+  if (!attitude_const_matrix(s->e[0], eval_const_with_params, &m, &bad)) {
+    diag_error(c->d, bad->loc, "an initial rotation must be a constant expression of numbers, consts "
+               "and params: %s", why_not_constant(bad, why, sizeof why));
+    return;
+  }
+  assert(m.rows == 3 && m.cols == 3);
+  double err = attitude_orthonormality_error(m.a);
+  if (!isfinite(err)) {
+    if (!uses_failed_value(s->e[0]))
+      diag_error(c->d, s->e[0]->loc, "the initial rotation of '%s' is not finite", s->name);
+    return;
+  }
+  if (err > ROTATION_TOLERANCE) {
+    diag_error(c->d, s->e[0]->loc, "the initial value of attitude '%s' is not a rotation: it is %.3g "
+               "from orthonormal (largest entry of |R^T R - I|; at most %g is accepted)", s->name, err,
+               ROTATION_TOLERANCE);
+    return;
+  }
+  if (attitude_det3(m.a) < 0) {
+    diag_error(c->d, s->e[0]->loc, "the initial value of attitude '%s' is a reflection (determinant "
+               "-1), not a rotation", s->name);
+    return;
+  }
+  attitude_quaternion_from_rotation(m.a, ai->quat);
+}
+
+/* initial omega(R) = [a, b, c]: the body-frame angular velocity. */
+static void initial_omega(Checker *c, Stmt *s, AttitudeInit *ai) {
+  char why[160];
+  ConstMat m;
+  const Expr *bad = NULL;
+  Info r = expect_shape(c, s->e[0], shape(3, 1), "an initial angular velocity");
+  if (is_err(r.shape)) return;
+  if (!attitude_const_matrix(s->e[0], eval_const_with_params, &m, &bad)) {
+    diag_error(c->d, bad->loc, "an initial angular velocity must be a constant expression of numbers, "
+               "consts and params: %s", why_not_constant(bad, why, sizeof why));
+    return;
+  }
+  for (int i = 0; i < 3; i++)
+    if (!isfinite(m.a[i])) {
+      if (!uses_failed_value(s->e[0]))
+        diag_error(c->d, s->e[0]->loc, "the initial angular velocity of '%s' is not finite", s->name);
+      return;
+    }
+  memcpy(ai->omega, m.a, sizeof ai->omega);
+}
+
+/* `initial R = ...` and `initial omega(R) = ...` for an attitude R. */
+static void check_initial_attitude(Checker *c, Stmt *s, Decl *att) {
+  if (!att || att->kind != DECL_ATTITUDE) {
+    if (att)
+      diag_error(c->d, s->name_loc, "'%s' is not an attitude (it is %s %s): omega() needs an attitude",
+                 s->name, att->kind == DECL_INPUT ? "an" : "a", kind_name(att->kind));
+    else
+      diag_error(c->d, s->name_loc, "undefined name '%s'", s->name);
+    check_expr(c, s->e[0]);
+    return;
+  }
+  if (s->rate) {
+    diag_error(c->d, s->loc, "the rate of attitude '%s' is not a state: give 'initial omega(%s) = "
+               "[a, b, c]' (body frame, rad/s)", s->name, s->name);
+    return;
+  }
+  s->target = att;
+  att->used = 1;
+  assert((size_t)att->index < c->attcap);
+  AttitudeInit *ai = &c->attinit[att->index];
+  Stmt **prev = s->omega ? &ai->omega_stmt : &ai->quat_stmt;
+  if (*prev) {
+    char what[96];
+    snprintf(what, sizeof what, s->omega ? "omega(%s)" : "%s", s->name);
+    error_with_note(c, s->loc, (*prev)->loc, "the first initial value of '%s' is here",
+                    "duplicate initial value for '%s' (first given on line %d)", what, (*prev)->loc.line);
+    return;
+  }
+  *prev = s;
+  if (s->omega) initial_omega(c, s, ai);
+  else initial_rotation(c, s, ai);
+}
+
 static void check_initial(Checker *c, Stmt *s) {
   char why[160];
+  Decl *named = lookup(c, s->name);
+  if (s->omega || (named && named->kind == DECL_ATTITUDE)) {
+    check_initial_attitude(c, s, named);
+    return;
+  }
   Decl *q = target_coord(c, s);
   Info r = expect_shape(c, s->e[0], SHAPE_SCALAR, "an initial value");
   if (!q) return;
@@ -911,6 +1092,14 @@ static void check_statement(Checker *c, Stmt *s, int position) {
     declare(c, dc, entries);
     break;
   }
+  case ST_ATTITUDE:
+    c->has_coord_stmt = 1;
+    for (int i = 0; i < s->ndecls; i++) {
+      declare(c, s->decls[i], shape(3, 3));
+      s->decls[i]->dim = arena_alloc(c->ast->arena, sizeof *s->decls[i]->dim);
+      *s->decls[i]->dim = unit_dimensionless();
+    }
+    break;
   case ST_INITIAL: check_initial(c, s); break;
   case ST_IDENTIFY: check_identify(c, s); break;
   case ST_KINETIC: case ST_POTENTIAL: case ST_LAGRANGIAN: case ST_DISSIPATION:
@@ -1036,6 +1225,14 @@ int check_model(Ast *ast, Diag *d, Model *m) {
   m->ny = 0;
   for (int i = 0; i < m->noutputs; i++) m->ny += m->outputs[i]->shape.rows * m->outputs[i]->shape.cols;
   m->bodies = take(a, &c.by_kind[DECL_BODY], &m->nbodies);
+  int natt = c.by_kind[DECL_ATTITUDE].n;
+  m->attitude_q0 = arena_alloc(a, (size_t)(natt ? natt : 1) * 4 * sizeof *m->attitude_q0);
+  m->omega0 = arena_alloc(a, (size_t)(natt ? natt : 1) * 3 * sizeof *m->omega0);
+  for (int i = 0; i < natt; i++) {
+    memcpy(m->attitude_q0 + 4 * i, c.attinit[i].quat, 4 * sizeof *m->attitude_q0);
+    memcpy(m->omega0 + 3 * i, c.attinit[i].omega, 3 * sizeof *m->omega0);
+  }
+  m->attitudes = take(a, &c.by_kind[DECL_ATTITUDE], &m->nattitudes);
   m->identify = take(a, &c.identify, &m->nidentify);
   m->nterms = c.terms.n;
   m->terms = (Stmt **)arena_copy_ptrs(a, c.terms.v, (size_t)c.terms.n);
@@ -1044,6 +1241,7 @@ int check_model(Ast *ast, Diag *d, Model *m) {
   free(c.terms.v);
   free(c.tab);
   free(c.init);
+  free(c.attinit);
   free(c.lets);
 
   /* Units only for a model that is otherwise sound: a name or shape error

@@ -22,12 +22,15 @@ typedef struct Model {
   Decl **lets;     int nlets;
   Decl **outputs;  int noutputs;
   Decl **bodies;   int nbodies;
+  Decl **attitudes; int nattitudes; /* free orientations, in declaration order */
   Decl **identify; int nidentify; /* params named by `identify` */
   /* Energy, force, body, gravity and constraint statements in source order. */
   Stmt **terms;    int nterms;
   int nconstraints;               /* position constraint equations phi(t, q) = 0 */
   int nvconstraints;             /* velocity constraint equations A(t, q) q' = b(t, q) */
   double *q0, *qd0;              /* initial state, ncoords each (default 0) */
+  double *attitude_q0;           /* 4 per attitude: unit quaternion [w, x, y, z] (default 1, 0, 0, 0) */
+  double *omega0;                /* 3 per attitude: body-frame angular velocity (default 0) */
   int has_units;                 /* every coord and param carries a unit: units were checked */
   int ny;                        /* entries of y: every element of a vector or matrix output */
 } Model;

@@ -33,6 +33,9 @@ static int max_args(const Expr *e, int from, SrcLoc *where, int depth) {
 }
 
 static int degree_call(const Expr *e, SrcLoc *where, int depth) {
+  if (strcmp(e->name, "omega") == 0 && e->nargs == 1 && e->args[0]->ref &&
+      e->args[0]->ref->kind == DECL_ATTITUDE)
+    return RATES_LINEAR;   /* the attitude's velocity state */
   if (strcmp(e->name, "dot") == 0 || strcmp(e->name, "cross") == 0) {
     assert(e->nargs == 2);
     int da = degree(e->args[0], where, depth);

@@ -426,6 +426,8 @@ static Unit scalar_call_unit(UnitCheck *uc, const Expr *e, UnitRule rule) {
 
 static Unit call_unit(UnitCheck *uc, const Expr *e) {
   const char *f = e->name;
+  if (strcmp(f, "omega") == 0 && e->args[0]->ref && e->args[0]->ref->kind == DECL_ATTITUDE)
+    return unit_div(unit_base(U_RAD), unit_base(U_S));   /* an angular velocity, as an angle's rate */
   int fn = builtin_scalar(f);
   if (fn >= 0) return scalar_call_unit(uc, e, scalar_builtins[fn].unit);
   if (strcmp(f, "rotx") == 0 || strcmp(f, "roty") == 0 || strcmp(f, "rotz") == 0) {
@@ -696,8 +698,16 @@ static void check_statement(UnitCheck *uc, Model *m, Stmt *s) {
   }
   case ST_INITIAL: {
     Decl *q = s->target;
-    assert(q && q->kind == DECL_COORD && q->dim);
+    assert(q && (q->kind == DECL_COORD || q->kind == DECL_ATTITUDE) && q->dim);
     if (!mentions_names(s->e[0])) break;
+    if (q->kind == DECL_ATTITUDE) {
+      if (s->omega)
+        expect_unit(uc, s->e[0], unit_div(unit_base(U_RAD), unit_base(U_S)), s->loc,
+                    "initial angular velocity", "rad/s");
+      else
+        expect_unit(uc, s->e[0], unit_dimensionless(), s->loc, "initial rotation", "a dimensionless rotation");
+      break;
+    }
     Unit want_u = s->rate ? unit_div(*q->dim, unit_base(U_S)) : *q->dim;
     snprintf(what, sizeof what, "initial value of %s%s", s->name, s->rate ? "'" : "");
     snprintf(want, sizeof want, "%s", unit_format(want_u, 1, s1, sizeof s1));

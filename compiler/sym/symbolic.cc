@@ -631,6 +631,7 @@ Val Derivation::eval_name(const Expr *x) {
     case DECL_OUTPUT: return let_value(d);
     case DECL_BODY:
       throw SymError{x->loc, fmt("bodies are not supported yet ('%s')", d->name)};
+    case DECL_ATTITUDE: break;   /* refused by sym_derive before any evaluation */
   }
   throw SymError{x->loc, "internal: unknown declaration kind"};
 }
@@ -1940,6 +1941,13 @@ extern "C" int sym_derive(const Model *m, const SymOptions *opt, Diag *d, EomSys
   out->np = m->nparams;
   out->ny = m->ny;
   out->nc = 0;
+  if (m->nattitudes > 0) {
+    /* The front end reads and checks attitudes; their equations of motion
+    ** (quasi-velocities, NV < NQ) are not derived by this version. */
+    diag_error(d, m->attitudes[0]->loc, "attitude '%s': equations of motion for attitude coordinates "
+               "are not implemented yet (eomc check reads and checks them)", m->attitudes[0]->name);
+    return 1;
+  }
   try {
     eomsym::Derivation dv(m, opt, d);
     dv.run(out);
