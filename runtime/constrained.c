@@ -44,28 +44,38 @@ static void residual(const struct eom_model *m, const double *p, const double *u
   m->constraint(q, p, F + nq);
 }
 
-/* Least-squares multipliers at q: (G Gᵀ) λ = -G f.  work: nc*nc + nq. */
+/* Least-squares multipliers at q: the minimum-norm λ of (G Gᵀ) λ = -G f,
+** so redundant constraints (dependent rows of G) get a definite split and
+** the constraint stiffness λ·d²phi/dq² of the tangent linearization is
+** right (any λ with Gᵀλ = -f gives the same stiffness along the constraint
+** surface; a λ of 0 for the dependent rows would not balance f).  The
+** pseudo-inverse is constraint_solve.c's with the metric M = I.  work:
+** nc*nc + nq (unused: the solver allocates its own scratch).  λ = 0 when
+** out of memory. */
 static void initial_multipliers(const struct eom_model *m, const double *p, const double *u,
                                 double t, const double *q, const double *qd0, double *G,
                                 double *lambda, double *work, int *piv) {
   int nq = m->nq, nc = m->nc;
-  double *S = work, *f = work + nc * nc;
-  m->forcing(t, q, qd0, u, p, f);
+  (void)work;
+  (void)piv;
   m->constraint_jacobian(q, p, G);
+  memset(lambda, 0, (size_t)nc * sizeof(double));
+  double *buf = malloc(((size_t)nq * nq + 2 * (size_t)nq + (size_t)nc + csolve_doubles(nq, nc)) *
+                       sizeof(double));
+  if (!buf) return;
+  double *I = buf, *f = I + (size_t)nq * nq, *Gf = f + nq, *ws = Gf + nc;
+  memset(I, 0, (size_t)nq * nq * sizeof(double));
+  for (int i = 0; i < nq; i++) I[i * nq + i] = 1;
+  m->forcing(t, q, qd0, u, p, f);
   for (int a = 0; a < nc; a++) {
-    double s = 0;
-    for (int i = 0; i < nq; i++) s += G[a * nq + i] * f[i];
-    lambda[a] = -s;
-    for (int b = 0; b < nc; b++) {
-      double g = 0;
-      for (int i = 0; i < nq; i++) g += G[a * nq + i] * G[b * nq + i];
-      S[a * nc + b] = g;
-    }
+    double v = 0;
+    for (int i = 0; i < nq; i++) v += G[a * nq + i] * f[i];
+    Gf[a] = -v;
   }
-  if (dense_lu(nc, S, piv) == 0)
-    dense_lu_solve(nc, S, piv, lambda);
-  else
-    memset(lambda, 0, (size_t)nc * sizeof(double));
+  ConstraintSolver cs;
+  csolve_init(&cs, nq, nc, ws);
+  if (csolve_factor(&cs, I, G) == EOM_OK) csolve_pinv(&cs, Gf, lambda);
+  free(buf);
 }
 
 int constrained_equilibrium(const struct eom_model *m, const double *p, const double *u, double t,

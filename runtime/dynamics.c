@@ -80,6 +80,8 @@ int sim_rhs(SimContext *c, double t, const double *x, double *xdot) {
   sim_load_inputs(c, t);
   c->rep->rhs_evals++;
   memcpy(xdot, x + nq, (size_t)nq * sizeof(double));
+  if (c->cs_active && (m->nc == 0 || m->constraint_gamma))
+    return stabilize_accel(c, t, x, c->u, xdot + nq);
   int bad = model_accel(m, c->p, t, x, c->u, xdot + nq, c->lambda);
   /* accel_constrained: 1 for M, 2 for G M^-1 G^T (dependent constraints). */
   if (bad == 2 && m->nc + m->nvc > 0)

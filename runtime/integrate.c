@@ -237,8 +237,7 @@ done:
 /* Move the initial state onto the constraints, keeping the held coordinates. */
 static int initial_fix(SimContext *c, double t0, double *x) {
   c->cs_holding = 1;
-  int st = stabilize_project(c, t0, x, 50,
-                             "the initial state is not on the constraints and cannot be put there");
+  int st = stabilize_initial_fix(c, t0, x);
   c->cs_holding = 0;
   return st;
 }

@@ -126,6 +126,35 @@ void describe_coords(const struct eom_model *m, const double *q, char *buf, size
 int constrained_equilibrium(const struct eom_model *m, const double *p, const double *u, double t,
                             double *q, double tol, int max_iter, struct eom_report *rep);
 
+/* Rank-revealing constrained solves (constraint_solve.c).  A solver works
+** in caller-owned scratch of csolve_doubles(nq, nc) doubles; csolve_factor
+** takes M and G at one configuration (EOM_EMASS when M is not positive
+** definite), after which the other calls reuse the factors. */
+typedef struct ConstraintSolver {
+  int nq, nc, rank;          /* rank: rows of G that act (nc when regular) */
+  double *L;                 /* nq x nq: Cholesky factor of M */
+  double *W;                 /* nc x nq: L⁻¹ Gᵀ, stored by rows of G */
+  double *G;                 /* nc x nq: G at the factored configuration */
+  double *V, *S;             /* nc x nc: eigenvectors of G M⁻¹ Gᵀ; scratch */
+  double *ev;                /* nc: its eigenvalues, dropped ones set to 0 */
+  double *rhs, *tmp;         /* nc, max(nq, nc): scratch */
+} ConstraintSolver;
+size_t csolve_doubles(int nq, int nc);
+void csolve_init(ConstraintSolver *s, int nq, int nc, double *work);
+int csolve_factor(ConstraintSolver *s, const double *M, const double *G);
+/* mu = S⁺ r with S = G M⁻¹ Gᵀ (minimum norm where S is singular). */
+void csolve_pinv(const ConstraintSolver *s, const double *r, double *mu);
+/* b := M⁻¹ b */
+void csolve_mass_solve(const ConstraintSolver *s, double *b);
+/* v += scale M⁻¹ Gᵀ mu */
+void csolve_add_reaction(const ConstraintSolver *s, const double *mu, double scale, double *v);
+/* The mass-orthogonal correction that removes r from G v: mu = S⁺ r,
+** v -= M⁻¹ Gᵀ mu. */
+void csolve_correct(const ConstraintSolver *s, const double *r, double *mu, double *v);
+/* M qdd = f + Gᵀλ, G qdd = gamma with minimum-norm λ. */
+int csolve_accel(ConstraintSolver *s, const double *M, const double *G, const double *f,
+                 const double *gamma, double *qdd, double *lambda);
+
 /* Constraint upkeep of constrained models (stabilize.c).  stabilize_init
 ** reads the options and checks at the state x that phi can be evaluated
 ** (a constraint with explicit t cannot: then everything here is off).
@@ -135,11 +164,17 @@ int stabilize_init(SimContext *c, const struct eom_sim_options *o, const double 
 ** steps (at most max_iter); on failure x is unchanged and c->rep says
 ** `when` it happened.  EOM_OK, EOM_ENEWTON or EOM_ESINGULAR. */
 int stabilize_project(SimContext *c, double t, double *x, int max_iter, const char *when);
+/* The fix of the initial state before a run: the smallest change of the
+** given q and q' (unweighted) that puts them on the constraints. */
+int stabilize_initial_fix(SimContext *c, double t, double *x);
 /* out = x projected as above when projection is on (else a copy); -1
 ** (out = x) when the projection fails.  For samples: reports nothing. */
 int stabilize_sample(SimContext *c, double t, const double *x, double *out);
 /* Add the Baumgarte term to qdd (and c->lambda) at state x. */
 int stabilize_baumgarte(SimContext *c, double t, const double *x, double *qdd);
+/* qdd and c->lambda of a model with constraint_gamma, by the rank-revealing
+** solve with the Baumgarte term included. */
+int stabilize_accel(SimContext *c, double t, const double *x, const double *u, double *qdd);
 
 /* Inputs u(t) into c->u (dynamics.c). */
 void sim_load_inputs(SimContext *c, double t);

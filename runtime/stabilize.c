@@ -10,20 +10,26 @@
 **    and integrals of motion in dynamical systems, Comput. Methods Appl.
 **    Mech. Eng. 1 (1972) 1–16): the acceleration constraint becomes
 **    G q'' = gamma - 2 alpha phi' - beta² phi, so a deviation decays like a
-**    damped oscillator instead of growing.  The generated accel_constrained
-**    solves for gamma; the extra right-hand side delta is added here by the
-**    range-space update q'' += M⁻¹Gᵀ mu, λ += mu with (G M⁻¹ Gᵀ) mu = delta.
+**    damped oscillator instead of growing.  Models that export
+**    constraint_gamma get their constrained accelerations from
+**    stabilize_accel, one rank-revealing solve with gamma + delta
+**    (constraint_solve.c); for others the generated accel_constrained
+**    solves for gamma and delta is added by the range-space update
+**    q'' += M⁻¹Gᵀ mu, λ += mu with mu = (G M⁻¹ Gᵀ)⁺ delta.
 **  - Projection after every accepted step: Gauss–Newton on phi(q) = 0 with
-**    minimum-norm corrections dq = -Gᵀ (G Gᵀ)⁻¹ phi, then the rates are
-**    projected onto phi' = G q' + dphi/dt = 0 the same way.  The same
-**    projection puts the user's initial guess on the constraints before
-**    the run.
+**    mass-orthogonal minimum-norm corrections dq = -M⁻¹Gᵀ (G M⁻¹ Gᵀ)⁺ phi,
+**    then the rates are projected onto phi' = G q' + dphi/dt = 0 the same
+**    way.  The same projection puts the user's initial guess on the
+**    constraints before the run.  Rows of G that are dependent (a linkage
+**    at a singular position, redundant joints) are handled by the
+**    pseudo-inverse: the run goes on, on its branch.
 **
 ** Velocity constraints A(t, q) q' = b(t, q) (nvc rows) only constrain the
-** rates: they join the rows of G in the rate projection (minimum-norm
-** change of q' onto [G; A] q' = [-dphi/dt; b]) and in the Baumgarte term,
-** where their error e = A q' - b gets the first-order part: e' = -2 alpha e
-** (it has no position part to bring back).  The positions stay free.
+** rates: they join the rows of G in the rate projection ([G; A] q' =
+** [-dphi/dt; b]), in the constrained accelerations ([G; A] q'' = [gamma;
+** gamma_v]) and in the Baumgarte term, where their error e = A q' - b gets
+** the first-order part: e' = -2 alpha e (it has no position part to bring
+** back).  The positions stay free.
 **
 ** Constraints are read through the descriptor's constraint_at(t, ...), so
 ** time-dependent ones are kept too.  A hand-written descriptor without it
@@ -40,42 +46,6 @@
 
 #include "integrators.h"
 
-/* Cholesky a = L Lᵀ in place (lower triangle) of a symmetric n x n matrix.
-** Returns -1 when a pivot is not clearly positive relative to the largest
-** diagonal entry: the matrix is singular to working precision (for G Gᵀ:
-** the constraints are dependent). */
-static int cholesky(int n, double *a) {
-  double big = 0;
-  for (int i = 0; i < n; i++) big = fmax(big, fabs(a[i * n + i]));
-  if (!(big > 0) || !isfinite(big)) return -1;
-  for (int j = 0; j < n; j++) {
-    double d = a[j * n + j];
-    for (int k = 0; k < j; k++) d -= a[j * n + k] * a[j * n + k];
-    if (!(d > 1e-13 * big)) return -1;
-    d = sqrt(d);
-    a[j * n + j] = d;
-    for (int i = j + 1; i < n; i++) {
-      double s = a[i * n + j];
-      for (int k = 0; k < j; k++) s -= a[i * n + k] * a[j * n + k];
-      a[i * n + j] = s / d;
-    }
-  }
-  return 0;
-}
-
-static void cholesky_solve(int n, const double *l, double *b) {
-  for (int i = 0; i < n; i++) {
-    double s = b[i];
-    for (int k = 0; k < i; k++) s -= l[i * n + k] * b[k];
-    b[i] = s / l[i * n + i];
-  }
-  for (int i = n - 1; i >= 0; i--) {
-    double s = b[i];
-    for (int k = i + 1; k < n; k++) s -= l[k * n + i] * b[k];
-    b[i] = s / l[i * n + i];
-  }
-}
-
 static double max_abs(int n, const double *v, int *where) {
   double m = 0;
   int w = 0;
@@ -90,29 +60,6 @@ static double max_abs(int n, const double *v, int *where) {
   return m;
 }
 
-/* S = G Gᵀ (nc x nc), factored; -1 when G loses rank. */
-static int factor_ggt(int nq, int nc, const double *G, double *S) {
-  for (int a = 0; a < nc; a++)
-    for (int b = 0; b <= a; b++) {
-      double s = 0;
-      for (int i = 0; i < nq; i++) s += G[a * nq + i] * G[b * nq + i];
-      S[a * nc + b] = S[b * nc + a] = s;
-    }
-  return cholesky(nc, S);
-}
-
-/* v -= Gᵀ (G Gᵀ)⁻¹ r, with S the factored G Gᵀ; r (nc) is overwritten.
-** The minimum-norm change of v that removes r from G v. */
-static void subtract_min_norm(int nq, int nc, const double *G, const double *S, double *r,
-                              double *v) {
-  cholesky_solve(nc, S, r);
-  for (int i = 0; i < nq; i++) {
-    double s = 0;
-    for (int k = 0; k < nc; k++) s += G[k * nq + i] * r[k];
-    v[i] -= s;
-  }
-}
-
 int stabilize_init(SimContext *c, const struct eom_sim_options *o, const double *x) {
   const struct eom_model *m = c->m;
   int nq = m->nq, nc = m->nc, nt = m->nc + m->nvc;
@@ -120,8 +67,8 @@ int stabilize_init(SimContext *c, const struct eom_sim_options *o, const double 
   if (nt <= 0) return EOM_OK;
   if (nc > 0 && !m->constraint_at && (!m->constraint || !m->constraint_jacobian)) return EOM_OK;
   if (m->nvc > 0 && !m->velocity_constraint) return EOM_OK;
-  size_t size = (size_t)nq * nq + 3 * (size_t)nt * nq + (size_t)nt * nt + 4 * (size_t)nt +
-                2 * (size_t)m->nvc + 3 * (size_t)nq + (size_t)c->n;
+  size_t size = (size_t)nq * nq + 2 * (size_t)nt * nq + 6 * (size_t)nt + 4 * (size_t)nq +
+                (size_t)c->n + csolve_doubles(nq, nt);
   c->cs_work = calloc(size + (size_t)c->n, sizeof(double));
   if (!c->cs_work) return EOM_ENOMEM;
   c->cs_sample = c->cs_work + size;
@@ -139,11 +86,15 @@ int stabilize_init(SimContext *c, const struct eom_sim_options *o, const double 
   return EOM_OK;
 }
 
-/* Scratch of the stabilizer, with nt = nc + nvc rows: M (nq x nq), G, Y
-** and G_spare (nt x nq), S (nt x nt), phi, phi_t, r, mu (nt), b and gamma
-** of the velocity constraints (nvc), dq, q_old, y (nq), a state copy (n). */
+/* Scratch of the stabilizer, with nt = nc + nvc rows: M (nq x nq), G and
+** G_spare (nt x nq; G holds [G; A] where the rates are concerned), phi,
+** phi_t, r, mu, gamma (nt), b of the velocity constraints (nt, first nvc
+** used), dq, q_old, y, f (nq), a state copy (n), and the rank-revealing
+** solver's own scratch (sized for nt rows; solver_rows picks how many). */
 typedef struct Scratch {
-  double *M, *G, *Y, *G_spare, *S, *phi, *phi_t, *r, *mu, *vb, *vgamma, *dq, *q_old, *y, *x;
+  double *M, *G, *G_spare, *phi, *phi_t, *r, *mu, *gamma, *vb, *dq, *q_old, *y, *f, *x;
+  double *solver_work;
+  ConstraintSolver solver;
 } Scratch;
 
 static Scratch scratch(const SimContext *c) {
@@ -151,20 +102,27 @@ static Scratch scratch(const SimContext *c) {
   Scratch s;
   s.M = c->cs_work;
   s.G = s.M + (size_t)nq * nq;
-  s.Y = s.G + (size_t)nt * nq;
-  s.G_spare = s.Y + (size_t)nt * nq;
-  s.S = s.G_spare + (size_t)nt * nq;
-  s.phi = s.S + (size_t)nt * nt;
+  s.G_spare = s.G + (size_t)nt * nq;
+  s.phi = s.G_spare + (size_t)nt * nq;
   s.phi_t = s.phi + nt;
   s.r = s.phi_t + nt;
   s.mu = s.r + nt;
-  s.vb = s.mu + nt;
-  s.vgamma = s.vb + c->m->nvc;
-  s.dq = s.vgamma + c->m->nvc;
+  s.gamma = s.mu + nt;
+  s.vb = s.gamma + nt;
+  s.dq = s.vb + nt;
   s.q_old = s.dq + nq;
   s.y = s.q_old + nq;
-  s.x = s.y + nq;
+  s.f = s.y + nq;
+  s.x = s.f + nq;
+  s.solver_work = s.x + c->n;
+  csolve_init(&s.solver, nq, nt, s.solver_work);
   return s;
+}
+
+/* Point the solver at the first `rows` rows: nc for positions, nt for rates
+** and accelerations (the scratch fits the larger). */
+static void solver_rows(Scratch *s, int nq, int rows) {
+  csolve_init(&s->solver, nq, rows, s->solver_work);
 }
 
 /* phi at (t, q); G and phi_t too unless NULL (phi_t is 0 without constraint_at). */
@@ -181,20 +139,36 @@ static void constraints(const SimContext *c, double t, const double *q, double *
   if (phi_t) memset(phi_t, 0, (size_t)m->nc * sizeof(double));
 }
 
-/* The rows that constrain the rates at (t, q, q'): H = [G; A] (nt x nq)
-** and the residual e = [G q' + dphi/dt; A q' - b] (nt); phi (nc) too. */
-static void rate_rows(const SimContext *c, double t, const double *q, const double *qd,
-                      double *H, double *e, double *phi) {
+/* The rows that constrain the rates at (t, q, q'): H = [G; A] (nt x nq),
+** the residual e = [G q' + dphi/dt; A q' - b] (nt), phi (nc) and, in
+** gamma_v (nvc), the velocity constraints' part of the accelerations. */
+static void rate_rows(const SimContext *c, Scratch *s, double t, const double *q,
+                      const double *qd, double *H, double *e, double *gamma_v) {
   const struct eom_model *m = c->m;
   int nq = m->nq, nc = m->nc, nvc = m->nvc;
-  Scratch s = scratch(c);
-  if (nc > 0) constraints(c, t, q, phi, H, s.phi_t);
-  if (nvc > 0) m->velocity_constraint(t, q, qd, c->p, H + (size_t)nc * nq, s.vb, s.vgamma);
+  if (nc > 0) constraints(c, t, q, s->phi, H, s->phi_t);
+  if (nvc > 0) m->velocity_constraint(t, q, qd, c->p, H + (size_t)nc * nq, s->vb, gamma_v);
   for (int k = 0; k < nc + nvc; k++) {
-    double v = k < nc ? s.phi_t[k] : -s.vb[k - nc];
+    double v = k < nc ? s->phi_t[k] : -s->vb[k - nc];
     for (int i = 0; i < nq; i++) v += H[k * nq + i] * qd[i];
     e[k] = v;
   }
+}
+
+/* The metric of a projection's corrections: the mass matrix at q during a
+** run (mass-orthogonal: keeps the branch and adds no energy), the identity
+** for the initial fix (the smallest change of the numbers the user gave,
+** the way a user reads them). */
+typedef enum { METRIC_MASS, METRIC_IDENTITY } Metric;
+
+static void metric_at(const SimContext *c, Metric metric, const double *q, double *W) {
+  int nq = c->m->nq;
+  if (metric == METRIC_MASS) {
+    c->m->mass(q, c->p, W);
+    return;
+  }
+  memset(W, 0, (size_t)nq * nq * sizeof(double));
+  for (int i = 0; i < nq; i++) W[i * nq + i] = 1;
 }
 
 /* During the initial fix a held coordinate does not move: its column of
@@ -209,11 +183,17 @@ static void drop_held_columns(const SimContext *c, int nrows, double *H) {
 }
 
 /* Gauss–Newton on phi(q, t) = 0 from q, then the rates onto
-** G q' + dphi/dt = 0 and A q' = b.
-** Returns EOM_OK, EOM_ENEWTON (no convergence within max_iter) or
-** EOM_ESINGULAR (G loses rank); *res and *worst give max|phi| and the
-** equation where it is largest. */
-static int project(SimContext *c, double t, double *x, int max_iter, double *res, int *worst) {
+** G q' + dphi/dt = 0 and A q' = b; both corrections are minimum-norm in the
+** metric (constraint_solve.c), so rows that are dependent here (a singular
+** position, redundant joints) neither stop the run nor throw it onto
+** another assembly branch.  The metric stays at its value at the starting
+** point (a simplified Newton method): it only picks the direction.
+** Returns EOM_OK, EOM_ENEWTON (no convergence within max_iter),
+** EOM_ESINGULAR (no convergence where rows of G are dependent) or
+** EOM_EMASS; *res and *worst give max|phi| and the equation where it is
+** largest. */
+static int project(SimContext *c, Metric metric, double t, double *x, int max_iter, double *res,
+                   int *worst) {
   const struct eom_model *m = c->m;
   int nq = m->nq, nc = m->nc, nt = m->nc + m->nvc;
   Scratch s = scratch(c);
@@ -224,19 +204,21 @@ static int project(SimContext *c, double t, double *x, int max_iter, double *res
     constraints(c, t, q, s.phi, NULL, NULL);
     r = max_abs(nc, s.phi, worst);
   }
-  int converged = r <= c->cs_tol;
+  int converged = r <= c->cs_tol, rank_lost = 0;
+  metric_at(c, metric, q, s.M);
+  if (nc > 0) solver_rows(&s, nq, nc);
   for (int it = 0; !converged && it < max_iter; it++) {
     if (!isfinite(r)) break;
     constraints(c, t, q, s.phi, s.G, NULL);
     drop_held_columns(c, nc, s.G);
-    if (factor_ggt(nq, nc, s.G, s.S) != 0) {
+    if (csolve_factor(&s.solver, s.M, s.G) != EOM_OK) {
       *res = r;
-      return EOM_ESINGULAR;
+      return EOM_EMASS;
     }
+    rank_lost = s.solver.rank < nc;
     memcpy(s.q_old, q, (size_t)nq * sizeof(double));
     memset(s.dq, 0, (size_t)nq * sizeof(double));
-    memcpy(s.r, s.phi, (size_t)nc * sizeof(double));
-    subtract_min_norm(nq, nc, s.G, s.S, s.r, s.dq); /* dq = -Gᵀ(GGᵀ)⁻¹phi */
+    csolve_correct(&s.solver, s.phi, s.mu, s.dq); /* dq = -W⁻¹Gᵀ (G W⁻¹ Gᵀ)⁺ phi */
     /* Halve the step while it makes things worse (a far initial guess). */
     double step = 1, r_new = INFINITY;
     for (int half = 0; half < 30; half++, step /= 2) {
@@ -263,23 +245,29 @@ static int project(SimContext *c, double t, double *x, int max_iter, double *res
     }
   }
   *res = r;
-  if (!converged) return EOM_ENEWTON;
-  /* Rates: the minimum-norm change that makes phi' = G q' + dphi/dt = 0
-  ** and A q' = b (A, b do not depend on q', so one step is exact). */
-  rate_rows(c, t, q, qd, s.G, s.r, s.phi);
+  if (!converged) return rank_lost ? EOM_ESINGULAR : EOM_ENEWTON;
+  /* Rates: the smallest change (in the metric) that makes
+  ** phi' = G q' + dphi/dt = 0 and A q' = b (A, b do not depend on q', so
+  ** one step is exact). */
+  rate_rows(c, &s, t, q, qd, s.G, s.r, s.gamma);
   drop_held_columns(c, nt, s.G);
-  if (factor_ggt(nq, nt, s.G, s.S) != 0) return EOM_ESINGULAR;
-  subtract_min_norm(nq, nt, s.G, s.S, s.r, qd);
+  metric_at(c, metric, q, s.M);
+  solver_rows(&s, nq, nt);
+  if (csolve_factor(&s.solver, s.M, s.G) != EOM_OK) return EOM_EMASS;
+  csolve_correct(&s.solver, s.r, s.mu, qd);
   return EOM_OK;
 }
 
-int stabilize_project(SimContext *c, double t, double *x, int max_iter, const char *when) {
+/* project() with its failure reported through sim_fail; x is left as it was
+** when the projection fails. */
+static int project_or_fail(SimContext *c, Metric metric, double t, double *x, int max_iter,
+                           const char *when) {
   if (!c->cs_active) return EOM_OK;
   Scratch s = scratch(c);
   int n = c->n, worst = 0;
   double res = 0;
   memcpy(s.x, x, (size_t)n * sizeof(double));
-  int st = project(c, t, x, max_iter, &res, &worst);
+  int st = project(c, metric, t, x, max_iter, &res, &worst);
   if (st == EOM_OK) return EOM_OK;
   memcpy(x, s.x, (size_t)n * sizeof(double));
   char what[256];
@@ -288,10 +276,12 @@ int stabilize_project(SimContext *c, double t, double *x, int max_iter, const ch
              "%s: with the held coordinates fixed the constraints leave the others no way "
              "to satisfy them (max|phi| = %.3g); hold fewer coordinates",
              when, res);
+  else if (st == EOM_EMASS)
+    snprintf(what, sizeof what, "%s: the mass matrix is not positive definite", when);
   else if (st == EOM_ESINGULAR)
     snprintf(what, sizeof what,
-             "%s: the constraints are dependent here (G = dphi/dq loses rank; max|phi| = %.3g)",
-             when, res);
+             "%s: the constraints are dependent here (G = dphi/dq loses rank) and do not hold "
+             "(max|phi| = %.3g, largest in constraint equation %d)", when, res, worst + 1);
   else
     snprintf(what, sizeof what,
              "%s: Gauss-Newton did not bring the coordinates onto the constraints in %d "
@@ -300,48 +290,65 @@ int stabilize_project(SimContext *c, double t, double *x, int max_iter, const ch
   return sim_fail(c, st, t, x, what);
 }
 
+int stabilize_project(SimContext *c, double t, double *x, int max_iter, const char *when) {
+  return project_or_fail(c, METRIC_MASS, t, x, max_iter, when);
+}
+
+int stabilize_initial_fix(SimContext *c, double t, double *x) {
+  return project_or_fail(c, METRIC_IDENTITY, t, x, 50,
+                         "the initial state is not on the constraints and cannot be put there");
+}
+
 int stabilize_sample(SimContext *c, double t, const double *x, double *out) {
   int worst;
   double res;
   memcpy(out, x, (size_t)c->n * sizeof(double));
   if (!c->cs_active || !c->cs_project) return 0;
-  if (project(c, t, out, 10, &res, &worst) != EOM_OK) {
+  if (project(c, METRIC_MASS, t, out, 10, &res, &worst) != EOM_OK) {
     memcpy(out, x, (size_t)c->n * sizeof(double));
     return -1;
   }
   return 0;
 }
 
-int stabilize_baumgarte(SimContext *c, double t, const double *x, double *qdd) {
+/* delta = -2 alpha e - beta² phi into s->mu (nt): e = phi' = G q' + dphi/dt
+** for a position constraint, e = A q' - b (first order only) for a
+** velocity constraint; [G; A] of state x is left in s->G and the velocity
+** constraints' gamma in s->gamma + nc. */
+static void baumgarte_term(SimContext *c, Scratch *s, double t, const double *x) {
   const struct eom_model *m = c->m;
-  int nq = m->nq, nc = m->nc + m->nvc;
-  if (!c->cs_active || (c->cs_alpha == 0 && c->cs_beta == 0)) return EOM_OK;
+  int nq = m->nq, nc = m->nc, nt = m->nc + m->nvc;
+  rate_rows(c, s, t, x, x + nq, s->G, s->mu, s->gamma + nc);
+  for (int k = 0; k < nt; k++)
+    s->mu[k] = -2 * c->cs_alpha * s->mu[k] - (k < nc ? c->cs_beta * c->cs_beta * s->phi[k] : 0);
+}
+
+int stabilize_accel(SimContext *c, double t, const double *x, const double *u, double *qdd) {
+  const struct eom_model *m = c->m;
+  int nq = m->nq, nc = m->nc, nt = m->nc + m->nvc;
+  assert(c->cs_active && (nc == 0 || m->constraint_gamma));
   Scratch s = scratch(c);
   const double *q = x, *qd = x + nq;
-  rate_rows(c, t, q, qd, s.G, s.mu, s.phi);
-  /* delta = -2 alpha phi' - beta² phi with phi' = G q' + dphi/dt; for a
-  ** velocity constraint -2 alpha (A q' - b) */
-  for (int k = 0; k < nc; k++)
-    s.mu[k] = -2 * c->cs_alpha * s.mu[k] - (k < m->nc ? c->cs_beta * c->cs_beta * s.phi[k] : 0);
+  baumgarte_term(c, &s, t, x);
+  if (nc > 0) m->constraint_gamma(t, q, qd, c->p, s.gamma);
+  for (int k = 0; k < nt; k++) s.gamma[k] += s.mu[k];
   m->mass(q, c->p, s.M);
-  if (cholesky(nq, s.M) != 0)
+  m->forcing(t, q, qd, u, c->p, s.f);
+  if (csolve_accel(&s.solver, s.M, s.G, s.f, s.gamma, qdd, c->lambda) != EOM_OK)
     return sim_fail(c, EOM_EMASS, t, x, "the mass matrix is not positive definite");
-  for (int k = 0; k < nc; k++) { /* row k of Yᵀ = M⁻¹ (row k of G) */
-    memcpy(s.Y + (size_t)k * nq, s.G + (size_t)k * nq, (size_t)nq * sizeof(double));
-    cholesky_solve(nq, s.M, s.Y + (size_t)k * nq);
-  }
-  for (int a = 0; a < nc; a++)
-    for (int b = 0; b <= a; b++) {
-      double v = 0;
-      for (int i = 0; i < nq; i++) v += s.G[a * nq + i] * s.Y[b * nq + i];
-      s.S[a * nc + b] = s.S[b * nc + a] = v;
-    }
-  if (cholesky(nc, s.S) != 0)
-    return sim_fail(c, EOM_ESINGULAR, t, x,
-                    "the constraints are dependent here (G M^-1 G^T is singular)");
-  cholesky_solve(nc, s.S, s.mu);
-  for (int i = 0; i < nq; i++)
-    for (int k = 0; k < nc; k++) qdd[i] += s.Y[k * nq + i] * s.mu[k];
-  for (int k = 0; k < nc; k++) c->lambda[k] += s.mu[k];
+  return EOM_OK;
+}
+
+int stabilize_baumgarte(SimContext *c, double t, const double *x, double *qdd) {
+  int nt = c->m->nc + c->m->nvc;
+  if (!c->cs_active || (c->cs_alpha == 0 && c->cs_beta == 0)) return EOM_OK;
+  Scratch s = scratch(c);
+  baumgarte_term(c, &s, t, x);
+  metric_at(c, METRIC_MASS, x, s.M);
+  if (csolve_factor(&s.solver, s.M, s.G) != EOM_OK)
+    return sim_fail(c, EOM_EMASS, t, x, "the mass matrix is not positive definite");
+  csolve_pinv(&s.solver, s.mu, s.r);
+  csolve_add_reaction(&s.solver, s.r, 1.0, qdd);
+  for (int k = 0; k < nt; k++) c->lambda[k] += s.r[k];
   return EOM_OK;
 }

@@ -13,6 +13,7 @@
 #include "eom/runtime.h"
 #include "cli/modal.h"
 #include "handmodels.h"
+#include "../runtime/integrators.h" /* the rank-revealing constrained solve */
 
 #ifdef HAVE_GSL
 #include <gsl/gsl_sf_ellint.h>
@@ -1070,6 +1071,79 @@ START_TEST(linearize_moving_state) {
 }
 END_TEST
 
+/* ---------------------------------------------------- rank-revealing solve */
+
+/* LAPACK's minimum-norm least squares by SVD (the reference). */
+extern void dgelss_(const int *m, const int *n, const int *nrhs, double *a, const int *lda,
+                    double *b, const int *ldb, double *s, const double *rcond, int *rank,
+                    double *work, const int *lwork, int *info);
+
+/* M qdd = f + Gᵀλ, G qdd = gamma with a redundant row (row 3 = row 1 + row
+** 2, gamma likewise): the solve satisfies both equations, and λ is the
+** minimum-norm solution of (G M⁻¹ Gᵀ) λ = gamma - G M⁻¹ f, which LAPACK's
+** dgelss computes independently (Anderson et al., LAPACK Users' Guide, 3rd
+** ed., 1999, §2.4.2.1: minimum-norm least squares by the SVD). */
+START_TEST(constraint_solve_redundant_rows) {
+  enum { NQ = 4, NC = 3 };
+  const double A[NQ][NQ] = {{2, 0.3, 0, 0.1}, {0.5, 1.5, 0.2, 0}, {0, 0.1, 3, 0.4}, {0.2, 0, 0, 1}};
+  double M[NQ * NQ], G[NC * NQ] = {1, 2, 0, -1, 0, 1, 1, 0.5, 0, 0, 0, 0};
+  const double f[NQ] = {0.3, -1.2, 0.7, 2.0};
+  double gamma[NC] = {0.4, -0.9, 0};
+  for (int i = 0; i < NQ; i++) /* M = A Aᵀ: symmetric positive definite */
+    for (int j = 0; j < NQ; j++) {
+      double v = 0;
+      for (int k = 0; k < NQ; k++) v += A[i][k] * A[j][k];
+      M[i * NQ + j] = v;
+    }
+  for (int i = 0; i < NQ; i++) G[2 * NQ + i] = G[i] + G[NQ + i];
+  gamma[2] = gamma[0] + gamma[1];
+  double *work = malloc(csolve_doubles(NQ, NC) * sizeof(double));
+  ConstraintSolver cs;
+  csolve_init(&cs, NQ, NC, work);
+  double qdd[NQ], lambda[NC];
+  ck_assert_int_eq(csolve_accel(&cs, M, G, f, gamma, qdd, lambda), EOM_OK);
+  ck_assert_int_eq(cs.rank, 2);
+  for (int k = 0; k < NC; k++) {
+    double v = 0;
+    for (int i = 0; i < NQ; i++) v += G[k * NQ + i] * qdd[i];
+    ck_assert_msg(fabs(v - gamma[k]) < 1e-12, "row %d: G qdd %.15g, gamma %.15g", k, v, gamma[k]);
+  }
+  for (int i = 0; i < NQ; i++) {
+    double v = -f[i];
+    for (int j = 0; j < NQ; j++) v += M[i * NQ + j] * qdd[j];
+    for (int k = 0; k < NC; k++) v -= G[k * NQ + i] * lambda[k];
+    ck_assert_msg(fabs(v) < 1e-12, "equation %d: residual %.3g", i, v);
+  }
+  /* The reference: S λ = r by dgelss, S and r built here with M⁻¹ from the
+  ** solver's own mass solve only (checked above). */
+  double Minv_G[NC][NQ], Minv_f[NQ], S[NC * NC], r[NC];
+  memcpy(Minv_f, f, sizeof Minv_f);
+  csolve_mass_solve(&cs, Minv_f);
+  for (int k = 0; k < NC; k++) {
+    memcpy(Minv_G[k], G + k * NQ, sizeof Minv_G[k]);
+    csolve_mass_solve(&cs, Minv_G[k]);
+  }
+  for (int a = 0; a < NC; a++) {
+    r[a] = gamma[a];
+    for (int i = 0; i < NQ; i++) r[a] -= G[a * NQ + i] * Minv_f[i];
+    for (int b = 0; b < NC; b++) { /* column-major for LAPACK; S is symmetric */
+      double v = 0;
+      for (int i = 0; i < NQ; i++) v += G[a * NQ + i] * Minv_G[b][i];
+      S[b * NC + a] = v;
+    }
+  }
+  int m = NC, n = NC, nrhs = 1, rank = 0, info = 0, lwork = 64;
+  double sv[NC], wk[64], rcond = 1e-10;
+  dgelss_(&m, &n, &nrhs, S, &m, r, &m, sv, &rcond, &rank, wk, &lwork, &info);
+  ck_assert_int_eq(info, 0);
+  ck_assert_int_eq(rank, 2);
+  for (int k = 0; k < NC; k++)
+    ck_assert_msg(fabs(lambda[k] - r[k]) < 1e-10, "lambda %d: %.15g, LAPACK %.15g", k, lambda[k],
+                  r[k]);
+  free(work);
+}
+END_TEST
+
 #ifdef HAVE_GSL
 /* The checks against GSL, run by tests/gsl.test (`test_runtime gsl`). */
 static Suite *gsl_suite(void) {
@@ -1112,6 +1186,7 @@ static Suite *runtime_suite(void) {
   TCase *tm = tcase_create("modes");
   tcase_set_timeout(tm, 60);
   tcase_add_test(tm, equilibrium_with_input);
+  tcase_add_test(tm, constraint_solve_redundant_rows);
   tcase_add_test(tm, equilibrium_pendulum_torque);
   tcase_add_test(tm, modes_two_masses_three_springs);
   tcase_add_test(tm, modes_double_pendulum);

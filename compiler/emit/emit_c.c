@@ -1216,6 +1216,27 @@ static void emit_constraint_at(Emitter *E) {
   fputs("}\n\n", E->out);
 }
 
+/* gamma of the acceleration constraint G qdd = gamma (phi'' = 0), alone: the
+** runtime solves the constrained accelerations itself where G may lose rank
+** (a linkage at a singular position, redundant constraints). */
+static void emit_constraint_gamma(Emitter *E) {
+  const Param ps[] = {P_T, P_Q, P_QD, P_P, {-1, "double *gamma", "gamma"}};
+  const EomSystem *s = E->s;
+  char lhs[64];
+  fn_reset(E);
+  add_roots(E, s->constraint_gamma, s->nc);
+  fn_analyse(E);
+  assert(!needs_missing(E, VAR_BIT(IRV_T) | VAR_BIT(IRV_Q) | VAR_BIT(IRV_QD) | VAR_BIT(IRV_P)));
+  emit_signature(E, "void", "constraint_gamma", ps, NPARAMS(ps), 0);
+  emit_unused(E, ps, NPARAMS(ps));
+  emit_temps(E);
+  for (int i = 0; i < s->nc; i++) {
+    snprintf(lhs, sizeof lhs, "gamma[%d]", i);
+    emit_assign(E, lhs, s->constraint_gamma[i]);
+  }
+  fputs("}\n\n", E->out);
+}
+
 /* Velocity constraints A(t, q) qd = b(t, q) and gamma(t, q, qd) with
 ** A qdd = gamma (their time derivative): one function, the three share
 ** most terms. */
@@ -1513,6 +1534,12 @@ static void emit_header(Emitter *E) {
       "/* With velocity constraints too, accel_constrained stacks [G; A]: lambda\n"
       "** has NC + NVC entries, the velocity constraints' after the NC, and the\n"
       "** generalized constraint force is +[G; A]^T lambda. */\n");
+  if (s->nc)
+    fprintf(o,
+      "/* gamma of G qdd = gamma alone (position constraints), for solvers of\n"
+      "** their own. */\n"
+      "void %s_constraint_gamma(double t, const double *q, const double *qd, const double *p,\n"
+      "  double *gamma);\n", P);
   if (s->ns)
     fprintf(o,
       "/* The %d switching functions (P_switch_names): where one changes sign, a\n"
@@ -1744,6 +1771,8 @@ static void emit_descriptor(Emitter *E) {
   emit_kinematics_fields(o, s, P);
   if (s->nvc) fprintf(o, "  %d, %s_velocity_constraint,\n", s->nvc, P);
   else fputs("  0, 0,\n", o);
+  if (s->nc) fprintf(o, "  %s_constraint_gamma,\n", P);
+  else fputs("  0,\n", o);
   if (s->ns) fprintf(o, "  %d, %s_switches, %s_switch_names,\n", s->ns, P, P);
   else fputs("  0, 0, 0,\n", o);
   fprintf(o, "};\n#endif\n");
@@ -1774,6 +1803,7 @@ static void emit_source(Emitter *E) {
   }
   if (E->s->nvc) emit_velocity_constraint(E);
   if (E->s->nc + E->s->nvc) emit_accel_constrained(E);
+  if (E->s->nc) emit_constraint_gamma(E);
   PlainFunction fns[EMIT_CONTROL_MAX_FUNCTIONS];
   int nfns = emit_control_functions(E->s, fns);
   for (int k = 0; k < nfns; k++)

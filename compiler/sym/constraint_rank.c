@@ -5,8 +5,10 @@
 ** The rows of G are taken in source order through modified Gram–Schmidt.
 ** A row whose part outside the span of the rows before it is at rounding
 ** level is dependent: the constraint adds nothing new to first order (it
-** repeats others: redundant) or contradicts them (conflicting).  Either way
-** the multipliers are not unique and the saddle-point system is singular.
+** repeats others: redundant) or contradicts them (conflicting).  A
+** redundant row is kept with a note (the runtime's rank-revealing solve
+** splits the force by minimum norm; the multipliers are not unique); a
+** conflicting one is an error.
 ** Each orthonormal basis vector also keeps its coefficients in terms of the
 ** original rows, so a dependent row is written as a combination of the
 ** earlier rows and the message names exactly the ones that take part.
@@ -207,6 +209,8 @@ int constraint_rank_check(const Model *m, const EomSystem *s, Diag *d) {
     if (s->constraint[k] > hi) hi = s->constraint[k];
   for (size_t i = 0; i < (size_t)nvc * nq; i++)
     if (s->vconstraint_A[i] > hi) hi = s->vconstraint_A[i];
+  for (int k = 0; k < nvc; k++)
+    if (s->vconstraint_b[k] > hi) hi = s->vconstraint_b[k];
   v = calloc((size_t)hi + 1, sizeof(double));
   if (!G || !basis || !coef || !comb || !r || !params || !zeros || !of || !lines || !v || !q ||
       !q_old || !phi || !w || !A) {
@@ -241,6 +245,13 @@ int constraint_rank_check(const Model *m, const EomSystem *s, Diag *d) {
   int moved = memcmp(q, m->q0, (size_t)nq * sizeof(double)) != 0;
   const char *where = moved ? "at the initial state moved onto the constraints"
                              : "at the initial state";
+  /* Dependent rows are redundant when the constraints hold at the point
+  ** reached (to rounding on the scale of the coordinates), conflicting when
+  ** even the least-squares point leaves a residual. */
+  double residual = max_norm(nc, phi), qscale = 1, gscale = 0;
+  for (int i = 0; i < nq; i++) qscale = fmax(qscale, fabs(q[i]));
+  for (size_t i = 0; i < nqc; i++) gscale = fmax(gscale, fabs(G[i]));
+  int consistent = residual <= 1e-9 * qscale * fmax(gscale, 1e-300);
   int nb = 0;
   for (int k = 0; k < nc; k++) {
     const double *row = G + (size_t)k * nq;
@@ -293,18 +304,49 @@ int constraint_rank_check(const Model *m, const EomSystem *s, Diag *d) {
       if (!seen) lines[nlines++] = line;
     }
     list_lines(lines, nlines, which, sizeof which);
-    if (nlines == 1 && lines[0] == st->loc.line)
-      diag_error(d, st->loc,
-                 "the equations of this constraint are dependent %s (%s): redundant or "
-                 "conflicting constraints (the constraint Jacobian %s loses rank)",
-                 where, state, nvc ? "[dphi/dq; A]" : "dphi/dq");
+    int alone = nlines == 1 && lines[0] == st->loc.line;
+    /* A velocity row is consistent when its right side b is the same
+    ** combination of the others' (a position row's is 0 here: time-free
+    ** at t = 0 up to dphi/dt, which a redundant time-free row lacks). */
+    double rhs_gap = 0, rhs_scale = 0;
+    for (int j = 0; j <= k; j++) {
+      double bj = j < np ? 0 : v[s->vconstraint_b[j - np]];
+      rhs_gap += (j == k ? bj : -comb[j] * bj);
+      rhs_scale = fmax(rhs_scale, fabs(bj));
+    }
+    if (consistent && fabs(rhs_gap) <= 1e-9 * fmax(rhs_scale, 1e-300) + 1e-300) {
+      /* Redundant: the same motion with or without this row; the run keeps
+      ** it and splits the constraint force by minimum norm. */
+      if (alone)
+        diag_note(d, st->loc,
+                  "the equations of this constraint are dependent %s (%s) but consistent: "
+                  "redundant; their multipliers are not unique (runs report the minimum-norm "
+                  "split)", where, state);
+      else
+        diag_note(d, st->loc,
+                  "this constraint depends on the constraint%s at line%s %s %s (%s) but is "
+                  "consistent with them: redundant; the multipliers of these rows are not "
+                  "unique (runs report the minimum-norm split)",
+                  nlines == 1 ? "" : "s", nlines == 1 ? "" : "s", which, where, state);
+      continue;
+    }
+    /* What cannot hold: positions (max|phi|) or, for a velocity row, the
+    ** rates (its right side against the others' combination). */
+    char what[96];
+    if (k < np)
+      snprintf(what, sizeof what, "no configuration near it satisfies them all (max|phi| = %.3g)",
+               residual);
+    else
+      snprintf(what, sizeof what, "no rates satisfy them all (the right sides differ by %.3g)",
+               fabs(rhs_gap));
+    if (alone)
+      diag_error(d, st->loc, "the equations of this constraint are dependent %s (%s) and conflict: %s",
+                 where, state, what);
     else
       diag_error(d, st->loc,
-                 "this constraint depends on the constraint%s at line%s %s %s (%s): redundant "
-                 "or conflicting constraints (the constraint Jacobian %s loses rank); "
-                 "remove one or change the coordinates",
-                 nlines == 1 ? "" : "s", nlines == 1 ? "" : "s", which, where, state,
-                 nvc ? "[dphi/dq; A]" : "dphi/dq");
+                 "this constraint conflicts with the constraint%s at line%s %s: its gradient "
+                 "depends on theirs %s (%s) but %s; remove one or change the coordinates",
+                 nlines == 1 ? "" : "s", nlines == 1 ? "" : "s", which, where, state, what);
     errors++;
   }
 out:

@@ -15,7 +15,7 @@ extern "C" {
 #endif
 
 /* Bumped whenever the layout of struct eom_model changes. */
-#define EOM_MODEL_ABI 6
+#define EOM_MODEL_ABI 7
 
 struct eom_model {
   int abi;                          /* EOM_MODEL_ABI of the generating eomc */
@@ -101,8 +101,13 @@ struct eom_model {
   int nvc;
   void (*velocity_constraint)(double t, const double *q, const double *qd, const double *p,
                               double *A, double *b, double *gamma);
+  /* Since ABI 6: gamma of the acceleration constraint G qdd = gamma (nc),
+  ** so the runtime can solve M qdd = f + Gᵀλ itself where G loses rank.
+  ** NULL when nc == 0 (and in hand-written descriptors without it). */
+  void (*constraint_gamma)(double t, const double *q, const double *qd, const double *p,
+                           double *gamma);
 
-  /* Since ABI 6: the ns switching functions s(t, q, qd, u, p); where one
+  /* Since ABI 7: the ns switching functions s(t, q, qd, u, p); where one
   ** changes sign a non-smooth term (min, max, sign, step, clamp, abs)
   ** changes branch.  switch_names[k] is "LINE:COL FUNCTION" of its call
   ** ("... lower"/"... upper" for a clamp's bounds).  0 and NULL when the

@@ -406,6 +406,7 @@ const struct eom_model arm2_body_model = {
   arm2_body_output_kinematic, arm2_body_output_jacobian, arm2_body_output_bias,
   0, 0, 0, 0,
   0, 0,
+  0,
   0, 0, 0,
 };
 #endif

@@ -413,6 +413,7 @@ const struct eom_model arm2_scalar_model = {
   arm2_scalar_output_kinematic, arm2_scalar_output_jacobian, arm2_scalar_output_bias,
   0, 0, 0, 0,
   0, 0,
+  0,
   0, 0, 0,
 };
 #endif

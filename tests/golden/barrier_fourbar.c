@@ -340,6 +340,16 @@ int barrier_fourbar_accel_constrained(double t, const double *q, const double *q
   return 0;
 }
 
+void barrier_fourbar_constraint_gamma(double t, const double *q, const double *qd, const double *p, double *gamma)
+{
+  (void)t;
+  const double w0 = qd[1]*qd[1];
+  const double w1 = qd[0]*qd[0];
+  const double w2 = qd[2]*qd[2];
+  gamma[0] = cos(q[1])*p[2]*w0 + w1*cos(q[0])*p[1] - w2*cos(q[2])*p[3];
+  gamma[1] = -(w2*sin(q[2])*p[3] - p[2]*sin(q[1])*w0 - w1*sin(q[0])*p[1]);
+}
+
 void barrier_fourbar_coriolis(const double *q, const double *qd, const double *p, double *C)
 {
   const double w0 = cos(q[1])*sin(q[0]) - cos(q[0])*sin(q[1]);
@@ -541,6 +551,7 @@ const struct eom_model barrier_fourbar_model = {
   barrier_fourbar_output_kinematic, barrier_fourbar_output_jacobian, barrier_fourbar_output_bias,
   0, 0, 0, 0,
   0, 0,
+  barrier_fourbar_constraint_gamma,
   0, 0, 0,
 };
 #endif

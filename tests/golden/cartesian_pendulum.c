@@ -194,6 +194,14 @@ int cartesian_pendulum_accel_constrained(double t, const double *q, const double
   return 0;
 }
 
+void cartesian_pendulum_constraint_gamma(double t, const double *q, const double *qd, const double *p, double *gamma)
+{
+  (void)t;
+  (void)q;
+  (void)p;
+  gamma[0] = -2.0*(qd[0]*qd[0] + qd[1]*qd[1]);
+}
+
 void cartesian_pendulum_coriolis(const double *q, const double *qd, const double *p, double *C)
 {
   (void)q;
@@ -329,6 +337,7 @@ const struct eom_model cartesian_pendulum_model = {
   cartesian_pendulum_output_kinematic, cartesian_pendulum_output_jacobian, cartesian_pendulum_output_bias,
   0, 0, 0, 0,
   0, 0,
+  cartesian_pendulum_constraint_gamma,
   0, 0, 0,
 };
 #endif

@@ -79,6 +79,10 @@ void cartesian_pendulum_constraint_at(double t, const double *q, const double *p
 ** is not positive definite (dependent constraints: G loses rank). */
 int cartesian_pendulum_accel_constrained(double t, const double *q, const double *qd, const double *u,
   const double *p, double *qdd, double *lambda);
+/* gamma of G qdd = gamma alone (position constraints), for solvers of
+** their own. */
+void cartesian_pendulum_constraint_gamma(double t, const double *q, const double *qd, const double *p,
+  double *gamma);
 
 /* M qdd + C qd + g = Q - dD/dqd, Q the generalized forces of the force and
 ** torque statements (inputs included), D the dissipation function (with

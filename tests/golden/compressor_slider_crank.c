@@ -328,6 +328,15 @@ int compressor_slider_crank_accel_constrained(double t, const double *q, const d
   return 0;
 }
 
+void compressor_slider_crank_constraint_gamma(double t, const double *q, const double *qd, const double *p, double *gamma)
+{
+  (void)t;
+  const double w0 = qd[1]*qd[1];
+  const double w1 = qd[0]*qd[0];
+  gamma[0] = cos(q[1])*p[1]*w0 + w1*cos(q[0])*p[0];
+  gamma[1] = w1*sin(q[0])*p[0] - p[1]*sin(q[1])*w0;
+}
+
 void compressor_slider_crank_coriolis(const double *q, const double *qd, const double *p, double *C)
 {
   const double w0 = cos(q[1])*sin(q[0]) + cos(q[0])*sin(q[1]);
@@ -503,6 +512,7 @@ const struct eom_model compressor_slider_crank_model = {
   compressor_slider_crank_output_kinematic, compressor_slider_crank_output_jacobian, compressor_slider_crank_output_bias,
   0, 0, 0, 0,
   0, 0,
+  compressor_slider_crank_constraint_gamma,
   0, 0, 0,
 };
 #endif

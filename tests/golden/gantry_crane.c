@@ -305,6 +305,7 @@ const struct eom_model gantry_crane_model = {
   gantry_crane_output_kinematic, gantry_crane_output_jacobian, gantry_crane_output_bias,
   0, 0, 0, 0,
   0, 0,
+  0,
   0, 0, 0,
 };
 #endif

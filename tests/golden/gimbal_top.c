@@ -461,6 +461,7 @@ const struct eom_model gimbal_top_model = {
   gimbal_top_output_kinematic, gimbal_top_output_jacobian, gimbal_top_output_bias,
   0, 0, 0, 0,
   0, 0,
+  0,
   0, 0, 0,
 };
 #endif

@@ -361,6 +361,7 @@ const struct eom_model lighting_boom_model = {
   lighting_boom_output_kinematic, lighting_boom_output_jacobian, lighting_boom_output_bias,
   0, 0, 0, 0,
   0, 0,
+  0,
   0, 0, 0,
 };
 #endif

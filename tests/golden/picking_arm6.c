@@ -3521,6 +3521,7 @@ const struct eom_model picking_arm6_model = {
   picking_arm6_output_kinematic, picking_arm6_output_jacobian, picking_arm6_output_bias,
   1, picking_arm6_frame_names, picking_arm6_frame_outputs, picking_arm6_frame_functions,
   0, 0,
+  0,
   0, 0, 0,
 };
 #endif

@@ -846,6 +846,7 @@ const struct eom_model rolling_coin_model = {
   rolling_coin_output_kinematic, rolling_coin_output_jacobian, rolling_coin_output_bias,
   0, 0, 0, 0,
   2, rolling_coin_velocity_constraint,
+  0,
   0, 0, 0,
 };
 #endif

@@ -246,6 +246,7 @@ const struct eom_model seat_rig_model = {
   seat_rig_output_kinematic, seat_rig_output_jacobian, seat_rig_output_bias,
   0, 0, 0, 0,
   0, 0,
+  0,
   0, 0, 0,
 };
 #endif

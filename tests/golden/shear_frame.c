@@ -387,6 +387,7 @@ const struct eom_model shear_frame_model = {
   shear_frame_output_kinematic, shear_frame_output_jacobian, shear_frame_output_bias,
   0, 0, 0, 0,
   0, 0,
+  0,
   0, 0, 0,
 };
 #endif

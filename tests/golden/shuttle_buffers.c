@@ -280,6 +280,7 @@ const struct eom_model shuttle_buffers_model = {
   0, 0, 0,
   0, 0, 0, 0,
   0, 0,
+  0,
   5, shuttle_buffers_switches, shuttle_buffers_switch_names,
 };
 #endif

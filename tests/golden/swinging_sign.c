@@ -337,6 +337,7 @@ const struct eom_model swinging_sign_model = {
   swinging_sign_output_kinematic, swinging_sign_output_jacobian, swinging_sign_output_bias,
   0, 0, 0, 0,
   0, 0,
+  0,
   0, 0, 0,
 };
 #endif

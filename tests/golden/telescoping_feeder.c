@@ -337,6 +337,7 @@ const struct eom_model telescoping_feeder_model = {
   telescoping_feeder_output_kinematic, telescoping_feeder_output_jacobian, telescoping_feeder_output_bias,
   0, 0, 0, 0,
   0, 0,
+  0,
   0, 0, 0,
 };
 #endif

@@ -362,6 +362,7 @@ const struct eom_model trolley_castor_model = {
   trolley_castor_output_kinematic, trolley_castor_output_jacobian, trolley_castor_output_bias,
   0, 0, 0, 0,
   1, trolley_castor_velocity_constraint,
+  0,
   0, 0, 0,
 };
 #endif
