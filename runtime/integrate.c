@@ -234,6 +234,100 @@ done:
   return st;
 }
 
+/* ------------------------------------------- fixed steps, rows between */
+
+/* The cubic Hermite interpolant through (x0, f0) at theta = 0 and (x1, f1)
+** at theta = 1 over a step of h, at theta in [0, 1]: third-order accurate
+** (Hairer, Nørsett & Wanner, Solving ODEs I, 1993, §II.6, eq. 6.7; from
+** memory). */
+static void hermite(int n, double h, double theta, const double *x0, const double *f0,
+                    const double *x1, const double *f1, double *out) {
+  double t2 = theta * theta, t3 = t2 * theta;
+  double h00 = 2 * t3 - 3 * t2 + 1, h10 = t3 - 2 * t2 + theta;
+  double h01 = -2 * t3 + 3 * t2, h11 = t3 - t2;
+  for (int i = 0; i < n; i++)
+    out[i] = h00 * x0[i] + h10 * h * f0[i] + h01 * x1[i] + h11 * h * f1[i];
+}
+
+typedef struct StepBuffers {
+  double *work, *backup, *before, *f0, *f1, *sample;
+} StepBuffers;
+
+/* The samples at or before the end of the step [t, t1] that just went from
+** `before` to x: interpolated inside the step, x itself at its end.
+** *have_f0 says f0 already holds the rates at (t, before). */
+static int emit_in_step(SimContext *c, Sampler *s, double t, double t1, const double *x,
+                        StepBuffers *b, int *have_f0) {
+  int n = c->n, st;
+  double h = t1 - t, ts = sampler_next(s), slack = 1e-9 * h;
+  if (s->every_step) return sampler_emit(c, s, t1, x);
+  if (ts < t1 - slack) {
+    if (!*have_f0 && (st = sim_rhs(c, t, b->before, b->f0))) return st;
+    if ((st = sim_rhs(c, t1, x, b->f1))) return st;
+    for (; ts < t1 - slack; ts = sampler_next(s)) {
+      hermite(n, h, (ts - t) / h, b->before, b->f0, x, b->f1, b->sample);
+      if ((st = sampler_emit(c, s, ts, b->sample))) return st;
+    }
+    memcpy(b->f0, b->f1, (size_t)n * sizeof(double)); /* the next step's start */
+    *have_f0 = 1;
+  } else {
+    *have_f0 = 0;
+  }
+  for (; ts <= t1 + slack; ts = sampler_next(s))
+    if ((st = sampler_emit(c, s, ts, x))) return st;
+  return EOM_OK;
+}
+
+/* Steps of exactly o->step counted in integers (t = t0 + i h, so no sliver
+** steps), whatever the sample spacing. */
+static int fixed_run_keep_step(SimContext *c, const Method *m, const struct eom_sim_options *o,
+                               Sampler *s, double *x) {
+  int n = c->n, st = EOM_OK, have_f0 = 0;
+  double t0 = o->t0, t_end = o->t_end, h = o->step, span = t_end - t0;
+  double hmin = o->h_min > 0 ? o->h_min : 1e-12 * fmax(span, fabs(t_end));
+  long nsteps = (long)ceil(span / h - 1e-9);
+  struct eom_report *rep = c->rep;
+  StepBuffers b;
+  size_t sz = (size_t)n * sizeof(double);
+  if (nsteps < 1) nsteps = 1;
+  b.work = malloc(m->work(n) * sizeof(double));
+  b.backup = malloc(5 * sz);
+  if (!b.work || !b.backup) {
+    st = EOM_ENOMEM;
+    goto done;
+  }
+  b.before = b.backup + n, b.f0 = b.before + n, b.f1 = b.f0 + n, b.sample = b.f1 + n;
+  for (long i = 0; i < nsteps; i++) {
+    double t = t0 + (double)i * h, t1 = i + 1 == nsteps ? t_end : t0 + (double)(i + 1) * h;
+    if (o->max_steps > 0 && rep->steps >= o->max_steps) {
+      char what[64];
+      snprintf(what, sizeof what, "more than %ld steps", o->max_steps);
+      st = sim_fail(c, EOM_EMAXSTEPS, t, x, what);
+      goto done;
+    }
+    memcpy(b.before, x, sz);
+    if ((st = guarded_step(c, m, t, t1 - t, hmin, x, b.work, b.backup))) goto restore;
+    if (!all_finite(n, x)) {
+      memcpy(x, b.before, sz);
+      st = sim_fail(c, EOM_ENONFINITE, t, x, "the state became non-finite in the step from here");
+      goto done;
+    }
+    if (c->cs_project &&
+        (st = stabilize_project(c, t1, x, 10, "projecting onto the constraints")))
+      goto restore;
+    c->t_good = t1;
+    rep->steps++;
+    if ((st = emit_in_step(c, s, t, t1, x, &b, &have_f0))) goto done;
+  }
+  goto done;
+restore:
+  memcpy(x, b.before, sz);
+done:
+  free(b.work);
+  free(b.backup);
+  return st;
+}
+
 /* Move the initial state onto the constraints, keeping the held coordinates. */
 static int initial_fix(SimContext *c, double t0, double *x) {
   c->cs_holding = 1;
@@ -288,6 +382,8 @@ int eom_simulate(const struct eom_model *m, const double *p, const eom_inputs *i
     /* fixed_step: exactly o->step, no error control (order studies). */
     if (meth->run && !o->fixed_step)
       st = meth->run(&c, o, &s, x);
+    else if (o->keep_step && o->step > 0)
+      st = fixed_run_keep_step(&c, meth, o, &s, x);
     else
       st = fixed_run(&c, meth, o, &s, x);
   }

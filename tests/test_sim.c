@@ -483,7 +483,7 @@ START_TEST(sim_energy_conserved) {
   static const char *const methods[][2] = {{"dopri", "1e-7"}, {"midpoint", "1e-3"}};
   for (int k = 0; k < 2; k++) {
     char *argv[] = {(char *)eomc(), "sim", model_path("twin_pendulum.eom"), "--set", "a1=1.2",
-                    "--set", "a2=-0.7", "--set", "a2'=1", "--until", "10", "--step", "0.002",
+                    "--set", "a2=-0.7", "--set", "a2'=1", "--until", "10", "--every", "0.002",
                     "--method", (char *)methods[k][0], "--rtol", "1e-11", "--atol", "1e-12",
                     NULL};
     RunResult r = run_argv(argv);

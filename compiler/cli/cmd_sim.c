@@ -34,8 +34,11 @@ static const char sim_usage[] =
   "\n"
   "options:\n"
   "  --until T          end time (default 10); the run starts at t = 0\n"
-  "  --step H           time between CSV rows (default T/1000); for the\n"
-  "                     fixed-step methods also the largest integration step\n"
+  "  --every DT         a row every DT of model time, whatever the method\n"
+  "                     (default T/1000, or H when --step H is longer)\n"
+  "  --step H           the fixed-step methods' step (default DT): steps of\n"
+  "                     exactly H, rows between steps interpolated; radau5's\n"
+  "                     first trial step\n"
   "  --method NAME      rk4, dopri (default; adaptive), radau5 (implicit,\n"
   "                     adaptive, for stiff models) or midpoint (implicit,\n"
   "                     fixed-step, energy-preserving)\n"
@@ -72,7 +75,7 @@ static const char sim_usage[] =
 
 typedef struct SimArgs {
   const char *model, *method, *out, *plot, *inputs;
-  double until, step, rtol, atol;
+  double until, step, every, rtol, atol;
   char **sets;
   int nsets;
   /* constraints */
@@ -125,6 +128,7 @@ static int parse_args(int argc, char **argv, SimArgs *a) {
     const char *arg = argv[i];
     if ((v = option_value(argc, argv, &i, "--until"))) num = &a->until;
     else if ((v = option_value(argc, argv, &i, "--step"))) num = &a->step;
+    else if ((v = option_value(argc, argv, &i, "--every"))) num = &a->every;
     else if ((v = option_value(argc, argv, &i, "--rtol"))) num = &a->rtol;
     else if ((v = option_value(argc, argv, &i, "--atol"))) num = &a->atol;
     else if ((v = option_value(argc, argv, &i, "--method"))) a->method = v;
@@ -169,8 +173,10 @@ static int parse_args(int argc, char **argv, SimArgs *a) {
             eom_method_list());
     return EXIT_USAGE;
   }
-  if (a->step == 0) a->step = a->until / 1000;
   if (a->step > a->until) return usage_error("%s", "--step is longer than --until");
+  if (a->every > a->until) return usage_error("%s", "--every is longer than --until");
+  /* About 1,000 rows unless asked; never more rows than steps by default. */
+  if (a->every == 0) a->every = fmax(a->until / 1000, a->step);
   return 0;
 }
 
@@ -441,8 +447,10 @@ int cmd_sim(int argc, char **argv) {
   o.method = a.method;
   o.t0 = 0;
   o.t_end = a.until;
-  o.sample_dt = a.step;
-  o.step = strcmp(a.method, "dopri") == 0 ? 0 : a.step;
+  o.sample_dt = a.every;
+  /* A step of its own is kept exactly; else steps land on the rows. */
+  o.step = strcmp(a.method, "dopri") == 0 ? 0 : a.step > 0 ? a.step : a.every;
+  o.keep_step = a.step > 0;
   if (a.rtol > 0) o.rtol = a.rtol;
   if (a.atol > 0) o.atol = a.atol;
   if (a.alpha >= 0) o.baumgarte_alpha = a.alpha, o.baumgarte_beta = a.beta;

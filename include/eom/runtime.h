@@ -102,6 +102,9 @@ struct eom_sim_options {
                           term: G q'' = gamma - 2 alpha phi' - beta^2 phi;
                           eom_sim_options_init sets 10 and 10; 0, 0: none */
   double constraint_tol;  /* max|phi| the projections aim for (0: 1e-12) */
+  int keep_step;       /* fixed-step methods: steps of exactly `step` from t0
+                          (the last one shortened to end on t_end), samples
+                          between steps by cubic Hermite interpolation */
   const int *hold;     /* NULL, or nq flags: the initial fix keeps the
                           coordinates flagged 1 (and their rates) at their
                           given values and moves only the others */
