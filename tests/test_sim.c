@@ -867,7 +867,7 @@ static double parcel_x(double t) {
 /* Largest deviation of a run's x column from the closed form; its summary. */
 static double parcel_error(const char *method, const char *rtol, int events, char **summary) {
   char *argv[] = {(char *)eomc(), "sim", model_path("parcel_drop.eom"), "--until", "1.5",
-                  "--step", "0.001", "--method", (char *)method, "--rtol", (char *)rtol,
+                  "--every", "0.001", "--method", (char *)method, "--rtol", (char *)rtol,
                   "--atol", "1e-14", events ? NULL : "--no-events", NULL};
   RunResult r = run_argv(argv);
   ck_assert_msg(r.status == 0, "status %d: %s", r.status, r.err);
@@ -953,7 +953,7 @@ static double coulomb_x(double t, double *t_stop, double *x_stop) {
 
 START_TEST(sim_events_coulomb_turning_points) {
   char *argv[] = {(char *)eomc(), "sim", model_path("coulomb_block.eom"), "--until", "1.15",
-                  "--step", "0.001", "--rtol", "1e-10", "--atol", "1e-14", "--events", NULL};
+                  "--every", "0.001", "--rtol", "1e-10", "--atol", "1e-14", "--events", NULL};
   RunResult r = run_argv(argv);
   ck_assert_msg(r.status == 0, "status %d: %s", r.status, r.err);
   int n;
@@ -979,7 +979,7 @@ START_TEST(sim_events_coulomb_turning_points) {
   ck_assert_msg(fabs(xs - 0.005) < 1e-12 && fabs(ts - 6 * PI / sqrt(250.0)) < 1e-12, "%g %g", xs,
                 ts);
   char *argv2[] = {(char *)eomc(), "sim", model_path("coulomb_block.eom"), "--until", "2",
-                   "--step", "0.001", "--method", "radau5", "--rtol", "1e-10", "--atol", "1e-14",
+                   "--every", "0.001", "--method", "radau5", "--rtol", "1e-10", "--atol", "1e-14",
                    NULL};
   r = run_argv(argv2);
   ck_assert_msg(r.status == 3, "status %d: %s", r.status, r.err);
