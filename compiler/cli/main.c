@@ -23,6 +23,7 @@ static const char usage[] =
   "  sim MODEL.eom [--until T]  simulate; write CSV and optionally a plot\n"
   "  modes MODEL.eom [--at q=V] natural frequencies and mode shapes at an equilibrium\n"
   "  linearize MODEL.eom        A, B, C, D of the linear model at an equilibrium\n"
+  "  import ROBOT.urdf [-o M]   write a robot description (URDF) as a model\n"
   "\n"
   "options:\n"
   "  -h, --help                 this text; `eomc COMMAND --help` for a command's options\n"
@@ -41,6 +42,7 @@ int main(int argc, char **argv) {
   } verbs[] = {
     {"check", cmd_check}, {"gen", cmd_gen}, {"show", cmd_show},
     {"sim", cmd_sim},     {"modes", cmd_modes}, {"linearize", cmd_linearize},
+    {"import", cmd_import},
   };
   if (argc < 2) {
     fputs(usage, stderr);
