@@ -254,6 +254,11 @@ START_TEST(rail_velocity_form_matches_position_form) {
   ck_assert_int_eq(r.status, 0);
   ck_assert_msg(!strstr(r.err, "integrable"), "%s", r.err);
   run_free(&r);
+  /* show prints A q' = b beside the equations of motion */
+  r = run_eomc("show", example("cargo_sledge.eom"), NULL);
+  ck_assert_int_eq(r.status, 0);
+  ck_assert_msg(strstr(r.out, "  (1) -sin(th)*x' + cos(th)*y' = 0"), "%s", r.out);
+  run_free(&r);
   free(vel);
   free(pos);
 }

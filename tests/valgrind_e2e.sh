@@ -28,6 +28,8 @@ run 0 check "$src/examples/seat_rig.eom"
 run 0 show --latex "$src/examples/gantry_crane.eom"
 run 0 sim "$src/examples/seat_rig.eom" --until 1 -o "$out/seat.csv"
 run 0 modes "$src/examples/shear_frame.eom"
+run 0 sweep "$src/examples/seat_rig.eom" --vary k=30000:50000:3 --random "m=normal(78,5)" \
+  --runs 2 --until 0.5 --threads 2 -o "$out/sweep.csv"
 for m in "$src"/tests/bad/p_unterminated_string.eom "$src"/tests/bad/s_undefined_name.eom; do
   [ -f "$m" ] && run 1 check "$m"
 done

@@ -19,6 +19,7 @@ int cmd_sim(int argc, char **argv);
 int cmd_modes(int argc, char **argv);
 int cmd_linearize(int argc, char **argv);
 int cmd_import(int argc, char **argv);
+int cmd_sweep(int argc, char **argv);
 
 /* Is argv[i] a request for help ("-h" / "--help")? */
 int cmd_is_help(const char *arg);

@@ -24,6 +24,7 @@ static const char usage[] =
   "  modes MODEL.eom [--at q=V] natural frequencies and mode shapes at an equilibrium\n"
   "  linearize MODEL.eom        A, B, C, D of the linear model at an equilibrium\n"
   "  import ROBOT.urdf [-o M]   write a robot description (URDF) as a model\n"
+  "  sweep MODEL.eom            many runs over value grids and random samples, in parallel\n"
   "\n"
   "options:\n"
   "  -h, --help                 this text; `eomc COMMAND --help` for a command's options\n"
@@ -43,6 +44,7 @@ int main(int argc, char **argv) {
     {"check", cmd_check}, {"gen", cmd_gen}, {"show", cmd_show},
     {"sim", cmd_sim},     {"modes", cmd_modes}, {"linearize", cmd_linearize},
     {"import", cmd_import},
+    {"sweep", cmd_sweep},
   };
   if (argc < 2) {
     fputs(usage, stderr);

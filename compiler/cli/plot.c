@@ -84,11 +84,9 @@ static int write_script(FILE *f, const struct eom_model *m, const char *csv, con
 #endif
 
 #ifdef GNUPLOT_PATH
-typedef int (*ScriptWriter)(FILE *f, const void *ctx, const char *data, const char *out);
-
 /* Write a gnuplot script with `write` into a temporary file, run gnuplot on
 ** it and rename its SVG into place. */
-static int render(ScriptWriter write, const void *ctx, const char *data_path,
+static int render(PlotScriptWriter write, const void *ctx, const char *data_path,
                   const char *svg_path, char *err, size_t errlen) {
   char script[] = "/tmp/eomc-plot-XXXXXX";
   size_t tlen = strlen(svg_path) + 32;
@@ -196,5 +194,16 @@ int plot_sweep_svg(const char *name, int neig, const char *csv_path, const char 
   if (plot_available(err, errlen) != 0) return -1;
   SweepPlot sp = {name, neig};
   return render(write_sweep_script, &sp, csv_path, svg_path, err, errlen);
+#endif
+}
+
+int plot_render(PlotScriptWriter write, const void *ctx, const char *data_path,
+                const char *svg_path, char *err, size_t errlen) {
+#ifndef GNUPLOT_PATH
+  (void)write, (void)ctx, (void)data_path, (void)svg_path;
+  return plot_available(err, errlen);
+#else
+  if (plot_available(err, errlen) != 0) return -1;
+  return render(write, ctx, data_path, svg_path, err, errlen);
 #endif
 }

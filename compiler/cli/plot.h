@@ -6,7 +6,12 @@
 #define EOMC_PLOT_H
 
 #include <stddef.h>
+#include <stdio.h>
 #include "eom/model.h"
+
+/* Writes a gnuplot script into f that reads `data` and draws into `out`;
+** 0, or -1 when writing failed. */
+typedef int (*PlotScriptWriter)(FILE *f, const void *ctx, const char *data, const char *out);
 
 /* Is gnuplot available?  0, or -1 with a message in err. */
 int plot_available(char *err, size_t errlen);
@@ -24,5 +29,11 @@ int plot_svg(const struct eom_model *m, const char *csv_path, const char *svg_pa
 ** 0, or -1 with a message in err. */
 int plot_sweep_svg(const char *name, int neig, const char *csv_path, const char *svg_path,
                    char *err, size_t errlen);
+
+/* Any plot: run gnuplot on the script `write` writes for data_path, its
+** SVG going through a temporary renamed to svg_path.  0, or -1 with a
+** message in err. */
+int plot_render(PlotScriptWriter write, const void *ctx, const char *data_path,
+                const char *svg_path, char *err, size_t errlen);
 
 #endif

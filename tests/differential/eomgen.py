@@ -521,6 +521,35 @@ def add_branch_terms(m, g):
         m.terms.append(("potential", None, ("pow", ("call", "max", [num("0"), x]), num("2")), False))
 
 
+def add_velocity_constraint(m, seed):
+    """A quarter of the models with 2 or more coordinates and room for one
+    more constraint get a velocity constraint, linear in the rates:
+    c' + a(q, p) d' [+ k (e(q))'] = b(q, p[, t]).  Its own random stream,
+    so the models without one stay what they were."""
+    vr = random.Random(seed * 4649 + 29)
+    n = len(m.coords)
+    if n < 2 or vr.random() >= 0.25:
+        return
+    own = set()
+    for kind, _, e, _ in m.terms:
+        if kind == "constraint":  # each solved for its own coordinate: lhs = c + ...
+            own.add(e[0][1][1])
+    free = [c for c in m.coords if c not in own]
+    if len(own) + 1 > n - 1 or not free:
+        return
+    g = ExprGen(vr, m)
+    c = vr.choice(free)
+    d = vr.choice([x for x in m.coords if x != c])
+    lhs = ("add", ("rate", ("var", c)), ("mul", g.expr(1, {"q", "p"}), ("rate", ("var", d))))
+    if vr.random() < 0.5:
+        # a rate of an expression (chain rule), free of c so that the
+        # coefficient of c' stays 1
+        inner = substitute(g.expr(1, {"q", "p"}), c, num("0.5"))
+        lhs = ("add", lhs, ("mul", num(number_text(vr, 0.1, 0.5)), ("rate", inner)))
+    rhs = g.expr(1, {"q", "p"} | ({"t"} if vr.random() < 0.3 else set()))
+    m.terms.append(("vconstraint", None, (lhs, rhs), False))
+
+
 def generate(seed, max_coords=4):
     """The model for `seed` (deterministic: same seed, same model)."""
     rng = random.Random(seed)
@@ -633,6 +662,7 @@ def generate(seed, max_coords=4):
             # cancel it and leave a constraint with a zero Jacobian.
             rhs = substitute(rhs, c, num("0.5"))
             m.terms.append(("constraint", None, (lhs, rhs), False))
+    add_velocity_constraint(m, seed)
     everything = {"q", "p", "let", "t", "u", "qd"}
     for _ in range(rng.randint(0, 3)):
         c = rng.choice(m.coords)
@@ -729,7 +759,7 @@ def to_eom(m, keep=None):
             if inertia is not None:
                 line += " inertia " + expr_to_eom(inertia, rng)
             out.append(line)
-        elif kind == "constraint":
+        elif kind in ("constraint", "vconstraint"):
             out.append("constraint %s = %s" % (expr_to_eom(e[0], rng), expr_to_eom(e[1], rng)))
         elif kind == "force_at":
             out.append("force %s at %s" % (expr_to_eom(e[0], rng), expr_to_eom(e[1], rng)))

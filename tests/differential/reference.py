@@ -122,12 +122,15 @@ class Reference:
         T = V = Lx = D = sympy.Integer(0)
         Q = [sympy.Integer(0)] * n
         bodies = []
-        phi = []
+        phi, vphi = [], []
         for idx, (kind, target, e, _) in enumerate(m.terms):
             if keep is not None and idx not in keep:
                 continue
             if kind == "constraint":
                 phi.append(self.to_sympy(e[0]) - self.to_sympy(e[1]))
+                continue
+            if kind == "vconstraint":
+                vphi.append(self.to_sympy(e[0]) - self.to_sympy(e[1]))
                 continue
             if kind in ("body", "gravity", "force_at", "torque_on"):
                 bodies.append((kind, target, e))
@@ -163,6 +166,7 @@ class Reference:
         self.fn_Mf = Bundle(args, [("M", [x for row in self.M for x in row]), ("f", self.f)])
         self.values = Bundle(args, [("TV", [self.T, self.V]), ("y", self.outputs)] + self.control)
         self.constraints(phi, args)
+        self.velocity_constraints(vphi, args)
 
     def rigid_bodies(self, stmts, T, V, Q):
         """Energies and generalized forces of `body`, `gravity`, `force at`
@@ -261,6 +265,25 @@ class Reference:
         # P_constraint_at takes t: phi, G and dphi/dt, time-dependent or not
         self.fn_phi_t = sympy.lambdify(args, [without_delta(sympy.diff(c, self.t)) for c in phi],
                                        modules="mpmath", cse=True)
+
+    def velocity_constraints(self, vphi, args):
+        """c(t, q, q') = lhs - rhs, linear in q': A = dc/dq', b = -c(q' = 0)
+        and gamma with A q'' = gamma from c' = 0: gamma = -(dc/dt + dc/dq q')
+        (A does not depend on q').  Their multipliers join the position
+        constraints' in M q'' = f + G^T lambda + A^T mu (Neimark & Fufaev,
+        Dynamics of Nonholonomic Systems, 1972, ch. III; from memory)."""
+        self.nvc = len(vphi)
+        A = [[sympy.diff(c, self.qd[j]) for j in range(self.n)] for c in vphi]
+        at_rest = {v: 0 for v in self.qd}
+        b = [-c.subs(at_rest) for c in vphi]
+        gamma = []
+        for c in vphi:
+            d = sympy.diff(c, self.t)
+            for i in range(self.n):
+                d += sympy.diff(c, self.q[i]) * self.qd[i]
+            gamma.append(without_delta(-d))
+        self.fn_vc = sympy.lambdify(args, [x for row in A for x in row] + b + gamma,
+                                    modules="mpmath", cse=True)
 
     def rate(self, x):
         """Total time derivative of an expression free of rates."""
@@ -423,33 +446,56 @@ class Reference:
                 for j in range(nu):
                     B[n + i][j] = float(cols[N + j][i])
             out = {}
-            if self.nc:
+            if self.nc or self.nvc:
                 a = self.args(pt)
-                nc = self.nc
-                G = mpmath.matrix(self.fn_G(*a))
-                K = mpmath.matrix(n + nc, n + nc)
-                b = mpmath.matrix(n + nc, 1)
+                nc, nvc = self.nc, self.nvc
+                nt = nc + nvc
+                # rows of the position constraints' G, then the velocity ones' A
+                vc = self.fn_vc(*a) if nvc else []
+                H = mpmath.matrix(nt, n)
+                rhs = mpmath.matrix(nt, 1)
+                if nc:
+                    G = mpmath.matrix(self.fn_G(*a))
+                    gamma = self.fn_gamma(*a)
+                    for i in range(nc):
+                        rhs[i] = gamma[i]
+                        for j in range(n):
+                            H[i, j] = G[i, j]
+                for i in range(nvc):
+                    rhs[nc + i] = vc[nvc * n + nvc + i]
+                    for j in range(n):
+                        H[nc + i, j] = vc[i * n + j]
+                K = mpmath.matrix(n + nt, n + nt)
+                b = mpmath.matrix(n + nt, 1)
                 for i in range(n):
                     b[i] = f[i]
                     for j in range(n):
                         K[i, j] = M[i, j]
-                    for j in range(nc):
-                        K[i, n + j] = -G[j, i]
-                gamma = self.fn_gamma(*a)
-                for i in range(nc):
-                    b[n + i] = gamma[i]
+                    for j in range(nt):
+                        K[i, n + j] = -H[j, i]
+                for i in range(nt):
+                    b[n + i] = rhs[i]
                     for j in range(n):
-                        K[n + i, j] = G[i, j]
+                        K[n + i, j] = H[i, j]
                 sol = mpmath.lu_solve(K, b)
                 out = {
-                    "phi": None if self.timed_phi else [float(v) for v in self.fn_phi(*a)],
-                    "conjac": None if self.timed_G else [float(G[i, j]) for i in range(nc) for j in range(n)],
-                    "phi_at": [float(v) for v in self.fn_phi(*a)],
-                    "conjac_at": [float(G[i, j]) for i in range(nc) for j in range(n)],
-                    "phi_t_at": [float(v) for v in self.fn_phi_t(*a)],
                     "accel_c": [float(sol[i]) for i in range(n)],
-                    "lambda": [float(sol[n + i]) for i in range(nc)],
+                    "lambda": [float(sol[n + i]) for i in range(nt)],
                 }
+                if nc:
+                    out.update({
+                        "phi": None if self.timed_phi else [float(v) for v in self.fn_phi(*a)],
+                        "conjac": None if self.timed_G else [float(G[i, j]) for i in range(nc) for j in range(n)],
+                        "phi_at": [float(v) for v in self.fn_phi(*a)],
+                        "conjac_at": [float(G[i, j]) for i in range(nc) for j in range(n)],
+                        "phi_t_at": [float(v) for v in self.fn_phi_t(*a)],
+                    })
+                if nvc:
+                    out.update({
+                        "vc_A": [float(x) for x in vc[:nvc * n]],
+                        "vc_b": [float(x) for x in vc[nvc * n:nvc * n + nvc]],
+                        "vc_gamma": [float(x) for x in vc[nvc * n + nvc:]],
+                    })
             return dict(out, **{
                 "mass": [float(M[i, j]) for i in range(n) for j in range(n)],
                 "forcing": [float(f[i]) for i in range(n)],

@@ -46,7 +46,7 @@ import reference  # noqa: E402
 REL_TOL = 1e-10
 QUANTITIES = ["mass", "forcing", "accel", "energy", "inverse", "rhs", "jacA", "jacB", "defaults",
               "outputs", "initial", "derived", "phi", "conjac", "phi_at", "conjac_at", "phi_t_at", "accel_c",
-              "lambda", "momenta", "hamiltonian"]
+              "lambda", "momenta", "hamiltonian", "vc_A", "vc_b", "vc_gamma"]
 CFLAGS = ["-std=c99", "-pedantic", "-Wall", "-Wextra", "-Werror", "-O0"]
 
 
@@ -163,9 +163,27 @@ def driver_code(cases):
         out.append("#endif")
         nc = sum(1 for i, term in enumerate(m.terms)
                  if term[0] == "constraint" and (c.keep is None or i in c.keep))
+        nvc = sum(1 for i, term in enumerate(m.terms)
+                  if term[0] == "vconstraint" and (c.keep is None or i in c.keep))
+        if nvc:
+            out.append("    {")
+            out.append("      double A[%d], b[%d], g[%d], qc[%d], lam[%d];" % (nvc * n, nvc, nvc, n, nc + nvc))
+            out.append("      if (%s_NVC != %d || %s_model.nvc != %d) printf(\"%s %%d sizes_nc\\n\", k);"
+                       % (P, nvc, P, nvc, P))
+            out.append("      %s_velocity_constraint(t[k], q[k], qd[k], p[k], A, b, g);" % P)
+            out.append('      put("%s", k, "vc_A", A, %d);' % (P, nvc * n))
+            out.append('      put("%s", k, "vc_b", b, %d);' % (P, nvc))
+            out.append('      put("%s", k, "vc_gamma", g, %d);' % (P, nvc))
+            out.append("      rc = %s_accel_constrained(t[k], q[k], qd[k], u[k], p[k], qc, lam);" % P)
+            out.append('      printf("%s %%d accel_c_status %%d\\n", k, rc);' % P)
+            out.append('      put("%s", k, "accel_c", qc, %d);' % (P, n))
+            out.append('      put("%s", k, "lambda", lam, %d);' % (P, nc + nvc))
+            out.append("    }")
         if nc:
             out.append("    {")
-            out.append("      double phi[%d], G[%d], qc[%d], lam[%d], phit[%d];" % (nc, nc * n, n, nc, nc))
+            out.append("      double phi[%d], G[%d], phit[%d];" % (nc, nc * n, nc))
+            if not nvc:
+                out.append("      double qc[%d], lam[%d];" % (n, nc))
             out.append("      if (%s_NC != %d || %s_model.nc != %d) printf(\"%s %%d sizes_nc\\n\", k);"
                        % (P, nc, P, nc, P))
             out.append("      %s_constraint(q[k], p[k], phi);" % P)
@@ -176,10 +194,11 @@ def driver_code(cases):
             out.append('      put("%s", k, "phi_at", phi, %d);' % (P, nc))
             out.append('      put("%s", k, "conjac_at", G, %d);' % (P, nc * n))
             out.append('      put("%s", k, "phi_t_at", phit, %d);' % (P, nc))
-            out.append("      rc = %s_accel_constrained(t[k], q[k], qd[k], u[k], p[k], qc, lam);" % P)
-            out.append('      printf("%s %%d accel_c_status %%d\\n", k, rc);' % P)
-            out.append('      put("%s", k, "accel_c", qc, %d);' % (P, n))
-            out.append('      put("%s", k, "lambda", lam, %d);' % (P, nc))
+            if not nvc:
+                out.append("      rc = %s_accel_constrained(t[k], q[k], qd[k], u[k], p[k], qc, lam);" % P)
+                out.append('      printf("%s %%d accel_c_status %%d\\n", k, rc);' % P)
+                out.append('      put("%s", k, "accel_c", qc, %d);' % (P, n))
+                out.append('      put("%s", k, "lambda", lam, %d);' % (P, nc))
             out.append("    }")
         out.append('    put("%s", k, "initial", x0, %d);' % (P, N))
         out.append("  }")
@@ -223,7 +242,7 @@ def compare(c, results):
         status = got.get("accel_status")
         if status != [0.0]:
             return ("values", "point %d: P_accel returned %s for a positive definite M" % (k, status))
-        if "phi" in exp and got.get("accel_c_status") != [0.0]:
+        if "accel_c" in exp and got.get("accel_c_status") != [0.0]:
             return ("values", "point %d: P_accel_constrained returned %s for independent constraints"
                     % (k, got.get("accel_c_status")))
         if "split_C" in got:
