@@ -113,6 +113,18 @@ static void dense_eval(int n, double theta, const Stages *s, double *out) {
              theta * (s->r2[i] + theta1 * (s->r3[i] + theta * (s->r4[i] + theta1 * s->r5[i])));
 }
 
+typedef struct DopriDense {
+  int n;
+  double t, h;
+  const Stages *s;
+} DopriDense;
+
+/* The continuous extension at time t, for the event search (events.c). */
+static void dopri_dense(const void *ctx, double t, double *x) {
+  const DopriDense *d = ctx;
+  dense_eval(d->n, (t - d->t) / d->h, d->s, x);
+}
+
 /* Starting step (§II.4): an explicit Euler probe sizes h so that the first
 ** step's local error is about the tolerance. */
 static int initial_step(SimContext *c, double t, const double *y, const double *f0,
@@ -145,6 +157,7 @@ int dopri_run(SimContext *c, const struct eom_sim_options *o, Sampler *smp, doub
   double *work = malloc(dopri_work(n) * sizeof(double));
   double *sample = malloc((size_t)n * sizeof(double));
   Stages s;
+  EventWatch ev = {0};
   char what[128];
 
   if (!work || !sample) {
@@ -153,6 +166,7 @@ int dopri_run(SimContext *c, const struct eom_sim_options *o, Sampler *smp, doub
     return EOM_ENOMEM;
   }
   stages_bind(&s, work, n);
+  if ((st = events_init(c, o, &ev, t, x))) goto done;
   if ((st = sim_rhs(c, t, x, s.k1))) goto done;
   if (!all_finite(n, s.k1)) {
     st = sim_fail(c, EOM_ENONFINITE, t, x, "the acceleration is not finite");
@@ -168,6 +182,8 @@ int dopri_run(SimContext *c, const struct eom_sim_options *o, Sampler *smp, doub
   }
   double facold = 1e-4;
   int last_rejected = 0;
+  int landing = 0;  /* this step was shortened to end at a switch */
+  int trial_crossed = 0;  /* a trial of this step crossed a switch */
   /* A trial stage outside the region where M is positive definite rejects
   ** the step; only when the step cannot shrink further is it the failure. */
   int mass_pending = 0;
@@ -205,6 +221,22 @@ int dopri_run(SimContext *c, const struct eom_sim_options *o, Sampler *smp, doub
       last_rejected = 1;
       continue;
     }
+    /* A trial step across a switch: its error estimate assumes a smooth
+    ** right-hand side, so shorten it once to end just past the switch
+    ** (located on the trial's own extension) and take it again. */
+    if (ev.ns && !landing && all_finite(n, s.y1)) {
+      double t_sw;
+      dense_prepare(n, h, x, &s);
+      DopriDense trial = {n, t, h, &s};
+      int crossing = events_crossing(c, &ev, t, t + h, s.y1, dopri_dense, &trial,
+                                     events_tol(rtol, t, h), &t_sw);
+      if (crossing && t_sw < t + h && t_sw - t > 0.01 * h) {
+        h = t_sw - t;
+        landing = 1;
+        continue;
+      }
+      trial_crossed = trial_crossed || crossing;
+    }
     double err = scaled_norm(n, s.err, x, s.y1, rtol, atol);
     if (!isfinite(err) || !all_finite(n, s.y1)) {
       /* Overflow in a trial step: shrink hard and retry. */
@@ -221,23 +253,44 @@ int dopri_run(SimContext *c, const struct eom_sim_options *o, Sampler *smp, doub
       facold = fmax(err, 1e-4);
       double t_new = last ? t_end : t + h;
       dense_prepare(n, h, x, &s);
+      /* a switch crossed inside the step: end it there and restart */
+      DopriDense dd = {n, t, h, &s};
+      int event = events_after_step(c, &ev, t, t_new, s.y1, dopri_dense, &dd,
+                                    events_tol(rtol, t, h), &t_new);
+      if (event < 0) {
+        st = -event;
+        goto done;
+      }
+      const double *y_end = event ? ev.x_ev : s.y1;
       for (double ts = sampler_next(smp); ts <= t_new; ts = sampler_next(smp)) {
         if (ts >= t_new) {
-          memcpy(sample, s.y1, (size_t)n * sizeof(double));
+          memcpy(sample, y_end, (size_t)n * sizeof(double));
         } else {
           dense_eval(n, (ts - t) / h, &s, sample);
         }
         if ((st = sampler_emit(c, smp, ts, sample))) goto done;
       }
-      memcpy(x, s.y1, (size_t)n * sizeof(double));
-      memcpy(s.k1, s.k7, (size_t)n * sizeof(double));
+      memcpy(x, y_end, (size_t)n * sizeof(double));
+      if (event) {
+        /* restart on the new branch: its own slope, a fresh controller */
+        last = 0;
+        facold = 1e-4;
+        if ((st = sim_rhs(c, t_new, x, s.k1))) goto done;
+      } else {
+        memcpy(s.k1, s.k7, (size_t)n * sizeof(double));
+      }
       if (c->cs_project) {
         /* Back onto the constraints; the moved state needs its own slope. */
         if ((st = stabilize_project(c, t_new, x, 10, "projecting onto the constraints")) ||
             (st = sim_rhs(c, t_new, x, s.k1)))
           goto done;
       }
+      /* steps in a row whose trials all ran into a switch: the motion is
+      ** held on it (sliding), which only a sticking law could follow */
+      if ((st = events_pinned(c, &ev, trial_crossed, t_new, x))) goto done;
       t = t_new;
+      landing = 0;
+      trial_crossed = 0;
       rep->steps++;
       c->t_good = t;
       mass_pending = 0;
@@ -253,6 +306,7 @@ int dopri_run(SimContext *c, const struct eom_sim_options *o, Sampler *smp, doub
     }
   }
 done:
+  events_free(&ev);
   free(work);
   free(sample);
   return st;

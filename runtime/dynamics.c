@@ -55,7 +55,7 @@ void simctx_free(SimContext *c) {
   c->u = c->lambda = c->jac_b = c->fd_x = c->fd_f1 = c->fd_f2 = NULL;
 }
 
-static void load_inputs(SimContext *c, double t) {
+void sim_load_inputs(SimContext *c, double t) {
   int nu = c->m->nu;
   if (c->u_fixed) {
     if (nu > 0) memcpy(c->u, c->u_fixed, (size_t)nu * sizeof(double));
@@ -77,7 +77,7 @@ static int model_accel(const struct eom_model *m, const double *p, double t, con
 int sim_rhs(SimContext *c, double t, const double *x, double *xdot) {
   const struct eom_model *m = c->m;
   int nq = m->nq;
-  load_inputs(c, t);
+  sim_load_inputs(c, t);
   c->rep->rhs_evals++;
   memcpy(xdot, x + nq, (size_t)nq * sizeof(double));
   if (c->cs_active && (m->nc == 0 || m->constraint_gamma))
@@ -96,7 +96,7 @@ int sim_jacobian(SimContext *c, double t, const double *x, double *A) {
   const struct eom_model *m = c->m;
   int n = c->n;
   if (m->jacobian && m->nc + m->nvc == 0 && !c->jacobian_by_fd) {
-    load_inputs(c, t);
+    sim_load_inputs(c, t);
     m->jacobian(t, x, c->u, c->p, A, c->jac_b);
     return EOM_OK;
   }

@@ -213,6 +213,17 @@ static void collocation_eval(const Collocation *p, int n, double t, double *out)
     out[i] = p->x0[i] + th * (p->a1[i] + (th - RC[0]) * (p->a2[i] + (th - RC[1]) * p->a3[i]));
 }
 
+typedef struct RadauDense {
+  const Collocation *poly;
+  int n;
+} RadauDense;
+
+/* The collocation polynomial at time t, for the event search (events.c). */
+static void radau5_dense(const void *ctx, double t, double *x) {
+  const RadauDense *d = ctx;
+  collocation_eval(d->poly, d->n, t, x);
+}
+
 /* err: the scaled norm of the embedded estimate (see RE above) of the step
 ** whose stages z have just been solved.  f0 = f(t, x); e is scratch and
 ** keeps the estimate; emat the factored I - h gamma0 J (pivots epiv).
@@ -303,6 +314,8 @@ int radau5_run(SimContext *c, const struct eom_sim_options *o, Sampler *smp, dou
   double *f0 = sk + n, *e = f0 + n, *sample = e + n;
   Collocation poly = {0, 0, sample + n, sample + 2 * n, sample + 3 * n, sample + 4 * n};
   double *jac = poly.a3 + n, *mat = jac + nn * nn, *emat = mat + 9 * nn * nn;
+  EventWatch ev = {0};
+  if ((st = events_init(c, o, &ev, t, x))) goto done;
 
   if ((st = sim_rhs(c, t, x, f0))) goto done;
   if (!all_finite(n, f0)) {
@@ -425,6 +438,22 @@ int radau5_run(SimContext *c, const struct eom_sim_options *o, Sampler *smp, dou
     collocation_fit(&poly, n, t, h, x, z);
     have_poly = 1;
     for (int i = 0; i < n; i++) x[i] += z[2 * n + i];
+    /* a switch crossed inside the step: end it there and restart */
+    RadauDense rd = {&poly, n};
+    int event = events_after_step(c, &ev, t, t_new, x, radau5_dense, &rd,
+                                  events_tol(c->rtol, t, h), &t_new);
+    if (event < 0) {
+      st = -event;
+      goto done;
+    }
+    if (event) {
+      /* samples up to the event come from this step's polynomial; then the
+      ** method starts over on the new branch (no extrapolated guess) */
+      memcpy(x, ev.x_ev, nn * sizeof(double));
+      last = 0;
+      have_poly = 0;
+      accepted = 0;
+    }
     for (double ts = sampler_next(smp); ts <= t_new; ts = sampler_next(smp)) {
       if (ts >= t_new)
         memcpy(sample, x, nn * sizeof(double));
@@ -453,6 +482,7 @@ int radau5_run(SimContext *c, const struct eom_sim_options *o, Sampler *smp, dou
     h = fmin(hnew, span);
   }
 done:
+  events_free(&ev);
   free(mem);
   free(epiv);
   return st;

@@ -28,6 +28,7 @@ const char *eom_status_text(eom_status s) {
   case EOM_ESTOPPED: return "stopped by the sample function";
   case EOM_EMAXSTEPS: return "too many steps";
   case EOM_EINPUT: return "bad input table";
+  case EOM_ECHATTER: return "a switch chatters";
   }
   return "unknown status";
 }

@@ -13,6 +13,8 @@
 #include <float.h>
 #include <math.h>
 
+#include <stdio.h>
+
 #include "eom/runtime.h"
 
 typedef struct SimContext {
@@ -173,6 +175,53 @@ int stabilize_baumgarte(SimContext *c, double t, const double *x, double *qdd);
 /* qdd and c->lambda of a model with constraint_gamma, by the rank-revealing
 ** solve with the Baumgarte term included. */
 int stabilize_accel(SimContext *c, double t, const double *x, const double *u, double *qdd);
+
+/* Inputs u(t) into c->u (dynamics.c). */
+void sim_load_inputs(SimContext *c, double t);
+
+/* Switches of non-smooth models located in time (events.c).  A DenseFn
+** writes the accepted step's continuous extension at t into x. */
+typedef void (*DenseFn)(const void *ctx, double t, double *x);
+typedef struct EventWatch {
+  int ns;                   /* switches watched; 0: none (or events off) */
+  double *s0;               /* ns: their values at the current time */
+  double *s1, *sa;          /* ns: scratch */
+  double *xa;               /* n: scratch state */
+  double *x_ev;             /* n: the state at the last event */
+  FILE *log;                /* o->event_log */
+  int last;                 /* the switch of the last event (-1: none) */
+  double t_last;            /* and its time */
+  long chatters;            /* crossings back in a row, stepped over */
+  long pinned;              /* trial steps in a row crossing at their start */
+} EventWatch;
+
+/* Watch m->switches unless o->no_events; s0 at (t, x).  EOM_OK or EOM_ENOMEM. */
+int events_init(SimContext *c, const struct eom_sim_options *o, EventWatch *w, double t,
+                const double *x);
+void events_free(EventWatch *w);
+/* The switches at (t, x) into s (ns). */
+void events_values(SimContext *c, double t, const double *x, double *s);
+/* After an accepted step from t to t_new (state x_new; dense gives the states
+** between): 1 when a switch crosses inside it, with *t_ev just past the
+** earliest crossing (within tol) and the state there in w->x_ev; the step
+** is to end there and the method restart.  0 otherwise.  Counts the events
+** in c->rep->events and keeps s0 at the step's end.  A switch that keeps
+** crossing back right after its events fails the run: -EOM_ECHATTER. */
+int events_after_step(SimContext *c, EventWatch *w, double t, double t_new, const double *x_new,
+                      DenseFn dense, const void *dctx, double tol, double *t_ev);
+/* Does a trial step from t to t_new cross a switch (one that does not
+** chatter)?  Then *t_sw is just past the earliest crossing.  Changes
+** nothing but scratch. */
+int events_crossing(SimContext *c, EventWatch *w, double t, double t_new, const double *x_new,
+                    DenseFn dense, const void *dctx, double tol, double *t_sw);
+/* Count accepted steps in a row whose trials ran into a switch (crossing
+** 1): after EVENTS_MAX_CHATTER of them the motion is held on the switch
+** and the run fails with EOM_ECHATTER; crossing 0 resets. */
+int events_pinned(SimContext *c, EventWatch *w, int crossing, double t, const double *x);
+/* The bracket tolerance of a step of length h: tied to the step tolerance. */
+static inline double events_tol(double rtol, double t, double h) {
+  return fmax(1e-3 * rtol * h, 8 * DBL_EPSILON * fmax(fabs(t), fabs(t + h)));
+}
 
 /* Dense LU with partial pivoting.  dense_lu returns 0, or -1 when singular. */
 int dense_lu(int n, double *a, int *piv);

@@ -177,6 +177,11 @@ START_TEST(builtin_arity_table) {
   ck_assert_int_eq(check_builtin_arity("dh"), 4);
   ck_assert_int_eq(check_builtin_arity("diag"), -1);
   ck_assert_int_eq(check_builtin_arity("rot"), 1);
+  ck_assert_int_eq(check_builtin_arity("min"), 2);
+  ck_assert_int_eq(check_builtin_arity("max"), 2);
+  ck_assert_int_eq(check_builtin_arity("sign"), 1);
+  ck_assert_int_eq(check_builtin_arity("step"), 1);
+  ck_assert_int_eq(check_builtin_arity("clamp"), 3);
   ck_assert_int_lt(check_builtin_arity("sine"), -1);
   ck_assert_int_lt(check_builtin_arity("y0"), -1);
   ck_assert(check_is_keyword("coord"));
@@ -190,6 +195,12 @@ START_TEST(wrong_arity) {
   expect_error("coord x\nkinetic sin(x, x)*x'^2\n", 2, 9, "sin takes 1 argument, not 2");
   expect_error("coord x\nlet T = dh(x, 1, 2)\nkinetic x'^2\n", 2, 9, "dh takes 4 arguments, not 3");
   expect_error("coord x\nkinetic atan2(x)*x'^2\n", 2, 9, "atan2 takes 2 arguments, not 1");
+  expect_error("coord x\nkinetic min(x)*x'^2\n", 2, 9, "min takes 2 arguments, not 1");
+  expect_error("coord x\nkinetic x'^2\nforce x = clamp(x, 1)\n", 3, 11, "clamp takes 3 arguments, not 2");
+  expect_error("coord x\nkinetic x'^2\nforce x = sign(x, x')\n", 3, 11, "sign takes 1 argument, not 2");
+  expect_error("coord x\nkinetic x'^2\nforce x = max([x, x], 1)\n", 3, 15,
+               "argument 1 of max must be a scalar, not 2x1");
+  expect_error("coord x\nparam step = 1\nkinetic x'^2\n", 2, 7, "'step' is a built-in function");
 }
 END_TEST
 
@@ -419,6 +430,19 @@ START_TEST(param_defaults_evaluated) {
   ck_assert(c->m.consts[0]->number == 2.0);
   ck_assert(fabs(c->m.consts[1]->number - 2 * 3.14159265358979323846) < 1e-15);
   for (int i = 0; i < 3; i++) ck_assert_int_eq(c->m.params[i]->index, i);
+  unload(c);
+}
+END_TEST
+
+/* The branch functions fold like the others (values by their definitions in
+** the language reference: step(0) = 0, sign(0) = 0). */
+START_TEST(param_defaults_with_branch_functions) {
+  Checked *c = expect_clean("coord x\nparam a = min(2, -3)\nparam b = max(2, -3)\nparam c = clamp(5, 0, 2)\n"
+                            "param d = clamp(-5, 0, 2)\nparam e = clamp(1.5, 0, 2)\nparam f = step(0) + step(0.1)\n"
+                            "param g = sign(-4) + 10*sign(0)\nkinetic (a + b + c + d + e + f + g)*x'^2\n");
+  const double want[] = {-3, 2, 2, 0, 1.5, 1, -1};
+  ck_assert_int_eq(c->m.nparams, 7);
+  for (int i = 0; i < 7; i++) ck_assert_msg(c->m.params[i]->number == want[i], "param %d", i);
   unload(c);
 }
 END_TEST
@@ -823,6 +847,7 @@ int main(void) {
   tc = tcase_create("values");
   tcase_set_timeout(tc, 60);
   tcase_add_test(tc, param_defaults_evaluated);
+  tcase_add_test(tc, param_defaults_with_branch_functions);
   tcase_add_test(tc, param_defaults_must_be_constant);
   tcase_add_test(tc, initial_state);
   tcase_add_test(tc, initial_errors);

@@ -60,7 +60,7 @@ static const char driver_src[] =
   "int main(int argc, char **argv) {\n"
   "  const struct eom_model *m = &MODEL;\n"
   "  static double p[64], q[16], qd[16], u[16], qdd[16], M[256], f[16], Q[16], y[16];\n"
-  "  static double x[32], xd[32], A[1024], B[512], FA[1024], FB[512], xp[32], up[16], fp[32], fm[32];\n"
+  "  static double sw[64], x[32], xd[32], A[1024], B[512], FA[1024], FB[512], xp[32], up[16], fp[32], fm[32];\n"
   "  double T, V, t;\n  char cmd[16];\n  int i, j, rc, n, nx, nu;\n"
   "  FILE *in;\n"
   "  if (argc < 2 || !(in = fopen(argv[1], \"r\"))) return 2;\n"
@@ -68,6 +68,8 @@ static const char driver_src[] =
   "  n = m->nq; nx = 2*n; nu = m->nu;\n"
   "  for (i = 0; i < m->np; i++) p[i] = m->param_defaults[i];\n"
   "  printf(\"model %s nq %d nu %d np %d ny %d\\n\", m->name, m->nq, m->nu, m->np, m->ny);\n"
+  "  if (m->ns > 64) return 3;\n"
+  "  for (i = 0; i < m->ns; i++) printf(\"switch %s\\n\", m->switch_names[i]);\n"
   "  while (fscanf(in, \"%15s\", cmd) == 1) {\n"
   "    if (strcmp(cmd, \"p\") == 0) {\n"
   "      if (fscanf(in, \"%d\", &i) != 1 || fscanf(in, \"%lf\", &p[i]) != 1) return 4;\n"
@@ -86,6 +88,7 @@ static const char driver_src[] =
   "    if (rc == 0) { m->inverse(t, q, qd, qdd, p, Q); vec(\"Q\", Q, n); }\n"
   "    m->energy(q, qd, p, &T, &V); printf(\"TV %.17g %.17g\\n\", T, V);\n"
   "    m->outputs(t, q, qd, u, p, y); vec(\"y\", y, m->ny);\n"
+  "    if (m->ns) { m->switches(t, q, qd, u, p, sw); vec(\"s\", sw, m->ns); }\n"
   "    m->rhs(t, x, u, p, xd); vec(\"xd\", xd, nx);\n"
   "    m->jacobian(t, x, u, p, A, B); vec(\"A\", A, nx*nx); vec(\"B\", B, nx*nu);\n"
   "    for (j = 0; j < nx + nu; j++) {\n"
@@ -385,6 +388,63 @@ START_TEST(test_driven_oscillator) {
   free(out);
   out = drive(&b, "p 1 0\ns 0.3490658503988659 0 2.0\n");   /* wf t = pi/2 */
   CHECK_REL(get1(out, 0, "f", 0), -c * 2.0, 1e-12);
+  free(out);
+  built_free(&b);
+}
+END_TEST
+
+/* Branch functions (docs/language.md): the shuttle between two buffers obeys
+**   m x'' = -k max(0, x - L) - k min(0, x + L) - c max(0, x' - v0)
+**           - F sign(x') + clamp(u, -Fm, Fm),
+** written out here by the definitions of min, max, sign and clamp (common
+** practice: a unilateral spring, Coulomb's dry friction, a saturation).
+** The Jacobian is the active branch's: d x''/d x = -k/m inside a buffer and
+** 0 in the free travel, d x''/d x' = -c/m above v0, d x''/d u = 1/m inside
+** the drive limit; away from the kinks it matches central differences. */
+START_TEST(test_buffered_shuttle) {
+  Built b = build_model("tests/models/buffered_shuttle.eom", "buffered_shuttle", NULL, cc());
+  const double m = 3.5, k = 2500, L = 0.6, F = 4, c = 30, v0 = 1.2, Fm = 20;
+  /* x, x', u: free travel, each buffer, overspeed, saturated drive both ways, at rest */
+  const double st[][3] = {{0.1, 0.5, 3},    {0.7, 2.0, 25},  {-0.75, -0.3, -40},
+                          {-0.2, 1.5, -19}, {0.65, -2, 0.5}, {0.3, 0, 1}};
+  const int nst = (int)(sizeof st / sizeof st[0]);
+  char input[2048] = "";
+  for (int i = 0; i < nst; i++) {
+    char line[200];
+    snprintf(line, sizeof line, "s 0 %.17g %.17g %.17g\n", st[i][0], st[i][1], st[i][2]);
+    strcat(input, line);
+  }
+  char *out = drive(&b, input);
+  for (int i = 0; i < nst; i++) {
+    double x = st[i][0], v = st[i][1], u = st[i][2];
+    double spring = x > L ? -k * (x - L) : x < -L ? -k * (x + L) : 0;
+    double damper = v > v0 ? -c * (v - v0) : 0;
+    double friction = v > 0 ? -F : v < 0 ? F : 0;
+    double drive_force = u > Fm ? Fm : u < -Fm ? -Fm : u;
+    CHECK_REL(get1(out, i, "f", 0), spring + damper + friction + drive_force, 1e-13);
+    CHECK_REL(get1(out, i, "qdd", 0), (spring + damper + friction + drive_force) / m, 1e-13);
+    CHECK_REL(get1(out, i, "A", 2), fabs(x) > L ? -k / m : 0.0, 1e-13);  /* d x''/d x */
+    CHECK_REL(get1(out, i, "A", 3), v > v0 ? -c / m : 0.0, 1e-13);       /* d x''/d x' */
+    CHECK_REL(get1(out, i, "B", 1), fabs(u) < Fm ? 1 / m : 0.0, 1e-13);  /* d x''/d u */
+    CHECK_REL(get1(out, i, "y", 0), x > L ? L : x < -L ? -L : x, 0);
+    CHECK_REL(get1(out, i, "y", 1), fabs(x) > L ? 1.0 : 0.0, 0);
+    /* P_inverse: the input's generalized force that gives this x'' */
+    CHECK_REL(get1(out, i, "Q", 0), drive_force, 1e-12);
+    if (v != 0) check_jacobian(out, i, 2, 1);
+    /* the switching functions of the terms, in source order (the outputs'
+    ** clamp and step are not among them: they do not act on the motion) */
+    double sw[8];
+    ck_assert_int_eq(get(out, i, "s", sw, 8), 6);
+    CHECK_REL(sw[0], 0 - (x - L), 1e-15);  /* max(0, x - L): 0 - (x - L) */
+    CHECK_REL(sw[1], 0 - (x + L), 1e-15);
+    CHECK_REL(sw[2], 0 - (v - v0), 1e-15);
+    CHECK_REL(sw[3], v, 0);
+    CHECK_REL(sw[4], u + Fm, 1e-15);
+    CHECK_REL(sw[5], u - Fm, 1e-15);
+  }
+  ck_assert_ptr_nonnull(strstr(out, "\nswitch 15:17 max\nswitch 15:41 min\nswitch 16:19 max\n"
+                                    "switch 17:14 sign\nswitch 17:25 clamp lower\n"
+                                    "switch 17:25 clamp upper\n"));
   free(out);
   built_free(&b);
 }
@@ -901,6 +961,7 @@ static Suite *gen_suite(void) {
   tcase_add_test(phys, test_rotating_hoop);
   tcase_add_test(phys, test_compound_atwood);
   tcase_add_test(phys, test_driven_oscillator);
+  tcase_add_test(phys, test_buffered_shuttle);
   tcase_add_test(phys, test_cart_double_pendulum);
   tcase_add_test(phys, test_not_positive_definite);
   tcase_add_test(phys, test_constrained_pendulum);

@@ -858,6 +858,157 @@ START_TEST(sim_cold_build_says_so) {
 }
 END_TEST
 
+/* The parcel on its pad, piecewise analytic (Newton's law in each phase;
+** from memory, derived here): free fall from h for t1 = sqrt(2h/g), landing
+** at v1 = -sqrt(2gh); pressed, x(tau) = -a + a cos(w tau) + (v1/w) sin(w tau)
+** with w = sqrt(k/m), a = mg/k, leaving the pad again after
+** tau_c = (2 pi - 2 acos(a/R))/w, R = sqrt(a^2 + (v1/w)^2); without damping
+** the motion repeats with period 2 t1 + tau_c. */
+static double parcel_x(double t) {
+  const double m = 0.5, g = 9.81, k = 2000, h = 0.2;
+  double t1 = sqrt(2 * h / g), v1 = -sqrt(2 * g * h), w = sqrt(k / m), a = m * g / k;
+  double R = sqrt(a * a + v1 * v1 / (w * w)), tc = (2 * PI - 2 * acos(a / R)) / w;
+  double period = 2 * t1 + tc;
+  t = fmod(t, period);
+  if (t < t1) return h - g * t * t / 2;
+  if (t < t1 + tc) {
+    double tau = t - t1;
+    return -a + a * cos(w * tau) + v1 / w * sin(w * tau);
+  }
+  double up = t - t1 - tc;  /* rising from the pad at -v1 */
+  return -v1 * up - g * up * up / 2;
+}
+
+/* Largest deviation of a run's x column from the closed form; its summary. */
+static double parcel_error(const char *method, const char *rtol, int events, char **summary) {
+  char *argv[] = {(char *)eomc(), "sim", model_path("parcel_drop.eom"), "--until", "1.5",
+                  "--every", "0.001", "--method", (char *)method, "--rtol", (char *)rtol,
+                  "--atol", "1e-14", events ? NULL : "--no-events", NULL};
+  RunResult r = run_argv(argv);
+  ck_assert_msg(r.status == 0, "status %d: %s", r.status, r.err);
+  int n;
+  double *t = csv_column(r.out, 0, &n), *x = csv_column(r.out, 1, &n), worst = 0;
+  ck_assert_int_eq(n, 1501);
+  for (int i = 0; i < n; i++) worst = fmax(worst, fabs(x[i] - parcel_x(t[i])));
+  free(t);
+  free(x);
+  *summary = r.err;
+  r.err = NULL;
+  run_free(&r);
+  return worst;
+}
+
+/* Located switches keep dopri and radau5 on the closed form across the
+** kinks of the contact force (three landings and take-offs in 1.5 s); the
+** same dopri run stepping across them blindly is much further off. */
+START_TEST(sim_events_contact_spring) {
+  char *sum;
+  double e_dopri = parcel_error("dopri", "1e-10", 1, &sum);
+  ck_assert_msg(e_dopri < 1e-7, "dopri with events: max error %.3g", e_dopri);
+  /* three landings and three take-offs: t1 + n P and t1 + tau_c + n P */
+  const char *line = strstr(sum, " events located at the model's 1 switches");
+  ck_assert_msg(line != NULL, "%s", sum);
+  while (line > sum && line[-1] != ' ') line--;
+  ck_assert_msg(atol(line) == 6, "events: %s", sum);
+  free(sum);
+  double e_radau = parcel_error("radau5", "1e-10", 1, &sum);
+  ck_assert_msg(e_radau < 1e-6, "radau5 with events: max error %.3g", e_radau);
+  free(sum);
+  double e_blind = parcel_error("dopri", "1e-10", 0, &sum);
+  ck_assert_msg(e_blind > 10 * e_dopri, "without events %.3g, with %.3g", e_blind, e_dopri);
+  free(sum);
+}
+END_TEST
+
+/* --events logs each located switch: the first landing at t1 = sqrt(2h/g)
+** (free fall, from memory) with the contact switch x falling through 0;
+** rk4 says that it does not locate them. */
+START_TEST(sim_events_log_and_fixed_step_note) {
+  char *argv[] = {(char *)eomc(), "sim", model_path("parcel_drop.eom"), "--until", "0.3",
+                  "--events", NULL};
+  RunResult r = run_argv(argv);
+  ck_assert_msg(r.status == 0, "status %d: %s", r.status, r.err);
+  const char *ev = strstr(r.err, "event at t = ");
+  ck_assert_msg(ev != NULL, "%s", r.err);
+  double t1 = strtod(ev + 13, NULL);
+  ck_assert_msg(fabs(t1 - sqrt(2 * 0.2 / 9.81)) < 1e-9, "landing at %.12g", t1);
+  ck_assert_msg(strstr(ev, "switch 1 (10:25 max) falls through 0") != NULL, "%s", r.err);
+  ck_assert_msg(strstr(ev, "rises through 0") != NULL, "no take-off in:\n%s", r.err);
+  run_free(&r);
+  char *argv2[] = {(char *)eomc(), "sim", model_path("parcel_drop.eom"), "--until", "0.3",
+                   "--method", "rk4", NULL};
+  r = run_argv(argv2);
+  ck_assert_msg(r.status == 0, "status %d: %s", r.status, r.err);
+  ck_assert_msg(strstr(r.err, "rk4 does not locate the model's 1 switches") != NULL, "%s", r.err);
+  run_free(&r);
+}
+END_TEST
+
+/* Coulomb damping (Den Hartog, Mechanical Vibrations, the section on
+** Coulomb damping; from memory): each half cycle is a free oscillation
+** about +-F/k lasting pi/w, so the turning points drop by 2F/k per half
+** cycle (4F/k per cycle), and the motion ends at the first turning point
+** with |x| <= F/k.  The located events are the turning points.  There the
+** crate would stick; without a sticking law the run cannot go on, and
+** radau5 stops there with a failure and the rows up to the stop. */
+static double coulomb_x(double t, double *t_stop, double *x_stop) {
+  const double m = 1.2, k = 300, F = 2.5, x0 = 0.105, w = sqrt(k / m);
+  double A = x0;
+  int h = 0;
+  while (fabs(A) > F / k && (h + 1) * PI / w <= t) {
+    double c = A > 0 ? F / k : -F / k;
+    A = 2 * c - A;
+    h++;
+  }
+  double c = A > 0 ? F / k : -F / k;
+  *x_stop = A, *t_stop = h * PI / w;
+  if (fabs(A) <= F / k) return A;  /* stopped */
+  return c + (A - c) * cos(w * (t - h * PI / w));
+}
+
+START_TEST(sim_events_coulomb_turning_points) {
+  char *argv[] = {(char *)eomc(), "sim", model_path("coulomb_block.eom"), "--until", "1.15",
+                  "--every", "0.001", "--rtol", "1e-10", "--atol", "1e-14", "--events", NULL};
+  RunResult r = run_argv(argv);
+  ck_assert_msg(r.status == 0, "status %d: %s", r.status, r.err);
+  int n;
+  double *t = csv_column(r.out, 0, &n), *x = csv_column(r.out, 1, &n), worst = 0, ts, xs;
+  ck_assert_int_eq(n, 1151);
+  for (int i = 0; i < n; i++) worst = fmax(worst, fabs(x[i] - coulomb_x(t[i], &ts, &xs)));
+  ck_assert_msg(worst < 1e-7, "max deviation from the closed form %.3g", worst);
+  /* the turning points t = h pi/w, h = 1..5, are the events */
+  const char *ev = r.err;
+  for (int h = 1; h <= 5; h++) {
+    ev = strstr(ev, "event at t = ");
+    ck_assert_msg(ev != NULL, "turning point %d missing:\n%s", h, r.err);
+    ev += 13;
+    double want = h * PI / sqrt(300 / 1.2);
+    ck_assert_msg(fabs(strtod(ev, NULL) - want) < 1e-8, "turning point %d at %.12g, want %.12g",
+                  h, strtod(ev, NULL), want);
+  }
+  free(t);
+  free(x);
+  run_free(&r);
+  /* the sixth turning point is inside |x| <= F/k: the crate stops there */
+  coulomb_x(2, &ts, &xs);
+  ck_assert_msg(fabs(xs - 0.005) < 1e-12 && fabs(ts - 6 * PI / sqrt(250.0)) < 1e-12, "%g %g", xs,
+                ts);
+  char *argv2[] = {(char *)eomc(), "sim", model_path("coulomb_block.eom"), "--until", "2",
+                   "--every", "0.001", "--method", "radau5", "--rtol", "1e-10", "--atol", "1e-14",
+                   NULL};
+  r = run_argv(argv2);
+  ck_assert_msg(r.status == 3, "status %d: %s", r.status, r.err);
+  ck_assert_msg(strstr(r.err, "at t = 1.192") != NULL, "%s", r.err);
+  t = csv_column(r.out, 0, &n);
+  x = csv_column(r.out, 1, &n);
+  ck_assert_msg(fabs(t[n - 1] - ts) < 2e-3, "rows end at %g, the stop is at %g", t[n - 1], ts);
+  ck_assert_msg(fabs(x[n - 1] - xs) < 1e-5, "x = %.10g at the stop, want %.10g", x[n - 1], xs);
+  free(t);
+  free(x);
+  run_free(&r);
+}
+END_TEST
+
 static Suite *sim_suite(void) {
   Suite *s = suite_create("sim");
   TCase *tc = tcase_create("cli");
@@ -883,6 +1034,9 @@ static Suite *sim_suite(void) {
   tcase_add_test(tc, sim_derived_params_follow);
   tcase_add_test(tc, sim_time_dependent_constraint);
   tcase_add_test(tc, sim_vector_outputs);
+  tcase_add_test(tc, sim_events_contact_spring);
+  tcase_add_test(tc, sim_events_coulomb_turning_points);
+  tcase_add_test(tc, sim_events_log_and_fixed_step_note);
   suite_add_tcase(s, tc);
   TCase *te = tcase_create("equilibria");
   tcase_add_checked_fixture(te, setup, teardown);

@@ -77,6 +77,10 @@ static double *eval_graph(const IrGraph *g, const State *s) {
           case IRF_COSH: x = cosh(*a0); break;
           case IRF_TANH: x = tanh(*a0); break;
           case IRF_SIGN: x = (*a0 > 0) - (*a0 < 0); break;
+          case IRF_MIN: x = fmin(v[n->args[0]], v[n->args[1]]); break;
+          case IRF_MAX: x = fmax(v[n->args[0]], v[n->args[1]]); break;
+          case IRF_STEP: x = *a0 > 0 ? 1 : 0; break;
+          case IRF_CLAMP: x = fmin(fmax(*a0, v[n->args[1]]), v[n->args[2]]); break;
         }
         break;
     }

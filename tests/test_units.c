@@ -233,6 +233,24 @@ START_TEST(sums_functions_and_powers) {
 }
 END_TEST
 
+/* min, max and clamp keep their arguments' common unit; sign and step take
+** any unit and give a pure number (builtins.h). */
+START_TEST(branch_functions) {
+  expect_clean(with_head("potential 1/2*k*max(0, x - 0.1*m/m*x)^2 + 1/2*k*min(x, 2*x)^2\n"
+                         "force x = -c*sign(x')*x' - F*step(x) + clamp(F, -m*g, m*g)\n"));
+  expect_error(with_head("potential 1/2*k*x^2\nforce x = max(F, c)\n"), 9, 11,
+               "arguments of max have different units: N and kg/s", NULL);
+  expect_error(with_head("potential 1/2*k*x^2\nforce x = clamp(F, -m*g, m)\n"), 9, 11,
+               "arguments of clamp have different units: N and kg", NULL);
+  /* a clamped length is a length: k * clamp(...) is a force, not an energy */
+  expect_error(with_head("potential 1/2*k*x^2 + k*clamp(x, -x, x)\n"), 8, 21, "J and N", NULL);
+  /* sign's argument must agree inside itself, and sign(x) is a pure number */
+  expect_error(with_head("potential 1/2*k*x^2\nforce x = F*sign(x' - x)\n"), 9, 21,
+               "operands of '-' have different units: m/s and m", NULL);
+  expect_error(with_head("potential 1/2*k*x^2\nforce x = F + sign(x)\n"), 9, 13, "N and 1", NULL);
+}
+END_TEST
+
 START_TEST(vectors_constraints_and_declared_values) {
   const char *head = "coord x [m]\ncoord th [rad]\nparam m = 1 [kg]\nparam L = 0.5 [m]\n"
                      "param g = 9.81 [m/s^2]\nkinetic 1/2*m*(x'^2 + L^2*th'^2)\n";
@@ -372,6 +390,7 @@ int main(void) {
   tcase_add_test(tc, torque_for_an_angle_coordinate);
   tcase_add_test(tc, sqrt_of_square_is_length);
   tcase_add_test(tc, sums_functions_and_powers);
+  tcase_add_test(tc, branch_functions);
   tcase_add_test(tc, vectors_constraints_and_declared_values);
   tcase_add_test(tc, bodies_and_transforms);
   tcase_add_test(tc, partial_units_warn_and_skip);

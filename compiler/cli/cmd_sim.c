@@ -52,6 +52,11 @@ static const char sim_usage_tail[] =
   "  -o OUT.csv         write the CSV there (default: standard output)\n"
   "  --plot OUT.svg     plot coordinates, energies and phase portraits (gnuplot)\n"
   "\n"
+  "models with branch functions (min, max, sign, step, clamp, abs): dopri and\n"
+  "radau5 locate each switch in time and restart there (rk4 and midpoint do not):\n"
+  "  --events           log every located event on standard error\n"
+  "  --no-events        step across the switches without locating them\n"
+  "\n"
   "models with constraints (lambda1.. are the multipliers; the\n"
   "generalized constraint force is +G^T lambda with G = dphi/dq):\n"
   "  --baumgarte A,B    Baumgarte gains in 1/s: G q'' = gamma - 2A phi' - B^2 phi\n"
@@ -85,6 +90,7 @@ typedef struct SimArgs {
   int no_projection, no_initial_fix;
   char **holds;   /* --hold NAME: coordinates the initial fix keeps */
   int nholds;
+  int log_events, no_events;
 } SimArgs;
 
 /* "A,B": two numbers >= 0 separated by a comma; 0 or -1. */
@@ -139,7 +145,13 @@ static int parse_args(int argc, char **argv, SimArgs *a) {
     else if ((v = option_value(argc, argv, &i, "--plot"))) a->plot = v;
     else if ((v = option_value(argc, argv, &i, "-o"))) a->out = v;
     else if ((v = option_value(argc, argv, &i, "--constraint-tol"))) num = &a->constraint_tol;
-    else if (strcmp(arg, "--no-projection") == 0) {
+    else if (strcmp(arg, "--events") == 0) {
+      a->log_events = 1;
+      continue;
+    } else if (strcmp(arg, "--no-events") == 0) {
+      a->no_events = 1;
+      continue;
+    } else if (strcmp(arg, "--no-projection") == 0) {
       a->no_projection = 1;
       continue;
     } else if (strcmp(arg, "--no-initial-fix") == 0) {
@@ -269,6 +281,9 @@ static void print_run_summary(const SimArgs *a, const struct eom_report *rep, co
           lead, a->method, rep->steps, rep->rejected, rep->rhs_evals, rep->t, so->E0, so->E,
           so->E0 != 0 ? drift / fabs(so->E0) : drift, so->E0 != 0 ? " relative" : "",
           action_total(so));
+  if (so->m->ns > 0)
+    fprintf(stderr, "%s%ld events located at the model's %d switches%s\n", lead, rep->events,
+            so->m->ns, a->no_events ? " (--no-events)" : "");
 }
 
 /* Flags of the --hold coordinates (nq ints), or NULL with a message when a
@@ -450,6 +465,13 @@ int cmd_sim(int argc, char **argv) {
   o.no_initial_fix = a.no_initial_fix;
   o.constraint_tol = a.constraint_tol;
   o.hold = hold;
+  o.no_events = a.no_events;
+  o.event_log = a.log_events ? stderr : NULL;
+  if (m->ns > 0 && !a.no_events &&
+      (strcmp(a.method, "rk4") == 0 || strcmp(a.method, "midpoint") == 0))
+    fprintf(stderr,
+            "eomc sim: note: %s does not locate the model's %d switches in time "
+            "(dopri and radau5 do)\n", a.method, m->ns);
 
   eom_csv_write_header(csv, m);
   int st = eom_simulate(m, rv.p, in, rv.x, &o, on_sample, &so, &rep);

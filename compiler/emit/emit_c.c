@@ -238,6 +238,16 @@ static void fn_reset(Emitter *E) {
   E->nroots = 0;
 }
 
+/* Does a call's C form name one of its arguments twice (sign)? */
+static int form_repeats_arg(IrFn fn) {
+  const char *form = scalar_builtins[fn].c_form;
+  for (const char *c = form; *c; c++)
+    if (*c == '%')
+      for (const char *d = c + 2; *d; d++)
+        if (*d == '%' && d[1] == c[1]) return 1;
+  return 0;
+}
+
 /* Decide the temporaries of the function whose roots were just added. */
 static void fn_analyse(Emitter *E) {
   const IrGraph *g = E->g;
@@ -270,11 +280,13 @@ static void fn_analyse(Emitter *E) {
       continue;
     }
     if (!E->no_cse && E->uses[n] > 1) E->tempno[n] = 0;
-    /* A power written as a product, and sign(), repeat their argument:
+    /* A power written as a product, and sign(), repeat an argument:
     ** computed once, unless --no-cse asks for every use in full. */
-    int repeats = (x->op == IR_POW && small_int(E, x->args[1], &k) && (k >= 2 || k <= -2)) ||
-                  (x->op == IR_CALL && x->fn == IRF_SIGN);
+    int repeats = (x->op == IR_POW && small_int(E, x->args[1], &k) && (k >= 2 || k <= -2));
     if (repeats && !E->no_cse && !is_leaf(E, x->args[0])) E->tempno[x->args[0]] = 0;
+    if (x->op == IR_CALL && form_repeats_arg(x->fn) && !E->no_cse)
+      for (int a = 0; a < x->nargs; a++)
+        if (!is_leaf(E, x->args[a])) E->tempno[x->args[a]] = 0;
     long size = 1;
     for (int a = 0; a < x->nargs; a++) {
       int arg = x->args[a];
@@ -474,27 +486,26 @@ static int put_sum(Emitter *E, Buf *b, int n) {
   return PREC_ADD;
 }
 
+/* Write a call by its C form from the table of built-ins (builtins.h):
+** %k is argument k, bare where it fills a whole call slot, else an atom.
+** A form opening with a cast binds as a unary operator. */
 static int put_call(Emitter *E, Buf *b, const IrNode *x) {
-  if (x->fn == IRF_SIGN) {
-    assert(x->nargs == 1);
-    /* (x > 0) - (x < 0) as a double; the argument is a leaf or a temporary. */
-    buf_put(b, "(double)((");
-    put_at(E, b, x->args[0], PREC_ATOM, 0);
-    buf_put(b, " > 0.0) - (");
-    put_at(E, b, x->args[0], PREC_ATOM, 0);
-    buf_put(b, " < 0.0))");
-    return PREC_UNARY;
+  const char *form = scalar_builtins[x->fn].c_form;
+  assert(x->nargs == scalar_builtins[x->fn].arity);
+  for (const char *c = form; *c; c++) {
+    if (*c != '%') {
+      char one[2] = {*c, 0};
+      buf_put(b, one);
+      continue;
+    }
+    int k = c[1] - '0';
+    assert(k >= 0 && k < x->nargs);
+    int whole = c > form && (c[-1] == '(' || (c[-1] == ' ' && c - 1 > form && c[-2] == ',')) &&
+                (c[2] == ')' || c[2] == ',');
+    put_at(E, b, x->args[k], whole ? PREC_LOW : PREC_ATOM, 0);
+    c++;
   }
-  const char *name = ir_fn_name(x->fn);   /* IRF_SIGN was written above */
-  assert(x->nargs == (x->fn == IRF_ATAN2 ? 2 : 1));
-  buf_put(b, name);
-  buf_put(b, "(");
-  for (int a = 0; a < x->nargs; a++) {
-    if (a) buf_put(b, ", ");
-    put_at(E, b, x->args[a], PREC_LOW, 0);
-  }
-  buf_put(b, ")");
-  return PREC_ATOM;
+  return strncmp(form, "(double)", 8) == 0 ? PREC_UNARY : PREC_ATOM;
 }
 
 /* Print |n| (n itself when it is not negative); return its precedence. */
@@ -1104,6 +1115,26 @@ static void emit_outputs(Emitter *E) {
   fputs("}\n\n", E->out);
 }
 
+/* P_switches: the switching functions (generated only when the model has
+** branch functions, so other models' code is unchanged). */
+static void emit_switches(Emitter *E) {
+  const Param ps[] = {P_T, P_Q, P_QD, P_U, P_P, {-1, "double *s", "s"}};
+  char lhs[64];
+  assert(E->s->ns > 0);
+  fn_reset(E);
+  add_roots(E, E->s->switches, E->s->ns);
+  fn_analyse(E);
+  assert(!needs_missing(E, VARS_STATE));
+  emit_signature(E, "void", "switches", ps, NPARAMS(ps), 0);
+  emit_unused(E, ps, NPARAMS(ps));
+  emit_temps(E);
+  for (int i = 0; i < E->s->ns; i++) {
+    snprintf(lhs, sizeof lhs, "s[%d]", i);
+    emit_assign(E, lhs, E->s->switches[i]);
+  }
+  fputs("}\n\n", E->out);
+}
+
 static void emit_constraint(Emitter *E) {
   const Param ps[] = {P_Q, P_P, {-1, "double *phi", "phi"}};
   int nc = E->s->nc;
@@ -1509,6 +1540,14 @@ static void emit_header(Emitter *E) {
       "** their own. */\n"
       "void %s_constraint_gamma(double t, const double *q, const double *qd, const double *p,\n"
       "  double *gamma);\n", P);
+  if (s->ns)
+    fprintf(o,
+      "/* The %d switching functions (P_switch_names): where one changes sign, a\n"
+      "** non-smooth term (min, max, sign, step, clamp, abs) changes branch. */\n"
+      "#define %s_NS %d\n"
+      "void %s_switches(double t, const double *q, const double *qd, const double *u,\n"
+      "  const double *p, double *s);\n",
+      s->ns, P, s->ns, P);
   emit_control_prototypes(o, m, s, P);
   emit_kinematics_prototypes(o, m, s, P);
   fprintf(o, "\n#ifndef EOM_NO_DESCRIPTOR\nstruct eom_model;\nextern const struct eom_model %s_model;\n#endif\n", P);
@@ -1588,6 +1627,23 @@ static void emit_output_names(Emitter *E) {
   }
   assert(k == m->ny);
   emit_texts(E, "output_names", texts, m->ny);
+  free(texts);
+}
+
+/* "LINE:COL fn" (and "lower"/"upper" for a clamp's bounds) per switch. */
+static void emit_switch_names(Emitter *E) {
+  const EomSystem *s = E->s;
+  if (!s->ns) return;
+  char **texts = calloc((size_t)s->ns, sizeof *texts);
+  assert(texts);
+  for (int i = 0; i < s->ns; i++) {
+    const EomSwitch *w = &s->switch_info[i];
+    Buf b = {0};
+    buf_printf(&b, "%d:%d %s%s", w->line, w->col, scalar_builtins[w->fn].name,
+               w->part == 1 ? " lower" : w->part == 2 ? " upper" : "");
+    texts[i] = b.s;
+  }
+  emit_texts(E, "switch_names", texts, s->ns);
   free(texts);
 }
 
@@ -1677,6 +1733,7 @@ static void emit_descriptor(Emitter *E) {
   emit_string_table(E, "input_names", m->inputs, m->ninputs, 0);
   emit_string_table(E, "input_units", m->inputs, m->ninputs, 1);
   emit_output_names(E);
+  emit_switch_names(E);
   emit_double_table(E, "q0", q0, s->nq);
   emit_double_table(E, "qd0", qd0, s->nq);
   emit_control_tables(o, s, P);
@@ -1716,6 +1773,8 @@ static void emit_descriptor(Emitter *E) {
   else fputs("  0, 0,\n", o);
   if (s->nc) fprintf(o, "  %s_constraint_gamma,\n", P);
   else fputs("  0,\n", o);
+  if (s->ns) fprintf(o, "  %d, %s_switches, %s_switch_names,\n", s->ns, P, P);
+  else fputs("  0, 0, 0,\n", o);
   fprintf(o, "};\n#endif\n");
   free(q0);
   free(qd0);
@@ -1736,6 +1795,7 @@ static void emit_source(Emitter *E) {
   emit_inverse(E);
   emit_energy(E);
   emit_outputs(E);
+  if (E->s->ns) emit_switches(E);
   if (E->s->nc) {
     emit_constraint(E);
     emit_constraint_jacobian(E);

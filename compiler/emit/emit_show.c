@@ -254,8 +254,7 @@ static int put_power(Show *S, Text *t, int base, double e, int expo) {
   const IrNode *b = nd(S, base);
   if (S->latex && !named(S, base) && b->op == IR_CALL && b->nargs == 1 && b->fn <= IRF_ATAN &&
       expo < 0 && e == floor(e) && e > 0) {
-    static const char *const fns[] = {"sin", "cos", "tan", "arcsin", "arccos", "arctan"};
-    putf(t, "\\%s^{", fns[b->fn]);
+    putf(t, "%s^{", scalar_builtins[b->fn].tex);
     put_number(t, e);
     put(t, "}\\left(");
     put_at(S, t, b->args[0], PR_LOW, 0);
@@ -346,13 +345,7 @@ static int put_sum(Show *S, Text *t, int n) {
 }
 
 static int put_call(Show *S, Text *t, const IrNode *x) {
-  static const char *const plain[] = {"sin", "cos", "tan", "asin", "acos", "atan", "atan2",
-                                      "exp", "log", "sqrt", "abs", "sinh", "cosh", "tanh", "sign"};
-  static const char *const tex[] = {"\\sin", "\\cos", "\\tan", "\\arcsin", "\\arccos",
-                                    "\\arctan", "\\operatorname{atan2}", "\\exp", "\\log",
-                                    "\\sqrt", "", "\\sinh", "\\cosh", "\\tanh",
-                                    "\\operatorname{sgn}"};
-  assert(x->fn <= IRF_SIGN);
+  assert((int)x->fn >= 0 && (int)x->fn < BF_NSCALAR);
   if (S->latex && x->fn == IRF_SQRT) {
     put(t, "\\sqrt{");
     put_at(S, t, x->args[0], PR_LOW, 0);
@@ -365,7 +358,7 @@ static int put_call(Show *S, Text *t, const IrNode *x) {
     put(t, "\\right|");
     return PR_ATOM;
   }
-  put(t, S->latex ? tex[x->fn] : plain[x->fn]);
+  put(t, S->latex ? scalar_builtins[x->fn].tex : scalar_builtins[x->fn].name);
   put(t, S->latex ? "\\left(" : "(");
   for (int a = 0; a < x->nargs; a++) {
     if (a) put(t, ", ");

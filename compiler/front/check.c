@@ -17,6 +17,8 @@
 #include "front/check.h"
 #include "front/rate_degree.h"
 
+#include "front/builtins.h"
+
 #include <assert.h>
 #include <math.h>
 #include <stdint.h>
@@ -42,31 +44,10 @@ int check_is_keyword(const char *s) {
   return 0;
 }
 
-static const struct {
-  const char *name;
-  int arity;
-} builtins[] = {
-  {"sin", 1},  {"cos", 1},   {"tan", 1},   {"asin", 1},  {"acos", 1},      {"atan", 1},
-  {"atan2", 2}, {"exp", 1},  {"log", 1},   {"sqrt", 1},  {"abs", 1},       {"sinh", 1},
-  {"cosh", 1}, {"tanh", 1},  {"dot", 2},   {"cross", 2}, {"norm", 1},      {"transpose", 1},
-  {"diag", -1}, {"rotx", 1}, {"roty", 1},  {"rotz", 1},  {"dh", 4},        {"pos", 1},
-  {"rot", 1},
-};
-
 /* Returns the arity, -1 for a variadic built-in, -2 when `name` is not one. */
-int check_builtin_arity(const char *name) {
-  for (size_t i = 0; i < sizeof builtins / sizeof builtins[0]; i++)
-    if (strcmp(name, builtins[i].name) == 0) return builtins[i].arity;
-  return -2;
-}
+int check_builtin_arity(const char *name) { return builtin_arity(name); }
 
-static int is_scalar_function(const char *f) {
-  static const char *const fns[] = {"sin", "cos", "tan", "asin", "acos", "atan", "atan2", "exp",
-                                    "log", "sqrt", "abs", "sinh", "cosh", "tanh"};
-  for (size_t i = 0; i < sizeof fns / sizeof fns[0]; i++)
-    if (strcmp(f, fns[i]) == 0) return 1;
-  return 0;
-}
+static int is_scalar_function(const char *f) { return builtin_scalar(f) >= 0; }
 
 static const char *kind_name(DeclKind k) {
   static const char *const names[] = {"coordinate", "param", "const", "input", "let", "output", "body",
@@ -245,28 +226,16 @@ static int eval_const(const Expr *e, int allow_params, double *v, const Expr **b
     default: break;
     }
     break;
-  case EX_CALL:
-    if (!is_scalar_function(e->name) || e->nargs != check_builtin_arity(e->name)) break;
-    if (!eval_const(e->args[0], allow_params, &a, bad)) return 0;
-    if (e->nargs == 2 && !eval_const(e->args[1], allow_params, &b, bad)) return 0;
-    {
-      static const struct {
-        const char *name;
-        double (*f)(double);
-      } fns[] = {{"sin", sin},   {"cos", cos},   {"tan", tan},   {"asin", asin}, {"acos", acos},
-                 {"atan", atan}, {"exp", exp},   {"log", log},   {"sqrt", sqrt}, {"abs", fabs},
-                 {"sinh", sinh}, {"cosh", cosh}, {"tanh", tanh}};
-      if (strcmp(e->name, "atan2") == 0) {
-        *v = atan2(a, b);
-        return 1;
-      }
-      for (size_t i = 0; i < sizeof fns / sizeof fns[0]; i++)
-        if (strcmp(e->name, fns[i].name) == 0) {
-          *v = fns[i].f(a);
-          return 1;
-        }
-    }
-    break;
+  case EX_CALL: {
+    int f = builtin_scalar(e->name);
+    double x[3];
+    if (f < 0 || e->nargs != scalar_builtins[f].arity) break;
+    assert(e->nargs <= 3);
+    for (int i = 0; i < e->nargs; i++)
+      if (!eval_const(e->args[i], allow_params, &x[i], bad)) return 0;
+    *v = builtin_value(f, x);
+    return 1;
+  }
   default: break;
   }
   *bad = e;

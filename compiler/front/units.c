@@ -22,6 +22,7 @@
 #include <stdarg.h>
 #include <stdio.h>
 #include <string.h>
+#include "front/builtins.h"
 #include "front/check.h"
 
 /* pi to double precision (M_PI is not C99). */
@@ -392,29 +393,46 @@ static void need_dimensionless(UnitCheck *uc, const Expr *call, const Expr *arg)
            unit_format(u, 0, s, sizeof s));
 }
 
+/* Unit of a scalar built-in's call, by its rule in builtins.h. */
+static Unit scalar_call_unit(UnitCheck *uc, const Expr *e, UnitRule rule) {
+  char s[96], what[48];
+  Unit u;
+  switch (rule) {
+  case UR_DIMLESS:
+    need_dimensionless(uc, e, e->args[0]);
+    return unit_dimensionless();
+  case UR_AGREE_RATIO:
+  case UR_AGREE_KEEP:
+    snprintf(what, sizeof what, "arguments of %s", e->name);
+    u = expr_unit(uc, e->args[0]);
+    for (int i = 1; i < e->nargs; i++) u = agree(uc, u, expr_unit(uc, e->args[i]), e->loc, what);
+    return rule == UR_AGREE_RATIO ? unit_dimensionless() : u;
+  case UR_ROOT: {
+    Unit r;
+    u = expr_unit(uc, e->args[0]);
+    if (u.kind != UNIT_KNOWN) return u.kind == UNIT_ANY ? u : unknown_unit();
+    if (unit_pow(u, 1, 2, &r) == 0) return r;
+    uerror(uc, e->loc, "square root of a quantity in %s has no unit", unit_format(u, 0, s, sizeof s));
+    return unknown_unit();
+  }
+  case UR_KEEP: return expr_unit(uc, e->args[0]);
+  case UR_ANY_DIMLESS:
+    (void)expr_unit(uc, e->args[0]);  /* its own terms must still agree */
+    return unit_dimensionless();
+  }
+  assert(!"unknown unit rule");
+  return unknown_unit();
+}
+
 static Unit call_unit(UnitCheck *uc, const Expr *e) {
   const char *f = e->name;
   if (strcmp(f, "omega") == 0 && e->args[0]->ref && e->args[0]->ref->kind == DECL_ATTITUDE)
     return unit_div(unit_base(U_RAD), unit_base(U_S));   /* an angular velocity, as an angle's rate */
-  static const char *const scalar_fns[] = {"sin", "cos", "tan", "asin", "acos", "atan", "exp",
-                                           "log", "sinh", "cosh", "tanh", "rotx", "roty", "rotz"};
-  for (size_t i = 0; i < sizeof scalar_fns / sizeof scalar_fns[0]; i++)
-    if (strcmp(f, scalar_fns[i]) == 0) {
-      need_dimensionless(uc, e, e->args[0]);
-      return unit_dimensionless();
-    }
-  if (strcmp(f, "atan2") == 0) {
-    agree(uc, expr_unit(uc, e->args[0]), expr_unit(uc, e->args[1]), e->loc,
-          "arguments of atan2");
+  int fn = builtin_scalar(f);
+  if (fn >= 0) return scalar_call_unit(uc, e, scalar_builtins[fn].unit);
+  if (strcmp(f, "rotx") == 0 || strcmp(f, "roty") == 0 || strcmp(f, "rotz") == 0) {
+    need_dimensionless(uc, e, e->args[0]);
     return unit_dimensionless();
-  }
-  if (strcmp(f, "sqrt") == 0) {
-    Unit u = expr_unit(uc, e->args[0]), r;
-    if (u.kind != UNIT_KNOWN) return u.kind == UNIT_ANY ? u : unknown_unit();
-    if (unit_pow(u, 1, 2, &r) == 0) return r;
-    char s[96];
-    uerror(uc, e->loc, "square root of a quantity in %s has no unit", unit_format(u, 0, s, sizeof s));
-    return unknown_unit();
   }
   if (strcmp(f, "dot") == 0 || strcmp(f, "cross") == 0) {
     Unit a = expr_unit(uc, e->args[0]), b = expr_unit(uc, e->args[1]);
@@ -422,7 +440,7 @@ static Unit call_unit(UnitCheck *uc, const Expr *e) {
     if (a.kind != UNIT_KNOWN || b.kind != UNIT_KNOWN) return unknown_unit();
     return unit_mul(a, b);
   }
-  if (strcmp(f, "abs") == 0 || strcmp(f, "norm") == 0) return expr_unit(uc, e->args[0]);
+  if (strcmp(f, "norm") == 0) return expr_unit(uc, e->args[0]);
   if (strcmp(f, "transpose") == 0) {
     Unit u = expr_unit(uc, e->args[0]);
     return u.kind == UNIT_TRANSFORM ? unknown_unit() : u;

@@ -12,6 +12,8 @@
 #ifndef EOMC_IR_H
 #define EOMC_IR_H
 
+#include "front/builtins.h"
+
 #ifdef __cplusplus
 extern "C" {
 #endif
@@ -37,10 +39,12 @@ typedef enum IrOp {
   IR_CALL     /* fn(args...) */
 } IrOp;
 
+/* A call's function: the scalar built-ins of front/builtins.h, in its
+** order (sign is also abs's derivative). */
 typedef enum IrFn {
-  IRF_SIN, IRF_COS, IRF_TAN, IRF_ASIN, IRF_ACOS, IRF_ATAN, IRF_ATAN2,
-  IRF_EXP, IRF_LOG, IRF_SQRT, IRF_ABS, IRF_SINH, IRF_COSH, IRF_TANH,
-  IRF_SIGN    /* derivative of abs: (x > 0) - (x < 0) */
+#define IR_FN_ID(ID, NAME, ARITY, UNIT, CFORM, TEX, VALUE) IRF_##ID = BF_##ID,
+  EOM_SCALAR_BUILTINS(IR_FN_ID)
+#undef IR_FN_ID
 } IrFn;
 
 typedef struct IrNode {
@@ -49,7 +53,7 @@ typedef struct IrNode {
   IrVar var;      /* IR_VAR */
   int index;      /* IR_VAR */
   double num;     /* IR_NUM */
-  int nargs;
+  int nargs;      /* IR_CALL: the function's arity (at most 3) */
   int *args;      /* node indices, all smaller than this node's */
 } IrNode;
 
@@ -58,7 +62,7 @@ typedef struct IrGraph {
   int nnodes;
 } IrGraph;
 
-/* C name of a function (libm spelling), e.g. "sin". */
+/* Name of a function in the model language, e.g. "sin". */
 const char *ir_fn_name(IrFn fn);
 
 /* Evaluate nodes 0..hi of g in order into v[0..hi]; vars[IrVar] points to

@@ -64,39 +64,8 @@ uint64_t double_bits(double v) {
 
 bool is_commutative(IrOp op) { return op == IR_ADD || op == IR_MUL; }
 
-struct FnName {
-  const char *ginac;
-  IrFn fn;
-};
-const FnName fn_names[] = {
-  {"sin", IRF_SIN},   {"cos", IRF_COS},   {"tan", IRF_TAN},     {"asin", IRF_ASIN},
-  {"acos", IRF_ACOS}, {"atan", IRF_ATAN}, {"atan2", IRF_ATAN2}, {"exp", IRF_EXP},
-  {"log", IRF_LOG},   {"abs", IRF_ABS},   {"sinh", IRF_SINH},   {"cosh", IRF_COSH},
-  {"tanh", IRF_TANH}, {"csgn", IRF_SIGN},
-};
-
 /* Value of fn at constant arguments, the way the generated C computes it. */
-double eval_fn(IrFn fn, const double *a) {
-  switch (fn) {
-    case IRF_SIN: return std::sin(a[0]);
-    case IRF_COS: return std::cos(a[0]);
-    case IRF_TAN: return std::tan(a[0]);
-    case IRF_ASIN: return std::asin(a[0]);
-    case IRF_ACOS: return std::acos(a[0]);
-    case IRF_ATAN: return std::atan(a[0]);
-    case IRF_ATAN2: return std::atan2(a[0], a[1]);
-    case IRF_EXP: return std::exp(a[0]);
-    case IRF_LOG: return std::log(a[0]);
-    case IRF_SQRT: return std::sqrt(a[0]);
-    case IRF_ABS: return std::fabs(a[0]);
-    case IRF_SINH: return std::sinh(a[0]);
-    case IRF_COSH: return std::cosh(a[0]);
-    case IRF_TANH: return std::tanh(a[0]);
-    case IRF_SIGN: return (a[0] > 0) - (a[0] < 0);
-  }
-  assert(!"unknown IrFn");
-  return 0;
-}
+double eval_fn(IrFn fn, const double *a) { return builtin_value(fn, a); }
 
 }  // namespace
 
@@ -600,12 +569,12 @@ struct IrBuilder::Impl {
       ** conjugate and the real part are the value itself, the imaginary part 0. */
       if (name == "conjugate" || name == "real_part") return translate(e.op(0));
       if (name == "imag_part") return num(0);
-      for (const FnName &f : fn_names)
-        if (name == f.ginac) {
-          std::vector<int> args;
-          for (size_t i = 0; i < e.nops(); i++) args.push_back(translate(e.op(i)));
-          return call(f.fn, args);
-        }
+      int fn = ginac_builtin(name);
+      if (fn >= 0 && (int)e.nops() == scalar_builtins[fn].arity) {
+        std::vector<int> args;
+        for (size_t i = 0; i < e.nops(); i++) args.push_back(translate(e.op(i)));
+        return call((IrFn)fn, args);
+      }
       throw SymError{loc, "the equations contain the function '" + name +
                               "', which has no C translation"};
     }

@@ -150,9 +150,10 @@ class DepCache {
 };
 
 /* d/d(var) with a memo: each distinct GiNaC node containing var is
-** differentiated once.  Elementary functions use the textbook derivatives
-** (abs' = csgn, csgn' = 0 away from 0), which keeps GiNaC's conjugate()
-** forms out of the results. */
+** differentiated once.  Built-in functions use the textbook derivatives
+** (abs' = csgn, csgn' = 0 away from 0, branch derivatives of min, max, step,
+** clamp: symbolic_builtins.cc), which keeps GiNaC's conjugate() forms out of
+** the results. */
 class Deriver {
  public:
   Deriver(const ex &var, int id, DepCache *deps) : var_(var), id_(id), deps_(deps) {
@@ -222,29 +223,17 @@ class Deriver {
   }
 
   ex function_derivative(const ex &e) {
-    if (is_ex_the_function(e, atan2)) {
-      const ex &y = e.op(0), &x = e.op(1);
-      ex dy = (*this)(y), dx = (*this)(x);
-      return (x * dy - y * dx) / (pow(x, 2) + pow(y, 2));
+    int f = ginac_builtin(ex_to<function>(e).get_name());
+    if (f < 0 || (int)e.nops() != scalar_builtins[f].arity) return e.diff(ex_to<symbol>(var_));
+    exvector a, d;
+    bool moves = false;
+    for (size_t i = 0; i < e.nops(); i++) {
+      a.push_back(e.op(i));
+      d.push_back((*this)(e.op(i)));
+      moves = moves || !d.back().is_zero();
     }
-    if (e.nops() != 1) return e.diff(ex_to<symbol>(var_));
-    const ex &a = e.op(0);
-    ex da = (*this)(a);
-    if (da.is_zero()) return 0;
-    if (is_ex_the_function(e, sin)) return cos(a) * da;
-    if (is_ex_the_function(e, cos)) return -sin(a) * da;
-    if (is_ex_the_function(e, tan)) return (1 + pow(e, 2)) * da;
-    if (is_ex_the_function(e, asin)) return da / sqrt(1 - pow(a, 2));
-    if (is_ex_the_function(e, acos)) return -da / sqrt(1 - pow(a, 2));
-    if (is_ex_the_function(e, atan)) return da / (1 + pow(a, 2));
-    if (is_ex_the_function(e, exp)) return e * da;
-    if (is_ex_the_function(e, log)) return da / a;
-    if (is_ex_the_function(e, abs)) return csgn(a) * da;
-    if (is_ex_the_function(e, csgn)) return 0;
-    if (is_ex_the_function(e, sinh)) return cosh(a) * da;
-    if (is_ex_the_function(e, cosh)) return sinh(a) * da;
-    if (is_ex_the_function(e, tanh)) return (1 - pow(e, 2)) * da;
-    return e.diff(ex_to<symbol>(var_));
+    if (!moves) return 0;
+    return builtin_derivative((BuiltinFn)f, e, a, d);
   }
 };
 
@@ -343,6 +332,15 @@ struct Term {
   ex e;
 };
 
+/* A switching function: e changes sign where the branch function at loc
+** changes branch (part: which bound of a clamp). */
+struct SwitchFn {
+  SrcLoc loc;
+  BuiltinFn fn;
+  int part;
+  ex e;
+};
+
 class Derivation {
  public:
   Derivation(const Model *m, const SymOptions *opt, Diag *d);
@@ -415,6 +413,10 @@ class Derivation {
   std::vector<std::pair<const Stmt *, Val>> gravity_;
   std::vector<std::pair<const Stmt *, ex>> constraints_;  /* phi = 0, one per entry */
   std::vector<std::pair<const Stmt *, ex>> vconstraints_;  /* A q' - b = 0, one per entry */
+  /* switching functions of the branch functions in the terms, in source order */
+  bool collecting_ = false;
+  std::vector<SwitchFn> switches_;
+  void note_switches(const Expr *x, BuiltinFn f, const exvector &a);
 
   void tick(const char *step);
   ex totald(const ex &e);
@@ -858,26 +860,13 @@ Val Derivation::eval_call(const Expr *x) {
                                             : fmt("%s() needs a vector", name)};
     return args[i];
   };
-  static const struct {
-    const char *name;
-    ex (*f)(const ex &);
-  } scalar_fns[] = {
-    {"sin", [](const ex &a) -> ex { return sin(a); }},   {"cos", [](const ex &a) -> ex { return cos(a); }},
-    {"tan", [](const ex &a) -> ex { return tan(a); }},   {"asin", [](const ex &a) -> ex { return asin(a); }},
-    {"acos", [](const ex &a) -> ex { return acos(a); }}, {"atan", [](const ex &a) -> ex { return atan(a); }},
-    {"exp", [](const ex &a) -> ex { return exp(a); }},   {"log", [](const ex &a) -> ex { return log(a); }},
-    {"sqrt", [](const ex &a) -> ex { return sqrt(a); }}, {"abs", [](const ex &a) -> ex { return abs(a); }},
-    {"sinh", [](const ex &a) -> ex { return sinh(a); }}, {"cosh", [](const ex &a) -> ex { return cosh(a); }},
-    {"tanh", [](const ex &a) -> ex { return tanh(a); }},
-  };
-  for (const auto &f : scalar_fns)
-    if (strcmp(name, f.name) == 0) {
-      need(1);
-      return Val(f.f(sarg(0)));
-    }
-  if (strcmp(name, "atan2") == 0) {
-    need(2);
-    return Val(atan2(sarg(0), sarg(1)));
+  int fn = builtin_scalar(name);
+  if (fn >= 0) {
+    need(scalar_builtins[fn].arity);
+    exvector a;
+    for (int i = 0; i < scalar_builtins[fn].arity; i++) a.push_back(sarg(i));
+    if (collecting_) note_switches(x, (BuiltinFn)fn, a);
+    return Val(make_builtin((BuiltinFn)fn, a));
   }
   if (strcmp(name, "dot") == 0) {
     need(2);
@@ -981,7 +970,21 @@ Val Derivation::eval_call(const Expr *x) {
 
 /* ---- statements ---- */
 
+/* The switching functions of a branch function met in the equations'
+** terms (see SwitchFn): its argument, or the differences that pick its
+** branch. */
+void Derivation::note_switches(const Expr *x, BuiltinFn f, const exvector &a) {
+  auto add = [&](const ex &e, int part) { switches_.push_back(SwitchFn{x->loc, f, part, e}); };
+  switch (f) {
+  case BF_SIGN: case BF_STEP: case BF_ABS: add(a[0], 0); break;
+  case BF_MIN: case BF_MAX: add(a[0] - a[1], 0); break;
+  case BF_CLAMP: add(a[0] - a[1], 1), add(a[0] - a[2], 2); break;
+  default: break;
+  }
+}
+
 void Derivation::collect_terms() {
+  collecting_ = true;
   for (int i = 0; i < m_->nterms; i++) {
     const Stmt *s = m_->terms[i];
     tick("reading the model");
@@ -1015,6 +1018,7 @@ void Derivation::collect_terms() {
       throw SymError{s->loc, fmt("cannot evaluate this statement: %s", e.what())};
     }
   }
+  collecting_ = false;
   /* gravity acts on every body, wherever the statements stand */
   for (const auto &g : gravity_)
     for (size_t k = 0; k < bodies_.size(); k++) {
@@ -1770,6 +1774,22 @@ void Derivation::run(EomSystem *out) {
   }
   for (const ex &e : kr.frame_jacobian) h_fjac.push_back(b.add_root(e, none));
   for (const ex &e : kr.frame_bias) h_fbias.push_back(b.add_root(e, none));
+  /* switching functions: those that can change sign, each once */
+  std::vector<int> h_sw;
+  std::vector<EomSwitch> sw_info;
+  std::vector<ex> sw;
+  for (const SwitchFn &w : switches_) {
+    ex e = unatom(w.e);
+    bool moves = e.has(t_);
+    for (int i = 0; i < n; i++) moves = moves || e.has(q_[i]) || e.has(qd_[i]);
+    for (const ex &u : u_) moves = moves || e.has(u);
+    bool again = false;
+    for (const ex &o : sw) again = again || (e - o).is_zero() || (e + o).is_zero();
+    if (!moves || again) continue;
+    sw.push_back(e);
+    sw_info.push_back(EomSwitch{w.loc.line, w.loc.col, (int)w.fn, w.part});
+    h_sw.push_back(b.add_root(e, w.loc));
+  }
   std::vector<int> h_reg, h_reg0;
   for (const ex &e : reg.Y) h_reg.push_back(b.add_root(e, none));
   for (const ex &e : reg.offset) h_reg0.push_back(b.add_root(e, none));
@@ -1812,6 +1832,11 @@ void Derivation::run(EomSystem *out) {
   out->cyclic = alloc_roots(n);
   for (int i = 0; i < n; i++) out->cyclic[i] = ctl.cyclic[i];
   out->energy_conserved = ctl.energy_conserved;
+  out->ns = (int)sw.size();
+  out->switches = place(h_sw, sw.size());
+  out->switch_info = (EomSwitch *)calloc(sw.size() + 1, sizeof(EomSwitch));
+  if (!out->switch_info) throw std::bad_alloc();
+  for (size_t k = 0; k < sw.size(); k++) out->switch_info[k] = sw_info[k];
   snprintf(out->energy_why, sizeof out->energy_why, "%s", ctl.energy_why.c_str());
   const int ni = (int)pi_index_.size();
   out->ni = ni;
@@ -1972,5 +1997,7 @@ extern "C" void sym_free(EomSystem *s) {
   free(s->frame_decl);
   free(s->frame_jacobian);
   free(s->frame_bias);
+  free(s->switches);
+  free(s->switch_info);
   memset(s, 0, sizeof *s);
 }

@@ -19,6 +19,14 @@
 extern "C" {
 #endif
 
+/* Where a switching function comes from: a branch function of the model's
+** terms (docs/language.md), at line:col of its call. */
+typedef struct EomSwitch {
+  int line, col;
+  int fn;      /* BuiltinFn: sign, step, abs, min, max or clamp */
+  int part;    /* clamp: 1 for x - lo, 2 for x - hi; else 0 */
+} EomSwitch;
+
 typedef struct EomSystem {
   IrGraph g;
   int nq, nu, np, ny, nc;
@@ -70,6 +78,11 @@ typedef struct EomSystem {
   /* params whose default is an expression of earlier params */
   int *param_rule;           /* np     that expression of p, or -1 for a plain default */
   int nderived;              /* entries of param_rule that are not -1 */
+  /* switching functions s(t, q, qd, u, p): a branch of a non-smooth term
+  ** changes where one changes sign (duplicates and constants left out) */
+  int ns;
+  int *switches;             /* ns */
+  EomSwitch *switch_info;    /* ns */
 } EomSystem;
 
 typedef struct SymOptions {

@@ -31,6 +31,20 @@ extern "C" {
 
 namespace eomsym {
 
+/* The built-in scalar functions on the GiNaC side (symbolic_builtins.cc). */
+DECLARE_FUNCTION_2P(eom_min)
+DECLARE_FUNCTION_2P(eom_max)
+DECLARE_FUNCTION_1P(eom_step)
+DECLARE_FUNCTION_3P(eom_clamp)
+/* f of the arguments a, as GiNaC builds it (sign is csgn, sqrt a power). */
+GiNaC::ex make_builtin(BuiltinFn f, const GiNaC::exvector &a);
+/* The BuiltinFn of a GiNaC function's name, -1 when it is not one. */
+int ginac_builtin(const std::string &name);
+/* d e / d var of e = f(a...), given the arguments' derivatives d (the
+** branch derivative for the non-smooth ones). */
+GiNaC::ex builtin_derivative(BuiltinFn f, const GiNaC::ex &e, const GiNaC::exvector &a,
+                             const GiNaC::exvector &d);
+
 /* A model error found by the core, reported at `loc` (line 0: no place). */
 struct SymError {
   SrcLoc loc;

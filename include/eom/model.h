@@ -15,7 +15,7 @@ extern "C" {
 #endif
 
 /* Bumped whenever the layout of struct eom_model changes. */
-#define EOM_MODEL_ABI 6
+#define EOM_MODEL_ABI 7
 
 struct eom_model {
   int abi;                          /* EOM_MODEL_ABI of the generating eomc */
@@ -106,6 +106,16 @@ struct eom_model {
   ** NULL when nc == 0 (and in hand-written descriptors without it). */
   void (*constraint_gamma)(double t, const double *q, const double *qd, const double *p,
                            double *gamma);
+
+  /* Since ABI 7: the ns switching functions s(t, q, qd, u, p); where one
+  ** changes sign a non-smooth term (min, max, sign, step, clamp, abs)
+  ** changes branch.  switch_names[k] is "LINE:COL FUNCTION" of its call
+  ** ("... lower"/"... upper" for a clamp's bounds).  0 and NULL when the
+  ** model has none. */
+  int ns;
+  void (*switches)(double t, const double *q, const double *qd, const double *u,
+                   const double *p, double *s);
+  const char *const *switch_names;
 };
 
 #ifdef __cplusplus

@@ -36,7 +36,8 @@ typedef enum eom_status {
   EOM_ESINGULAR,   /* a Newton matrix is singular */
   EOM_ESTOPPED,    /* the sample callback asked to stop */
   EOM_EMAXSTEPS,   /* more steps than max_steps */
-  EOM_EINPUT       /* an input table could not be read */
+  EOM_EINPUT,      /* an input table could not be read */
+  EOM_ECHATTER     /* a switch keeps crossing back at once (dry friction at rest) */
 } eom_status;
 
 /* Short fixed name of a status, e.g. "step size underflow". */
@@ -50,6 +51,8 @@ struct eom_report {
   long rejected;       /* rejected steps (adaptive methods) */
   long rhs_evals;      /* evaluations of the model's dynamics */
   double residual;     /* final max-norm of the residual (equilibrium) */
+  long events;         /* switches located (dopri, radau5; models with branch
+                          functions): the method restarted at each */
   char message[512];   /* "" on success; else names the time and state */
 };
 
@@ -105,6 +108,11 @@ struct eom_sim_options {
   const int *hold;     /* NULL, or nq flags: the initial fix keeps the
                           coordinates flagged 1 (and their rates) at their
                           given values and moves only the others */
+  /* Models with switching functions (ns > 0): dopri and radau5 locate each
+  ** sign change on the step's dense output and restart there; the
+  ** fixed-step methods do not (docs/runtime.md). */
+  int no_events;       /* 1: step across switches like any other point */
+  FILE *event_log;     /* non-NULL: one line per located event */
 };
 
 void eom_sim_options_init(struct eom_sim_options *o);

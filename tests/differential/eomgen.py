@@ -496,6 +496,31 @@ def pick_names(rng, count, stem, used, tricky):
     return names
 
 
+def add_branch_terms(m, g):
+    """A third of the models get a force and a potential through the branch
+    functions min, max, sign, step and clamp (non-smooth; compared away from
+    their switches).  Drawn from a stream of their own and appended last, so
+    the rest of each model, and the kept reproducers, stay as they were."""
+    b = random.Random(m.seed * 4099 + 5)
+    if b.random() >= 1 / 3:
+        return
+    own = ExprGen(b, m)
+    for _ in range(b.randint(1, 2)):
+        f = b.choice(["min", "max", "sign", "step", "clamp"])
+        a = own.expr(1, {"q", "p", "qd", "t"})
+        c = own.expr(1, {"q", "p"})
+        if f in ("min", "max"):
+            e = ("call", f, [a, c])
+        elif f == "clamp":
+            e = ("call", f, [("sub", a, c), num("-0.6"), num("0.8")])
+        else:
+            e = ("mul", c, ("call", f, [("sub", a, num(number_text(b, -0.5, 0.5)))]))
+        m.terms.append(("force", b.choice(m.coords), e, False))
+    if b.random() < 0.5:
+        x = own.expr(1, {"q", "p"})
+        m.terms.append(("potential", None, ("pow", ("call", "max", [num("0"), x]), num("2")), False))
+
+
 def add_velocity_constraint(m, seed):
     """A quarter of the models with 2 or more coordinates and room for one
     more constraint get a velocity constraint, linear in the rates:
@@ -645,6 +670,7 @@ def generate(seed, max_coords=4):
         if m.inputs and rng.random() < 0.7:
             e = ("add", e, ("mul", ("var", rng.choice(m.inputs)), g.expr(1, {"q", "p"})))
         m.terms.append(("force", c, e, False))
+    add_branch_terms(m, g)
     # Outputs of anything, and a default initial state for some coordinates.
     for name in pick_names(rng, rng.randint(0, 2), "out", used, tricky):
         m.outputs.append((name, g.expr(2, everything)))

@@ -73,8 +73,9 @@ MATRIX_FUNCTIONS = {
 
 
 def without_delta(x):
-    """abs' = sign and sign' = 2 DiracDelta: zero where the generator
-    evaluates (every abs argument stays >= 0.2)."""
+    """abs' = sign and sign' = 2 DiracDelta, step' = DiracDelta, and the
+    branches of min/max: zero where the generator evaluates (every abs
+    argument stays >= 0.2; the sampled points are off the switches)."""
     return x.replace(sympy.DiracDelta, lambda *a: sympy.Integer(0))
 
 
@@ -84,7 +85,7 @@ class Bundle:
 
     def __init__(self, args, named):
         self.names = [(name, len(exprs)) for name, exprs in named]
-        flat = [x for _, exprs in named for x in exprs]
+        flat = [without_delta(sympy.sympify(x)) for _, exprs in named for x in exprs]
         self.fn = sympy.lambdify(args, flat, modules="mpmath", cse=True)
 
     def __call__(self, args):
@@ -258,10 +259,11 @@ class Reference:
         # q = t/(2 + cos q) depends on t (NaN documented).
         self.timed_G = any(self.t in x.free_symbols for row in G for x in row)
         self.fn_phi = sympy.lambdify(args, phi, modules="mpmath", cse=True)
+        G = [[without_delta(x) for x in row] for row in G]
         self.fn_G = sympy.lambdify(args, G, modules="mpmath", cse=True)
         self.fn_gamma = sympy.lambdify(args, gamma, modules="mpmath", cse=True)
         # P_constraint_at takes t: phi, G and dphi/dt, time-dependent or not
-        self.fn_phi_t = sympy.lambdify(args, [sympy.diff(c, self.t) for c in phi],
+        self.fn_phi_t = sympy.lambdify(args, [without_delta(sympy.diff(c, self.t)) for c in phi],
                                        modules="mpmath", cse=True)
 
     def velocity_constraints(self, vphi, args):
@@ -321,7 +323,10 @@ class Reference:
             fn = {"sin": sympy.sin, "cos": sympy.cos, "tan": sympy.tan, "asin": sympy.asin,
                   "acos": sympy.acos, "atan": sympy.atan, "atan2": sympy.atan2,
                   "exp": sympy.exp, "log": sympy.log, "sqrt": sympy.sqrt, "abs": sympy.Abs,
-                  "sinh": sympy.sinh, "cosh": sympy.cosh, "tanh": sympy.tanh}[e[1]]
+                  "sinh": sympy.sinh, "cosh": sympy.cosh, "tanh": sympy.tanh,
+                  "min": sympy.Min, "max": sympy.Max, "sign": sympy.sign,
+                  "step": lambda x: sympy.Heaviside(x, 0),
+                  "clamp": lambda x, lo, hi: sympy.Min(sympy.Max(x, lo), hi)}[e[1]]
             return fn(*args)
         a, b = self.to_sympy(e[1]), self.to_sympy(e[2])
         if k == "add":

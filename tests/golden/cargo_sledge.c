@@ -380,5 +380,6 @@ const struct eom_model cargo_sledge_model = {
   0, 0, 0, 0,
   1, cargo_sledge_velocity_constraint,
   0,
+  0, 0, 0,
 };
 #endif

@@ -3522,5 +3522,6 @@ const struct eom_model picking_arm6_model = {
   1, picking_arm6_frame_names, picking_arm6_frame_outputs, picking_arm6_frame_functions,
   0, 0,
   0,
+  0, 0, 0,
 };
 #endif

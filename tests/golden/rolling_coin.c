@@ -847,5 +847,6 @@ const struct eom_model rolling_coin_model = {
   0, 0, 0, 0,
   2, rolling_coin_velocity_constraint,
   0,
+  0, 0, 0,
 };
 #endif

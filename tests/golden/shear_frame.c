@@ -388,5 +388,6 @@ const struct eom_model shear_frame_model = {
   0, 0, 0, 0,
   0, 0,
   0,
+  0, 0, 0,
 };
 #endif

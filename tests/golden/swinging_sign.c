@@ -338,5 +338,6 @@ const struct eom_model swinging_sign_model = {
   0, 0, 0, 0,
   0, 0,
   0,
+  0, 0, 0,
 };
 #endif

@@ -338,5 +338,6 @@ const struct eom_model telescoping_feeder_model = {
   0, 0, 0, 0,
   0, 0,
   0,
+  0, 0, 0,
 };
 #endif

@@ -363,5 +363,6 @@ const struct eom_model trolley_castor_model = {
   0, 0, 0, 0,
   1, trolley_castor_velocity_constraint,
   0,
+  0, 0, 0,
 };
 #endif

@@ -552,5 +552,6 @@ const struct eom_model warehouse_robot_model = {
   0, 0, 0, 0,
   3, warehouse_robot_velocity_constraint,
   0,
+  0, 0, 0,
 };
 #endif
