@@ -66,9 +66,9 @@ const char *eom_row_unit(const struct eom_model *m, int k, char *buf, size_t siz
 
 int eom_row_eval(const struct eom_model *m, const double *p, double t, const double *x,
                  const double *u, double *row) {
+  assert(m && x && row);
   int nmul = multipliers(m), st = 0;
   double T = 0, V = 0;
-  assert(m && x && row);
   if (!p) p = m->param_defaults;
   double *r = row;
   *r++ = t;
