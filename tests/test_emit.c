@@ -225,7 +225,7 @@ static char *compile_and_run(Fixture *f, const char *prefix, int no_cse, const c
                              const char *compiler) {
   char err[512], exe[1024], inc[1024];
   char *dir = make_temp_dir();
-  EmitOptions o = {prefix, "0123456789abcdef", no_cse};
+  EmitOptions o = {.prefix = prefix, .model_hash = "0123456789abcdef", .no_cse = no_cse};
   ck_assert_msg(emit_c_to_dir(&f->m, &f->s, &o, dir, err, sizeof err) == 0, "emit: %s", err);
   const char *P = prefix ? prefix : f->m.name;
   char cname[256];
@@ -533,7 +533,7 @@ START_TEST(test_files) {
   char err[512];
   build_oscillator(&f, "osc", NULL);
   char *dir = make_temp_dir();
-  EmitOptions o = {NULL, "abc", 0};
+  EmitOptions o = {.model_hash = "abc"};
   ck_assert_int_eq(emit_c_to_dir(&f.m, &f.s, &o, dir, err, sizeof err), 0);
   char path[1024];
   snprintf(path, sizeof path, "%s/osc.c", dir);
@@ -580,7 +580,7 @@ START_TEST(test_nonfinite_constant) {
   f.s.energy_V = num(&f.b, HUGE_VAL);
   f.s.g = f.b.g;
   char *dir = make_temp_dir();
-  EmitOptions o = {NULL, "abc", 0};
+  EmitOptions o = {.model_hash = "abc"};
   ck_assert_int_eq(emit_c_to_dir(&f.m, &f.s, &o, dir, err, sizeof err), -1);
   ck_assert_ptr_nonnull(strstr(err, "not finite"));
   char path[1024];

@@ -204,7 +204,7 @@ static int generate(Frontend *fe, const char *path, const char *dir) {
     return EXIT_MODEL;
   }
   hash_hex(fe->src.text, fe->src.len, texthash);
-  EmitOptions eo = {NULL, texthash, 0};
+  EmitOptions eo = {.model_hash = texthash};
   int rc = 0;
   if (emit_c_to_dir(&fe->model, &sys, &eo, dir, err, sizeof err) != 0) {
     fprintf(stderr, "eomc: error: %s: %s\n", path, err);

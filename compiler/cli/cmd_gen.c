@@ -1,8 +1,8 @@
 /*
 ** cmd_gen.c — `eomc gen`: derive a model's equations of motion and write P.h, P.c.
 **
-**   eomc gen MODEL.eom... [-o DIR] [--prefix NAME] [--no-cse] [--max-seconds S]
-**                         [--depfile FILE] [--quiet | --verbose]
+**   eomc gen MODEL.eom... [-o DIR] [--prefix NAME] [--no-cse] [--no-split]
+**                         [--max-seconds S] [--depfile FILE] [--quiet | --verbose]
 **
 ** Several models are generated one after the other into the same DIR; the
 ** first failure stops the run (files already written stay: each is complete).
@@ -29,8 +29,8 @@
 #include "sym/symbolic.h"
 
 static const char gen_usage[] =
-  "usage: eomc gen MODEL.eom... [-o DIR] [--prefix NAME] [--no-cse] [--max-seconds S]\n"
-  "                             [--depfile FILE] [--quiet | --verbose]\n"
+  "usage: eomc gen MODEL.eom... [-o DIR] [--prefix NAME] [--no-cse] [--no-split]\n"
+  "                             [--max-seconds S] [--depfile FILE] [--quiet | --verbose]\n"
   "\n"
   "Derive the equations of motion of each MODEL.eom and write DIR/P.h and\n"
   "DIR/P.c, standalone C99 (P is the model's name, or NAME).  Files whose\n"
@@ -40,6 +40,8 @@ static const char gen_usage[] =
   "  -o DIR            directory for the two files (default: .); it must exist\n"
   "  --prefix NAME     C prefix of every generated symbol and file (a C identifier)\n"
   "  --no-cse          no common-subexpression elimination (for comparisons)\n"
+  "  --no-split        write every function as one body, however large (a large\n"
+  "                    function is otherwise split into helpers compilers digest faster)\n"
   "  --max-seconds S   give up when the derivation takes longer than S seconds\n"
   "  --max-memory MB   give up when the derivation needs more than MB megabytes\n"
   "  --depfile FILE    also write a Make-syntax rule: DIR/P.h DIR/P.c: MODEL.eom\n"
@@ -66,7 +68,7 @@ typedef struct GenArgs {
   const char **models;   /* argv entries, nmodels of them */
   int nmodels;
   const char *dir, *prefix, *depfile;
-  int no_cse, quiet, verbose;
+  int no_cse, no_split, quiet, verbose;
   double max_seconds;
   double max_memory;     /* MB of address space during the derivation; 0: no limit */
 } GenArgs;
@@ -95,6 +97,10 @@ static int parse_args(int argc, char **argv, GenArgs *a, int *help) {
     }
     if (strcmp(name, "--no-cse") == 0 && !val) {
       a->no_cse = 1;
+      continue;
+    }
+    if (strcmp(name, "--no-split") == 0 && !val) {
+      a->no_split = 1;
       continue;
     }
     if ((strcmp(name, "-q") == 0 || strcmp(name, "--quiet") == 0) && !val) {
@@ -232,7 +238,8 @@ static int gen_one(const GenArgs *a, int i, char **names) {
 
   char hash[HASH_HEX_LEN + 1];
   hash_hex(fe.src.text, fe.src.len, hash);
-  EmitOptions eo = {a->prefix, hash, a->no_cse};
+  EmitOptions eo = {.prefix = a->prefix, .model_hash = hash, .no_cse = a->no_cse,
+                    .no_split = a->no_split};
   int replaced = 0;
   const char *P = a->prefix ? a->prefix : fe.model.name;
   *name = strdup(P);

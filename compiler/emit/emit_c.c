@@ -73,6 +73,7 @@ static int emit_both(const Model *m, const EomSystem *s, const EmitOptions *o, F
   E.P = o->prefix ? o->prefix : m->name;
   E.hash = o->model_hash && o->model_hash[0] ? o->model_hash : "none";
   E.no_cse = o->no_cse;
+  E.no_split = o->no_split;
   if (!is_c_identifier(E.P)) {
     snprintf(err, errlen, "the prefix '%s' is not a C identifier", E.P ? E.P : "");
     return -1;
@@ -91,7 +92,10 @@ static int emit_both(const Model *m, const EomSystem *s, const EmitOptions *o, F
   E.tempno = calloc((size_t)nn + 1, sizeof *E.tempno);
   E.size = calloc((size_t)nn + 1, sizeof *E.size);
   E.slot = calloc((size_t)s->nq * (size_t)s->nq, sizeof *E.slot);
-  if (!E.uses || !E.tempno || !E.size || !E.slot) {
+  E.part = calloc((size_t)nn + 1, sizeof *E.part);
+  E.last_part = calloc((size_t)nn + 1, sizeof *E.last_part);
+  E.wslot = calloc((size_t)nn + 1, sizeof *E.wslot);
+  if (!E.uses || !E.tempno || !E.size || !E.slot || !E.part || !E.last_part || !E.wslot) {
     fputs("eomc: out of memory\n", stderr);
     abort();
   }
@@ -104,6 +108,10 @@ static int emit_both(const Model *m, const EomSystem *s, const EmitOptions *o, F
   free(E.tempno);
   free(E.size);
   free(E.slot);
+  free(E.part);
+  free(E.last_part);
+  free(E.wslot);
+  free(E.part_vars);
   free(E.roots);
   if (E.failed) {
     snprintf(err, errlen, "%s", E.err);

@@ -19,6 +19,7 @@ typedef struct EmitOptions {
   const char *prefix;      /* C prefix P; NULL: the model's name */
   const char *model_hash;  /* hex hash of the model text, written in the header comment */
   int no_cse;              /* inline every node (for benchmarks and debugging) */
+  int no_split;            /* write every function as one body, however large */
 } EmitOptions;
 
 /* Write the header and the source to two streams.  Returns 0 on success. */

@@ -15,8 +15,9 @@ void emit_constraint(Emitter *E) {
   fn_reset(E);
   add_roots(E, E->s->constraint, nc);
   fn_analyse(E);
+  int nan_body = resolve_missing(E, VAR_BIT(IRV_Q) | VAR_BIT(IRV_P));
   emit_signature(E, "void", "constraint", ps, NPARAMS(ps), 0);
-  if (resolve_missing(E, VAR_BIT(IRV_Q) | VAR_BIT(IRV_P))) {
+  if (nan_body) {
     char fill[128];
     snprintf(fill, sizeof fill, "  int i;\n  for (i = 0; i < %d; i++) phi[i] = NAN;\n", nc);
     emit_nan_body(E, ps, NPARAMS(ps), "phi", fill, "constraint_at() takes t.");
@@ -39,8 +40,9 @@ void emit_constraint_jacobian(Emitter *E) {
   fn_reset(E);
   add_roots(E, E->s->constraint_jacobian, nc * nq);
   fn_analyse(E);
+  int nan_body = resolve_missing(E, VAR_BIT(IRV_Q) | VAR_BIT(IRV_P));
   emit_signature(E, "void", "constraint_jacobian", ps, NPARAMS(ps), 0);
-  if (resolve_missing(E, VAR_BIT(IRV_Q) | VAR_BIT(IRV_P))) {
+  if (nan_body) {
     char fill[128];
     snprintf(fill, sizeof fill, "  int i;\n  for (i = 0; i < %d; i++) G[i] = NAN;\n", nc * nq);
     emit_nan_body(E, ps, NPARAMS(ps), "G", fill, "constraint_at() takes t.");

@@ -18,8 +18,9 @@ void emit_mass(Emitter *E) {
   fn_reset(E);
   add_lower(E, E->s->mass);
   fn_analyse(E);
+  int nan_body = resolve_missing(E, VAR_BIT(IRV_Q) | VAR_BIT(IRV_P));
   emit_signature(E, "void", "mass", ps, NPARAMS(ps), 0);
-  if (resolve_missing(E, VAR_BIT(IRV_Q) | VAR_BIT(IRV_P))) {
+  if (nan_body) {
     char fill[128];
     snprintf(fill, sizeof fill, "  int i;\n  for (i = 0; i < %d; i++) M[i] = NAN;\n", nq * nq);
     emit_nan_body(E, ps, NPARAMS(ps), "M", fill, NULL);
@@ -141,6 +142,7 @@ void emit_jacobian(Emitter *E) {
   if (nu) add_roots(E, s->dforcing_du, nq * nu);
   fn_analyse(E);
   assert(!needs_missing(E, VARS_STATE));
+  emit_parts(E, "jacobian");
   fprintf(o, "void %s_jacobian(double t, const double *x, const double *u, const double *p,\n"
              "  double *A, double *B)\n{\n", E->P);
   if (E->vars & VAR_BIT(IRV_Q)) fprintf(o, "  const double *q = x;\n");
@@ -197,8 +199,9 @@ void emit_inverse(Emitter *E) {
   fn_reset(E);
   add_roots(E, E->s->inverse, E->s->nq);
   fn_analyse(E);
+  int nan_body = resolve_missing(E, allowed);
   emit_signature(E, "void", "inverse", ps, NPARAMS(ps), 0);
-  if (resolve_missing(E, allowed)) {
+  if (nan_body) {
     char fill[128];
     snprintf(fill, sizeof fill, "  int i;\n  for (i = 0; i < %d; i++) Q[i] = NAN;\n", E->s->nq);
     emit_nan_body(E, ps, NPARAMS(ps), "Q", fill, NULL);
@@ -220,8 +223,9 @@ void emit_energy(Emitter *E) {
   add_root(E, E->s->energy_T);
   add_root(E, E->s->energy_V);
   fn_analyse(E);
+  int nan_body = resolve_missing(E, VAR_BIT(IRV_Q) | VAR_BIT(IRV_QD) | VAR_BIT(IRV_P));
   emit_signature(E, "void", "energy", ps, NPARAMS(ps), 0);
-  if (resolve_missing(E, VAR_BIT(IRV_Q) | VAR_BIT(IRV_QD) | VAR_BIT(IRV_P))) {
+  if (nan_body) {
     emit_nan_body(E, ps, NPARAMS(ps), "the energy", "  *T = NAN;\n  *V = NAN;\n", NULL);
   } else {
     emit_unused(E, ps, NPARAMS(ps));
@@ -263,8 +267,9 @@ void emit_function_outs(Emitter *E, const char *fname, unsigned args,
       if (outs[k].roots[i] >= 0) add_root(E, outs[k].roots[i]);
   }
   fn_analyse(E);
+  int nan_body = resolve_missing(E, allowed);
   emit_signature(E, "void", fname, ps, nps, 0);
-  if (resolve_missing(E, allowed)) {
+  if (nan_body) {
     snprintf(fill, sizeof fill, "  int i;\n");
     for (int k = 0; k < nouts; k++)
       snprintf(fill + strlen(fill), sizeof fill - strlen(fill),

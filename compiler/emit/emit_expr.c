@@ -176,6 +176,8 @@ void add_lower(Emitter *E, const int *mat) {
 
 void fn_reset(Emitter *E) {
   E->nroots = 0;
+  E->write_nan = 0;
+  E->nparts = 0;
 }
 
 /* Does a call's C form name one of its arguments twice (sign)? */
@@ -241,6 +243,7 @@ void fn_analyse(Emitter *E) {
   }
   for (int n = 0; n <= hi; n++)
     if (E->uses[n] && E->tempno[n] >= 0) E->tempno[n] = E->ntemps++;
+  parts_plan(E);
 }
 
 /* ------------------------------------------------------------------ expressions */
@@ -453,7 +456,8 @@ static int put_mag(Emitter *E, Buf *b, int n) {
   const IrNode *x = emit_node(E, n);
   char num[64];
   if (is_temp(E, n)) {
-    buf_printf(b, "w%d", E->tempno[n]);
+    if (E->wslot[n] >= 0) buf_printf(b, "w[%d]", E->wslot[n]);
+    else buf_printf(b, "w%d", E->tempno[n]);
     return PREC_ATOM;
   }
   switch (x->op) {
@@ -493,13 +497,23 @@ void emit_assign(Emitter *E, const char *lhs, int n) {
   free(b.s);
 }
 
+/* The expression that defines temporary n (not its name). */
+void put_definition(Emitter *E, Buf *b, int n) {
+  assert(is_temp(E, n));
+  E->tempno[n] = -1 - E->tempno[n];      /* print the definition, not the name */
+  put_at(E, b, n, PREC_LOW, 0);
+  E->tempno[n] = -1 - E->tempno[n];
+}
+
 void emit_temps(Emitter *E) {
+  if (E->nparts) {
+    emit_part_calls(E);
+    return;
+  }
   for (int n = 0; n < E->g->nnodes; n++) {
     if (!E->uses[n] || !is_temp(E, n)) continue;
     Buf b = {0};
-    E->tempno[n] = -1 - E->tempno[n];      /* print the definition, not the name */
-    put_at(E, &b, n, PREC_LOW, 0);
-    E->tempno[n] = -1 - E->tempno[n];
+    put_definition(E, &b, n);
     fprintf(E->out, "  const double w%d = %s;\n", E->tempno[n], b.s);
     free(b.s);
   }
@@ -521,7 +535,8 @@ void emit_unused(Emitter *E, const Param *ps, int nps) {
 }
 
 void emit_signature(Emitter *E, const char *ret, const char *fname, const Param *ps,
-                           int nps, int proto) {
+                    int nps, int proto) {
+  if (!proto) emit_parts(E, fname);
   fprintf(E->out, "%s %s_%s(", ret, E->P, fname);
   for (int i = 0; i < nps; i++) fprintf(E->out, "%s%s", i ? ", " : "", ps[i].decl);
   fputs(proto ? ");\n" : ")\n{\n", E->out);
@@ -601,9 +616,12 @@ static int independent_of(const Emitter *E, unsigned vars) {
 int resolve_missing(Emitter *E, unsigned allowed) {
   E->missing = E->vars & ~allowed;
   E->fixed = 0;
+  E->write_nan = 0;
   if (!E->missing) return 0;
-  if (E->missing & ~(VAR_BIT(IRV_T) | VAR_BIT(IRV_U))) return 1;
-  if (!independent_of(E, E->missing)) return 1;
+  if ((E->missing & ~(VAR_BIT(IRV_T) | VAR_BIT(IRV_U))) || !independent_of(E, E->missing)) {
+    E->write_nan = 1;
+    return 1;
+  }
   E->fixed = E->missing;
   return 0;
 }

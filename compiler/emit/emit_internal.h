@@ -64,6 +64,7 @@ typedef struct Emitter {
   const char *P;         /* the prefix */
   const char *hash;
   int no_cse;
+  int no_split;
   FILE *out;
   int failed;
   char err[256];
@@ -78,6 +79,21 @@ typedef struct Emitter {
   unsigned missing;      /* ... that the function's signature does not pass */
   unsigned fixed;        /* ... of those, mentioned but shown not to matter: zero locals */
   int ntemps;
+  int write_nan;         /* resolve_missing() chose a NaN body */
+
+  /* A function too big for a compiler to digest as one body is split: its
+  ** temporaries are computed by static helpers P_fname_partK, each of a
+  ** bounded size (emit_parts.c).  A temporary read only inside its own
+  ** helper stays a local `const double wK`; one read later lives in a slot
+  ** of the array w[] the function passes to its helpers, and slots are
+  ** reused once their temporary is dead.  nparts == 0: one body. */
+  int nparts;
+  int *part;             /* by node: the helper (0-based) defining a temporary */
+  int *last_part;        /* by node: the last helper reading it, nparts: the body */
+  int *wslot;            /* by node: its slot in w[], or -1 for a local */
+  int nwslots;
+  unsigned *part_vars;   /* VAR_BIT of the variables each helper reads */
+  const char *part_fname;   /* the split function's name after the prefix */
 
   /* The LDLᵀ pattern: slot[i*nq + j] (j <= i) is the index in the packed
   ** factor array, or -1 for a structural zero of L. */
@@ -112,6 +128,8 @@ void put_at(Emitter *E, Buf *b, int n, int minprec, int magnitude);
 int prints_negative(const Emitter *E, int n);
 void emit_assign(Emitter *E, const char *lhs, int n);
 void emit_temps(Emitter *E);
+/* The expression that defines temporary n (not its name). */
+void put_definition(Emitter *E, Buf *b, int n);
 
 /* ------------------------------------------------------------------ function frames */
 
@@ -133,6 +151,15 @@ int resolve_missing(Emitter *E, unsigned allowed);
 void emit_fixed_locals(Emitter *E);
 void emit_nan_body(Emitter *E, const Param *ps, int nps, const char *what, const char *fill,
                    const char *also);
+
+/* ------------------------------------------------------------------ helpers (emit_parts.c) */
+
+/* After fn_analyse: decide whether the function is split, and how. */
+void parts_plan(Emitter *E);
+/* Before the function's signature: its helpers (nothing when unsplit). */
+void emit_parts(Emitter *E, const char *fname);
+/* In the body, in place of the temporaries: w[] and the helpers' calls. */
+void emit_part_calls(Emitter *E);
 
 /* ------------------------------------------------------------------ LDLᵀ (emit_ldl.c) */
 
