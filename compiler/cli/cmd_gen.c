@@ -2,7 +2,7 @@
 ** cmd_gen.c — `eomc gen`: derive a model's equations of motion and write P.h, P.c.
 **
 **   eomc gen MODEL.eom... [-o DIR] [--prefix NAME] [--no-cse] [--no-split]
-**                         [--max-seconds S] [--depfile FILE] [--quiet | --verbose]
+**                         [--float] [--only LIST] [--max-seconds S] [--depfile FILE] [--quiet | --verbose]
 **
 ** Several models are generated one after the other into the same DIR; the
 ** first failure stops the run (files already written stay: each is complete).
@@ -30,7 +30,8 @@
 
 static const char gen_usage[] =
   "usage: eomc gen MODEL.eom... [-o DIR] [--prefix NAME] [--no-cse] [--no-split]\n"
-  "                             [--max-seconds S] [--depfile FILE] [--quiet | --verbose]\n"
+  "                             [--float] [--only LIST] [--max-seconds S] [--depfile FILE]\n"
+  "                             [--quiet | --verbose]\n"
   "\n"
   "Derive the equations of motion of each MODEL.eom and write DIR/P.h and\n"
   "DIR/P.c, standalone C99 (P is the model's name, or NAME).  Files whose\n"
@@ -42,6 +43,11 @@ static const char gen_usage[] =
   "  --no-cse          no common-subexpression elimination (for comparisons)\n"
   "  --no-split        write every function as one body, however large (a large\n"
   "                    function is otherwise split into helpers compilers digest faster)\n"
+  "  --float           single-precision code (float, 1.5f, sinf) for small processors;\n"
+  "                    it has no descriptor P_model (the runtime works in double)\n"
+  "  --only LIST       write only these functions (comma-separated names after the\n"
+  "                    prefix, e.g. accel,jacobian) and what they need; the\n"
+  "                    descriptor's pointers to the others are 0\n"
   "  --max-seconds S   give up when the derivation takes longer than S seconds\n"
   "  --max-memory MB   give up when the derivation needs more than MB megabytes\n"
   "  --depfile FILE    also write a Make-syntax rule: DIR/P.h DIR/P.c: MODEL.eom\n"
@@ -67,8 +73,8 @@ static int is_identifier(const char *s) {
 typedef struct GenArgs {
   const char **models;   /* argv entries, nmodels of them */
   int nmodels;
-  const char *dir, *prefix, *depfile;
-  int no_cse, no_split, quiet, verbose;
+  const char *dir, *prefix, *depfile, *only;
+  int no_cse, no_split, single, quiet, verbose;
   double max_seconds;
   double max_memory;     /* MB of address space during the derivation; 0: no limit */
 } GenArgs;
@@ -103,6 +109,10 @@ static int parse_args(int argc, char **argv, GenArgs *a, int *help) {
       a->no_split = 1;
       continue;
     }
+    if (strcmp(name, "--float") == 0 && !val) {
+      a->single = 1;
+      continue;
+    }
     if ((strcmp(name, "-q") == 0 || strcmp(name, "--quiet") == 0) && !val) {
       a->quiet = 1;
       continue;
@@ -113,7 +123,7 @@ static int parse_args(int argc, char **argv, GenArgs *a, int *help) {
     }
     int takes = strcmp(name, "-o") == 0 || strcmp(name, "--output") == 0 ||
                 strcmp(name, "--prefix") == 0 || strcmp(name, "--max-seconds") == 0 ||
-                strcmp(name, "--max-memory") == 0 ||
+                strcmp(name, "--max-memory") == 0 || strcmp(name, "--only") == 0 ||
                 strcmp(name, "--depfile") == 0;
     if (!takes) return usage_error("unknown option '%s'", arg);
     if (!val) {
@@ -129,6 +139,10 @@ static int parse_args(int argc, char **argv, GenArgs *a, int *help) {
       if (!is_identifier(val) || strlen(val) > 200)
         return usage_error("--prefix '%s' is not a C identifier (letters, digits, _; not a digit first)", val);
       a->prefix = val;
+    } else if (strcmp(name, "--only") == 0) {
+      if (!val[strspn(val, ", ")])
+        return usage_error("%s: the list of functions is empty", "--only");
+      a->only = val;
     } else if (strcmp(name, "--max-memory") == 0) {
       char *end;
       errno = 0;
@@ -239,7 +253,8 @@ static int gen_one(const GenArgs *a, int i, char **names) {
   char hash[HASH_HEX_LEN + 1];
   hash_hex(fe.src.text, fe.src.len, hash);
   EmitOptions eo = {.prefix = a->prefix, .model_hash = hash, .no_cse = a->no_cse,
-                    .no_split = a->no_split};
+                    .no_split = a->no_split, .single_precision = a->single,
+                    .only = a->only};
   int replaced = 0;
   const char *P = a->prefix ? a->prefix : fe.model.name;
   *name = strdup(P);
@@ -252,10 +267,11 @@ static int gen_one(const GenArgs *a, int i, char **names) {
   if (rc != 0) {
     /* nothing written */
   } else if (emit_c_files(&fe.model, &sys, &eo, a->dir, &replaced, err, sizeof err) != 0) {
-    /* The emitter words problems of the model itself as "the model ..."; the
-    ** rest are failures to write. */
+    /* The emitter words problems of the model itself as "the model ...", a
+    ** bad --only list as "--only: ..."; the rest are failures to write. */
     fprintf(stderr, "eomc: error: %s: %s\n", path, err);
-    rc = strncmp(err, "the model", 9) == 0 ? EXIT_MODEL : EXIT_RUN;
+    rc = strncmp(err, "the model", 9) == 0 ? EXIT_MODEL
+       : strncmp(err, "--only", 6) == 0 ? EXIT_USAGE : EXIT_RUN;
   } else if (a->verbose) {
     /* Say what happened to the files: written, or left as they were. */
     char what[1200];

@@ -16,40 +16,75 @@
 #include <string.h>
 #include "emit/fsutil.h"
 
-static void emit_source(Emitter *E) {
-  FILE *o = E->out;
-  emit_banner(E, "source");
-  fprintf(o, "#include <math.h>\n#include \"%s.h\"\n\n", E->P);
-  emit_ldl_factor(E);
-  emit_ldl_solve(E);
-  emit_mass(E);
-  emit_forcing(E);
-  emit_accel(E);
-  emit_rhs(E);
-  emit_jacobian(E);
-  emit_inverse(E);
-  emit_energy(E);
-  emit_outputs(E);
-  if (E->s->ns) emit_switches(E);
-  if (E->s->nc) {
-    emit_constraint(E);
-    emit_constraint_jacobian(E);
-    emit_constraint_at(E);
+/* A writer of one part of the output, run into memory first when --only
+** filters what it wrote. */
+static void write_filtered(Emitter *E, void (*writer)(Emitter *),
+                           void (*filter)(const Emitter *, const char *, FILE *)) {
+  if (!E->only) {
+    writer(E);
+    return;
   }
-  if (E->s->nvc) emit_velocity_constraint(E);
-  if (E->s->nc + E->s->nvc) emit_accel_constrained(E);
-  if (E->s->nc) emit_constraint_gamma(E);
+  char *buf = NULL;
+  size_t len = 0;
+  FILE *out = E->out, *mem = open_memstream(&buf, &len);
+  if (!mem) {
+    fputs("eomc: out of memory\n", stderr);
+    abort();
+  }
+  E->out = mem;
+  writer(E);
+  fclose(mem);
+  E->out = out;
+  filter(E, buf, out);
+  free(buf);
+}
+
+static void write_header(Emitter *E) {
+  write_filtered(E, emit_header, select_filter_header);
+}
+
+/* The static LDLᵀ routines serve accel, jacobian and accel_constrained. */
+static int needs_ldl(const Emitter *E) {
+  return emit_wants(E, "accel") || emit_wants(E, "jacobian") ||
+         (E->s->nc + E->s->nvc > 0 && emit_wants(E, "accel_constrained"));
+}
+
+static void emit_source(Emitter *E) {
+  typedef void (*Writer)(Emitter *);
+  static const struct { const char *fname; Writer write; } fixed[] = {
+    {"mass", emit_mass}, {"forcing", emit_forcing}, {"accel", emit_accel}, {"rhs", emit_rhs},
+    {"jacobian", emit_jacobian}, {"inverse", emit_inverse}, {"energy", emit_energy},
+    {"outputs", emit_outputs}};
+  const EomSystem *s = E->s;
+  emit_banner(E, "source");
+  fprintf(E->out, "#include <math.h>\n#include \"%s.h\"\n\n", E->P);
+  if (needs_ldl(E)) {
+    emit_ldl_factor(E);
+    emit_ldl_solve(E);
+  }
+  for (size_t i = 0; i < sizeof fixed / sizeof *fixed; i++)
+    if (emit_wants(E, fixed[i].fname)) fixed[i].write(E);
+  if (s->ns && emit_wants(E, "switches")) emit_switches(E);
+  if (s->nc && emit_wants(E, "constraint")) emit_constraint(E);
+  if (s->nc && emit_wants(E, "constraint_jacobian")) emit_constraint_jacobian(E);
+  if (s->nc && emit_wants(E, "constraint_at")) emit_constraint_at(E);
+  if (s->nvc && emit_wants(E, "velocity_constraint")) emit_velocity_constraint(E);
+  if (s->nc + s->nvc && emit_wants(E, "accel_constrained")) emit_accel_constrained(E);
+  if (s->nc && emit_wants(E, "constraint_gamma")) emit_constraint_gamma(E);
   PlainFunction fns[EMIT_CONTROL_MAX_FUNCTIONS];
-  int nfns = emit_control_functions(E->s, fns);
+  int nfns = emit_control_functions(s, fns);
   for (int k = 0; k < nfns; k++)
-    emit_plain_function(E, fns[k].fname, fns[k].args, fns[k].out, fns[k].roots, fns[k].n);
+    if (emit_wants(E, fns[k].fname))
+      emit_plain_function(E, fns[k].fname, fns[k].args, fns[k].out, fns[k].roots, fns[k].n);
   KinematicFunction *kfns = NULL;
-  int nk = emit_kinematics_functions(E->m, E->s, &kfns);
+  int nk = emit_kinematics_functions(E->m, s, &kfns);
   for (int k = 0; k < nk; k++)
-    emit_function_outs(E, kfns[k].fname, kfns[k].args, kfns[k].outs, kfns[k].nouts);
+    if (emit_wants(E, kfns[k].fname))
+      emit_function_outs(E, kfns[k].fname, kfns[k].args, kfns[k].outs, kfns[k].nouts);
   emit_kinematics_free(kfns, nk);
   emit_defaults(E);
-  emit_descriptor(E);
+  /* struct eom_model holds double functions: no descriptor under --float */
+  if (!E->single) write_filtered(E, emit_descriptor, select_filter_descriptor);
 }
 
 /* ------------------------------------------------------------------ entry points */
@@ -59,6 +94,31 @@ static int is_c_identifier(const char *s) {
   for (; *s; s++)
     if (!(isalnum((unsigned char)*s) || *s == '_')) return 0;
   return 1;
+}
+
+/* --float: the double-precision text goes to memory first, then through
+** the single-precision rewrite (emit_float.c) to the real streams. */
+static int write_single(Emitter *E, FILE *h_out, FILE *c_out, char *err, size_t errlen) {
+  char *hbuf = NULL, *cbuf = NULL;
+  size_t hlen = 0, clen = 0;
+  FILE *h = open_memstream(&hbuf, &hlen), *c = open_memstream(&cbuf, &clen);
+  if (!h || !c) {
+    fputs("eomc: out of memory\n", stderr);
+    abort();
+  }
+  E->out = h;
+  write_header(E);
+  E->out = c;
+  emit_source(E);
+  fclose(h);
+  fclose(c);
+  int rc = 0;
+  if (!E->failed)
+    rc = emit_float_rewrite(hbuf, hlen, h_out, err, errlen) != 0 ||
+         emit_float_rewrite(cbuf, clen, c_out, err, errlen) != 0 ? -1 : 0;
+  free(hbuf);
+  free(cbuf);
+  return rc;
 }
 
 static int emit_both(const Model *m, const EomSystem *s, const EmitOptions *o, FILE *h_out,
@@ -74,6 +134,7 @@ static int emit_both(const Model *m, const EomSystem *s, const EmitOptions *o, F
   E.hash = o->model_hash && o->model_hash[0] ? o->model_hash : "none";
   E.no_cse = o->no_cse;
   E.no_split = o->no_split;
+  E.single = o->single_precision;
   if (!is_c_identifier(E.P)) {
     snprintf(err, errlen, "the prefix '%s' is not a C identifier", E.P ? E.P : "");
     return -1;
@@ -100,10 +161,15 @@ static int emit_both(const Model *m, const EomSystem *s, const EmitOptions *o, F
     abort();
   }
   ldl_pattern(&E);
-  E.out = h_out;
-  emit_header(&E);
-  E.out = c_out;
-  emit_source(&E);
+  int rc = select_functions(&E, o->only, err, errlen);
+  if (rc == 0 && E.single)
+    rc = write_single(&E, h_out, c_out, err, errlen);
+  else if (rc == 0) {
+    E.out = h_out;
+    write_header(&E);
+    E.out = c_out;
+    emit_source(&E);
+  }
   free(E.uses);
   free(E.tempno);
   free(E.size);
@@ -112,11 +178,13 @@ static int emit_both(const Model *m, const EomSystem *s, const EmitOptions *o, F
   free(E.last_part);
   free(E.wslot);
   free(E.part_vars);
+  select_free(&E);
   free(E.roots);
   if (E.failed) {
     snprintf(err, errlen, "%s", E.err);
     return -1;
   }
+  if (rc != 0) return -1;
   if (ferror(h_out) || ferror(c_out)) {
     snprintf(err, errlen, "cannot write the generated code");
     return -1;

@@ -20,6 +20,8 @@ typedef struct EmitOptions {
   const char *model_hash;  /* hex hash of the model text, written in the header comment */
   int no_cse;              /* inline every node (for benchmarks and debugging) */
   int no_split;            /* write every function as one body, however large */
+  int single_precision;    /* float throughout, no descriptor (gen --float) */
+  const char *only;        /* comma-separated functions to write (gen --only); NULL: all */
 } EmitOptions;
 
 /* Write the header and the source to two streams.  Returns 0 on success. */

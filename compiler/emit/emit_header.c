@@ -21,13 +21,22 @@ void emit_banner(Emitter *E, const char *what) {
     "** x = [q; qd]; matrices are row-major; p holds the parameters in the\n"
     "** order below.  %s_accel solves M(q) qdd = f(t, q, qd, u) and returns\n"
     "** nonzero, writing nothing, when M is not positive definite; %s_rhs and\n"
-    "** %s_jacobian then write NaN into the rows they could not compute.\n"
-    "** The descriptor %s_model (struct eom_model) is compiled when the\n"
-    "** runtime's header <eom/model.h> is on the include path; compile with\n"
-    "** -DEOM_NO_DESCRIPTOR to leave it out and need nothing but <math.h>.\n"
-    "*/\n",
+    "** %s_jacobian then write NaN into the rows they could not compute.\n",
     E->P, what[0] == 'h' ? "h" : "c", what[0] == 'h' ? "declarations" : "equations of motion",
-    E->P, EOMC_VERSION, E->hash, E->P, E->P, E->P, E->P);
+    E->P, EOMC_VERSION, E->hash, E->P, E->P, E->P);
+  if (E->only)
+    fputs("** Written with --only: of the functions above, only those declared in\n"
+          "** the header exist.\n", E->out);
+  if (E->single)
+    fputs("** Single precision (eomc gen --float): float arrays, constants and\n"
+          "** functions throughout.  No descriptor: the runtime works in double.\n"
+          "*/\n", E->out);
+  else
+    fprintf(E->out,
+      "** The descriptor %s_model (struct eom_model) is compiled when the\n"
+      "** runtime's header <eom/model.h> is on the include path; compile with\n"
+      "** -DEOM_NO_DESCRIPTOR to leave it out and need nothing but <math.h>.\n"
+      "*/\n", E->P);
 }
 
 /* The unit annotation as written: products, quotients and powers of names. */
@@ -198,6 +207,7 @@ void emit_header(Emitter *E) {
       s->ns, P, s->ns, P);
   emit_control_prototypes(o, m, s, P);
   emit_kinematics_prototypes(o, m, s, P);
-  fprintf(o, "\n#ifndef EOM_NO_DESCRIPTOR\nstruct eom_model;\nextern const struct eom_model %s_model;\n#endif\n", P);
+  if (!E->single)
+    fprintf(o, "\n#ifndef EOM_NO_DESCRIPTOR\nstruct eom_model;\nextern const struct eom_model %s_model;\n#endif\n", P);
   fprintf(o, "\n#ifdef __cplusplus\n}\n#endif\n#endif\n");
 }

@@ -65,6 +65,11 @@ typedef struct Emitter {
   const char *hash;
   int no_cse;
   int no_split;
+  int single;            /* --float: rewritten to single precision at the end */
+  int only;              /* --only: fn_selected says which functions P.c gets */
+  char **fn_names;       /* every function P.c can have, after the prefix */
+  int *fn_selected;
+  int nfn;
   FILE *out;
   int failed;
   char err[256];
@@ -160,6 +165,25 @@ void parts_plan(Emitter *E);
 void emit_parts(Emitter *E, const char *fname);
 /* In the body, in place of the temporaries: w[] and the helpers' calls. */
 void emit_part_calls(Emitter *E);
+
+/* ------------------------------------------------------------------ --only (emit_select.c) */
+
+/* List the model's functions and select those of `only` (a comma-separated
+** list; NULL: all) with what they need.  0, or -1 with a message in err. */
+int select_functions(Emitter *E, const char *only, char *err, size_t errlen);
+/* Does P.c get the function P_fname (a name select_functions listed)? */
+int emit_wants(const Emitter *E, const char *fname);
+void select_free(Emitter *E);
+/* Copy the NUL-terminated P.h text / descriptor text to out, leaving out
+** what belongs to functions not selected. */
+void select_filter_header(const Emitter *E, const char *text, FILE *out);
+void select_filter_descriptor(const Emitter *E, const char *text, FILE *out);
+
+/* ------------------------------------------------------------------ --float (emit_float.c) */
+
+/* Copy the n bytes of generated C in s to out in single precision.
+** Returns 0, or -1 with a message in err. */
+int emit_float_rewrite(const char *s, size_t n, FILE *out, char *err, size_t errlen);
 
 /* ------------------------------------------------------------------ LDLᵀ (emit_ldl.c) */
 
