@@ -14,6 +14,7 @@
 */
 #include "emit/emit_c.h"
 #include "emit/emit_control.h"
+#include "emit/emit_attitude.h"
 #include "emit/emit_kinematics.h"
 
 #include <assert.h>
@@ -229,7 +230,7 @@ static void add_roots(Emitter *E, const int *r, int n) {
 
 /* The lower triangle (j <= i) of an nq x nq symmetric matrix of roots. */
 static void add_lower(Emitter *E, const int *mat) {
-  int nq = E->s->nq;
+  int nq = E->s->nv;
   for (int i = 0; i < nq; i++)
     for (int j = 0; j <= i; j++) add_root(E, mat[i * nq + j]);
 }
@@ -607,7 +608,7 @@ static const char *var_list(unsigned vars) {
 /* ------------------------------------------------------------------ the LDLᵀ pattern */
 
 static void ldl_pattern(Emitter *E) {
-  int nq = E->s->nq;
+  int nq = E->s->nv;
   int *nz = E->slot;
   for (int i = 0; i < nq; i++)
     for (int j = 0; j < nq; j++) nz[i * nq + j] = j <= i && (i == j || !is_zero(E, E->s->mass[i * nq + j]));
@@ -624,14 +625,14 @@ static void ldl_pattern(Emitter *E) {
 }
 
 static int slot(const Emitter *E, int i, int j) {
-  int nq = E->s->nq;
+  int nq = E->s->nv;
   assert(i >= 0 && j >= 0 && i < nq && j < nq);
   return i >= j ? E->slot[i * nq + j] : E->slot[j * nq + i];
 }
 
 static void emit_ldl_factor(Emitter *E) {
   FILE *o = E->out;
-  int nq = E->s->nq;
+  int nq = E->s->nv;
   fprintf(o, "/* M = L D L^T in place, for this model's sparsity pattern: a[] holds the\n"
              "** packed lower triangle of M on entry, L below the diagonal and D on it on\n"
              "** return.  Returns nonzero when a pivot is not positive and finite. */\n");
@@ -677,7 +678,7 @@ static void emit_ldl_factor(Emitter *E) {
 
 static void emit_ldl_solve(Emitter *E) {
   FILE *o = E->out;
-  int nq = E->s->nq;
+  int nq = E->s->nv;
   fprintf(o, "/* Solve L D L^T x = b in place (b becomes x), with a[] from %s_ldl_factor. */\n", E->P);
   fprintf(o, "static void %s_ldl_solve(const double *a, double *b)\n{\n", E->P);
   for (int i = 0; i < nq; i++) {
@@ -804,7 +805,7 @@ static void emit_nan_body(Emitter *E, const Param *ps, int nps, const char *what
 
 static void emit_mass(Emitter *E) {
   const Param ps[] = {P_Q, P_P, {-1, "double *M", "M"}};
-  int nq = E->s->nq;
+  int nq = E->s->nv;
   char lhs[64];
   fn_reset(E);
   add_lower(E, E->s->mass);
@@ -833,13 +834,13 @@ static void emit_forcing(Emitter *E) {
   const Param ps[] = {P_T, P_Q, P_QD, P_U, P_P, {-1, "double *f", "f"}};
   char lhs[64];
   fn_reset(E);
-  add_roots(E, E->s->forcing, E->s->nq);
+  add_roots(E, E->s->forcing, E->s->nv);
   fn_analyse(E);
   assert(!needs_missing(E, VARS_STATE));
   emit_signature(E, "void", "forcing", ps, NPARAMS(ps), 0);
   emit_unused(E, ps, NPARAMS(ps));
   emit_temps(E);
-  for (int i = 0; i < E->s->nq; i++) {
+  for (int i = 0; i < E->s->nv; i++) {
     snprintf(lhs, sizeof lhs, "f[%d]", i);
     emit_assign(E, lhs, E->s->forcing[i]);
   }
@@ -849,7 +850,7 @@ static void emit_forcing(Emitter *E) {
 /* a[slot] = M_ij for every stored entry of the lower triangle (fill-in
 ** slots are written by the factorization itself). */
 static void emit_mass_slots(Emitter *E) {
-  int nq = E->s->nq;
+  int nq = E->s->nv;
   char lhs[64];
   for (int i = 0; i < nq; i++)
     for (int j = 0; j <= i; j++) {
@@ -865,7 +866,7 @@ static void emit_accel(Emitter *E) {
   char lhs[64];
   fn_reset(E);
   add_lower(E, E->s->mass);
-  add_roots(E, E->s->forcing, E->s->nq);
+  add_roots(E, E->s->forcing, E->s->nv);
   fn_analyse(E);
   assert(!needs_missing(E, VARS_STATE));
   emit_signature(E, "int", "accel", ps, NPARAMS(ps), 0);
@@ -874,7 +875,7 @@ static void emit_accel(Emitter *E) {
   emit_temps(E);
   emit_mass_slots(E);
   fprintf(E->out, "  if (%s_ldl_factor(a) != 0) return 1;\n", E->P);
-  for (int i = 0; i < E->s->nq; i++) {
+  for (int i = 0; i < E->s->nv; i++) {
     snprintf(lhs, sizeof lhs, "qdd[%d]", i);
     emit_assign(E, lhs, E->s->forcing[i]);
   }
@@ -883,18 +884,23 @@ static void emit_accel(Emitter *E) {
 
 static void emit_rhs(Emitter *E) {
   FILE *o = E->out;
-  int nq = E->s->nq;
+  int nq = E->s->nq, nv = E->s->nv;
   fprintf(o, "void %s_rhs(double t, const double *x, const double *u, const double *p, double *xdot)\n{\n", E->P);
-  fprintf(o, "  double qdd[%d];\n  int i;\n", nq);
+  fprintf(o, "  double qdd[%d];\n  int i;\n", nv);
   fprintf(o, "  if (%s_accel(t, x, x + %d, u, p, qdd) != 0)\n", E->P, nq);
-  fprintf(o, "    for (i = 0; i < %d; i++) qdd[i] = NAN;   /* M not positive definite */\n", nq);
+  fprintf(o, "    for (i = 0; i < %d; i++) qdd[i] = NAN;   /* M not positive definite */\n", nv);
+  if (E->s->nattitudes) {   /* q' = N(q) v, v' = qdd */
+    fprintf(o, "  %s_kinematics(x, x + %d, xdot);\n", E->P, nq);
+    fprintf(o, "  for (i = 0; i < %d; i++) xdot[%d + i] = qdd[i];\n}\n\n", nv, nq);
+    return;
+  }
   fprintf(o, "  for (i = 0; i < %d; i++) {\n    xdot[i] = x[%d + i];\n    xdot[%d + i] = qdd[i];\n  }\n}\n\n",
           nq, nq, nq);
 }
 
 /* "  c[i] = df - (dM_i0 qdd[0] + ...);" for one column of the Jacobian. */
 static int emit_jac_entry(Emitter *E, int i, int df, const int *dM) {
-  int nq = E->s->nq, any = 0;
+  int nq = E->s->nv, any = 0;
   Buf b = {0};
   if (!is_zero(E, df)) {
     put_at(E, &b, df, PREC_LOW, 0);
@@ -919,7 +925,7 @@ static int emit_jac_entry(Emitter *E, int i, int df, const int *dM) {
 static void emit_jacobian(Emitter *E) {
   FILE *o = E->out;
   const EomSystem *s = E->s;
-  int nq = s->nq, nu = s->nu, nx = 2 * nq;
+  int nq = s->nq, nv = s->nv, nu = s->nu, nx = nq + nv;
   char lhs[64];
   /* Which columns of d qdd/d(x, u) are not structurally zero, and whether
   ** any needs qdd itself (through dM/dq). */
@@ -927,23 +933,23 @@ static void emit_jacobian(Emitter *E) {
   int *live = calloc((size_t)(nx + nu), sizeof *live);
   assert(live);
   for (int col = 0; col < nx + nu; col++)
-    for (int i = 0; i < nq; i++) {
+    for (int i = 0; i < nv; i++) {
       int df = col < nq ? s->dforcing_dq[i * nq + col]
-             : col < nx ? s->dforcing_dqd[i * nq + col - nq] : s->dforcing_du[i * nu + col - nx];
+             : col < nx ? s->dforcing_dqd[i * nv + col - nq] : s->dforcing_du[i * nu + col - nx];
       if (!is_zero(E, df)) live[col] = 1;
-      for (int j = 0; col < nq && j < nq; j++) {
-        int d = s->dmass_dq[col * nq * nq + (i >= j ? i * nq + j : j * nq + i)];
+      for (int j = 0; col < nq && j < nv; j++) {
+        int d = s->dmass_dq[col * nv * nv + (i >= j ? i * nv + j : j * nv + i)];
         if (!is_zero(E, d)) live[col] = need_qdd = 1;
       }
       need_c |= live[col];
     }
   fn_reset(E);
   add_lower(E, s->mass);
-  if (need_qdd) add_roots(E, s->forcing, nq);
-  add_roots(E, s->dforcing_dq, nq * nq);
-  add_roots(E, s->dforcing_dqd, nq * nq);
-  for (int k = 0; k < nq; k++) add_lower(E, s->dmass_dq + k * nq * nq);
-  if (nu) add_roots(E, s->dforcing_du, nq * nu);
+  if (need_qdd) add_roots(E, s->forcing, nv);
+  add_roots(E, s->dforcing_dq, nv * nq);
+  add_roots(E, s->dforcing_dqd, nv * nv);
+  for (int k = 0; k < nq; k++) add_lower(E, s->dmass_dq + k * nv * nv);
+  if (nu) add_roots(E, s->dforcing_du, nv * nu);
   fn_analyse(E);
   assert(!needs_missing(E, VARS_STATE));
   fprintf(o, "void %s_jacobian(double t, const double *x, const double *u, const double *p,\n"
@@ -951,8 +957,8 @@ static void emit_jacobian(Emitter *E) {
   if (E->vars & VAR_BIT(IRV_Q)) fprintf(o, "  const double *q = x;\n");
   if (E->vars & VAR_BIT(IRV_QD)) fprintf(o, "  const double *qd = x + %d;\n", nq);
   fprintf(o, "  double a[%d];\n", E->nslots);
-  if (need_qdd) fprintf(o, "  double qdd[%d];\n", nq);
-  if (need_c) fprintf(o, "  double c[%d];\n", nq);
+  if (need_qdd) fprintf(o, "  double qdd[%d];\n", nv);
+  if (need_c) fprintf(o, "  double c[%d];\n", nv);
   fprintf(o, "  int i;\n");
   {
     const Param ps[] = {P_T, P_U, P_P};
@@ -962,14 +968,15 @@ static void emit_jacobian(Emitter *E) {
   if (!nu) fprintf(o, "  (void)B;\n");
   fprintf(o, "  for (i = 0; i < %d; i++) A[i] = 0.0;\n", nx * nx);
   if (nu) fprintf(o, "  for (i = 0; i < %d; i++) B[i] = 0.0;\n", nx * nu);
-  fprintf(o, "  for (i = 0; i < %d; i++) A[i*%d + %d + i] = 1.0;   /* d q'/d q' = I */\n", nq, nx, nq);
+  if (s->nattitudes) emit_attitude_jacobian_rows(o, E->m, nq, nv);   /* d q'/dx */
+  else fprintf(o, "  for (i = 0; i < %d; i++) A[i*%d + %d + i] = 1.0;   /* d q'/d q' = I */\n", nq, nx, nq);
   emit_temps(E);
   emit_mass_slots(E);
   fprintf(o, "  if (%s_ldl_factor(a) != 0) {   /* M not positive definite */\n", E->P);
   fprintf(o, "    for (i = %d; i < %d; i++) A[i] = NAN;\n", nq * nx, nx * nx);
   if (nu) fprintf(o, "    for (i = %d; i < %d; i++) B[i] = NAN;\n", nq * nu, nx * nu);
   fprintf(o, "    return;\n  }\n");
-  for (int i = 0; need_qdd && i < nq; i++) {
+  for (int i = 0; need_qdd && i < nv; i++) {
     snprintf(lhs, sizeof lhs, "qdd[%d]", i);
     emit_assign(E, lhs, s->forcing[i]);
   }
@@ -981,15 +988,15 @@ static void emit_jacobian(Emitter *E) {
     if (col < nq) fprintf(o, "  /* d qdd / d q[%d] */\n", col);
     else if (col < nx) fprintf(o, "  /* d qdd / d qd[%d] */\n", col - nq);
     else fprintf(o, "  /* d qdd / d u[%d] */\n", col - nx);
-    for (int i = 0; i < nq; i++) {
-      if (col < nq) any |= emit_jac_entry(E, i, s->dforcing_dq[i * nq + col], s->dmass_dq + col * nq * nq);
-      else if (col < nx) any |= emit_jac_entry(E, i, s->dforcing_dqd[i * nq + col - nq], NULL);
+    for (int i = 0; i < nv; i++) {
+      if (col < nq) any |= emit_jac_entry(E, i, s->dforcing_dq[i * nq + col], s->dmass_dq + col * nv * nv);
+      else if (col < nx) any |= emit_jac_entry(E, i, s->dforcing_dqd[i * nv + col - nq], NULL);
       else any |= emit_jac_entry(E, i, s->dforcing_du[i * nu + col - nx], NULL);
     }
     assert(any);
     fprintf(o, "  %s_ldl_solve(a, c);\n", E->P);
-    if (col < nx) fprintf(o, "  for (i = 0; i < %d; i++) A[(%d + i)*%d + %d] = c[i];\n", nq, nq, nx, col);
-    else fprintf(o, "  for (i = 0; i < %d; i++) B[(%d + i)*%d + %d] = c[i];\n", nq, nq, nu, col - nx);
+    if (col < nx) fprintf(o, "  for (i = 0; i < %d; i++) A[(%d + i)*%d + %d] = c[i];\n", nv, nq, nx, col);
+    else fprintf(o, "  for (i = 0; i < %d; i++) B[(%d + i)*%d + %d] = c[i];\n", nv, nq, nu, col - nx);
   }
   free(live);
   fputs("}\n\n", o);
@@ -1000,18 +1007,18 @@ static void emit_inverse(Emitter *E) {
   unsigned allowed = VAR_BIT(IRV_T) | VAR_BIT(IRV_Q) | VAR_BIT(IRV_QD) | VAR_BIT(IRV_QDD) | VAR_BIT(IRV_P);
   char lhs[64];
   fn_reset(E);
-  add_roots(E, E->s->inverse, E->s->nq);
+  add_roots(E, E->s->inverse, E->s->nv);
   fn_analyse(E);
   emit_signature(E, "void", "inverse", ps, NPARAMS(ps), 0);
   if (resolve_missing(E, allowed)) {
     char fill[128];
-    snprintf(fill, sizeof fill, "  int i;\n  for (i = 0; i < %d; i++) Q[i] = NAN;\n", E->s->nq);
+    snprintf(fill, sizeof fill, "  int i;\n  for (i = 0; i < %d; i++) Q[i] = NAN;\n", E->s->nv);
     emit_nan_body(E, ps, NPARAMS(ps), "Q", fill, NULL);
   } else {
     emit_unused(E, ps, NPARAMS(ps));
     emit_fixed_locals(E);
     emit_temps(E);
-    for (int i = 0; i < E->s->nq; i++) {
+    for (int i = 0; i < E->s->nv; i++) {
       snprintf(lhs, sizeof lhs, "Q[%d]", i);
       emit_assign(E, lhs, E->s->inverse[i]);
     }
@@ -1458,6 +1465,7 @@ static void emit_header(Emitter *E) {
   } else {
     fprintf(o, "#define %s_NC %d   /* constraints */\n\n", P, s->nc);
   }
+  if (m->nattitudes) emit_attitude_header(o, m, P);
   /* Index macros, e.g. p[P_P_mass], and the meaning of every slot. */
   static const struct { const char *tag, *arr, *what; } kinds[] = {
     {"Q", "q", "coordinates (qd, qdd: their rates)"}, {"P", "p", "parameters (= default)"},
@@ -1601,6 +1609,35 @@ static void emit_string_table(Emitter *E, const char *name, Decl **ds, int n, in
   free(texts);
 }
 
+/* Names, units and descriptions of the entries of q: the coordinates', then
+** each attitude's quaternion entries "R.w" ... "R.z" (no unit). */
+static void emit_coord_tables(Emitter *E) {
+  const Model *m = E->m;
+  if (!m->nattitudes) {
+    emit_string_table(E, "coord_names", m->coords, m->ncoords, 0);
+    emit_string_table(E, "coord_units", m->coords, m->ncoords, 1);
+    emit_string_table(E, "coord_descs", m->coords, m->ncoords, 2);
+    return;
+  }
+  static const char *const part = "wxyz";
+  int nq = E->s->nq;
+  for (int field = 0; field < 3; field++) {
+    char **texts = calloc((size_t)nq, sizeof *texts);
+    assert(texts);
+    for (int i = 0; i < nq; i++) {
+      Buf b = {0};
+      const Decl *d = i < m->ncoords ? m->coords[i] : m->attitudes[(i - m->ncoords) / 4];
+      if (field == 0 && i < m->ncoords) buf_put(&b, d->name);
+      else if (field == 0) buf_printf(&b, "%s.%c", d->name, part[(i - m->ncoords) % 4]);
+      else if (field == 2) buf_put(&b, d->desc ? d->desc : "");
+      else if (i < m->ncoords) unit_text(&b, d->unit);
+      texts[i] = b.s ? b.s : calloc(1, 1);
+    }
+    emit_texts(E, field == 0 ? "coord_names" : field == 1 ? "coord_units" : "coord_descs", texts, nq);
+    free(texts);
+  }
+}
+
 /* The name of each entry of y: the output's name, or name[i] and name[i,j]
 ** (1-based, as the model language indexes) for a vector or matrix output. */
 static void emit_output_names(Emitter *E) {
@@ -1684,6 +1721,19 @@ static void emit_derived_params(Emitter *E) {
   fputs("}\n\n", o);
 }
 
+/* q0 (nq) and v0 (nv): the coordinates' `initial` values and rates, then
+** each attitude's quaternion and omega. */
+static void initial_state(const Model *m, double *q0, double *v0) {
+  for (int i = 0; i < m->ncoords; i++) {
+    q0[i] = m->q0 ? m->q0[i] : 0.0;
+    v0[i] = m->qd0 ? m->qd0[i] : 0.0;
+  }
+  for (int k = 0; k < m->nattitudes; k++) {
+    for (int c = 0; c < 4; c++) q0[m->ncoords + 4 * k + c] = m->attitude_q0[4 * k + c];
+    for (int c = 0; c < 3; c++) v0[m->ncoords + 3 * k + c] = m->omega0[3 * k + c];
+  }
+}
+
 static void emit_defaults(Emitter *E) {
   FILE *o = E->out;
   const Model *m = E->m;
@@ -1698,14 +1748,19 @@ static void emit_defaults(Emitter *E) {
   fputs("}\n\n", o);
   emit_derived_params(E);
   fprintf(o, "void %s_initial_state(double *x)\n{\n", E->P);
+  double *q0 = calloc((size_t)nq, sizeof *q0), *v0 = calloc((size_t)E->s->nv, sizeof *v0);
+  assert(q0 && v0);
+  initial_state(m, q0, v0);
   for (int i = 0; i < nq; i++) {
-    format_number(E, m->q0 ? m->q0[i] : 0.0, num, sizeof num);
+    format_number(E, q0[i], num, sizeof num);
     fprintf(o, "  x[%d] = %s;\n", i, num);
   }
-  for (int i = 0; i < nq; i++) {
-    format_number(E, m->qd0 ? m->qd0[i] : 0.0, num, sizeof num);
+  for (int i = 0; i < E->s->nv; i++) {
+    format_number(E, v0[i], num, sizeof num);
     fprintf(o, "  x[%d] = %s;\n", nq + i, num);
   }
+  free(q0);
+  free(v0);
   fputs("}\n\n", o);
 }
 
@@ -1714,18 +1769,13 @@ static void emit_descriptor(Emitter *E) {
   const Model *m = E->m;
   const EomSystem *s = E->s;
   const char *P = E->P;
-  double *q0 = calloc((size_t)s->nq, sizeof *q0), *qd0 = calloc((size_t)s->nq, sizeof *qd0);
+  double *q0 = calloc((size_t)s->nq, sizeof *q0), *qd0 = calloc((size_t)s->nv, sizeof *qd0);
   double *pd = calloc((size_t)s->np + 1, sizeof *pd);
   assert(q0 && qd0 && pd);
-  for (int i = 0; i < s->nq; i++) {
-    q0[i] = m->q0 ? m->q0[i] : 0.0;
-    qd0[i] = m->qd0 ? m->qd0[i] : 0.0;
-  }
+  initial_state(m, q0, qd0);
   for (int i = 0; i < s->np; i++) pd[i] = m->params[i]->number;
   fprintf(o, "#ifndef EOM_NO_DESCRIPTOR\n#include <eom/model.h>\n\n");
-  emit_string_table(E, "coord_names", m->coords, m->ncoords, 0);
-  emit_string_table(E, "coord_units", m->coords, m->ncoords, 1);
-  emit_string_table(E, "coord_descs", m->coords, m->ncoords, 2);
+  emit_coord_tables(E);
   emit_string_table(E, "param_names", m->params, m->nparams, 0);
   emit_string_table(E, "param_units", m->params, m->nparams, 1);
   emit_string_table(E, "param_descs", m->params, m->nparams, 2);
@@ -1735,7 +1785,8 @@ static void emit_descriptor(Emitter *E) {
   emit_output_names(E);
   emit_switch_names(E);
   emit_double_table(E, "q0", q0, s->nq);
-  emit_double_table(E, "qd0", qd0, s->nq);
+  emit_double_table(E, "qd0", qd0, s->nv);
+  emit_attitude_tables(o, m, P);
   emit_control_tables(o, s, P);
   emit_kinematics_tables(o, m, s, P);
   fprintf(o, "\nconst struct eom_model %s_model = {\n", P);
@@ -1744,9 +1795,9 @@ static void emit_descriptor(Emitter *E) {
   fprintf(o, ",\n  \"%s\",\n", E->hash);
   fprintf(o, "  %d, %d, %d, %d, %d,\n", s->nq, s->nu, s->np, s->ny, s->nc);
 #define TABLE(name, n) fprintf(o, (n) ? "  %s_" name ",\n" : "  0,\n", P)
-  TABLE("coord_names", m->ncoords);
-  TABLE("coord_units", m->ncoords);
-  TABLE("coord_descs", m->ncoords);
+  TABLE("coord_names", s->nq);
+  TABLE("coord_units", s->nq);
+  TABLE("coord_descs", s->nq);
   TABLE("param_names", m->nparams);
   TABLE("param_units", m->nparams);
   TABLE("param_descs", m->nparams);
@@ -1775,6 +1826,7 @@ static void emit_descriptor(Emitter *E) {
   else fputs("  0,\n", o);
   if (s->ns) fprintf(o, "  %d, %s_switches, %s_switch_names,\n", s->ns, P, P);
   else fputs("  0, 0, 0,\n", o);
+  emit_attitude_fields(o, m, P);
   fprintf(o, "};\n#endif\n");
   free(q0);
   free(qd0);
@@ -1790,6 +1842,7 @@ static void emit_source(Emitter *E) {
   emit_mass(E);
   emit_forcing(E);
   emit_accel(E);
+  if (E->m->nattitudes) emit_attitude_functions(E->out, E->m, E->P);
   emit_rhs(E);
   emit_jacobian(E);
   emit_inverse(E);
@@ -1851,11 +1904,12 @@ static int emit_both(const Model *m, const EomSystem *s, const EmitOptions *o, F
     snprintf(err, errlen, "the model has no generalized coordinates");
     return -1;
   }
-  assert(s->np == m->nparams && s->nu == m->ninputs && s->ny == m->ny && s->nq == m->ncoords);
+  assert(s->np == m->nparams && s->nu == m->ninputs && s->ny == m->ny);
+  assert(s->nq == m->ncoords + 4 * m->nattitudes && s->nv == m->ncoords + 3 * m->nattitudes);
   E.uses = calloc((size_t)nn + 1, sizeof *E.uses);
   E.tempno = calloc((size_t)nn + 1, sizeof *E.tempno);
   E.size = calloc((size_t)nn + 1, sizeof *E.size);
-  E.slot = calloc((size_t)s->nq * (size_t)s->nq, sizeof *E.slot);
+  E.slot = calloc((size_t)s->nv * (size_t)s->nv, sizeof *E.slot);
   if (!E.uses || !E.tempno || !E.size || !E.slot) {
     fputs("eomc: out of memory\n", stderr);
     abort();

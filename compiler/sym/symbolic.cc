@@ -351,9 +351,14 @@ class Derivation {
   Diag *diag_;  /* for warnings; errors are thrown as SymError */
   double max_seconds_;
   std::chrono::steady_clock::time_point start_;
-  int nq_, nu_, np_;
+  /* nq_ entries of q: the coordinates, then 4 per attitude (its quaternion);
+  ** nv_ of the velocities v: the coordinates' rates, then 3 per attitude
+  ** (omega); ncoord_ coordinates. */
+  int nq_, nv_, ncoord_, nu_, np_;
   ex t_;
-  std::vector<ex> q_, qd_, qdd_, u_, p_;
+  std::vector<ex> q_, qd_, qdd_, u_, p_;  /* qd_, qdd_: v and v' (nv_ each) */
+  std::vector<ex> qrate_;                 /* nq_: q' in terms of q and v (N(q) v) */
+  std::vector<std::array<ex, 12>> att_N_;  /* per attitude: N(q), q' = N omega */
   VarTable vars_;
   DepCache deps_;
   Deriver dt_;
@@ -420,6 +425,8 @@ class Derivation {
 
   void tick(const char *step);
   ex totald(const ex &e);
+  ex dv(int j, const ex &e);
+  std::string rate_name(int j) const;
   Val rate(const Val &v);
   ex unatom(const ex &e);
 
@@ -469,24 +476,50 @@ Derivation::Derivation(const Model *m, const SymOptions *opt, Diag *d)
       diag_(d),
       max_seconds_(opt ? opt->max_seconds : 0),
       start_(std::chrono::steady_clock::now()),
-      nq_(m->ncoords),
+      nq_(m->ncoords + 4 * m->nattitudes),
+      nv_(m->ncoords + 3 * m->nattitudes),
+      ncoord_(m->ncoords),
       nu_(m->ninputs),
       np_(m->nparams),
       t_(realsymbol("t")),
       dt_(t_, deps_.add_var(t_), &deps_) {
   vars_[t_] = VarRef{IRV_T, 0};
-  for (int i = 0; i < nq_; i++) {
-    const char *name = m->coords[i]->name;
+  auto add_q = [this](const std::string &name) {
+    int i = (int)q_.size();
     q_.push_back(realsymbol(name));
-    qd_.push_back(realsymbol(std::string(name) + "'"));
-    qdd_.push_back(realsymbol(std::string(name) + "''"));
     vars_[q_[i]] = VarRef{IRV_Q, i};
+    dq_.emplace_back(q_[i], deps_.add_var(q_[i]), &deps_);
+  };
+  auto add_v = [this](const std::string &name) {
+    int i = (int)qd_.size();
+    qd_.push_back(realsymbol(name + "'"));
+    qdd_.push_back(realsymbol(name + "''"));
     vars_[qd_[i]] = VarRef{IRV_QD, i};
     vars_[qdd_[i]] = VarRef{IRV_QDD, i};
-    dq_.emplace_back(q_[i], deps_.add_var(q_[i]), &deps_);
     dqd_.emplace_back(qd_[i], deps_.add_var(qd_[i]), &deps_);
     dqdd_.emplace_back(qdd_[i], deps_.add_var(qdd_[i]), &deps_);
+  };
+  for (int i = 0; i < ncoord_; i++) {
+    add_q(m->coords[i]->name);
+    add_v(m->coords[i]->name);
+    qrate_.push_back(qd_[i]);
   }
+  for (int a = 0; a < m->nattitudes; a++) {
+    const std::string name = m->attitudes[a]->name;
+    static const char *const part[4] = {"w", "x", "y", "z"};
+    for (int k = 0; k < 4; k++) add_q(name + "." + part[k]);
+    for (int k = 0; k < 3; k++) add_v(fmt("omega(%s)[%d]", name.c_str(), k + 1));
+    const ex *quat = &q_[ncoord_ + 4 * a];
+    std::array<ex, 12> N;
+    attitude_rate_map(quat, N.data());
+    att_N_.push_back(N);
+    for (int k = 0; k < 4; k++) {
+      exvector t;
+      for (int c = 0; c < 3; c++) t.push_back(N[3 * k + c] * qd_[ncoord_ + 3 * a + c]);
+      qrate_.push_back(add(t));
+    }
+  }
+  assert((int)q_.size() == nq_ && (int)qd_.size() == nv_);
   for (int i = 0; i < nu_; i++) {
     u_.push_back(realsymbol(m->inputs[i]->name));
     vars_[u_[i]] = VarRef{IRV_U, i};
@@ -503,7 +536,7 @@ Derivation::Derivation(const Model *m, const SymOptions *opt, Diag *d)
     pi_index_.push_back(j);
     dpi_.emplace_back(p_[j], deps_.add_var(p_[j]), &deps_);
   }
-  force_.assign(nq_, ex(0));
+  force_.assign(nv_, ex(0));
 }
 
 void Derivation::tick(const char *step) {
@@ -523,7 +556,9 @@ ex Derivation::totald(const ex &e) {
   if (!d.is_zero()) terms.push_back(d);
   for (int i = 0; i < nq_; i++) {
     d = dq_[i](e);
-    if (!d.is_zero()) terms.push_back(d * qd_[i]);
+    if (!d.is_zero()) terms.push_back(d * qrate_[i]);
+  }
+  for (int i = 0; i < nv_; i++) {
     d = dqd_[i](e);
     if (!d.is_zero()) terms.push_back(d * qdd_[i]);
   }
@@ -532,6 +567,30 @@ ex Derivation::totald(const ex &e) {
     if (!d.is_zero()) terms.push_back(d * atoms_[k].accel);
   }
   return terms.empty() ? ex(0) : ex(add(terms));
+}
+
+/* The derivative of e along velocity j: de/dq_j for a coordinate; for
+** entry c of an attitude's omega, the body-frame direction
+** X_c e = sum_m de/dq_m N_mc (symbolic_attitude.cc).  Generalized forces,
+** partial velocities and the Euler-Lagrange terms all take this in place
+** of d/dq, so coordinates and attitudes share one derivation. */
+ex Derivation::dv(int j, const ex &e) {
+  assert(j >= 0 && j < nv_);
+  if (j < ncoord_) return dq_[j](e);
+  int a = (j - ncoord_) / 3, c = (j - ncoord_) % 3;
+  exvector t;
+  for (int m = 0; m < 4; m++) {
+    ex d = dq_[ncoord_ + 4 * a + m](e);
+    if (!d.is_zero()) t.push_back(d * att_N_[a][3 * m + c]);
+  }
+  return t.empty() ? ex(0) : ex(add(t));
+}
+
+/* "x'" for a coordinate, "omega(R)[2]" for an attitude's velocity. */
+std::string Derivation::rate_name(int j) const {
+  assert(j >= 0 && j < nv_);
+  if (j < ncoord_) return std::string(m_->coords[j]->name) + "'";
+  return fmt("omega(%s)[%d]", m_->attitudes[(j - ncoord_) / 3]->name, (j - ncoord_) % 3 + 1);
 }
 
 /* The rate of each entry: an atom, or 0 for a constant. */
@@ -604,7 +663,7 @@ Val Derivation::eval_name(const Expr *x) {
   }
   switch (d->kind) {
     case DECL_COORD:
-      assert(d->index >= 0 && d->index < nq_);
+      assert(d->index >= 0 && d->index < ncoord_);
       return Val(q_[d->index]);
     case DECL_PARAM:
       assert(d->index >= 0 && d->index < np_);
@@ -631,7 +690,12 @@ Val Derivation::eval_name(const Expr *x) {
     case DECL_OUTPUT: return let_value(d);
     case DECL_BODY:
       throw SymError{x->loc, fmt("bodies are not supported yet ('%s')", d->name)};
-    case DECL_ATTITUDE: break;   /* refused by sym_derive before any evaluation */
+    case DECL_ATTITUDE: {       /* R(q) of its quaternion */
+      assert(d->index >= 0 && d->index < m_->nattitudes);
+      Val R(3, 3);
+      attitude_rotation(&q_[ncoord_ + 4 * d->index], R.a.data());
+      return R;
+    }
   }
   throw SymError{x->loc, "internal: unknown declaration kind"};
 }
@@ -842,6 +906,14 @@ static Val rotation(int axis, const ex &a) {
 
 Val Derivation::eval_call(const Expr *x) {
   const char *name = x->name;
+  if (strcmp(name, "omega") == 0 && x->nargs == 1 && x->args[0]->kind == EX_NAME &&
+      x->args[0]->ref && x->args[0]->ref->kind == DECL_ATTITUDE) {
+    int a = x->args[0]->ref->index;
+    assert(a >= 0 && a < m_->nattitudes);
+    Val w(3, 1);
+    for (int c = 0; c < 3; c++) w.a[c] = qd_[ncoord_ + 3 * a + c];
+    return w;
+  }
   std::vector<Val> args;
   for (int i = 0; i < x->nargs; i++) args.push_back(eval(x->args[i]));
   auto need = [&](int n) {
@@ -998,7 +1070,7 @@ void Derivation::collect_terms() {
           break;
         case ST_FORCE: {
           int k = -1;
-          for (int c = 0; c < nq_; c++)
+          for (int c = 0; c < ncoord_; c++)
             if (strcmp(m_->coords[c]->name, s->name) == 0) k = c;
           if (k < 0) throw SymError{s->name_loc, fmt("'%s' is not a coordinate", s->name)};
           force_[k] = force_[k] + scalar(s->e[0], "a generalized force");
@@ -1046,7 +1118,7 @@ Val Derivation::mat3(const Expr *x, const char *what) {
 
 /* Does e contain a rate (of a coordinate or, through an atom, of anything)? */
 bool Derivation::depends_on_rates(const ex &e) {
-  for (int i = 0; i < nq_; i++)
+  for (int i = 0; i < nv_; i++)
     if (!dqd_[i](e).is_zero() || !dqdd_[i](e).is_zero()) return true;
   for (Deriver &d : dw_)
     if (!d(e).is_zero()) return true;
@@ -1136,7 +1208,9 @@ void Derivation::check_inertia(const Stmt *s, const Val &I) {
     }
   exmap point;
   point[t_] = 0;
-  for (int i = 0; i < nq_; i++) point[q_[i]] = m_->q0 ? m_->q0[i] : 0.0, point[qd_[i]] = 0;
+  for (int i = 0; i < ncoord_; i++) point[q_[i]] = m_->q0 ? m_->q0[i] : 0.0;
+  for (int i = ncoord_; i < nq_; i++) point[q_[i]] = m_->attitude_q0[i - ncoord_];
+  for (int i = 0; i < nv_; i++) point[qd_[i]] = 0;
   for (int i = 0; i < nu_; i++) point[u_[i]] = 0;
   for (int i = 0; i < np_; i++) point[p_[i]] = m_->params[i]->number;
   Subst at(point);
@@ -1165,7 +1239,7 @@ void Derivation::check_inertia(const Stmt *s, const Val &I) {
 ** link frames.  Bodies further out the same chain share these vectors.
 ** Otherwise W_j = vee(R^T dR/dq_j) from the entries. */
 void Derivation::add_rotation(const Val &R, const Val &I) {
-  std::vector<std::array<ex, 3>> W(nq_);
+  std::vector<std::array<ex, 3>> W(nv_);
   ex w[3], wdot[3];
   if (R.turns && turns_match(R)) {
     const std::vector<Turn> &f = *R.turns;
@@ -1178,8 +1252,8 @@ void Derivation::add_rotation(const Val &R, const Val &I) {
       ex v[3] = {0, 0, 0};  /* S_k^T e_k */
       v[f[k].axis] = 1;
       for (size_t l = k + 1; l < m; l++) turn_back(f[l], v);
-      for (int j = 0; j < nq_; j++) {
-        ex d = dq_[j](f[k].angle);
+      for (int j = 0; j < nv_; j++) {
+        ex d = dv(j, f[k].angle);
         if (d.is_zero()) continue;
         for (int c = 0; c < 3; c++) W[j][c] = W[j][c] + d * v[c];
       }
@@ -1200,9 +1274,9 @@ void Derivation::add_rotation(const Val &R, const Val &I) {
       }
     };
     exvector wt[3];
-    for (int j = 0; j < nq_; j++) {
+    for (int j = 0; j < nv_; j++) {
       Val X(3, 3);
-      for (int k = 0; k < 9; k++) X.a[k] = dq_[j](R.a[k]);
+      for (int k = 0; k < 9; k++) X.a[k] = dv(j, R.a[k]);
       vee(X, W[j].data());
       for (int c = 0; c < 3; c++)
         if (!W[j][c].is_zero()) wt[c].push_back(W[j][c] * qd_[j]);
@@ -1234,8 +1308,8 @@ void Derivation::add_rotation(const Val &R, const Val &I) {
     t.push_back(w[a] * Iw[b] - w[b] * Iw[a]);
     euler[r] = add(t);
   }
-  std::vector<ex> share(nq_);
-  for (int i = 0; i < nq_; i++) {
+  std::vector<ex> share(nv_);
+  for (int i = 0; i < nv_; i++) {
     exvector t;
     for (int c = 0; c < 3; c++)
       if (!W[i][c].is_zero()) t.push_back(W[i][c] * euler[c]);
@@ -1252,7 +1326,7 @@ void Derivation::add_rotation(const Val &R, const Val &I) {
 void Derivation::finish_placed() {
   if (placed_.empty()) return;
   ChainTools tools;
-  tools.nq = nq_;
+  tools.nq = nv_;  /* velocity directions: a chain's angles move with coordinates only */
   for (int c = 0; c < 3; c++) {
     exvector t;
     for (const auto &g : gravity_) t.push_back(g.second.a[c]);
@@ -1267,7 +1341,7 @@ void Derivation::finish_placed() {
     }
     return (*zero_qdd_)(e);
   };
-  tools.d_dq = [this](int j, const ex &e) { return dq_[j](e); };
+  tools.d_dq = [this](int j, const ex &e) { return dv(j, e); };
   tools.tick = [this](const char *step) { tick(step); };
   FrameTree tree(tools);
   for (Placed &pb : placed_) {
@@ -1275,7 +1349,7 @@ void Derivation::finish_placed() {
     pb.T = tree.add_body(k, pb.mass, pb.pos.local, pb.spins ? pb.I.a.data() : nullptr);
     rot_energy_.push_back(pb.T);
   }
-  placed_M_.assign(nq_, std::vector<ex>(nq_, ex(0)));
+  placed_M_.assign(nv_, std::vector<ex>(nv_, ex(0)));
   tree.equations(placed_M_, placed_bias_, placed_full_);
 }
 
@@ -1289,10 +1363,8 @@ exmap Derivation::random_point(uint64_t &state, bool rates) {
   };
   exmap point;
   point[t_] = next();
-  for (int i = 0; i < nq_; i++) {
-    point[q_[i]] = next();
-    if (rates) point[qd_[i]] = next(), point[qdd_[i]] = next();
-  }
+  for (int i = 0; i < nq_; i++) point[q_[i]] = next();
+  for (int i = 0; rates && i < nv_; i++) point[qd_[i]] = next(), point[qdd_[i]] = next();
   for (int i = 0; i < nu_; i++) point[u_[i]] = next();
   for (int i = 0; i < np_; i++) point[p_[i]] = next();
   return point;
@@ -1344,22 +1416,22 @@ void Derivation::add_force_at(const Stmt *s) {
   if (!F.vector() || !P.vector() || F.size() != P.size() || F.scalar())
     throw SymError{s->loc, fmt("a force and its point must be vectors of one length, not %s "
                                "and %s", shape_name(F).c_str(), shape_name(P).c_str())};
-  for (int i = 0; i < nq_; i++) {
+  for (int i = 0; i < nv_; i++) {
     exvector terms{force_[i]};
-    for (int c = 0; c < F.size(); c++) terms.push_back(F.a[c] * dq_[i](P.a[c]));
+    for (int c = 0; c < F.size(); c++) terms.push_back(F.a[c] * dv(i, P.a[c]));
     force_[i] = add(terms);
   }
 }
 
 /* Q_i += TAU . w_i, with skew(w_i) = dR/dq_i R^T the world-frame angular
-** velocity per unit rate of q_i. */
+** velocity per unit rate of q_i (per unit of omega_i: X_i R R^T). */
 void Derivation::add_torque(const Stmt *s) {
   Val tau = vec3(s->e[0], "a torque");
   Val R = mat3(s->e[1], "an orientation");
-  for (int i = 0; i < nq_; i++) {
+  for (int i = 0; i < nv_; i++) {
     auto W = [&](int r, int c) {  /* (dR/dq_i R^T)_rc */
       exvector t;
-      for (int k = 0; k < 3; k++) t.push_back(dq_[i](R.at(r, k)) * R.at(c, k));
+      for (int k = 0; k < 3; k++) t.push_back(dv(i, R.at(r, k)) * R.at(c, k));
       return ex(add(t));
     };
     force_[i] = force_[i] + tau.a[0] * W(2, 1) + tau.a[1] * W(0, 2) + tau.a[2] * W(1, 0);
@@ -1367,6 +1439,8 @@ void Derivation::add_torque(const Stmt *s) {
 }
 
 void Derivation::add_constraint(const Stmt *s) {
+  if (m_->nattitudes > 0)
+    throw SymError{s->loc, "constraints in a model with attitudes are not supported yet"};
   Val a = eval(s->e[0]), b = eval(s->e[1]);
   if (a.rows != b.rows || a.cols != b.cols)
     throw SymError{s->loc, fmt("the sides of a constraint are %s and %s", shape_name(a).c_str(),
@@ -1385,7 +1459,7 @@ void Derivation::add_constraint(const Stmt *s) {
 ** the rates (the checker names a non-linear term; this is the exact test). */
 void Derivation::derive_velocity_constraints(std::vector<ex> &A, std::vector<ex> &b,
                                              std::vector<ex> &gamma) {
-  const int nvc = (int)vconstraints_.size(), n = nq_;
+  const int nvc = (int)vconstraints_.size(), n = nv_;  /* none with attitudes */
   exmap at_rest, no_accel;
   for (int i = 0; i < n; i++) at_rest[qd_[i]] = 0, no_accel[qdd_[i]] = 0;
   Subst zero_qd(at_rest), zero_qdd(no_accel);
@@ -1496,13 +1570,13 @@ bool Derivation::nonzero_somewhere(const ex &e, const ex &scale) {
 }
 
 void Derivation::check_no_qdd(const ex &L) {
-  for (int k = 0; k < nq_; k++) {
+  for (int k = 0; k < nv_; k++) {
     if (dqdd_[k](unatom(L)).is_zero()) continue;
     for (const auto *terms : {&kinetic_, &potential_, &lagrangian_})
       for (const Term &t : *terms)
         if (!dqdd_[k](unatom(t.e)).is_zero())
-          throw SymError{t.stmt->loc, fmt("this term depends on the acceleration %s''",
-                                          m_->coords[k]->name)};
+          throw SymError{t.stmt->loc, fmt("this term depends on the acceleration %s'",
+                                          rate_name(k).c_str())};
   }
 }
 
@@ -1517,14 +1591,14 @@ void Derivation::check_mass(std::vector<std::vector<ex>> &M) {
     std::string what;
   };
   std::vector<Banned> banned;
-  for (int k = 0; k < nq_; k++)
-    banned.push_back({qd_[k], &dqd_[k], fmt("the rate %s'", m_->coords[k]->name)});
+  for (int k = 0; k < nv_; k++)
+    banned.push_back({qd_[k], &dqd_[k], "the rate " + rate_name(k)});
   banned.push_back({t_, &dt_, "the time t"});
   for (int k = 0; k < nu_; k++)
     banned.push_back({u_[k], &du_[k], fmt("the input '%s'", m_->inputs[k]->name)});
   exmap cancelled;
-  for (int i = 0; i < nq_; i++)
-    for (int j = i; j < nq_; j++)
+  for (int i = 0; i < nv_; i++)
+    for (int j = i; j < nv_; j++)
       for (const Banned &v : banned) {
         ex d = (*v.d)(M[i][j]);
         if (d.is_zero()) continue;
@@ -1533,7 +1607,7 @@ void Derivation::check_mass(std::vector<std::vector<ex>> &M) {
           continue;
         }
         bool rate = false;
-        for (int k = 0; k < nq_; k++) rate = rate || v.var.is_equal(qd_[k]);
+        for (int k = 0; k < nv_; k++) rate = rate || v.var.is_equal(qd_[k]);
         std::string msg = rate ? "the Lagrangian is not quadratic in the rates: "
                                : "the mass matrix must depend on coordinates and params only: ";
         /* name the first term whose own second derivative depends on it */
@@ -1555,8 +1629,8 @@ void Derivation::check_mass(std::vector<std::vector<ex>> &M) {
       }
   if (cancelled.empty()) return;
   Subst clean(cancelled);
-  for (int i = 0; i < nq_; i++)
-    for (int j = i; j < nq_; j++) M[i][j] = M[j][i] = clean(M[i][j]);
+  for (int i = 0; i < nv_; i++)
+    for (int j = i; j < nv_; j++) M[i][j] = M[j][i] = clean(M[i][j]);
 }
 
 static int *alloc_roots(size_t n) {
@@ -1566,7 +1640,7 @@ static int *alloc_roots(size_t n) {
 }
 
 void Derivation::run(EomSystem *out) {
-  const int n = nq_;
+  const int n = nv_, nq = nq_;  /* v-space (M, f) and q-space sizes */
   collect_terms();
 
   exvector Tt, Vt, Lt, Dt;
@@ -1593,12 +1667,22 @@ void Derivation::run(EomSystem *out) {
     tick("differentiating the Lagrangian");
   }
   std::vector<ex> E(n), dDdqd(n);
+  /* for an attitude's omega, omega x dL/domega besides the rest: the
+  ** Euler-Poincare form (symbolic_attitude.cc), with dv() along omega */
+  std::vector<ex> gyro(n, ex(0));
+  for (int a = 0; a < m_->nattitudes; a++) {
+    const int j0 = ncoord_ + 3 * a;
+    ex w[3], p[3], c[3];
+    for (int k = 0; k < 3; k++) w[k] = qd_[j0 + k], p[k] = dqd_[j0 + k](L);
+    attitude_cross(w, p, c);
+    for (int k = 0; k < 3; k++) gyro[j0 + k] = c[k];
+  }
   for (int i = 0; i < n; i++) {
-    exvector terms{totald(dqd_[i](L)), -dq_[i](L)}, dterms{dqd_[i](D)};
+    exvector terms{totald(dqd_[i](L)), -dv(i, L), gyro[i]}, dterms{dqd_[i](D)};
     for (const std::vector<ex> &share : rot_force_) terms.push_back(share[i]);
     for (size_t k = 0; k < K; k++) {
       if (dLdw[k].is_zero() && dDdw[k].is_zero()) continue;
-      ex J = dq_[i](atoms_[k].e);  /* = d e_k' / d q'_i */
+      ex J = dv(i, atoms_[k].e);  /* = d e_k' / d q'_i (d e_k' / d omega_i) */
       if (J.is_zero()) continue;
       if (!dLdw[k].is_zero()) terms.push_back(dLdw_rate[k] * J);
       if (!dDdw[k].is_zero()) dterms.push_back(dDdw[k] * J);
@@ -1634,19 +1718,17 @@ void Derivation::run(EomSystem *out) {
   }
 
   /* Jacobian pieces, each an exact symbolic derivative */
-  std::vector<ex> dM((size_t)n * n * n), dfdq((size_t)n * n), dfdqd((size_t)n * n),
+  std::vector<ex> dM((size_t)nq * n * n), dfdq((size_t)n * nq), dfdqd((size_t)n * n),
       dfdu((size_t)n * nu_);
-  for (int k = 0; k < n; k++) {
+  for (int k = 0; k < nq; k++) {
     for (int i = 0; i < n; i++)
       for (int j = i; j < n; j++)
         dM[(size_t)k * n * n + i * n + j] = dM[(size_t)k * n * n + j * n + i] = dq_[k](M[i][j]);
     tick("deriving dM/dq");
   }
   for (int i = 0; i < n; i++) {
-    for (int j = 0; j < n; j++) {
-      dfdq[(size_t)i * n + j] = dq_[j](f[i]);
-      dfdqd[(size_t)i * n + j] = dqd_[j](f[i]);
-    }
+    for (int j = 0; j < nq; j++) dfdq[(size_t)i * nq + j] = dq_[j](f[i]);
+    for (int j = 0; j < n; j++) dfdqd[(size_t)i * n + j] = dqd_[j](f[i]);
     for (int j = 0; j < nu_; j++) dfdu[(size_t)i * nu_ + j] = du_[j](f[i]);
     tick("deriving the Jacobian of the forcing");
   }
@@ -1666,6 +1748,7 @@ void Derivation::run(EomSystem *out) {
 
   /* constraints: phi, G = dphi/dq and gamma = -(phi'' at q'' = 0), so that G q'' = gamma */
   const int nc = (int)constraints_.size();
+  assert(nc == 0 || nq == n);  /* add_constraint refuses them with attitudes */
   std::vector<ex> phi(nc), G((size_t)nc * n), gamma(nc), phi_t(nc);
   for (int c = 0; c < nc; c++) {
     phi[c] = constraints_[c].second;
@@ -1708,11 +1791,11 @@ void Derivation::run(EomSystem *out) {
     }
   }
   tick("computing the outputs");
-  kin.nq = nq_;
+  kin.nq = nv_;  /* Jacobians over the velocities: dy/dq, or X_a y for an attitude */
   kin.nu = nu_;
   kin.qd = qd_;
   kin.outputs = outs;
-  kin.d_dq = [this](int i, const ex &e) { return dq_[i](e); };
+  kin.d_dq = [this](int i, const ex &e) { return dv(i, e); };
   kin.d_dqd = [this](int i, const ex &e) { return dqd_[i](e); };
   kin.d_du = [this](int i, const ex &e) { return du_[i](e); };
   kin.d_dt = [this](const ex &e) { return dt_(e); };
@@ -1730,10 +1813,16 @@ void Derivation::run(EomSystem *out) {
   tick("building the expression graph");
   for (const ex &e : dM) h_dM.push_back(b.add_root(e, none));
   tick("building the expression graph");
-  for (size_t k = 0; k < dfdq.size(); k++) {
-    h_dfdq.push_back(b.add_root(dfdq[k], none));
-    h_dfdqd.push_back(b.add_root(dfdqd[k], none));
-    if (k % n == 0) tick("building the expression graph");
+  if (nq == n) {  /* interleaved, as always for models without attitudes */
+    for (size_t k = 0; k < dfdq.size(); k++) {
+      h_dfdq.push_back(b.add_root(dfdq[k], none));
+      h_dfdqd.push_back(b.add_root(dfdqd[k], none));
+      if (k % n == 0) tick("building the expression graph");
+    }
+  } else {
+    for (const ex &e : dfdq) h_dfdq.push_back(b.add_root(e, none));
+    for (const ex &e : dfdqd) h_dfdqd.push_back(b.add_root(e, none));
+    tick("building the expression graph");
   }
   for (const ex &e : dfdu) h_dfdu.push_back(b.add_root(e, none));
   for (const ex &e : inv) h_inv.push_back(b.add_root(e, none));
@@ -1781,7 +1870,8 @@ void Derivation::run(EomSystem *out) {
   for (const SwitchFn &w : switches_) {
     ex e = unatom(w.e);
     bool moves = e.has(t_);
-    for (int i = 0; i < n; i++) moves = moves || e.has(q_[i]) || e.has(qd_[i]);
+    for (int i = 0; i < nq; i++) moves = moves || e.has(q_[i]);
+    for (int i = 0; i < n; i++) moves = moves || e.has(qd_[i]);
     for (const ex &u : u_) moves = moves || e.has(u);
     bool again = false;
     for (const ex &o : sw) again = again || (e - o).is_zero() || (e + o).is_zero();
@@ -1805,8 +1895,8 @@ void Derivation::run(EomSystem *out) {
   };
   out->mass = place(h_mass, (size_t)n * n);
   out->forcing = place(h_f, n);
-  out->dmass_dq = place(h_dM, (size_t)n * n * n);
-  out->dforcing_dq = place(h_dfdq, (size_t)n * n);
+  out->dmass_dq = place(h_dM, (size_t)nq * n * n);
+  out->dforcing_dq = place(h_dfdq, (size_t)n * nq);
   out->dforcing_dqd = place(h_dfdqd, (size_t)n * n);
   out->dforcing_du = place(h_dfdu, (size_t)n * nu_);
   out->inverse = place(h_inv, n);
@@ -1871,6 +1961,7 @@ void Derivation::run(EomSystem *out) {
   }
   out->frame_jacobian = place(h_fjac, (size_t)out->nframes * 6 * n);
   out->frame_bias = place(h_fbias, (size_t)out->nframes * 6);
+  assert(out->nv == n && out->nattitudes == m_->nattitudes);
   out->param_rule = alloc_roots(np_);
   out->nderived = 0;
   for (int i = 0; i < np_; i++) {
@@ -1906,9 +1997,15 @@ void Derivation::derive_control_quantities(const ex &L, const std::vector<std::v
                                            const std::vector<ex> &vc_A,
                                            const std::vector<ex> &vc_b, ControlResult *out) {
   ControlInput in;
-  in.nq = nq_;
+  in.nq = nv_;
   in.nu = nu_;
-  for (int i = 0; i < nq_; i++) in.coord_names.push_back(m_->coords[i]->name);
+  for (int i = 0; i < nv_; i++) {
+    std::string r = rate_name(i);
+    in.coord_names.push_back(i < ncoord_ ? r.substr(0, r.size() - 1) : r);
+  }
+  if (nv_ != nq_)
+    in.no_split = "the model has attitudes: its velocities are angular velocities, not "
+                  "rates of coordinates";
   for (int i = 0; i < nu_; i++) in.input_names.push_back(m_->inputs[i]->name);
   in.qd = qd_;
   in.L = unatom(L);
@@ -1919,7 +2016,7 @@ void Derivation::derive_control_quantities(const ex &L, const std::vector<std::v
   in.constraints = phi;
   in.vc_A = vc_A;
   in.vc_b = vc_b;
-  in.d_dq = [this](int i, const ex &e) { return dq_[i](e); };
+  in.d_dq = [this](int i, const ex &e) { return dv(i, e); };
   in.d_dqd = [this](int i, const ex &e) { return dqd_[i](e); };
   in.d_du = [this](int i, const ex &e) { return du_[i](e); };
   in.d_dt = [this](const ex &e) { return dt_(e); };
@@ -1928,6 +2025,8 @@ void Derivation::derive_control_quantities(const ex &L, const std::vector<std::v
     return nonzero_somewhere(e, scale);
   };
   derive_control(in, out);
+  /* omega's equations keep a gyroscopic term: its momenta are not conserved alone */
+  for (int i = ncoord_; i < nv_; i++) out->cyclic[i] = 0;
 }
 
 }  // namespace
@@ -1936,18 +2035,13 @@ void Derivation::derive_control_quantities(const ex &L, const std::vector<std::v
 extern "C" int sym_derive(const Model *m, const SymOptions *opt, Diag *d, EomSystem *out) {
   assert(m && d && out);
   memset(out, 0, sizeof *out);
-  out->nq = m->ncoords;
+  out->nq = m->ncoords + 4 * m->nattitudes;
+  out->nv = m->ncoords + 3 * m->nattitudes;
+  out->nattitudes = m->nattitudes;
   out->nu = m->ninputs;
   out->np = m->nparams;
   out->ny = m->ny;
   out->nc = 0;
-  if (m->nattitudes > 0) {
-    /* The front end reads and checks attitudes; their equations of motion
-    ** (quasi-velocities, NV < NQ) are not derived by this version. */
-    diag_error(d, m->attitudes[0]->loc, "attitude '%s': equations of motion for attitude coordinates "
-               "are not implemented yet (eomc check reads and checks them)", m->attitudes[0]->name);
-    return 1;
-  }
   try {
     eomsym::Derivation dv(m, opt, d);
     dv.run(out);

@@ -200,6 +200,9 @@ struct ControlInput {
   std::function<GiNaC::ex(const GiNaC::ex &)> d_dt;
   std::function<GiNaC::ex(const GiNaC::ex &, const GiNaC::exmap &)> substitute;
   std::function<bool(const GiNaC::ex &, const GiNaC::ex &)> nonzero_somewhere;
+  /* non-empty: no split, for this reason (the Christoffel form of C holds
+  ** for coordinates, not for the angular velocities of attitudes) */
+  std::string no_split;
 };
 
 /* The split M q'' + C q' + g = Q - dD/dq', momenta, energy function and the
@@ -263,6 +266,13 @@ struct KinematicsResult {
 void derive_kinematics(const KinematicsInput &in, KinematicsResult *out);
 /* J' q' = sum_j (sum_k dJ_j/dq_k q'_k) q'_j for a row J(q) of nq entries. */
 GiNaC::ex bias_of(const KinematicsInput &in, const std::vector<GiNaC::ex> &row);
+
+/* Attitude coordinates (symbolic_attitude.cc): R(q) row-major for a unit
+** quaternion q = [w, x, y, z], the map N(q) (4x3 row-major) with
+** q' = N(q) omega for the body-frame omega, and a x b. */
+void attitude_rotation(const GiNaC::ex q[4], GiNaC::ex R[9]);
+void attitude_rate_map(const GiNaC::ex q[4], GiNaC::ex N[12]);
+void attitude_cross(const GiNaC::ex a[3], const GiNaC::ex b[3], GiNaC::ex out[3]);
 
 }  // namespace eomsym
 
