@@ -6,6 +6,7 @@
 */
 #include "emit/emit_c.h"
 #include "emit/emit_control.h"
+#include "emit/emit_attitude.h"
 #include "emit/emit_internal.h"
 #include "emit/emit_kinematics.h"
 
@@ -62,8 +63,13 @@ static void emit_source(Emitter *E) {
     emit_ldl_factor(E);
     emit_ldl_solve(E);
   }
-  for (size_t i = 0; i < sizeof fixed / sizeof *fixed; i++)
+  for (size_t i = 0; i < sizeof fixed / sizeof *fixed; i++) {
     if (emit_wants(E, fixed[i].fname)) fixed[i].write(E);
+    /* An attitude's kinematic map and normalization, whatever --only says:
+    ** every caller of a model with attitudes needs them. */
+    if (fixed[i].write == emit_accel && E->m->nattitudes)
+      emit_attitude_functions(E->out, E->m, E->P);
+  }
   if (s->ns && emit_wants(E, "switches")) emit_switches(E);
   if (s->nc && emit_wants(E, "constraint")) emit_constraint(E);
   if (s->nc && emit_wants(E, "constraint_jacobian")) emit_constraint_jacobian(E);
@@ -148,11 +154,12 @@ static int emit_both(const Model *m, const EomSystem *s, const EmitOptions *o, F
     snprintf(err, errlen, "the model has no generalized coordinates");
     return -1;
   }
-  assert(s->np == m->nparams && s->nu == m->ninputs && s->ny == m->ny && s->nq == m->ncoords);
+  assert(s->np == m->nparams && s->nu == m->ninputs && s->ny == m->ny);
+  assert(s->nq == m->ncoords + 4 * m->nattitudes && s->nv == m->ncoords + 3 * m->nattitudes);
   E.uses = calloc((size_t)nn + 1, sizeof *E.uses);
   E.tempno = calloc((size_t)nn + 1, sizeof *E.tempno);
   E.size = calloc((size_t)nn + 1, sizeof *E.size);
-  E.slot = calloc((size_t)s->nq * (size_t)s->nq, sizeof *E.slot);
+  E.slot = calloc((size_t)s->nv * (size_t)s->nv, sizeof *E.slot);
   E.part = calloc((size_t)nn + 1, sizeof *E.part);
   E.last_part = calloc((size_t)nn + 1, sizeof *E.last_part);
   E.wslot = calloc((size_t)nn + 1, sizeof *E.wslot);
