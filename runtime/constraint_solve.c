@@ -67,7 +67,7 @@ void csolve_init(ConstraintSolver *s, int nq, int nc, double *work) {
   s->rank = 0;
   s->mode = EOM_CSOLVE_AUTO;
   s->sparse = 0;
-  s->nblocks = s->nnull = s->nput = 0;
+  s->nblocks = s->nnull = s->nput = s->crank = 0;
 }
 
 /* Cholesky M = L Lᵀ in place (lower triangle); -1 when M is not clearly
@@ -112,7 +112,7 @@ static void backward(int n, const double *l, double *b) {
 /* Cyclic Jacobi: a (n x n, symmetric) becomes diagonal (its eigenvalues on
 ** the diagonal, copied to ev) and v collects the rotations (columns are the
 ** eigenvectors).  Quadratic convergence: a handful of sweeps. */
-void csolve_jacobi(int n, double *a, double *v, double *ev) {
+static void jacobi_eigen(int n, double *a, double *v, double *ev) {
   memset(v, 0, (size_t)n * n * sizeof(double));
   for (int i = 0; i < n; i++) v[i * n + i] = 1;
   for (int sweep = 0; sweep < 60; sweep++) {
@@ -170,7 +170,7 @@ static int dense_factor(ConstraintSolver *s, const double *M, const double *G) {
   ** parallelogram's links all aligned), as a well-conditioned one. */
   for (int k = 0; k < nc; k++)
     if (!isfinite(s->S[k * nc + k])) return EOM_ESINGULAR;
-  csolve_jacobi(nc, s->S, s->V, s->ev);
+  jacobi_eigen(nc, s->S, s->V, s->ev);
   double top = 0;
   for (int k = 0; k < nc; k++) top = fmax(top, s->ev[k]);
   s->rank = 0;

@@ -57,6 +57,7 @@ typedef struct Index {
   int *first;     /* nc: first column of row k inside S's profile */
   int *mark;      /* nq: scratch (blocks touched by a row) */
   int *put;       /* nc: the rows put off, s->nput of them, increasing */
+  int *perm;      /* nc: the border's pivot order (row m of the pivoted C is put[perm[m]]) */
 } Index;
 
 static Index index_of(const ConstraintSolver *s) {
@@ -70,11 +71,12 @@ static Index index_of(const ConstraintSolver *s) {
   x.first = x.gcol + (size_t)nc * nq;
   x.mark = x.first + nc;
   x.put = x.mark + nq;
+  x.perm = x.put + nc;
   return x;
 }
 
 size_t csparse_ints(int nq, int nc) {
-  return 4 * (size_t)nq + 2 + 3 * (size_t)nc + (size_t)nc * nq;
+  return 4 * (size_t)nq + 2 + 4 * (size_t)nc + (size_t)nc * nq;
 }
 
 size_t csparse_doubles(int nc) {
@@ -82,10 +84,9 @@ size_t csparse_doubles(int nc) {
 }
 
 /* The border's scratch after the dense layout (see csolve_init): Sd and Vd
-** (nput x nc, by rows), C and its eigenvectors E (nput x nput), C's
-** eigenvalues. */
+** (nput x nc, by rows), C (nput x nput; its pivoted L D Lᵀ), D. */
 typedef struct Border {
-  double *Sd, *Vd, *C, *E, *lam;
+  double *Sd, *Vd, *C, *dd;
 } Border;
 
 static Border border_of(const ConstraintSolver *s) {
@@ -94,8 +95,7 @@ static Border border_of(const ConstraintSolver *s) {
   b.Sd = s->dwork;
   b.Vd = b.Sd + d * nc;
   b.C = b.Vd + d * nc;
-  b.E = b.C + d * d;
-  b.lam = b.E + d * d;
+  b.dd = b.C + d * d;
   return b;
 }
 
@@ -275,14 +275,60 @@ static void solve_kept(const ConstraintSolver *s, const Index *x, double *v) {
   unit_backward(s, x, v);
 }
 
+/* Swap rows and columns i and j of the symmetric n x n matrix a. */
+static void swap_sym(int n, double *a, int i, int j) {
+  for (int k = 0; k < n; k++) {
+    double t = a[i * n + k];
+    a[i * n + k] = a[j * n + k];
+    a[j * n + k] = t;
+  }
+  for (int k = 0; k < n; k++) {
+    double t = a[k * n + i];
+    a[k * n + i] = a[k * n + j];
+    a[k * n + j] = t;
+  }
+}
+
+/* C = Pᵀ L D Lᵀ P with diagonal pivoting (the largest remaining diagonal
+** first), stopped when every remaining diagonal of the Schur complement is
+** at or below drop: the rest is dropped, off by at most its trace
+** (Higham, Accuracy and Stability of Numerical Algorithms, 2nd ed., 2002,
+** §10.3, Cholesky with complete pivoting for semidefinite matrices — from
+** memory).  L in the strict lower triangle of c, D in dd, the order in
+** perm.  Returns the rank. */
+static int pivoted_ldl(int n, double *c, double *dd, int *perm, double drop) {
+  for (int i = 0; i < n; i++) perm[i] = i;
+  for (int k = 0; k < n; k++) {
+    int p = k;
+    for (int i = k + 1; i < n; i++)
+      if (c[i * n + i] > c[p * n + p]) p = i;
+    if (!(c[p * n + p] > drop)) {
+      for (int i = k; i < n; i++) dd[i] = 0;
+      return k;
+    }
+    if (p != k) {
+      swap_sym(n, c, k, p);
+      int t = perm[k];
+      perm[k] = perm[p];
+      perm[p] = t;
+    }
+    double d = dd[k] = c[k * n + k];
+    for (int i = k + 1; i < n; i++) c[i * n + k] /= d;
+    for (int i = k + 1; i < n; i++)
+      for (int j = k + 1; j < n; j++) c[i * n + j] -= c[i * n + k] * d * c[j * n + k];
+  }
+  return n;
+}
+
 /* The rows put off, D, as a border of the kept ones, B:
 ** S = [S_BB S_BD; S_DB S_DD] = Lb diag(S_BB, C) Lbᵀ with
 ** Lb = [I 0; S_DB S_BB⁻¹ I] and C = S_DD - S_DB S_BB⁻¹ S_BD.  Row m of Sd
-** is column D[m] of S on B, row m of Vd is S_BB⁻¹ of it; C is diagonalized
-** (cyclic Jacobi, constraint_solve.c) and its eigenvalues at or below
-** tol * top are dropped, as the dense route drops S's.  Returns the rank. */
+** is column D[m] of S on B, row m of Vd is S_BB⁻¹ of it; C is factored
+** with pivoting, and what is left of it below tol * top is dropped (the
+** threshold the dense route applies to S's eigenvalues).  Returns the
+** rank. */
 static int border(ConstraintSolver *s, const Index *x, double tol, double top) {
-  int nc = s->nc, d = s->nput, kept = nc - d;
+  int nc = s->nc, d = s->nput;
   Border b = border_of(s);
   for (int m = 0; m < d; m++) {
     double *sd = b.Sd + (size_t)m * nc, *vd = b.Vd + (size_t)m * nc;
@@ -297,29 +343,46 @@ static int border(ConstraintSolver *s, const Index *x, double tol, double top) {
       for (int j = 0; j < nc; j++) v -= b.Sd[(size_t)m * nc + j] * b.Vd[(size_t)n * nc + j];
       b.C[m * d + n] = b.C[n * d + m] = v;
     }
-  if (d > 0) csolve_jacobi(d, b.C, b.E, b.lam);
-  for (int m = 0; m < d; m++) {
-    if (top > 0 && b.lam[m] > tol * top) kept++;
-    else b.lam[m] = 0;
-  }
-  return kept;
+  s->crank = d > 0 ? pivoted_ldl(d, b.C, b.dd, x->perm, top > 0 ? tol * top : 0) : 0;
+  return nc - d + s->crank;
+}
+
+/* v := the basic solution of C̃ v = v (in place, d entries): with
+** u = P v, u_1 = L11⁻ᵀ D1⁻¹ L11⁻¹ u_1 over the first crank pivots, u_2 = 0. */
+static void border_solve(const ConstraintSolver *s, const Index *x, double *v, double *u) {
+  int d = s->nput, r = s->crank;
+  Border b = border_of(s);
+  for (int i = 0; i < d; i++) u[i] = v[x->perm[i]];
+  for (int i = 0; i < r; i++)
+    for (int j = 0; j < i; j++) u[i] -= b.C[i * d + j] * u[j];
+  for (int i = 0; i < r; i++) u[i] /= b.dd[i];
+  for (int i = r - 1; i >= 0; i--)
+    for (int j = i + 1; j < r; j++) u[i] -= b.C[j * d + i] * u[j];
+  for (int i = r; i < d; i++) u[i] = 0;
+  for (int i = 0; i < d; i++) v[x->perm[i]] = u[i];
 }
 
 /* The null space of the factored S as orthonormal columns of s->V
-** (s->nnull of them): z = Lb⁻ᵀ [0; e] = [-Vdᵀ e; e] for each dropped
-** eigenvector e of C, then modified Gram–Schmidt. */
+** (s->nnull of them): for each dropped pivot m of C, e = Pᵀ [-L11⁻ᵀ l; 1]
+** with l row m of L21 (a null vector of C̃), and z = Lb⁻ᵀ [0; e] =
+** [-Vdᵀ e; e]; then modified Gram–Schmidt. */
 static void null_space(ConstraintSolver *s, const Index *x) {
-  int nc = s->nc, d = s->nput, m = 0;
+  int nc = s->nc, d = s->nput, r = s->crank, m = 0;
   Border b = border_of(s);
-  for (int k = 0; k < d; k++) {
-    if (b.lam[k] != 0) continue;
+  double *e = s->tmp, *u = s->rhs; /* d <= nc each */
+  for (int k = r; k < d; k++) {
+    for (int i = 0; i < d; i++) u[i] = 0;
+    u[k] = 1;
+    for (int i = 0; i < r; i++) u[i] = -b.C[k * d + i];
+    for (int i = r - 1; i >= 0; i--)
+      for (int j = i + 1; j < r; j++) u[i] -= b.C[j * d + i] * u[j];
+    for (int i = 0; i < d; i++) e[x->perm[i]] = u[i];
     double *z = s->V + (size_t)m * nc;
     memset(z, 0, (size_t)nc * sizeof(double));
     for (int j = 0; j < d; j++) {
-      double e = b.E[j * d + k];
       const double *vd = b.Vd + (size_t)j * nc;
-      for (int i = 0; i < nc; i++) z[i] -= e * vd[i];
-      z[x->put[j]] += e;
+      for (int i = 0; i < nc; i++) z[i] -= e[j] * vd[i];
+      z[x->put[j]] += e[j];
     }
     for (int j = 0; j < m; j++) {
       const double *q = s->V + (size_t)j * nc;
@@ -330,7 +393,7 @@ static void null_space(ConstraintSolver *s, const Index *x) {
     double norm = 0;
     for (int i = 0; i < nc; i++) norm += z[i] * z[i];
     norm = sqrt(norm);
-    assert(norm > 0); /* z is e on the rows put off, before the others are removed */
+    assert(norm > 0); /* independent: each has its own 1 among the rows put off */
     for (int i = 0; i < nc; i++) z[i] /= norm;
     m++;
   }
@@ -368,7 +431,8 @@ int csparse_factor(ConstraintSolver *s, const double *M, const double *G, double
 }
 
 /* mu = P X P r with X = Lb⁻ᵀ diag(S_BB⁻¹, C⁺) Lb⁻¹ (see border):
-** w = S_BB⁻¹ r_B, t = r_D - S_DB w, c = C⁺ t, X r = [w - Vdᵀ c; c]. */
+** w = S_BB⁻¹ r_B, t = r_D - S_DB w, c = C̃⁻ t (border_solve),
+** X r = [w - Vdᵀ c; c]. */
 void csparse_pinv(const ConstraintSolver *s, const double *r, double *mu) {
   int nc = s->nc, d = s->nput;
   Index x = index_of(s);
@@ -385,19 +449,7 @@ void csparse_pinv(const ConstraintSolver *s, const double *r, double *mu) {
     const double *sd = b.Sd + (size_t)m * nc;
     for (int j = 0; j < nc; j++) t[m] -= sd[j] * mu[j];
   }
-  for (int k = 0; k < d; k++) { /* c = E diag(1/lam) Eᵀ t, dropped ones 0 */
-    double v = 0;
-    if (b.lam[k] != 0) {
-      for (int j = 0; j < d; j++) v += b.E[j * d + k] * t[j];
-      v /= b.lam[k];
-    }
-    c[k] = v;
-  }
-  for (int m = 0; m < d; m++) {
-    double v = 0;
-    for (int k = 0; k < d; k++) v += b.E[m * d + k] * c[k];
-    t[m] = v;
-  }
+  border_solve(s, &x, t, c);
   for (int m = 0; m < d; m++) {
     const double *vd = b.Vd + (size_t)m * nc;
     for (int j = 0; j < nc; j++) mu[j] -= vd[j] * t[m];

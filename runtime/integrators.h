@@ -147,6 +147,7 @@ typedef struct ConstraintSolver {
   int *iwork;                /* the sparse route's index scratch */
   int nblocks, nnull, nput;  /* sparse: blocks of M, dimension of the null space,
                                 rows put off to the border */
+  int crank;                 /* sparse: rank of the border's Schur complement */
 } ConstraintSolver;
 /* The route AUTO takes from this many rows of G on: the sparse one
 ** (constraint_sparse.c).  Measured by `make bench` (bench/bench_linkage.py). */
@@ -171,9 +172,6 @@ int csolve_accel(ConstraintSolver *s, const double *M, const double *G, const do
 ** and a profile L D Lᵀ of G M⁻¹ Gᵀ; csparse_ints is its integer scratch. */
 size_t csparse_ints(int nq, int nc);
 size_t csparse_doubles(int nc);
-/* Cyclic Jacobi eigen-decomposition of the symmetric a (n x n, destroyed):
-** eigenvalues into ev, eigenvectors into the columns of v. */
-void csolve_jacobi(int n, double *a, double *v, double *ev);
 int csparse_factor(ConstraintSolver *s, const double *M, const double *G, double tol);
 void csparse_pinv(const ConstraintSolver *s, const double *r, double *mu);
 void csparse_mass_solve(const ConstraintSolver *s, double *b);
