@@ -595,40 +595,42 @@ static const char row4_one_coordinate[] =
   "initial a = pi/2\ninitial a' = 6\n";
 
 START_TEST(parallelogram_row_keeps_its_branch) {
-  char *one = write_file(work_dir, "row_one.eom", row4_one_coordinate, strlen(row4_one_coordinate));
+  char *one =
+    write_file(scratch_dir(), "row_one.eom", row4_one_coordinate, strlen(row4_one_coordinate));
   const char *model = test_model("parallelogram_row4.eom");
-  Table t = sim(model, work_path("row.csv"), "--until", "5", NULL);
-  Table d = sim(model, work_path("row_dense.csv"), "--until", "5", "--constraint-solver", "dense",
-                NULL);
-  Table r = sim(one, work_path("row_one.csv"), "--until", "5", NULL);
+  CsvTable t = sim_csv(model, scratch_path("row.csv"), "--until", "5", NULL);
+  CsvTable d = sim_csv(model, scratch_path("row_dense.csv"), "--until", "5", "--constraint-solver",
+                       "dense", NULL);
+  CsvTable r = sim_csv(one, scratch_path("row_one.csv"), "--until", "5", NULL);
   ck_assert_int_eq(t.nrows, r.nrows);
   ck_assert_int_eq(t.nrows, d.nrows);
-  int cr0 = col(&t, "r0"), cT = col(&t, "T"), cV = col(&t, "V"), ra = col(&r, "a");
-  double e0 = at(&t, 0, cT) + at(&t, 0, cV), branch = 0, drift = 0, crank = 0, routes = 0;
+  int cr0 = csv_col(&t, "r0"), cT = csv_col(&t, "T"), cV = csv_col(&t, "V"), ra = csv_col(&r, "a");
+  double e0 = csv_at(&t, 0, cT) + csv_at(&t, 0, cV), branch = 0, drift = 0, crank = 0, routes = 0;
   for (int i = 0; i < t.nrows; i++) {
     for (int j = 1; j <= 4; j++) {
       char rj[8], cj[8];
       snprintf(rj, sizeof rj, "r%d", j);
       snprintf(cj, sizeof cj, "c%d", j);
-      branch = fmax(branch, fabs(at(&t, i, col(&t, cj))));
-      branch = fmax(branch, fabs(at(&t, i, col(&t, rj)) - at(&t, i, cr0)));
+      branch = fmax(branch, fabs(csv_at(&t, i, csv_col(&t, cj))));
+      branch = fmax(branch, fabs(csv_at(&t, i, csv_col(&t, rj)) - csv_at(&t, i, cr0)));
     }
-    drift = fmax(drift, fabs(at(&t, i, cT) + at(&t, i, cV) - e0) / fabs(e0));
-    crank = fmax(crank, fabs(at(&t, i, cr0) - at(&r, i, ra)));
+    drift = fmax(drift, fabs(csv_at(&t, i, cT) + csv_at(&t, i, cV) - e0) / fabs(e0));
+    crank = fmax(crank, fabs(csv_at(&t, i, cr0) - csv_at(&r, i, ra)));
     /* the state, columns 1..18 (the multipliers grow without bound at the
     ** aligned positions, so tiny differences of state show large there) */
     for (int k = 1; k <= 18; k++)
-      routes = fmax(routes, fabs(at(&t, i, k) - at(&d, i, k)) / (1 + fabs(at(&d, i, k))));
+      routes = fmax(routes,
+                    fabs(csv_at(&t, i, k) - csv_at(&d, i, k)) / (1 + fabs(csv_at(&d, i, k))));
   }
-  ck_assert_msg(at(&t, t.nrows - 1, cr0) > 5 * 2 * PI, "the row made only %.3g turns",
-                at(&t, t.nrows - 1, cr0) / (2 * PI));
+  ck_assert_msg(csv_at(&t, t.nrows - 1, cr0) > 5 * 2 * PI, "the row made only %.3g turns",
+                csv_at(&t, t.nrows - 1, cr0) / (2 * PI));
   ck_assert_msg(branch <= 1e-8, "the row left its branch by %.3g", branch);
   ck_assert_msg(drift <= 1e-6, "energy drift %.3g", drift);
   ck_assert_msg(crank <= 1e-5, "crank off the one-coordinate machine's by %.3g", crank);
   ck_assert_msg(routes <= 1e-6, "sparse and dense routes apart by %.3g", routes);
-  table_free(&t);
-  table_free(&d);
-  table_free(&r);
+  csv_free(&t);
+  csv_free(&d);
+  csv_free(&r);
   free(one);
 }
 END_TEST
