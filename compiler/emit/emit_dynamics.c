@@ -118,6 +118,46 @@ static int emit_jac_entry(Emitter *E, int i, int df, const int *dM) {
   return any;
 }
 
+/* Column col of d qdd/d(x, u): its entries into c, the solve, the copy into
+** A or B (the caller has declared c and i). */
+static void emit_jac_column(Emitter *E, int col) {
+  FILE *o = E->out;
+  const EomSystem *s = E->s;
+  int nq = s->nq, nv = s->nv, nu = s->nu, nx = nq + nv, any = 0;
+  if (col < nq) fprintf(o, "  /* d qdd / d q[%d] */\n", col);
+  else if (col < nx) fprintf(o, "  /* d qdd / d qd[%d] */\n", col - nq);
+  else fprintf(o, "  /* d qdd / d u[%d] */\n", col - nx);
+  for (int i = 0; i < nv; i++) {
+    if (col < nq) any |= emit_jac_entry(E, i, s->dforcing_dq[i * nq + col], s->dmass_dq + col * nv * nv);
+    else if (col < nx) any |= emit_jac_entry(E, i, s->dforcing_dqd[i * nv + col - nq], NULL);
+    else any |= emit_jac_entry(E, i, s->dforcing_du[i * nu + col - nx], NULL);
+  }
+  assert(any);
+  fprintf(o, "  %s_ldl_solve(a, c);\n", E->P);
+  if (col < nx) fprintf(o, "  for (i = 0; i < %d; i++) A[(%d + i)*%d + %d] = c[i];\n", nv, nq, nx, col);
+  else fprintf(o, "  for (i = 0; i < %d; i++) B[(%d + i)*%d + %d] = c[i];\n", nv, nq, nu, col - nx);
+}
+
+/* The column as `static void P_jacobian_colK(a, [w,] [qdd,] A or B)`;
+** returns what it reads: 1 w[], 2 qdd. */
+static int emit_jac_column_helper(Emitter *E, int col) {
+  FILE *out = E->out;
+  char *body = NULL;
+  size_t len = 0;
+  E->out = open_memstream(&body, &len);
+  assert(E->out);
+  emit_jac_column(E, col);
+  fclose(E->out);
+  E->out = out;
+  int reads = (strstr(body, "w[") ? 1 : 0) | (strstr(body, "qdd[") ? 2 : 0);
+  int nx = E->s->nq + E->s->nv;
+  fprintf(out, "static void %s_jacobian_col%d(const double *a, %s%s%s)\n{\n  double c[%d];\n  int i;\n%s}\n\n",
+          E->P, col, reads & 1 ? "const double *w, " : "", reads & 2 ? "const double *qdd, " : "",
+          col < nx ? "double *A" : "double *B", E->s->nv, body);
+  free(body);
+  return reads;
+}
+
 void emit_jacobian(Emitter *E) {
   FILE *o = E->out;
   const EomSystem *s = E->s;
@@ -149,13 +189,19 @@ void emit_jacobian(Emitter *E) {
   fn_analyse(E);
   assert(!needs_missing(E, VARS_STATE));
   emit_parts(E, "jacobian");
+  /* Split: each column in a helper too (its entries read only w[] and qdd,
+  ** since a split function's roots are all temporaries). */
+  int *col_reads = calloc((size_t)(nx + nu), sizeof *col_reads);
+  assert(col_reads);
+  for (int col = 0; E->nparts && col < nx + nu; col++)
+    if (live[col]) col_reads[col] = emit_jac_column_helper(E, col);
   fprintf(o, "void %s_jacobian(double t, const double *x, const double *u, const double *p,\n"
              "  double *A, double *B)\n{\n", E->P);
   if (E->vars & VAR_BIT(IRV_Q)) fprintf(o, "  const double *q = x;\n");
   if (E->vars & VAR_BIT(IRV_QD)) fprintf(o, "  const double *qd = x + %d;\n", nq);
   fprintf(o, "  double a[%d];\n", E->nslots);
   if (need_qdd) fprintf(o, "  double qdd[%d];\n", nv);
-  if (need_c) fprintf(o, "  double c[%d];\n", nv);
+  if (need_c && !E->nparts) fprintf(o, "  double c[%d];\n", nv);   /* else in the column helpers */
   fprintf(o, "  int i;\n");
   {
     const Param ps[] = {PARAM_T, PARAM_U, PARAM_P};
@@ -180,22 +226,18 @@ void emit_jacobian(Emitter *E) {
   if (need_qdd) fprintf(o, "  %s_ldl_solve(a, qdd);\n", E->P);
   /* Column by column: d qdd/d z = M^-1 (df/dz - dM/dz qdd); M depends on q only. */
   for (int col = 0; col < nx + nu; col++) {
-    int any = 0;
     if (!live[col]) continue;   /* a zero column: already written */
-    if (col < nq) fprintf(o, "  /* d qdd / d q[%d] */\n", col);
-    else if (col < nx) fprintf(o, "  /* d qdd / d qd[%d] */\n", col - nq);
-    else fprintf(o, "  /* d qdd / d u[%d] */\n", col - nx);
-    for (int i = 0; i < nv; i++) {
-      if (col < nq) any |= emit_jac_entry(E, i, s->dforcing_dq[i * nq + col], s->dmass_dq + col * nv * nv);
-      else if (col < nx) any |= emit_jac_entry(E, i, s->dforcing_dqd[i * nv + col - nq], NULL);
-      else any |= emit_jac_entry(E, i, s->dforcing_du[i * nu + col - nx], NULL);
+    if (!E->nparts) {
+      emit_jac_column(E, col);
+      continue;
     }
-    assert(any);
-    fprintf(o, "  %s_ldl_solve(a, c);\n", E->P);
-    if (col < nx) fprintf(o, "  for (i = 0; i < %d; i++) A[(%d + i)*%d + %d] = c[i];\n", nv, nq, nx, col);
-    else fprintf(o, "  for (i = 0; i < %d; i++) B[(%d + i)*%d + %d] = c[i];\n", nv, nq, nu, col - nx);
+    fprintf(o, "  %s_jacobian_col%d(a, ", E->P, col);
+    if (col_reads[col] & 1) fputs("w, ", o);
+    if (col_reads[col] & 2) fputs("qdd, ", o);
+    fputs(col < nx ? "A);\n" : "B);\n", o);
   }
   free(live);
+  free(col_reads);
   fputs("}\n\n", o);
 }
 

@@ -55,7 +55,11 @@ static void find_readers(Emitter *E, int hi, int *where) {
   }
   for (int n = hi; n >= 0; n--) {
     const IrNode *x = &g->nodes[n];
-    if (!E->uses[n] || x->op == IR_NUM || x->op == IR_VAR) continue;
+    if (!E->uses[n] || x->op == IR_NUM) continue;
+    if (x->op == IR_VAR) {   /* a root promoted to a temporary: read where defined */
+      if (E->tempno[n] >= 0) E->part_vars[E->part[n]] |= VAR_BIT(x->var);
+      continue;
+    }
     int at = E->tempno[n] >= 0 ? E->part[n] : where[n];
     assert(at >= 0 && at <= body);
     for (int a = 0; a < x->nargs; a++) {
@@ -104,6 +108,15 @@ void parts_plan(Emitter *E) {
   for (int n = 0; n <= hi; n++)
     if (E->uses[n] && E->tempno[n] >= 0) total += E->size[n];
   if (total <= SPLIT_MIN_NODES) return;
+  /* Every root a temporary too: the body then only stores values the
+  ** helpers computed (a constant root stays a constant). */
+  for (int i = 0; i < E->nroots; i++) {
+    int r = E->roots[i];
+    if (E->tempno[r] < 0 && E->g->nodes[r].op != IR_NUM) E->tempno[r] = 0;
+  }
+  E->ntemps = 0;
+  for (int n = 0; n <= hi; n++)
+    if (E->uses[n] && E->tempno[n] >= 0) E->tempno[n] = E->ntemps++;
   /* Cut the temporaries, in their order, into parts of about PART_NODES. */
   long filled = 0;
   for (int n = 0; n <= hi; n++) {
