@@ -6,12 +6,15 @@
 **
 ** emit_expr.c      buffers, number and string literals, temporaries, expressions,
 **                  function frames, the numeric check of unused arguments
+** emit_parts.c     a function too large for one body, in helpers of bounded size
 ** emit_ldl.c       the LDLᵀ sparsity pattern, P_ldl_factor and P_ldl_solve
 ** emit_dynamics.c  mass, forcing, accel, rhs, jacobian, inverse, energy, outputs,
 **                  switches, and the plain functions of emit_control/emit_kinematics
 ** emit_constrained.c  position and velocity constraints, accel_constrained
 ** emit_header.c    P.h, the banner, unit annotations
 ** emit_descriptor.c   defaults, initial state, name tables and P_model
+** emit_select.c    --only: which functions P.c gets; P.h and P_model filtered
+** emit_float.c     --float: the finished text rewritten in single precision
 ** emit_c.c         the order of P.c and the entry points (emit_c.h)
 **
 ** Internal to compiler/emit/: nothing outside this folder includes it.
