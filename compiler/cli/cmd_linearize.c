@@ -13,8 +13,15 @@
 ** warning with the numbers is printed only when the jacobian and the
 ** differences truly disagree: relative to the size of the matrices, with an
 ** absolute floor so that two zeros (a degenerate point) never disagree.
-** Models with constraints are linearized by differences of the constrained
-** dynamics (their state keeps the dependent coordinates).
+** Models with constraints (or with --rate) are linearized in a reduced
+** state z = [q_K; v_I] (reduce.h): the independent positions and rates,
+** chosen by pivoting on the constraints' matrices (--independent names the
+** coordinates to keep), the others following from the constraints.  A, B,
+** C, D are central differences through that reduction, checked by the
+** chain rule against differences of the runtime's constrained dynamics:
+** dz'/dz = P (dx'/dx) (dx/dz), P picking z's entries out of x'.  With
+** --rate the point is a steady motion (steady.c), and z leaves out the
+** coordinates that turn at the given rates and those that enter nothing.
 */
 #include <float.h>
 #include <math.h>
@@ -25,7 +32,9 @@
 #include "cli/build_model.h"
 #include "cli/cmd.h"
 #include "cli/json_out.h"
+#include "cli/reduce.h"
 #include "cli/run_values.h"
+#include "cli/steady.h"
 #include "eom/runtime.h"
 
 static const char linearize_usage[] =
@@ -44,7 +53,16 @@ static const char linearize_usage[] =
   "  --set NAME=VALUE   a parameter or a constant input (repeatable)\n"
   "  --no-search        take the point as given (model's initial state and\n"
   "                     --at), not an equilibrium\n"
+  "  --rate NAME=VALUE  linearize about a steady motion in which the\n"
+  "                     coordinate NAME turns at this constant rate (it must\n"
+  "                     not enter the dynamics; repeatable), as `eomc modes\n"
+  "                     --rate` finds it\n"
+  "  --independent NAME with constraints: keep NAME among the independent\n"
+  "                     coordinates of the reduced state (repeatable)\n"
   "  --json             machine-readable output\n"
+  "\n"
+  "With constraints, or with --rate, the state is reduced: the independent\n"
+  "positions and rates only, the others following from the constraints.\n"
   "\n"
   "exit status: 0 success, 1 model error, 2 usage error,\n"
   "             3 no equilibrium found or the analysis failed\n";
@@ -263,23 +281,33 @@ static void json_matrix(FILE *f, const char *key, const double *a, int r, int c)
   fputs(r ? "\n  ]" : "]", f);
 }
 
+/* How the point was found. */
+enum { POINT_GIVEN, POINT_EQUILIBRIUM, POINT_STEADY };
+
 typedef struct Point {
-  const double *x, *u;
-  int searched;                 /* an equilibrium was searched for */
-  const struct eom_report *eq;  /* its report, when searched */
+  const double *x, *u;          /* the full state [q; q'] (2 nq) and the inputs */
+  int kind;                     /* POINT_* */
+  long steps;                   /* Newton or Levenberg–Marquardt iterations */
+  double residual;
+  const Reduction *red;         /* the reduction, or NULL (state x itself) */
 } Point;
 
+static const char *const point_kinds[] = {"the given point", "an equilibrium",
+                                          "a steady motion"};
+
 static void print_json(FILE *f, const struct eom_model *m, const Point *pt, const Linear *L,
-                       const char *const *xs) {
+                       const char *const *xs, const char *const *zs) {
   fputs("{\n  \"model\": ", f);
   json_str(f, m->name);
-  fprintf(f, ",\n  \"equilibrium\": %s", pt->searched ? "true" : "false");
-  if (pt->searched) {
-    fprintf(f, ",\n  \"newton_iterations\": %ld,\n  \"residual\": ", pt->eq->steps);
-    json_num(f, pt->eq->residual);
+  fprintf(f, ",\n  \"equilibrium\": %s", pt->kind == POINT_EQUILIBRIUM ? "true" : "false");
+  if (pt->kind == POINT_STEADY) fputs(",\n  \"steady_motion\": true", f);
+  if (pt->kind != POINT_GIVEN) {
+    fprintf(f, ",\n  \"%s\": %ld,\n  \"residual\": ",
+            pt->kind == POINT_STEADY ? "iterations" : "newton_iterations", pt->steps);
+    json_num(f, pt->residual);
   }
   fputs(",\n  \"point\": {", f);
-  for (int i = 0; i < L->n; i++) {
+  for (int i = 0; i < 2 * m->nq; i++) {
     fputs(i ? ", " : "", f);
     json_str(f, xs[i]);
     fputs(": ", f);
@@ -293,7 +321,27 @@ static void print_json(FILE *f, const struct eom_model *m, const Point *pt, cons
     json_num_exact(f, pt->u[i]);
   }
   fputc('}', f);
-  json_names(f, "state", xs, L->n);
+  if (pt->red) {
+    const Reduction *r = pt->red;
+    const char *heads[3] = {"dependent", "given_rates", "left_out"};
+    int flags[3] = {REDUCE_POS_DEP | REDUCE_RATE_DEP, REDUCE_GIVEN, REDUCE_ABSENT};
+    fputs(",\n  \"reduced\": true", f);
+    for (int h = 0; h < 3; h++) {
+      fprintf(f, ",\n  \"%s\": [", heads[h]);
+      for (int i = 0, n = 0; i < m->nq; i++)
+        if ((r->role[i] & flags[h]) &&
+            !(h == 2 && (r->role[i] & (REDUCE_GIVEN | REDUCE_POS_DEP)))) {
+          fputs(n++ ? ", " : "", f);
+          /* dependent rates only: "NAME'"; dependent positions: "NAME" */
+          char name[256];
+          snprintf(name, sizeof name, "%s%s", m->coord_names[i],
+                   h == 0 && !(r->role[i] & REDUCE_POS_DEP) ? "'" : "");
+          json_str(f, name);
+        }
+      fputc(']', f);
+    }
+  }
+  json_names(f, "state", zs, L->n);
   json_names(f, "inputs", m->input_names, L->nu);
   json_names(f, "outputs", m->output_names, L->ny);
   json_matrix(f, "A", L->A, L->n, L->n);
@@ -303,36 +351,80 @@ static void print_json(FILE *f, const struct eom_model *m, const Point *pt, cons
   fputs("\n}\n", f);
 }
 
+/* What the reduction made of the coordinates, in words. */
+static void print_reduction(FILE *f, const struct eom_model *m, const Reduction *r) {
+  static const struct { int flag, not; const char *text; } kinds[] = {
+    {REDUCE_POS_DEP, 0, "follow from the position constraints (with their rates)"},
+    {REDUCE_RATE_DEP, REDUCE_POS_DEP, "rates follow from the velocity constraints"},
+    {REDUCE_GIVEN, 0, "turn at the given rates (left out)"},
+    {REDUCE_ABSENT, REDUCE_GIVEN | REDUCE_POS_DEP, "enter nothing (left out)"},
+  };
+  fputs("reduced state: the independent positions and rates only\n", f);
+  for (size_t k = 0; k < sizeof kinds / sizeof kinds[0]; k++) {
+    int any = 0;
+    for (int i = 0; i < m->nq; i++)
+      if ((r->role[i] & kinds[k].flag) && !(r->role[i] & kinds[k].not))
+        fprintf(f, "%s%s", any++ ? ", " : "  ", m->coord_names[i]);
+    if (any) fprintf(f, ": %s\n", kinds[k].text);
+  }
+}
+
 static void print_text(FILE *f, const struct eom_model *m, const Point *pt, const Linear *L,
-                       const char *const *xs) {
-  if (pt->searched)
-    fprintf(f, "%s linearized at an equilibrium (%ld Newton iterations, residual %.3g):\n",
-            m->name, pt->eq->steps, pt->eq->residual);
-  else
+                       const char *const *xs, const char *const *zs) {
+  if (pt->kind == POINT_GIVEN)
     fprintf(f, "%s linearized at the given point:\n", m->name);
-  for (int i = 0; i < L->n; i++) fprintf(f, "  %s = %.12g\n", xs[i], pt->x[i]);
+  else
+    fprintf(f, "%s linearized at %s (%ld %s iterations, residual %.3g):\n", m->name,
+            point_kinds[pt->kind], pt->steps,
+            pt->kind == POINT_STEADY ? "Levenberg-Marquardt" : "Newton", pt->residual);
+  for (int i = 0; i < 2 * m->nq; i++) fprintf(f, "  %s = %.12g\n", xs[i], pt->x[i]);
   for (int i = 0; i < L->nu; i++) fprintf(f, "  input %s = %.12g\n", m->input_names[i], pt->u[i]);
-  fprintf(f, "x' = A x + B u, y = C x + D u (deviations from the point); x = [q; q'] (%d), "
-             "u (%d), y (%d)\n", L->n, L->nu, L->ny);
-  if (m->nc > 0)
-    fprintf(f, "(with constraints: the state keeps every coordinate; A and B are differences\n"
-               " of the constrained dynamics)\n");
-  print_matrix(f, "A", L->A, L->n, L->n, xs, xs);
-  print_matrix(f, "B", L->B, L->n, L->nu, xs, m->input_names);
-  print_matrix(f, "C", L->C, L->ny, L->n, m->output_names, xs);
+  if (pt->red) {
+    print_reduction(f, m, pt->red);
+    fprintf(f, "x' = A x + B u, y = C x + D u (deviations from the point); x the reduced "
+               "state (%d), u (%d), y (%d)\n", L->n, L->nu, L->ny);
+  } else {
+    fprintf(f, "x' = A x + B u, y = C x + D u (deviations from the point); x = [q; q'] (%d), "
+               "u (%d), y (%d)\n", L->n, L->nu, L->ny);
+  }
+  print_matrix(f, "A", L->A, L->n, L->n, zs, zs);
+  print_matrix(f, "B", L->B, L->n, L->nu, zs, m->input_names);
+  print_matrix(f, "C", L->C, L->ny, L->n, m->output_names, zs);
   print_matrix(f, "D", L->D, L->ny, L->nu, m->output_names, m->input_names);
 }
 
 typedef struct Options {
   const char *model;
-  char **at, **set;
-  int nat, nset, json, no_search;
+  char **at, **set, **rate, **independent;
+  int nat, nset, nrate, nindependent, json, no_search;
 } Options;
 
-/* 0, or an exit status after printing the problem. */
+/* The value of an option that takes one; NULL after a message. */
+static char *option_value(int argc, char **argv, int *i, const char *name) {
+  size_t len = strlen(name);
+  const char *arg = argv[*i];
+  if (strncmp(arg, name, len) == 0 && arg[len] == '=') return (char *)arg + len + 1;
+  if (*i + 1 >= argc) {
+    fprintf(stderr, "eomc linearize: option '%s' needs a value (try 'eomc linearize --help')\n",
+            name);
+    return NULL;
+  }
+  return argv[++*i];
+}
+
+static int is_option(const char *arg, const char *name) {
+  size_t len = strlen(name);
+  return strncmp(arg, name, len) == 0 && (arg[len] == '\0' || arg[len] == '=');
+}
+
+/* 0, or an exit status after printing the problem (-1: help printed). */
 static int parse_options(int argc, char **argv, Options *o) {
+  static const char *const valued[] = {"--at", "--set", "--rate", "--independent"};
   for (int i = 1; i < argc; i++) {
     const char *arg = argv[i];
+    int which = -1;
+    for (int k = 0; k < 4; k++)
+      if (is_option(arg, valued[k])) which = k;
     if (cmd_is_help(arg)) {
       fputs(linearize_usage, stdout);
       return -1;
@@ -340,17 +432,13 @@ static int parse_options(int argc, char **argv, Options *o) {
       o->json = 1;
     } else if (strcmp(arg, "--no-search") == 0) {
       o->no_search = 1;
-    } else if (strcmp(arg, "--at") == 0 || strcmp(arg, "--set") == 0) {
-      if (i + 1 >= argc) {
-        fprintf(stderr, "eomc linearize: option '%s' needs NAME=VALUE (try 'eomc linearize --help')\n", arg);
-        return EXIT_USAGE;
-      }
-      if (arg[2] == 'a') o->at[o->nat++] = argv[++i];
-      else o->set[o->nset++] = argv[++i];
-    } else if (strncmp(arg, "--at=", 5) == 0) {
-      o->at[o->nat++] = (char *)arg + 5;
-    } else if (strncmp(arg, "--set=", 6) == 0) {
-      o->set[o->nset++] = (char *)arg + 6;
+    } else if (which >= 0) {
+      char *v = option_value(argc, argv, &i, valued[which]);
+      if (!v) return EXIT_USAGE;
+      if (which == 0) o->at[o->nat++] = v;
+      else if (which == 1) o->set[o->nset++] = v;
+      else if (which == 2) o->rate[o->nrate++] = v;
+      else o->independent[o->nindependent++] = v;
     } else if (arg[0] == '-' && arg[1] != '\0') {
       fprintf(stderr, "eomc linearize: unknown option '%s' (try 'eomc linearize --help')\n", arg);
       return EXIT_USAGE;
@@ -363,6 +451,11 @@ static int parse_options(int argc, char **argv, Options *o) {
   }
   if (!o->model) {
     fputs("eomc linearize: no model file given (try 'eomc linearize --help')\n", stderr);
+    return EXIT_USAGE;
+  }
+  if (o->nrate > 0 && o->no_search) {
+    fputs("eomc linearize: --rate linearizes about a steady motion, which is always searched "
+          "for (leave out --no-search)\n", stderr);
     return EXIT_USAGE;
   }
   return 0;
@@ -385,6 +478,44 @@ static int apply_values(const Options *o, const struct eom_model *m, RunValues *
   return 0;
 }
 
+static int coord_index(const struct eom_model *m, const char *name, size_t len) {
+  for (int i = 0; i < m->nq; i++)
+    if (strlen(m->coord_names[i]) == len && strncmp(m->coord_names[i], name, len) == 0) return i;
+  return -1;
+}
+
+/* --rate NAME=VALUE (NAME or NAME') into given/rate, --independent NAME
+** into prefer; 0 or EXIT_USAGE. */
+static int apply_rates(const Options *o, const struct eom_model *m, int *given, double *rate,
+                       int *prefer) {
+  for (int k = 0; k < o->nrate; k++) {
+    const char *arg = o->rate[k], *eq = strchr(arg, '=');
+    size_t len = eq ? (size_t)(eq - arg) : 0;
+    if (len > 0 && arg[len - 1] == '\'') len--;
+    int i = len ? coord_index(m, arg, len) : -1;
+    if (!eq || len == 0 || i < 0) {
+      fprintf(stderr, "eomc linearize: --rate %s: %s\n", arg,
+              !eq || len == 0 ? "not NAME=VALUE" : "not a coordinate of the model");
+      return EXIT_USAGE;
+    }
+    if (parse_number(eq + 1, &rate[i]) != 0) {
+      fprintf(stderr, "eomc linearize: --rate %s: '%s' is not a number\n", arg, eq + 1);
+      return EXIT_USAGE;
+    }
+    given[i] = 1;
+  }
+  for (int k = 0; k < o->nindependent; k++) {
+    int i = coord_index(m, o->independent[k], strlen(o->independent[k]));
+    if (i < 0) {
+      fprintf(stderr, "eomc linearize: --independent %s: not a coordinate of the model\n",
+              o->independent[k]);
+      return EXIT_USAGE;
+    }
+    prefer[i] = 1;
+  }
+  return 0;
+}
+
 /* Newton leftovers (1e-30 where the answer is 0) print as 0. */
 static void clean_point(double *q, int n) {
   double scale = 0;
@@ -393,26 +524,226 @@ static void clean_point(double *q, int n) {
     if (fabs(q[i]) < 1e-14 * fmax(1.0, scale)) q[i] = 0;
 }
 
-int cmd_linearize(int argc, char **argv) {
-  Options o;
-  memset(&o, 0, sizeof o);
-  o.at = calloc((size_t)argc + 1, sizeof(char *));
-  o.set = calloc((size_t)argc + 1, sizeof(char *));
-  int rc = 0;
-  if (!o.at || !o.set) {
-    free(o.at), free(o.set);
+/* The chain-rule check of a reduced A against differences of the runtime's
+** constrained dynamics (see the header); a warning with the numbers when
+** they truly disagree.  r's full state is z's on return. */
+static void check_reduced(const struct eom_model *m, Reduction *r, double *z, const Linear *L) {
+  int nq = m->nq, n2 = 2 * nq, nz = L->n;
+  double *Af = malloc((size_t)n2 * n2 * sizeof(double)), *T = malloc((size_t)n2 * nz * sizeof(double));
+  double *x = malloc((size_t)n2 * 3 * sizeof(double)), *Ac = malloc((size_t)nz * nz * sizeof(double));
+  if (!Af || !T || !x || !Ac) goto out;
+  double *x1 = x + n2, *x2 = x1 + n2;
+  for (int j = 0; j < nz; j++) {  /* T = dx/dz */
+    double base = z[j], h = fd_step(base);
+    z[j] = base + h;
+    int bad = reduce_state(r, z);
+    memcpy(x1, r->qf, (size_t)nq * sizeof(double)), memcpy(x1 + nq, r->vf, (size_t)nq * sizeof(double));
+    z[j] = base - h;
+    bad = bad || reduce_state(r, z);
+    memcpy(x2, r->qf, (size_t)nq * sizeof(double)), memcpy(x2 + nq, r->vf, (size_t)nq * sizeof(double));
+    z[j] = base;
+    if (bad) goto out;
+    for (int i = 0; i < n2; i++) T[(size_t)i * nz + j] = (x1[i] - x2[i]) / (2 * h);
+  }
+  if (reduce_state(r, z) != 0) goto out;
+  memcpy(x, r->qf, (size_t)nq * sizeof(double)), memcpy(x + nq, r->vf, (size_t)nq * sizeof(double));
+  if (eom_state_matrix(m, r->p, r->t, x, r->u, Af) != EOM_OK) goto out;
+  for (int a = 0; a < nz; a++) {  /* row a of z' is row `row` of x' */
+    int row = a < r->nk ? r->kept[a] : nq + r->independent[a - r->nk];
+    for (int b = 0; b < nz; b++) {
+      double s = 0;
+      for (int k = 0; k < n2; k++) s += Af[(size_t)row * n2 + k] * T[(size_t)k * nz + b];
+      Ac[(size_t)a * nz + b] = s;
+    }
+  }
+  double d = 0, sc = 0;
+  compare((size_t)nz * nz, L->A, Ac, &d, &sc);
+  /* both are differences (of differences for Ac): a looser bound */
+  if (d > 1e-4 * sc + 1e-7)
+    fprintf(stderr, "eomc linearize: warning: the reduced A disagrees with differences of the "
+                    "constrained dynamics: largest difference %.3g (entries up to %.3g)\n", d, sc);
+out:
+  free(Af), free(T), free(x), free(Ac);
+}
+
+/* The plain linearization in x = [q; q'] (no constraints, no rates). */
+static int linearize_full(const struct eom_model *m, RunValues *rv, const Options *o,
+                          char **xs) {
+  int nq = m->nq, rc = 0;
+  char err[512] = "";
+  struct eom_report eq;
+  memset(&eq, 0, sizeof eq);
+  Linear L;
+  memset(&L, 0, sizeof L);
+  if (!o->no_search) {
+    memset(rv->x + nq, 0, (size_t)nq * sizeof(double));  /* at rest */
+    if (eom_equilibrium(m, rv->p, rv->u, 0, rv->x, 0, 0, &eq) != EOM_OK) {
+      fprintf(stderr, "eomc linearize: error: no static equilibrium: %s\n"
+                      "  (--no-search linearizes at the given point instead)\n", eq.message);
+      return EXIT_RUN;
+    }
+    clean_point(rv->x, nq);
+  }
+  if (linear_alloc(&L, 2 * nq, m->nu, m->ny) != 0) {
     fputs("eomc linearize: out of memory\n", stderr);
     return EXIT_RUN;
   }
+  if (linearize_at(m, rv->p, rv->x, rv->u, &L, err, sizeof err) != 0) {
+    fprintf(stderr, "eomc linearize: error: %s\n", err);
+    rc = EXIT_RUN;
+  } else {
+    Point pt = {rv->x, rv->u, o->no_search ? POINT_GIVEN : POINT_EQUILIBRIUM, eq.steps,
+                eq.residual, NULL};
+    if (o->json) print_json(stdout, m, &pt, &L, (const char *const *)xs, (const char *const *)xs);
+    else print_text(stdout, m, &pt, &L, (const char *const *)xs, (const char *const *)xs);
+  }
+  linear_free(&L);
+  return rc;
+}
+
+/* The point of a reduced linearization: a steady motion (--rate), a
+** static equilibrium, or the given point; r is set up there.  0, or an
+** exit status after the message. */
+static int reduced_point(const struct eom_model *m, RunValues *rv, const Options *o,
+                         const int *given, const double *rate, const int *prefer,
+                         SteadyMotion *sm, Reduction *own, Point *pt, Reduction **red) {
+  int nq = m->nq;
+  char err[1024] = "";
+  if (o->nrate > 0) {
+    if (steady_analyze(m, rv->p, rv->u, rv->x, rv->x + nq, given, rate, prefer, 0, sm, err,
+                       sizeof err) != 0) {
+      fprintf(stderr, "eomc linearize: error: %s\n", err);
+      return EXIT_RUN;
+    }
+    pt->kind = POINT_STEADY, pt->steps = sm->iterations, pt->residual = sm->residual;
+    *red = &sm->red;
+    return 0;
+  }
+  if (!o->no_search) {
+    struct eom_report eq;
+    memset(&eq, 0, sizeof eq);
+    memset(rv->x + nq, 0, (size_t)nq * sizeof(double));  /* at rest */
+    if (eom_equilibrium(m, rv->p, rv->u, 0, rv->x, 0, 0, &eq) != EOM_OK) {
+      fprintf(stderr, "eomc linearize: error: no static equilibrium: %s\n"
+                      "  (--no-search linearizes at the given point instead)\n", eq.message);
+      return EXIT_RUN;
+    }
+    clean_point(rv->x, nq);
+    pt->kind = POINT_EQUILIBRIUM, pt->steps = eq.steps, pt->residual = eq.residual;
+  }
+  if (reduce_init(own, m, rv->p, rv->u, 0.0, rv->x, rv->x + nq) != 0) {
+    fputs("eomc linearize: out of memory\n", stderr);
+    return EXIT_RUN;
+  }
+  for (int i = 0; i < nq; i++)
+    if (prefer[i]) own->role[i] |= REDUCE_PREFER;
+  if (reduce_choose(own, err, sizeof err) != 0) {
+    fprintf(stderr, "eomc linearize: error: %s\n", err);
+    return EXIT_RUN;
+  }
+  /* the given point onto the constraints: the dependent coordinates and
+  ** rates follow from the independent ones */
+  double *z = malloc((size_t)(own->nk + own->ni + 1) * sizeof(double));
+  int bad = !z;
+  if (z) {
+    reduce_point(own, z);
+    bad = reduce_state(own, z) != 0;
+    free(z);
+  }
+  if (bad) {
+    fputs("eomc linearize: error: the constraints cannot be met at the point from its "
+          "independent coordinates (start nearer with --at)\n", stderr);
+    return EXIT_RUN;
+  }
+  reduce_rebase(own);
+  *red = own;
+  return 0;
+}
+
+/* The linearization in the reduced state (constraints or --rate). */
+static int linearize_reduced(const struct eom_model *m, RunValues *rv, const Options *o) {
+  int nq = m->nq, rc = 0;
+  int *given = calloc((size_t)nq + 1, sizeof(int)), *prefer = calloc((size_t)nq + 1, sizeof(int));
+  double *rate = calloc((size_t)nq + 1, sizeof(double)), *z = NULL, *x = NULL;
+  char **xs = state_names(m), **zs = NULL;
+  SteadyMotion sm;
+  Reduction own, *red = NULL;
+  Linear L;
+  memset(&sm, 0, sizeof sm);
+  memset(&own, 0, sizeof own);
+  memset(&L, 0, sizeof L);
+  Point pt = {NULL, NULL, POINT_GIVEN, 0, 0, NULL};
+  int ok = given && prefer && rate && xs;
+  for (int i = 0; ok && i < 2 * nq; i++) ok = xs[i] != NULL;
+  if (!ok) {
+    fputs("eomc linearize: out of memory\n", stderr);
+    rc = EXIT_RUN;
+    goto out;
+  }
+  if ((rc = apply_rates(o, m, given, rate, prefer)) != 0) goto out;
+  if ((rc = reduced_point(m, rv, o, given, rate, prefer, &sm, &own, &pt, &red)) != 0) goto out;
+  for (int i = 0; i < nq; i++)
+    if (prefer[i] && (red->role[i] & REDUCE_RATE_DEP)) {
+      fprintf(stderr, "eomc linearize: error: '%s' cannot be independent: the constraints fix "
+                      "it from the other coordinates here\n", m->coord_names[i]);
+      rc = EXIT_RUN;
+      goto out;
+    }
+  int nz = red->nk + red->ni;
+  z = malloc((size_t)(nz + 2 * nq + 1) * sizeof(double));
+  zs = calloc((size_t)nz + 1, sizeof *zs);
+  if (!z || !zs || linear_alloc(&L, nz, m->nu, m->ny) != 0) {
+    fputs("eomc linearize: out of memory\n", stderr);
+    rc = EXIT_RUN;
+    goto out;
+  }
+  x = z + nz;
+  for (int k = 0; k < nz; k++) {
+    char buf[512];
+    zs[k] = strdup(reduce_name(red, k, buf, sizeof buf));
+    if (!zs[k]) rc = EXIT_RUN;
+  }
+  reduce_point(red, z);
+  if (rc == 0 && reduce_linearize(red, z, L.A, L.B, L.C, L.D) != 0) {
+    fputs("eomc linearize: error: the constrained dynamics fail next to the point\n", stderr);
+    rc = EXIT_RUN;
+  }
+  if (rc != 0) goto out;
+  check_reduced(m, red, z, &L);
+  memcpy(x, red->q, (size_t)nq * sizeof(double));
+  memcpy(x + nq, red->v, (size_t)nq * sizeof(double));
+  clean_point(x, 2 * nq);
+  pt.x = x, pt.u = red->u, pt.red = red;
+  if (o->json) print_json(stdout, m, &pt, &L, (const char *const *)xs, (const char *const *)zs);
+  else print_text(stdout, m, &pt, &L, (const char *const *)xs, (const char *const *)zs);
+out:
+  free_names(zs, red ? red->nk + red->ni : 0);
+  free_names(xs, 2 * nq);
+  linear_free(&L);
+  steady_free(&sm);
+  reduce_free(&own);
+  free(given), free(prefer), free(rate), free(z);
+  return rc;
+}
+
+int cmd_linearize(int argc, char **argv) {
+  Options o;
+  memset(&o, 0, sizeof o);
+  char **lists = calloc(4 * ((size_t)argc + 1), sizeof(char *));
+  int rc = 0;
+  if (!lists) {
+    fputs("eomc linearize: out of memory\n", stderr);
+    return EXIT_RUN;
+  }
+  o.at = lists, o.set = lists + argc + 1, o.rate = o.set + argc + 1;
+  o.independent = o.rate + argc + 1;
   if ((rc = parse_options(argc, argv, &o)) != 0) {
-    free(o.at), free(o.set);
+    free(lists);
     return rc < 0 ? 0 : rc;
   }
   BuiltModel bm;
   RunValues rv;
-  Linear L;
-  char **xs = NULL, err[512] = "";
-  memset(&L, 0, sizeof L);
+  char **xs = NULL;
   if ((rc = build_model(o.model, &bm)) != 0) goto done;
   const struct eom_model *m = bm.model;
   if (run_values_init(&rv, m) != 0) {
@@ -421,43 +752,30 @@ int cmd_linearize(int argc, char **argv) {
     goto unload;
   }
   if ((rc = apply_values(&o, m, &rv)) != 0) goto values;
-  int nq = m->nq;
-  struct eom_report eq;
-  memset(&eq, 0, sizeof eq);
-  if (!o.no_search) {
-    memset(rv.x + nq, 0, (size_t)nq * sizeof(double));  /* at rest */
-    if (eom_equilibrium(m, rv.p, rv.u, 0, rv.x, 0, 0, &eq) != EOM_OK) {
-      fprintf(stderr, "eomc linearize: error: no static equilibrium: %s\n"
-                      "  (--no-search linearizes at the given point instead)\n", eq.message);
+  if (m->nc + m->nvc > 0 || o.nrate > 0) {
+    rc = linearize_reduced(m, &rv, &o);
+  } else {
+    xs = state_names(m);
+    int names_ok = xs != NULL;
+    for (int i = 0; names_ok && i < 2 * m->nq; i++) names_ok = xs[i] != NULL;
+    if (!names_ok) {
+      fputs("eomc linearize: out of memory\n", stderr);
       rc = EXIT_RUN;
       goto values;
     }
-    clean_point(rv.x, nq);
+    if (o.nindependent > 0) {
+      fputs("eomc linearize: note: the model has no constraints: every coordinate is "
+            "independent (--independent changes nothing)\n", stderr);
+    }
+    rc = linearize_full(m, &rv, &o, xs);
   }
-  xs = state_names(m);
-  int names_ok = xs != NULL;
-  for (int i = 0; names_ok && i < 2 * nq; i++) names_ok = xs[i] != NULL;
-  if (!names_ok || linear_alloc(&L, 2 * nq, m->nu, m->ny) != 0) {
-    fputs("eomc linearize: out of memory\n", stderr);
-    rc = EXIT_RUN;
-    goto values;
-  }
-  if (linearize_at(m, rv.p, rv.x, rv.u, &L, err, sizeof err) != 0) {
-    fprintf(stderr, "eomc linearize: error: %s\n", err);
-    rc = EXIT_RUN;
-    goto values;
-  }
-  Point pt = {rv.x, rv.u, !o.no_search, &eq};
-  if (o.json) print_json(stdout, m, &pt, &L, (const char *const *)xs);
-  else print_text(stdout, m, &pt, &L, (const char *const *)xs);
-  if (fflush(stdout) != 0) rc = EXIT_RUN;
+  if (rc == 0 && fflush(stdout) != 0) rc = EXIT_RUN;
 values:
   run_values_free(&rv);
 unload:
   free_names(xs, bm.model ? 2 * bm.model->nq : 0);
-  linear_free(&L);
   built_model_close(&bm);
 done:
-  free(o.at), free(o.set);
+  free(lists);
   return rc;
 }

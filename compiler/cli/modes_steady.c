@@ -1,6 +1,7 @@
 /*
 ** modes_steady.c — `eomc modes --rate NAME=VALUE` and `--sweep-rate`:
-** eigenvalues of the reduced system about a steady motion (steady.c), as
+** eigenvalues of the reduced system about a steady motion (steady.c; with
+** position constraints too, in the coordinates they leave free), as
 ** text, JSON, or a table over a range of one rate (with an SVG of growth
 ** rates and frequencies against it).
 */
@@ -76,6 +77,9 @@ static void print_motion(FILE *f, const struct eom_model *m, const SteadyMotion 
     const char *name = m->coord_names[i];
     if (role & STEADY_KEPT)
       fprintf(f, "  %s = %.10g (at rest)\n", name, sm->q[i]);
+    else if (role & STEADY_POS_DEP)
+      fprintf(f, "  %s = %.10g, %s' = %.10g (follow from the position constraints)\n", name,
+              sm->q[i], name, sm->v[i]);
     else if (role & STEADY_GIVEN)
       fprintf(f, "  %s' = %.10g (given; %s left out: it does not enter the dynamics)\n", name,
               sm->v[i], name);
@@ -160,7 +164,7 @@ static int sweep(const struct eom_model *m, RunValues *rv, int *given, double *r
   memset(&sm, 0, sizeof sm);
   for (int k = 0; k < n && rc == 0; k++) {
     rate[idx] = lo + (hi - lo) * k / (n - 1);
-    if (steady_analyze(m, rv->p, rv->u, rv->x, rv->x + m->nq, given, rate, k > 0, &sm, err,
+    if (steady_analyze(m, rv->p, rv->u, rv->x, rv->x + m->nq, given, rate, NULL, k > 0, &sm, err,
                        sizeof err) != 0) {
       fprintf(stderr, "eomc modes: error: at %s' = %.10g: %s\n", m->coord_names[idx], rate[idx],
               err);
@@ -232,7 +236,7 @@ int modes_steady(const struct eom_model *m, RunValues *rv, const SteadyOptions *
   }
   SteadyMotion sm;
   memset(&sm, 0, sizeof sm);
-  if (steady_analyze(m, rv->p, rv->u, rv->x, rv->x + m->nq, given, rate, 0, &sm, err,
+  if (steady_analyze(m, rv->p, rv->u, rv->x, rv->x + m->nq, given, rate, NULL, 0, &sm, err,
                      sizeof err) != 0) {
     fprintf(stderr, "eomc modes: error: %s\n", err);
     rc = EXIT_RUN;
