@@ -272,6 +272,12 @@ START_TEST(spinning_ring_steady_motion_linearized) {
                     strstr(r.out, "  b: follow from the position constraints") &&
                     strstr(r.out, "  ph: turn at the given rates"), "%s", r.out);
   run_free(&r);
+  /* a rate with a unit, converted to the coordinate's (rad/s) */
+  r = linearize("tests/models/ring_bead.eom", "--json", "--rate", "ph=(300/pi)[rpm]", NULL, NULL,
+                NULL);
+  ck_assert_msg(r.status == 0, "status %d: %s", r.status, r.err);
+  ck_assert_msg(fabs(json_value(r.out, "ph'") - 10) < 1e-12, "%s", r.out);
+  run_free(&r);
   /* --rate is searched for: --no-search contradicts it */
   r = linearize("tests/models/ring_bead.eom", "--rate", "ph=5", "--no-search", NULL, NULL, NULL);
   ck_assert_int_eq(r.status, 2);

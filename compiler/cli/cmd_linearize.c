@@ -35,6 +35,7 @@
 #include "cli/reduce.h"
 #include "cli/run_values.h"
 #include "cli/steady.h"
+#include "cli/value_text.h"
 #include "eom/runtime.h"
 
 static const char linearize_usage[] =
@@ -486,10 +487,11 @@ static int coord_index(const struct eom_model *m, const char *name, size_t len) 
   return -1;
 }
 
-/* --rate NAME=VALUE (NAME or NAME') into given/rate, --independent NAME
-** into prefer; 0 or EXIT_USAGE. */
-static int apply_rates(const Options *o, const struct eom_model *m, int *given, double *rate,
-                       int *prefer) {
+/* --rate NAME=VALUE (NAME or NAME'; VALUE as for --set, in the
+** coordinate's unit per second) into given/rate, --independent NAME into
+** prefer; p: the parameters VALUE may name.  0 or EXIT_USAGE. */
+static int apply_rates(const Options *o, const struct eom_model *m, const double *p, int *given,
+                       double *rate, int *prefer) {
   for (int k = 0; k < o->nrate; k++) {
     const char *arg = o->rate[k], *eq = strchr(arg, '=');
     size_t len = eq ? (size_t)(eq - arg) : 0;
@@ -500,8 +502,11 @@ static int apply_rates(const Options *o, const struct eom_model *m, int *given, 
               !eq || len == 0 ? "not NAME=VALUE" : "not a coordinate of the model");
       return EXIT_USAGE;
     }
-    if (parse_number(eq + 1, &rate[i]) != 0) {
-      fprintf(stderr, "eomc linearize: --rate %s: '%s' is not a number\n", arg, eq + 1);
+    char unit[256] = "", err[1024];
+    if (m->coord_units && m->coord_units[i][0])
+      snprintf(unit, sizeof unit, "(%s)/s", m->coord_units[i]);
+    if (value_text_eval(arg, eq + 1, m, p, unit, &rate[i], err, sizeof err) != 0) {
+      fprintf(stderr, "eomc linearize: --rate %s\n", err);
       return EXIT_USAGE;
     }
     given[i] = 1;
@@ -682,7 +687,7 @@ static int linearize_reduced(const struct eom_model *m, RunValues *rv, const Opt
     rc = EXIT_RUN;
     goto out;
   }
-  if ((rc = apply_rates(o, m, given, rate, prefer)) != 0) goto out;
+  if ((rc = apply_rates(o, m, rv->p, given, rate, prefer)) != 0) goto out;
   if ((rc = reduced_point(m, rv, o, given, rate, prefer, &sm, &own, &pt, &red)) != 0) goto out;
   for (int i = 0; i < nq; i++)
     if (prefer[i] && (red->role[i] & REDUCE_RATE_DEP)) {

@@ -16,6 +16,7 @@
 #include "cli/cmd.h"
 #include "cli/plot.h"
 #include "cli/steady.h"
+#include "cli/value_text.h"
 
 static const double TWO_PI = 6.283185307179586476925286766559;
 
@@ -25,9 +26,17 @@ static int coord_index(const struct eom_model *m, const char *name, size_t len) 
   return -1;
 }
 
-/* "NAME=VALUE" (NAME or NAME'): the coordinate and the rate; -1 and a message. */
-static int parse_rate(const struct eom_model *m, const char *arg, int *index, double *value,
-                      char *err, size_t errlen) {
+/* The unit a rate of coordinate i is written in ("" when none). */
+static const char *rate_unit(const struct eom_model *m, int i, char *buf, size_t size) {
+  buf[0] = '\0';
+  if (m->coord_units && m->coord_units[i][0]) snprintf(buf, size, "(%s)/s", m->coord_units[i]);
+  return buf;
+}
+
+/* "NAME=VALUE" (NAME or NAME'; VALUE as for --set, cli/value_text.h): the
+** coordinate and the rate; -1 and a message. */
+static int parse_rate(const struct eom_model *m, const double *p, const char *arg, int *index,
+                      double *value, char *err, size_t errlen) {
   const char *eq = strchr(arg, '=');
   size_t len = eq ? (size_t)(eq - arg) : 0;
   if (len > 0 && arg[len - 1] == '\'') len--;
@@ -40,17 +49,15 @@ static int parse_rate(const struct eom_model *m, const char *arg, int *index, do
     snprintf(err, errlen, "'%.*s' is not a coordinate of the model", (int)len, arg);
     return -1;
   }
-  if (parse_number(eq + 1, value) != 0) {
-    snprintf(err, errlen, "'%s' is not a number", eq + 1);
-    return -1;
-  }
-  return 0;
+  char unit[256];
+  return value_text_eval(arg, eq + 1, m, p, rate_unit(m, *index, unit, sizeof unit), value, err,
+                         errlen);
 }
 
 /* "NAME=LO:HI:N" */
-static int parse_sweep(const struct eom_model *m, const char *arg, int *index, double *lo,
-                       double *hi, int *n, char *err, size_t errlen) {
-  char buf[512];
+static int parse_sweep(const struct eom_model *m, const double *p, const char *arg, int *index,
+                       double *lo, double *hi, int *n, char *err, size_t errlen) {
+  char buf[512], unit[256];
   snprintf(buf, sizeof buf, "%s", arg);
   char *eq = strchr(buf, '='), *c1 = eq ? strchr(eq, ':') : NULL, *c2 = c1 ? strchr(c1 + 1, ':') : NULL;
   if (!c2) {
@@ -59,9 +66,11 @@ static int parse_sweep(const struct eom_model *m, const char *arg, int *index, d
   }
   *c1 = *c2 = '\0';
   double count;
-  if (parse_rate(m, buf, index, lo, err, errlen) != 0) return -1;
-  if (parse_number(c1 + 1, hi) != 0 || parse_number(c2 + 1, &count) != 0 || count < 2 ||
-      count > 100000 || count != floor(count)) {
+  if (parse_rate(m, p, buf, index, lo, err, errlen) != 0) return -1;
+  if (value_text_eval(c1 + 1, c1 + 1, m, p, rate_unit(m, *index, unit, sizeof unit), hi, err,
+                      errlen) != 0)
+    return -1;
+  if (parse_number(c2 + 1, &count) != 0 || count < 2 || count > 100000 || count != floor(count)) {
     snprintf(err, errlen, "--sweep-rate wants NAME=LO:HI:N with N a whole number >= 2, not '%s'",
              arg);
     return -1;
@@ -143,7 +152,7 @@ static int sweep(const struct eom_model *m, RunValues *rv, int *given, double *r
   char err[1024];
   int idx, n;
   double lo, hi;
-  if (parse_sweep(m, o->sweep, &idx, &lo, &hi, &n, err, sizeof err) != 0) {
+  if (parse_sweep(m, rv->p, o->sweep, &idx, &lo, &hi, &n, err, sizeof err) != 0) {
     fprintf(stderr, "eomc modes: %s\n", err);
     return EXIT_USAGE;
   }
@@ -216,7 +225,7 @@ int modes_steady(const struct eom_model *m, RunValues *rv, const SteadyOptions *
   for (int k = 0; k < o->nrates; k++) {
     int idx;
     double v;
-    if (parse_rate(m, o->rates[k], &idx, &v, err, sizeof err) != 0) {
+    if (parse_rate(m, rv->p, o->rates[k], &idx, &v, err, sizeof err) != 0) {
       fprintf(stderr, "eomc modes: --rate %s\n", err);
       rc = EXIT_USAGE;
       goto out;
