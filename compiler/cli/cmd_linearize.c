@@ -751,7 +751,7 @@ int cmd_linearize(int argc, char **argv) {
   BuiltModel bm;
   RunValues rv;
   char **xs = NULL;
-  if ((rc = build_model(o.model, &bm)) != 0) goto done;
+  if ((rc = build_model_without_attitudes(o.model, "linearize", &bm)) != 0) goto done;
   const struct eom_model *m = bm.model;
   if (run_values_init(&rv, m) != 0) {
     fputs("eomc linearize: out of memory\n", stderr);
