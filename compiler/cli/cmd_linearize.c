@@ -22,6 +22,16 @@
 ** dz'/dz = P (dx'/dx) (dx/dz), P picking z's entries out of x'.  With
 ** --rate the point is a steady motion (steady.c), and z leaves out the
 ** coordinates that turn at the given rates and those that enter nothing.
+**
+** A model with attitudes is linearized in a minimal state: each attitude's
+** quaternion q (4 entries) is replaced by a small rotation dth about its
+** body axes, q = q0 (x) [1, dth/2], so dq = N(q0) dth and dth = 4 N(q0)^T dq
+** (N the kinematic map of P_kinematics; N^T N = I/4 on the unit sphere).
+** With T (full from minimal) and P (minimal from full), z = P dx gives
+** z' = (P A_full T + P' T) z + P B_full u, so A = P A_full T + P' T (P'
+** from q0' = N(q0) omega0: zero at rest, the turning of the body axes in a
+** steady spin), B = P B_full, C = C_full T.  (Not yet together with
+** constraints or --rate.)
 */
 #include <float.h>
 #include <math.h>
@@ -32,6 +42,7 @@
 #include "cli/build_model.h"
 #include "cli/cmd.h"
 #include "cli/json_out.h"
+#include "cli/linearize_print.h"
 #include "cli/reduce.h"
 #include "cli/run_values.h"
 #include "cli/steady.h"
@@ -46,6 +57,8 @@ static const char linearize_usage[] =
   "inputs, y the outputs, as deviations from the point) with row and column\n"
   "labels.  The point is a static equilibrium, searched (as `eomc modes`\n"
   "does) from the initial coordinates with the inputs at their --set values.\n"
+  "With attitudes (--no-search only) the state is minimal: three small body-axis\n"
+  "rotations R.dth1..3 per attitude instead of its quaternion.\n"
   "\n"
   "options:\n"
   "  --at NAME=VALUE    a coordinate's starting value for the search, or with\n"
@@ -75,14 +88,6 @@ static const char linearize_usage[] =
 #define AGREEMENT 1e-6
 /* ... plus this absolute floor, below which both are zero. */
 #define ZERO_FLOOR 1e-9
-
-/* The linear model and what it was computed from. */
-typedef struct Linear {
-  int n, nu, ny;
-  double *A, *B, *C, *D;      /* n x n, n x nu, ny x n, ny x nu, row-major */
-  double *Ad, *Bd;            /* A and B by differences */
-  int from_jacobian;          /* A, B are the generated jacobian's */
-} Linear;
 
 static void linear_free(Linear *L) {
   free(L->A);
@@ -163,7 +168,7 @@ static int output_matrices(const struct eom_model *m, const double *p, const dou
       else L->D[(size_t)i * nu + (j - n)] = d;
     }
   }
-  if (m->output_jacobian && m->output_kinematic) {
+  if (m->output_jacobian && m->output_kinematic && m->nattitudes == 0) {  /* J is NV wide with attitudes */
     m->output_jacobian(x, p, J);
     for (int i = 0; i < ny; i++) {
       if (!m->output_kinematic[i]) continue;
@@ -217,183 +222,87 @@ static int linearize_at(const struct eom_model *m, const double *p, const double
   return 0;
 }
 
-/* State names: q1..., then q1'... (malloc'd array of malloc'd strings). */
+/* State names: q1..., then q1'... (malloc'd array of malloc'd strings).
+** With attitudes, the minimal state: the coordinates, each attitude's
+** small rotations R.dth1..3, then the velocities (x', omega(R)[1] ...). */
 static char **state_names(const struct eom_model *m) {
-  int nq = m->nq;
-  char **names = calloc((size_t)2 * nq + 1, sizeof *names);
+  int nq = m->nq, nv = eom_nv(m), nplain = nq - 4 * m->nattitudes, n = 2 * nv;
+  char **names = calloc((size_t)n + 1, sizeof *names);
   if (!names) return NULL;
-  for (int i = 0; i < 2 * nq; i++) {
-    const char *c = m->coord_names[i % nq];
-    names[i] = malloc(strlen(c) + 2);
+  for (int i = 0; i < n; i++) {
+    const char *c = i < nplain ? m->coord_names[i] : i < nv ? m->attitude_names[(i - nplain) / 3]
+                  : m->nattitudes ? m->rate_names[i - nv] : m->coord_names[i - nv];
+    names[i] = malloc(strlen(c) + 8);
     if (!names[i]) return names;  /* caller checks each */
-    sprintf(names[i], "%s%s", c, i < nq ? "" : "'");
+    if (i < nplain) sprintf(names[i], "%s", c);
+    else if (i < nv) sprintf(names[i], "%s.dth%d", c, (i - nplain) % 3 + 1);
+    else sprintf(names[i], "%s%s", c, m->nattitudes ? "" : "'");
   }
   return names;
+}
+
+/* T (nx x nz, full state from minimal) and P (nz x nx, minimal from full)
+** at the state x of a model with attitudes (see the top of this file);
+** with x the quaternion rates q' instead of q, P is P' (N is linear in q). */
+static void attitude_maps(const struct eom_model *m, const double *x, double *T, double *P) {
+  int nq = m->nq, nv = eom_nv(m), nx = nq + nv, nz = 2 * nv, nplain = nq - 4 * m->nattitudes;
+  memset(T, 0, (size_t)nx * nz * sizeof(double));
+  memset(P, 0, (size_t)nz * nx * sizeof(double));
+  for (int i = 0; i < nplain; i++) T[(size_t)i * nz + i] = P[(size_t)i * nx + i] = 1;
+  for (int i = 0; i < nv; i++) T[(size_t)(nq + i) * nz + nv + i] = P[(size_t)(nv + i) * nx + nq + i] = 1;
+  for (int a = 0; a < m->nattitudes; a++) {
+    const double *q = x + nplain + 4 * a;
+    const double N[4][3] = {{-q[1], -q[2], -q[3]}, {q[0], -q[3], q[2]}, {q[3], q[0], -q[1]},
+                            {-q[2], q[1], q[0]}};   /* times 1/2 */
+    for (int r = 0; r < 4; r++)
+      for (int c = 0; c < 3; c++) {
+        int qi = nplain + 4 * a + r, zi = nplain + 3 * a + c;
+        T[(size_t)qi * nz + zi] = 0.5 * N[r][c];
+        P[(size_t)zi * nx + qi] = 2.0 * N[r][c];   /* 4 (N/2)^T */
+      }
+  }
+}
+
+/* out (r x c) = a (r x k) b (k x c). */
+static void matmul(const double *a, const double *b, int r, int k, int c, double *out) {
+  for (int i = 0; i < r; i++)
+    for (int j = 0; j < c; j++) {
+      double s = 0;
+      for (int l = 0; l < k; l++) s += a[(size_t)i * k + l] * b[(size_t)l * c + j];
+      out[(size_t)i * c + j] = s;
+    }
+}
+
+/* The minimal linear model Z of the full one F (models with attitudes). */
+static int reduce_attitudes(const struct eom_model *m, const double *x, const Linear *F, Linear *Z) {
+  int nx = F->n, nz = Z->n, nu = F->nu, ny = F->ny;
+  double *T = malloc(((size_t)nx * nz * 5 + (size_t)nx + 1) * sizeof(double));
+  if (!T) return -1;
+  double *P = T + (size_t)nx * nz, *PA = P + (size_t)nz * nx, *Pd = PA + (size_t)nz * nx;
+  double *Td = Pd + (size_t)nz * nx, *xd = Td + (size_t)nx * nz;
+  attitude_maps(m, x, T, P);
+  matmul(P, F->A, nz, nx, nx, PA);
+  matmul(PA, T, nz, nx, nz, Z->A);
+  /* + P' T: P at the rates q0' (in the q slots; the rest of P' is zero) */
+  memcpy(xd, x, (size_t)nx * sizeof(double));
+  m->kinematics(x, x + m->nq, xd);
+  attitude_maps(m, xd, Td, Pd);
+  for (int i = 0; i < nz; i++)
+    for (int j = 0; j < nx; j++)
+      if (!(j >= m->nq - 4 * m->nattitudes && j < m->nq)) Pd[(size_t)i * nx + j] = 0;
+  matmul(Pd, T, nz, nx, nz, PA);
+  for (size_t k = 0; k < (size_t)nz * nz; k++) Z->A[k] += PA[k];
+  matmul(P, F->B, nz, nx, nu, Z->B);
+  matmul(F->C, T, ny, nx, nz, Z->C);
+  memcpy(Z->D, F->D, (size_t)ny * nu * sizeof(double));
+  Z->from_jacobian = F->from_jacobian;
+  free(T);
+  return 0;
 }
 
 static void free_names(char **names, int n) {
   for (int i = 0; names && i < n; i++) free(names[i]);
   free(names);
-}
-
-/* Print an r x c matrix with labels, in columns wide enough for both. */
-static void print_matrix(FILE *f, const char *title, const double *a, int r, int c,
-                         const char *const *rows, const char *const *cols) {
-  int lw = 1, cw = 12;
-  fprintf(f, "\n%s:\n", title);
-  if (r == 0 || c == 0) {
-    fprintf(f, "  (empty: %d x %d)\n", r, c);
-    return;
-  }
-  for (int i = 0; i < r; i++)
-    if ((int)strlen(rows[i]) > lw) lw = (int)strlen(rows[i]);
-  for (int j = 0; j < c; j++)
-    if ((int)strlen(cols[j]) + 1 > cw) cw = (int)strlen(cols[j]) + 1;
-  fprintf(f, "  %*s", lw, "");
-  for (int j = 0; j < c; j++) fprintf(f, " %*s", cw, cols[j]);
-  fputc('\n', f);
-  for (int i = 0; i < r; i++) {
-    fprintf(f, "  %-*s", lw, rows[i]);
-    for (int j = 0; j < c; j++) {
-      double v = a[(size_t)i * c + j];
-      fprintf(f, " %*.*g", cw, 6, v == 0 ? 0.0 : v);  /* no -0 */
-    }
-    fputc('\n', f);
-  }
-}
-
-static void json_names(FILE *f, const char *key, const char *const *names, int n) {
-  fprintf(f, ",\n  \"%s\": [", key);
-  for (int i = 0; i < n; i++) {
-    fputs(i ? ", " : "", f);
-    json_str(f, names[i]);
-  }
-  fputc(']', f);
-}
-
-static void json_matrix(FILE *f, const char *key, const double *a, int r, int c) {
-  fprintf(f, ",\n  \"%s\": [", key);
-  for (int i = 0; i < r; i++) {
-    fputs(i ? ",\n    [" : "\n    [", f);
-    for (int j = 0; j < c; j++) {
-      fputs(j ? ", " : "", f);
-      json_num_exact(f, a[(size_t)i * c + j] == 0 ? 0.0 : a[(size_t)i * c + j]);
-    }
-    fputc(']', f);
-  }
-  fputs(r ? "\n  ]" : "]", f);
-}
-
-/* How the point was found. */
-enum { POINT_GIVEN, POINT_EQUILIBRIUM, POINT_STEADY };
-
-typedef struct Point {
-  const double *x, *u;          /* the full state [q; q'] (2 nq) and the inputs */
-  int kind;                     /* POINT_* */
-  long steps;                   /* Newton or Levenberg–Marquardt iterations */
-  double residual;
-  const Reduction *red;         /* the reduction, or NULL (state x itself) */
-} Point;
-
-static const char *const point_kinds[] = {"the given point", "an equilibrium",
-                                          "a steady motion"};
-
-static void print_json(FILE *f, const struct eom_model *m, const Point *pt, const Linear *L,
-                       const char *const *xs, const char *const *zs) {
-  fputs("{\n  \"model\": ", f);
-  json_str(f, m->name);
-  fprintf(f, ",\n  \"equilibrium\": %s", pt->kind == POINT_EQUILIBRIUM ? "true" : "false");
-  if (pt->kind == POINT_STEADY) fputs(",\n  \"steady_motion\": true", f);
-  if (pt->kind != POINT_GIVEN) {
-    fprintf(f, ",\n  \"%s\": %ld,\n  \"residual\": ",
-            pt->kind == POINT_STEADY ? "iterations" : "newton_iterations", pt->steps);
-    json_num(f, pt->residual);
-  }
-  fputs(",\n  \"point\": {", f);
-  for (int i = 0; i < 2 * m->nq; i++) {
-    fputs(i ? ", " : "", f);
-    json_str(f, xs[i]);
-    fputs(": ", f);
-    json_num_exact(f, pt->x[i]);
-  }
-  fputs("},\n  \"inputs_at\": {", f);
-  for (int i = 0; i < L->nu; i++) {
-    fputs(i ? ", " : "", f);
-    json_str(f, m->input_names[i]);
-    fputs(": ", f);
-    json_num_exact(f, pt->u[i]);
-  }
-  fputc('}', f);
-  if (pt->red) {
-    const Reduction *r = pt->red;
-    const char *heads[3] = {"dependent", "given_rates", "left_out"};
-    int flags[3] = {REDUCE_POS_DEP | REDUCE_RATE_DEP, REDUCE_GIVEN, REDUCE_ABSENT};
-    fputs(",\n  \"reduced\": true", f);
-    for (int h = 0; h < 3; h++) {
-      fprintf(f, ",\n  \"%s\": [", heads[h]);
-      for (int i = 0, n = 0; i < m->nq; i++)
-        if ((r->role[i] & flags[h]) &&
-            !(h == 2 && (r->role[i] & (REDUCE_GIVEN | REDUCE_POS_DEP)))) {
-          fputs(n++ ? ", " : "", f);
-          /* dependent rates only: "NAME'"; dependent positions: "NAME" */
-          char name[256];
-          snprintf(name, sizeof name, "%s%s", m->coord_names[i],
-                   h == 0 && !(r->role[i] & REDUCE_POS_DEP) ? "'" : "");
-          json_str(f, name);
-        }
-      fputc(']', f);
-    }
-  }
-  json_names(f, "state", zs, L->n);
-  json_names(f, "inputs", m->input_names, L->nu);
-  json_names(f, "outputs", m->output_names, L->ny);
-  json_matrix(f, "A", L->A, L->n, L->n);
-  json_matrix(f, "B", L->B, L->n, L->nu);
-  json_matrix(f, "C", L->C, L->ny, L->n);
-  json_matrix(f, "D", L->D, L->ny, L->nu);
-  fputs("\n}\n", f);
-}
-
-/* What the reduction made of the coordinates, in words. */
-static void print_reduction(FILE *f, const struct eom_model *m, const Reduction *r) {
-  static const struct { int flag, not; const char *text; } kinds[] = {
-    {REDUCE_POS_DEP, 0, "follow from the position constraints (with their rates)"},
-    {REDUCE_RATE_DEP, REDUCE_POS_DEP, "rates follow from the velocity constraints"},
-    {REDUCE_GIVEN, 0, "turn at the given rates (left out)"},
-    {REDUCE_ABSENT, REDUCE_GIVEN | REDUCE_POS_DEP, "enter nothing (left out)"},
-  };
-  fputs("reduced state: the independent positions and rates only\n", f);
-  for (size_t k = 0; k < sizeof kinds / sizeof kinds[0]; k++) {
-    int any = 0;
-    for (int i = 0; i < m->nq; i++)
-      if ((r->role[i] & kinds[k].flag) && !(r->role[i] & kinds[k].not))
-        fprintf(f, "%s%s", any++ ? ", " : "  ", m->coord_names[i]);
-    if (any) fprintf(f, ": %s\n", kinds[k].text);
-  }
-}
-
-static void print_text(FILE *f, const struct eom_model *m, const Point *pt, const Linear *L,
-                       const char *const *xs, const char *const *zs) {
-  if (pt->kind == POINT_GIVEN)
-    fprintf(f, "%s linearized at the given point:\n", m->name);
-  else
-    fprintf(f, "%s linearized at %s (%ld %s iterations, residual %.3g):\n", m->name,
-            point_kinds[pt->kind], pt->steps,
-            pt->kind == POINT_STEADY ? "Levenberg-Marquardt" : "Newton", pt->residual);
-  for (int i = 0; i < 2 * m->nq; i++) fprintf(f, "  %s = %.12g\n", xs[i], pt->x[i]);
-  for (int i = 0; i < L->nu; i++) fprintf(f, "  input %s = %.12g\n", m->input_names[i], pt->u[i]);
-  if (pt->red) {
-    print_reduction(f, m, pt->red);
-    fprintf(f, "x' = A x + B u, y = C x + D u (deviations from the point); x the reduced "
-               "state (%d), u (%d), y (%d)\n", L->n, L->nu, L->ny);
-  } else {
-    fprintf(f, "x' = A x + B u, y = C x + D u (deviations from the point); x = [q; q'] (%d), "
-               "u (%d), y (%d)\n", L->n, L->nu, L->ny);
-  }
-  print_matrix(f, "A", L->A, L->n, L->n, zs, zs);
-  print_matrix(f, "B", L->B, L->n, L->nu, zs, m->input_names);
-  print_matrix(f, "C", L->C, L->ny, L->n, m->output_names, zs);
-  print_matrix(f, "D", L->D, L->ny, L->nu, m->output_names, m->input_names);
 }
 
 typedef struct Options {
@@ -573,7 +482,20 @@ out:
   free(Af), free(T), free(x), free(Ac);
 }
 
-/* The plain linearization in x = [q; q'] (no constraints, no rates). */
+/* Replace the full linear model L by its minimal one (attitudes). */
+static int to_minimal_state(const struct eom_model *m, const double *x, Linear *L) {
+  Linear Z;
+  if (linear_alloc(&Z, 2 * eom_nv(m), m->nu, m->ny) != 0 || reduce_attitudes(m, x, L, &Z) != 0) {
+    linear_free(&Z);
+    return -1;
+  }
+  linear_free(L);
+  *L = Z;
+  return 0;
+}
+
+/* The plain linearization in x = [q; q'] (no constraints, no rates;
+** with attitudes, then reduced to the minimal state). */
 static int linearize_full(const struct eom_model *m, RunValues *rv, const Options *o,
                           char **xs) {
   int nq = m->nq, rc = 0;
@@ -582,6 +504,11 @@ static int linearize_full(const struct eom_model *m, RunValues *rv, const Option
   memset(&eq, 0, sizeof eq);
   Linear L;
   memset(&L, 0, sizeof L);
+  if (!o->no_search && m->nattitudes > 0) {
+    fprintf(stderr, "eomc linearize: error: the equilibrium search does not handle attitudes yet: "
+                    "give the point with --no-search (the model's initial values and --at)\n");
+    return EXIT_RUN;
+  }
   if (!o->no_search) {
     memset(rv->x + nq, 0, (size_t)nq * sizeof(double));  /* at rest */
     if (eom_equilibrium(m, rv->p, rv->u, 0, rv->x, 0, 0, &eq) != EOM_OK) {
@@ -591,18 +518,22 @@ static int linearize_full(const struct eom_model *m, RunValues *rv, const Option
     }
     clean_point(rv->x, nq);
   }
-  if (linear_alloc(&L, 2 * nq, m->nu, m->ny) != 0) {
+  if (linear_alloc(&L, eom_state_size(m), m->nu, m->ny) != 0) {
     fputs("eomc linearize: out of memory\n", stderr);
     return EXIT_RUN;
   }
   if (linearize_at(m, rv->p, rv->x, rv->u, &L, err, sizeof err) != 0) {
     fprintf(stderr, "eomc linearize: error: %s\n", err);
     rc = EXIT_RUN;
+  } else if (m->nattitudes > 0 && to_minimal_state(m, rv->x, &L) != 0) {
+    fputs("eomc linearize: out of memory\n", stderr);
+    rc = EXIT_RUN;
   } else {
     Point pt = {rv->x, rv->u, o->no_search ? POINT_GIVEN : POINT_EQUILIBRIUM, eq.steps,
                 eq.residual, NULL};
-    if (o->json) print_json(stdout, m, &pt, &L, (const char *const *)xs, (const char *const *)xs);
-    else print_text(stdout, m, &pt, &L, (const char *const *)xs, (const char *const *)xs);
+    const char *const *names = (const char *const *)xs;
+    if (o->json) linearize_print_json(stdout, m, &pt, &L, names, names);
+    else linearize_print_text(stdout, m, &pt, &L, names, names);
   }
   linear_free(&L);
   return rc;
@@ -721,8 +652,9 @@ static int linearize_reduced(const struct eom_model *m, RunValues *rv, const Opt
   memcpy(x + nq, red->v, (size_t)nq * sizeof(double));
   clean_point(x, 2 * nq);
   pt.x = x, pt.u = red->u, pt.red = red;
-  if (o->json) print_json(stdout, m, &pt, &L, (const char *const *)xs, (const char *const *)zs);
-  else print_text(stdout, m, &pt, &L, (const char *const *)xs, (const char *const *)zs);
+  const char *const *full = (const char *const *)xs, *const *reduced = (const char *const *)zs;
+  if (o->json) linearize_print_json(stdout, m, &pt, &L, full, reduced);
+  else linearize_print_text(stdout, m, &pt, &L, full, reduced);
 out:
   free_names(zs, red ? red->nk + red->ni : 0);
   free_names(xs, 2 * nq);
@@ -751,7 +683,7 @@ int cmd_linearize(int argc, char **argv) {
   BuiltModel bm;
   RunValues rv;
   char **xs = NULL;
-  if ((rc = build_model_without_attitudes(o.model, "linearize", &bm)) != 0) goto done;
+  if ((rc = build_model(o.model, &bm)) != 0) goto done;
   const struct eom_model *m = bm.model;
   if (run_values_init(&rv, m) != 0) {
     fputs("eomc linearize: out of memory\n", stderr);
@@ -759,12 +691,16 @@ int cmd_linearize(int argc, char **argv) {
     goto unload;
   }
   if ((rc = apply_values(&o, m, &rv)) != 0) goto values;
-  if (m->nc + m->nvc > 0 || o.nrate > 0) {
+  if ((m->nc + m->nvc > 0 || o.nrate > 0) && m->nattitudes > 0) {
+    fputs("eomc linearize: error: constraints or --rate together with attitudes are not "
+          "handled yet\n", stderr);
+    rc = EXIT_RUN;
+  } else if (m->nc + m->nvc > 0 || o.nrate > 0) {
     rc = linearize_reduced(m, &rv, &o);
   } else {
     xs = state_names(m);
     int names_ok = xs != NULL;
-    for (int i = 0; names_ok && i < 2 * m->nq; i++) names_ok = xs[i] != NULL;
+    for (int i = 0; names_ok && i < 2 * eom_nv(m); i++) names_ok = xs[i] != NULL;
     if (!names_ok) {
       fputs("eomc linearize: out of memory\n", stderr);
       rc = EXIT_RUN;
@@ -780,7 +716,7 @@ int cmd_linearize(int argc, char **argv) {
 values:
   run_values_free(&rv);
 unload:
-  free_names(xs, bm.model ? 2 * bm.model->nq : 0);
+  free_names(xs, bm.model ? 2 * eom_nv(bm.model) : 0);
   built_model_close(&bm);
 done:
   free(lists);
