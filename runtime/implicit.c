@@ -401,6 +401,14 @@ int radau5_run(SimContext *c, const struct eom_sim_options *o, Sampler *smp, dou
         jac_valid = 0;
         continue;
       }
+      /* Newton cannot follow a rate across a dry friction's jump: once
+      ** the rate is as good as at zero, it sticks or turns there. */
+      if (events_reach(c, &ev, &t, h, x)) {
+        if ((st = sim_rhs(c, t, x, f0))) goto done;
+        jac_valid = have_poly = 0;
+        accepted = 0;
+        continue;
+      }
       newton_failed = 1;
       h *= 0.5;
       rep->rejected++;
@@ -446,11 +454,13 @@ int radau5_run(SimContext *c, const struct eom_sim_options *o, Sampler *smp, dou
       st = -event;
       goto done;
     }
+    if (event) memcpy(x, ev.x_ev, nn * sizeof(double));
+    /* a rate that reached zero may stick, a stuck one slip */
+    if (events_stick(c, &ev, t_new, x)) event = 1;
     if (event) {
       /* samples up to the event come from this step's polynomial; then the
       ** method starts over on the new branch (no extrapolated guess) */
-      memcpy(x, ev.x_ev, nn * sizeof(double));
-      last = 0;
+      last = t_new >= t_end;
       have_poly = 0;
       accepted = 0;
     }
