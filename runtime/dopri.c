@@ -307,7 +307,7 @@ int dopri_run(SimContext *c, const struct eom_sim_options *o, Sampler *smp, doub
           goto done;
       }
       /* steps in a row whose trials all ran into a switch: the motion is
-      ** held on it (sliding), which only a sticking law could follow */
+      ** held on it (sliding; dry friction sticks instead, stick.c) */
       if ((st = events_pinned(c, &ev, trial_crossed, t_new, x))) goto done;
       t = t_new;
       landing = 0;

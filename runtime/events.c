@@ -131,8 +131,8 @@ int events_pinned(SimContext *c, EventWatch *w, int crossing, double t, const do
   }
   if (++w->pinned < EVENTS_MAX_CHATTER) return EOM_OK;
   return sim_fail(c, EOM_ECHATTER, t, x,
-                  "the motion is held on a switch (every step runs into it; a body held by "
-                  "dry friction would stick, and sticking is not modelled)");
+                  "the motion is held on a switch (every step runs into it: a sliding "
+                  "motion, or dry friction in a model with constraints, which does not stick)");
 }
 
 int events_after_step(SimContext *c, EventWatch *w, double t, double t_new, const double *x_new,
@@ -156,7 +156,7 @@ int events_after_step(SimContext *c, EventWatch *w, double t, double t_new, cons
       char what[200];
       snprintf(what, sizeof what,
                "switch %d (%s) chatters: it crossed back right after each of its last %d "
-               "events (a body held by dry friction would stick; sticking is not modelled)",
+               "events (dry friction in a model with constraints does not stick)",
                w->last + 1, c->m->switch_names ? c->m->switch_names[w->last] : "?",
                EVENTS_MAX_CHATTER);
       return -sim_fail(c, EOM_ECHATTER, t, x_new, what);
@@ -223,7 +223,7 @@ int events_reach(SimContext *c, EventWatch *w, double *t, double h, double *x) {
 int events_stick(SimContext *c, EventWatch *w, double t, double *x) {
   if (!c->stick || !w->ns) return 0;
   sim_load_inputs(c, t);
-  int changed = w->last >= 0 && w->t_last == t ? stick_event(c, w->last, t, x)
+  int changed = w->last >= 0 && w->t_last == t ? stick_event(c, w->last, t, x, 1)
                                                : stick_near_zero(c, t, x);
   if (!changed) return 0;
   /* the stuck set changed what the switches' values mean */
@@ -247,7 +247,7 @@ void events_fixed_step(SimContext *c, double t, double *x) {
     int lead = s->follows[k] == k, free_rate = s->follows[k] < 0;
     if ((lead && now[k] <= 0) || (free_rate && crosses(s->s_prev[k], now[k]))) {
       sim_load_inputs(c, t);
-      if (stick_event(c, k, t, x)) events_values(c, t, x, now);
+      if (stick_event(c, k, t, x, 0)) events_values(c, t, x, now);
     }
   }
   memcpy(s->s_prev, now, (size_t)s->ns * sizeof(double));

@@ -207,9 +207,9 @@ int stick_accel(SimContext *c, double t, const double *x, double *qdd);
 ** 1 - |sigma| (a release is a crossing) and those of followers by 1. */
 void stick_margins(SimContext *c, double t, const double *x, double *sw);
 /* After an event of switch k at (t, x): a stuck switch slips, a rate that
-** reached zero sticks when its friction can hold it.  1 when x or the
-** stuck set changed. */
-int stick_event(SimContext *c, int k, double t, double *x);
+** reached zero sticks when its friction can hold it (counted as an event
+** unless its crossing was).  1 when x or the stuck set changed. */
+int stick_event(SimContext *c, int k, double t, double *x, int counted);
 /* A step from (t, x) of h failed (an implicit method's Newton iteration
 ** cannot follow a rate across a friction's jump, an adaptive step shrank
 ** away before it): the rates that reach zero within h stick when their

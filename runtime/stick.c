@@ -318,9 +318,12 @@ static const char *switch_name(const SimContext *c, int k) {
   return c->m->switch_names ? c->m->switch_names[k] : "?";
 }
 
-static void log_transition(SimContext *c, double t, int k, const char *what, double sigma) {
+/* Log a stick or slip; count it unless the crossing that led to it was
+** counted already (one event per rate reaching zero). */
+static void log_transition(SimContext *c, double t, int k, const char *what, double sigma,
+                           int counted) {
   StickState *s = c->stick;
-  c->rep->events++;
+  if (!counted) c->rep->events++;
   if (!s->log) return;
   fprintf(s->log, "event at t = %.10g: switch %d (%s) %s (friction at %.3g of its bound)\n", t,
           k + 1, switch_name(c, k), what, fabs(sigma));
@@ -392,7 +395,7 @@ static void release(SimContext *c, StickState *s, int l, double t, double *x) {
   for (int i = 0; i < cnt; i++) want[i] = 0;
   want[l] = (sig >= 0 ? 1 : -1) * release_kick(c, x);
   set_rate_switches(c, s, t, x, s->lead, cnt, want);
-  log_transition(c, t, k, "slips", sig);
+  log_transition(c, t, k, "slips", sig, 0);
   for (int i = 0; i < s->ns; i++)
     if (s->follows[i] == k) s->follows[i] = -1;
   for (int i = l; i + 1 < cnt; i++) {
@@ -402,7 +405,7 @@ static void release(SimContext *c, StickState *s, int l, double t, double *x) {
   s->nlead--;
 }
 
-int stick_event(SimContext *c, int k, double t, double *x) {
+int stick_event(SimContext *c, int k, double t, double *x, int counted) {
   StickState *s = c->stick;
   assert(s && k >= 0 && k < s->ns);
   if (s->follows[k] >= 0 && s->follows[k] != k) return 0;
@@ -414,7 +417,7 @@ int stick_event(SimContext *c, int k, double t, double *x) {
   if (s->nlead >= 64) return 0;
   double sigma;
   if (!stick_try(c, s, k, t, x, &sigma)) return 0;
-  log_transition(c, t, k, "sticks", sigma);
+  log_transition(c, t, k, "sticks", sigma, counted);
   return 1;
 }
 
@@ -432,7 +435,7 @@ int stick_start(SimContext *c, double t, double *x) {
     if (na == 0) continue;  /* not a rate */
     double sigma;
     if (s->nlead < 64 && stick_try(c, s, k, t, x, &sigma)) {
-      log_transition(c, t, k, "sticks", sigma);
+      log_transition(c, t, k, "sticks", sigma, 0);
     } else if (sigma == 0) {
       continue;
     } else {
@@ -456,7 +459,7 @@ static void turn_or_stick(SimContext *c, StickState *s, int k, double t, double 
   double sigma, want = fmax(fabs(v), release_kick(c, x)) * (v < 0 ? 1 : -1);
   int one[1] = {k};
   if (stick_try(c, s, k, t, x, &sigma)) {
-    log_transition(c, t, k, "sticks", sigma);
+    log_transition(c, t, k, "sticks", sigma, 0);
     return;
   }
   set_rate_switches(c, s, t, x, one, 1, &want);
