@@ -191,6 +191,68 @@ START_TEST(columns_in_spec_order) {
 }
 END_TEST
 
+/* --set VALUE is an expression with an optional unit, converted to the
+** declared one.  k = 0.8 kN/m = 800 N/m makes w = sqrt(800/12.5) = 8 rad/s;
+** z = 20 mm starts the swing at 0.02 m (the prefixes are the SI brochure's:
+** BIPM, The International System of Units, 9th ed., 2019, table 7). */
+START_TEST(set_with_units_and_expressions) {
+  RunResult r = sim("--until", "1", "--every", "0.1", "--set", "k=0.8[kN/m]", "--set",
+                    "z=20 [mm]", "--set", "F=m*0", NULL);
+  ck_assert_msg(r.status == 0, "status %d: %s", r.status, r.err);
+  Table t = parse_csv(r.out);
+  ck_assert_int_eq(t.nrows, 11);
+  for (int i = 0; i < t.nrows; i++) {
+    double time = cell(&t, i, 0);
+    ck_assert_double_eq_tol(cell(&t, i, 1), 0.02 * cos(8 * time), 1e-7);
+    ck_assert_double_eq_tol(cell(&t, i, 3), 800 * cell(&t, i, 1), 1e-9);
+  }
+  free(t.v);
+  run_free(&r);
+  /* An expression of parameters and pi: k = 4 m pi^2/pi^2 = 50 N/m, so
+  ** w = 2; F = pi/6 N is held by the input column exactly. */
+  r = sim("--until", "1", "--every", "0.5", "--set", "k=4*m*pi^2/pi^2", "--set", "F=pi/6",
+          "--set", "z'=0[mm/s]", NULL);
+  ck_assert_msg(r.status == 0, "status %d: %s", r.status, r.err);
+  t = parse_csv(r.out);
+  ck_assert_int_eq(t.nrows, 3);
+  ck_assert(cell(&t, 0, 4) == 3.14159265358979323846 / 6);
+  /* z'' = -(k/m) z + F/m at rest at z = 0.05: -(50/12.5) 0.05 + (pi/6)/12.5 */
+  double z = cell(&t, 1, 1), zs = (3.14159265358979323846 / 6) / 50;
+  ck_assert_double_eq_tol(z, zs + (X0 - zs) * cos(2 * 0.5), 1e-7);
+  free(t.v);
+  run_free(&r);
+}
+END_TEST
+
+/* A wrong value is a usage error that names both units, or the problem,
+** with a caret under it. */
+START_TEST(set_errors) {
+  static const char *const bad[][2] = {
+      {"k=2[kg]", "[kg] (in SI: kg) does not fit the declared unit [N/m]"},
+      {"z=1[deg]", "does not fit the declared unit [m]"},
+      {"k=2[furlong]", "unknown unit 'furlong'"},
+      {"k=2*q", "'q' is not a parameter"},
+      {"k=2+", "expected an expression"},
+      {"k=1/0", "not a finite number"},
+      {"k=", "no value given"},
+      {"k=[1,2]", "no value given"},
+      {"k=(1)[1,2]", "in the unit [1,2]"},
+      {"k=1;kinetic z", "not one expression"},
+      {"nope=1", "not a name this option can set"},
+  };
+  for (size_t i = 0; i < sizeof bad / sizeof bad[0]; i++) {
+    RunResult r = sim("--until", "0.1", "--set", bad[i][0], NULL);
+    ck_assert_msg(r.status == 2, "%s: status %d: %s", bad[i][0], r.status, r.err);
+    ck_assert_msg(strstr(r.err, bad[i][1]), "%s: %s", bad[i][0], r.err);
+    ck_assert_msg(r.out[0] == '\0', "%s wrote rows", bad[i][0]);
+    run_free(&r);
+  }
+  RunResult r = sim("--until", "0.1", "--set", "k=2[kg]", NULL);
+  ck_assert_msg(strstr(r.err, "\n    k=2[kg]\n        ^"), "%s", r.err);
+  run_free(&r);
+}
+END_TEST
+
 static Suite *make_suite(void) {
   Suite *s = suite_create("runout");
   TCase *tc = tcase_create("rows");
@@ -200,6 +262,12 @@ static Suite *make_suite(void) {
   tcase_add_test(tc, every_for_each_method);
   tcase_add_test(tc, every_defaults);
   tcase_add_test(tc, columns_in_spec_order);
+  suite_add_tcase(s, tc);
+  tc = tcase_create("values");
+  tcase_add_checked_fixture(tc, setup, teardown);
+  tcase_set_timeout(tc, 120);
+  tcase_add_test(tc, set_with_units_and_expressions);
+  tcase_add_test(tc, set_errors);
   suite_add_tcase(s, tc);
   return s;
 }

@@ -450,7 +450,9 @@ START_TEST(sim_usage_errors) {
       {"--method", "euler-ish", NULL, "unknown method"},
       {"--until", "-3", NULL, "positive number"},
       {"--frobnicate", NULL, NULL, "unknown option"},
-      {"--set", "theta=abc", NULL, "not a finite number"},
+      {"--set", "theta=abc", NULL, "'abc' is not a parameter"},
+      {"--set", "theta=1e999", NULL, "number out of range"},
+      {"--set", "theta=1e300*1e300", NULL, "not a finite number"},
   };
   for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++) {
     char *argv[] = {(char *)eomc(), "sim", model_path("bead_hoop.eom"), (char *)cases[i][0],

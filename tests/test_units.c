@@ -8,6 +8,7 @@
 ** Pa = N/m^2, Hz = s^-1; rad = m/m is dimensionless.
 */
 #include <check.h>
+#include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -110,9 +111,63 @@ END_TEST
 
 START_TEST(parse_errors) {
   expect_error("coord x [ft]\nkinetic x'^2\n", 1, 10, "unknown unit 'ft'", NULL);
-  expect_error("coord x [m]\nparam k = 1 [N/mm]\nkinetic k*x'^2\n", 2, 16, "unknown unit 'mm'", NULL);
+  expect_error("coord x [m]\nparam k = 1 [N/mm]\nkinetic k*x'^2\n", 2, 16, "'mm' is a scaled unit",
+               "[kg/s^2]");
+  expect_error("coord a [deg]\nkinetic a'^2\n", 1, 10, "coherent SI", "[rad]");
+  expect_error("coord x [Nm]\nkinetic x'^2\n", 1, 10, "unknown unit 'Nm'", NULL);
   expect_error("coord x [2*m]\nkinetic x'^2\n", 1, 10, "cannot hold the number 2", NULL);
   expect_error("coord x [m^0.5]\nkinetic x'^2\n", 1, 12, "exponent must be an integer", NULL);
+}
+END_TEST
+
+/* The size of a scaled unit annotation in its coherent SI unit, and that
+** unit printed. */
+static void expect_scaled(const char *annotation, double scale, const char *printed) {
+  char src[256], buf[96];
+  double got = 0;
+  Unit u;
+  Diag d;
+  snprintf(src, sizeof src, "coord x [%s]\n", annotation);
+  diag_init(&d, "units.eom", src, strlen(src));
+  Ast *ast = parse_model("units.eom", src, strlen(src), &d);
+  ck_assert_int_eq(d.nerrors, 0);
+  Expr *e = ast->stmts[0]->decls[0]->unit;
+  ck_assert_msg(unit_parse_scaled(e, &d, &u, &got) == 0, "[%s] did not parse", annotation);
+  unit_format(u, 1, buf, sizeof buf);
+  ck_assert_msg(strcmp(buf, printed) == 0, "[%s] printed as '%s', want '%s'", annotation, buf,
+                printed);
+  ck_assert_msg(fabs(got - scale) <= 1e-15 * scale, "[%s] scale %.17g, want %.17g", annotation,
+                got, scale);
+  ast_free(ast);
+  diag_free(&d);
+}
+
+/* Scaled units, from the SI brochure (BIPM 2019, table 7: prefixes; table
+** 8: minute, hour, degree, tonne, bar is 100 kPa as in its 8th edition's
+** table 8); rpm = 2 pi rad / 60 s and rev = 2 pi rad are common practice. */
+START_TEST(parse_scaled_symbols) {
+  const double pi = 3.14159265358979323846;
+  expect_scaled("mm", 1e-3, "m");
+  expect_scaled("km/h", 1000.0 / 3600.0, "m/s");
+  expect_scaled("kN/m", 1e3, "kg/s^2");
+  expect_scaled("MPa", 1e6, "Pa");
+  expect_scaled("deg", pi / 180, "rad");
+  expect_scaled("deg/s", pi / 180, "rad/s");
+  expect_scaled("rpm", 2 * pi / 60, "rad/s");
+  expect_scaled("rev", 2 * pi, "rad");
+  expect_scaled("g", 1e-3, "kg");
+  expect_scaled("mg", 1e-6, "kg");
+  expect_scaled("t", 1e3, "kg");
+  expect_scaled("min", 60, "s");
+  expect_scaled("ms", 1e-3, "s");
+  expect_scaled("h", 3600, "s");
+  expect_scaled("cm^3", 1e-6, "m^3");
+  expect_scaled("mrad", 1e-3, "rad");
+  expect_scaled("bar", 1e5, "Pa");
+  expect_scaled("kW*h", 3.6e6, "J");
+  expect_scaled("mol", 1, "mol"); /* a whole symbol, not milli-"ol" */
+  expect_scaled("cd", 1, "cd");   /* the candela, not centi-"d" */
+  expect_scaled("N*m", 1, "J");
 }
 END_TEST
 
@@ -380,6 +435,7 @@ int main(void) {
   tcase_set_timeout(tc, 60);
   tcase_add_test(tc, parse_si_symbols);
   tcase_add_test(tc, parse_errors);
+  tcase_add_test(tc, parse_scaled_symbols);
   tcase_add_test(tc, algebra);
   suite_add_tcase(s, tc);
   tc = tcase_create("model");

@@ -42,6 +42,8 @@ static const char linearize_usage[] =
   "                     --no-search its value at the point; with --no-search\n"
   "                     also a rate, NAME'=VALUE (repeatable)\n"
   "  --set NAME=VALUE   a parameter or a constant input (repeatable)\n"
+  "                     VALUE: numbers, pi and parameters, with an optional unit\n"
+  "                     converted to the declared one: 30[deg], 2.5[kN/m], L/2\n"
   "  --no-search        take the point as given (model's initial state and\n"
   "                     --at), not an equilibrium\n"
   "  --json             machine-readable output\n"

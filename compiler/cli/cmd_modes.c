@@ -35,6 +35,8 @@ static const char modes_usage[] =
   "  --at NAME=VALUE    starting point of the equilibrium search for a\n"
   "                     coordinate (default: its initial value; repeatable)\n"
   "  --set NAME=VALUE   a parameter or a constant input (repeatable)\n"
+  "                     VALUE: numbers, pi and parameters, with an optional unit\n"
+  "                     converted to the declared one: 30[deg], 2.5[kN/m], L/2\n"
   "  --json             machine-readable output\n"
   "\n"
   "steady motions (vehicles, spinning wheels; always for a model with velocity\n"

@@ -3,6 +3,7 @@
 ** and the NAME=VALUE assignments that change them.
 */
 #include "cli/run_values.h"
+#include "cli/value_text.h"
 
 #include <assert.h>
 #include <math.h>
@@ -70,12 +71,57 @@ static void allowed_names(const struct eom_model *m, int kinds, char *buf, size_
   if (len == 0) snprintf(buf, cap, "none");
 }
 
+/* Where `name` (base bytes, without a rate's ') points among the names
+** `kinds` allows: its kind and index, or 0. */
+static int find_name(const struct eom_model *m, const char *name, size_t base, int rate, int kinds,
+                     int *index) {
+#define SAME(n) (strlen(n) == base && strncmp((n), name, base) == 0)
+  if (rate) {
+    if (kinds & RV_RATES)
+      for (int i = 0; i < m->nq; i++)
+        if (SAME(m->coord_names[i])) return *index = i, RV_RATES;
+    return 0;
+  }
+  if (kinds & RV_PARAMS)
+    for (int i = 0; i < m->np; i++)
+      if (SAME(m->param_names[i])) return *index = i, RV_PARAMS;
+  if (kinds & RV_INPUTS)
+    for (int i = 0; i < m->nu; i++)
+      if (SAME(m->input_names[i])) return *index = i, RV_INPUTS;
+  if (kinds & RV_COORDS)
+    for (int i = 0; i < m->nq; i++)
+      if (SAME(m->coord_names[i])) return *index = i, RV_COORDS;
+#undef SAME
+  return 0;
+}
+
+/* The unit a name's value is declared in ("" when none). */
+static const char *declared_unit(const struct eom_model *m, int kind, int i, char *buf,
+                                 size_t cap) {
+  const char *u = "";
+  switch (kind) {
+  case RV_PARAMS: u = m->param_units ? m->param_units[i] : ""; break;
+  case RV_INPUTS: u = m->input_units ? m->input_units[i] : ""; break;
+  case RV_COORDS: u = m->coord_units ? m->coord_units[i] : ""; break;
+  case RV_RATES:
+    u = m->coord_units ? m->coord_units[i] : "";
+    if (*u) {
+      snprintf(buf, cap, "(%s)/s", u);
+      return buf;
+    }
+    break;
+  default: break;
+  }
+  return u ? u : "";
+}
+
 int run_values_assign(RunValues *v, const struct eom_model *m, const char *assignment, int kinds,
                       char *err, size_t errlen) {
-  char names[512];
+  char names[512], unit[160];
+  int i, kind;
+  double value;
   assert(v && m && assignment);
   const char *eq = strchr(assignment, '=');
-  double value;
   if (!eq || eq == assignment) {
     snprintf(err, errlen, "'%s' is not NAME=VALUE", assignment);
     return -1;
@@ -83,34 +129,26 @@ int run_values_assign(RunValues *v, const struct eom_model *m, const char *assig
   size_t nlen = (size_t)(eq - assignment);
   int rate = assignment[nlen - 1] == '\'';
   size_t base = rate ? nlen - 1 : nlen;
-  if (parse_number(eq + 1, &value) != 0) {
-    snprintf(err, errlen, "'%s': '%s' is not a finite number", assignment, eq + 1);
+  if (!(kind = find_name(m, assignment, base, rate, kinds, &i))) {
+    allowed_names(m, kinds, names, sizeof names);
+    snprintf(err, errlen, "'%.*s' is not a name this option can set (names: %s)", (int)nlen,
+             assignment, names);
     return -1;
   }
-#define SAME(name) (strlen(name) == base && strncmp((name), assignment, base) == 0)
-  if (!rate) {
-    if (kinds & RV_PARAMS)
-      for (int i = 0; i < m->np; i++)
-        if (SAME(m->param_names[i])) {
-          v->p[i] = value;
-          v->p_set[i] = 1;
-          /* defaults written in terms of other params follow them */
-          if (m->derived_params) m->derived_params(v->p, v->p_set);
-          return 0;
-        }
-    if (kinds & RV_INPUTS)
-      for (int i = 0; i < m->nu; i++)
-        if (SAME(m->input_names[i])) return v->u[i] = value, v->u_set[i] = 1, 0;
-    if (kinds & RV_COORDS)
-      for (int i = 0; i < m->nq; i++)
-        if (SAME(m->coord_names[i])) return v->x[i] = value, 0;
-  } else if (kinds & RV_RATES) {
-    for (int i = 0; i < m->nq; i++)
-      if (SAME(m->coord_names[i])) return v->x[m->nq + i] = value, 0;
+  if (value_text_eval(assignment, eq + 1, m, v->p, declared_unit(m, kind, i, unit, sizeof unit),
+                      &value, err, errlen) != 0)
+    return -1;
+  switch (kind) {
+  case RV_PARAMS:
+    v->p[i] = value;
+    v->p_set[i] = 1;
+    /* defaults written in terms of other params follow them */
+    if (m->derived_params) m->derived_params(v->p, v->p_set);
+    break;
+  case RV_INPUTS: v->u[i] = value, v->u_set[i] = 1; break;
+  case RV_COORDS: v->x[i] = value; break;
+  case RV_RATES: v->x[m->nq + i] = value; break;
+  default: assert(0);
   }
-#undef SAME
-  allowed_names(m, kinds, names, sizeof names);
-  snprintf(err, errlen, "'%.*s' is not a name this option can set (names: %s)", (int)nlen,
-           assignment, names);
-  return -1;
+  return 0;
 }

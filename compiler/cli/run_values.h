@@ -5,7 +5,9 @@
 **
 ** Syntax of an assignment: NAME=VALUE where NAME is a parameter, an input,
 ** a coordinate (its initial value) or a coordinate followed by ' (its
-** initial rate, e.g. theta'=0.5).  VALUE is a decimal or scientific number.
+** initial rate, e.g. theta'=0.5).  VALUE is a constant expression with an
+** optional unit, converted to the name's declared unit (cli/value_text.h):
+** a=30[deg], k=2.5[kN/m], b=2*a.
 */
 #ifndef EOMC_RUN_VALUES_H
 #define EOMC_RUN_VALUES_H

@@ -4,9 +4,9 @@
 ** split M qdd + C qd + g = Q exists), the momenta, the energy function and
 ** the table of constants of the motion in the descriptor.
 **
-** emit_c.c calls the four entry points below at fixed places of P.h and
+** The C back end calls the four entry points below at fixed places of P.h and
 ** P.c.  This file only says which functions P.c gets (emit_control_functions
-** lists them); emit_c.c writes their bodies, so nothing here calls back up.
+** lists them); emit_dynamics.c writes their bodies, so nothing here calls back up.
 */
 #ifndef EOMC_EMIT_CONTROL_H
 #define EOMC_EMIT_CONTROL_H
@@ -22,7 +22,7 @@ enum {
 };
 
 /* A function `void P_fname(args..., double *out)` writing out[k] = roots[k]
-** for k < n.  emit_c.c writes it; a root reading an argument the function
+** for k < n.  emit_dynamics.c writes it; a root reading an argument the function
 ** lacks makes it write NaN (t and u are first checked numerically: a mention
 ** without dependence is fine). */
 typedef struct PlainFunction {

@@ -3,7 +3,7 @@
 ** P_output_jacobian and P_output_bias for the outputs that depend on the
 ** coordinates and parameters only, and one P_frame_NAME per `frame` with
 ** its position, rotation, geometric Jacobian and bias (listed here, written
-** by emit_c.c), plus their prototypes and entries in the descriptor.
+** by emit_dynamics.c), plus their prototypes and entries in the descriptor.
 **
 ** Conventions (documented in P.h as written below): y'' = J qdd + J' qd for
 ** a kinematic output; a frame's J maps qd to [v; w], the world velocity of

@@ -3,8 +3,8 @@
 ** output Jacobians and biases, and one function per `frame` (position,
 ** rotation, geometric Jacobian, bias), with their descriptor entries.
 **
-** emit_c.c calls these at fixed places of P.h and P.c, like emit_control.h;
-** nothing here calls back into emit_c.c.
+** The C back end calls these at fixed places of P.h and P.c, like emit_control.h;
+** nothing here calls back into the writers.
 */
 #ifndef EOMC_EMIT_KINEMATICS_H
 #define EOMC_EMIT_KINEMATICS_H
@@ -34,7 +34,7 @@ typedef struct KinematicFunction {
 } KinematicFunction;
 
 /* P.c: the functions to write, in order (malloc'd into *fns, freed with
-** emit_kinematics_free); returns how many.  emit_c.c writes the bodies. */
+** emit_kinematics_free); returns how many.  emit_dynamics.c writes the bodies. */
 int emit_kinematics_functions(const Model *m, const EomSystem *s, KinematicFunction **fns);
 void emit_kinematics_free(KinematicFunction *fns, int n);
 /* P.c, inside the descriptor block: tables. */

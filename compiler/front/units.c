@@ -190,19 +190,83 @@ char *unit_format(Unit u, int keep_rad, char *buf, size_t n) {
 
 /* ------------------------------------------------------------ annotations */
 
-static int lookup_symbol(const char *s, Unit *u) {
-  for (int i = 0; i < U_NDIM; i++)
-    if (strcmp(s, base_symbol[i]) == 0) {
-      *u = unit_base(i);
+/* The one table of unit symbols.  `scale` is the symbol's size in the
+** coherent SI unit of its dimension (deg = pi/180 rad, kN = 1000 N); a
+** symbol marked `prefixable` also takes an SI prefix (PREFIXES below):
+** mm, kN, MPa, ms, mrad.  Dimensions are kg, m, s, A, K, mol, cd, rad
+** exponents (whole numbers). */
+typedef struct UnitSymbol {
+  const char *sym;
+  int kg, m, s, a, k, mol, cd, rad;
+  double scale;
+  int prefixable;
+} UnitSymbol;
+
+static const UnitSymbol unit_symbols[] = {
+  /* coherent SI: base units, then the derived ones with names */
+  {"kg", 1, 0, 0, 0, 0, 0, 0, 0, 1.0, 0},
+  {"m", 0, 1, 0, 0, 0, 0, 0, 0, 1.0, 1},
+  {"s", 0, 0, 1, 0, 0, 0, 0, 0, 1.0, 1},
+  {"A", 0, 0, 0, 1, 0, 0, 0, 0, 1.0, 1},
+  {"K", 0, 0, 0, 0, 1, 0, 0, 0, 1.0, 0},
+  {"mol", 0, 0, 0, 0, 0, 1, 0, 0, 1.0, 1},
+  {"cd", 0, 0, 0, 0, 0, 0, 1, 0, 1.0, 0},
+  {"rad", 0, 0, 0, 0, 0, 0, 0, 1, 1.0, 1},
+  {"N", 1, 1, -2, 0, 0, 0, 0, 0, 1.0, 1},
+  {"J", 1, 2, -2, 0, 0, 0, 0, 0, 1.0, 1},
+  {"W", 1, 2, -3, 0, 0, 0, 0, 0, 1.0, 1},
+  {"Pa", 1, -1, -2, 0, 0, 0, 0, 0, 1.0, 1},
+  {"Hz", 0, 0, -1, 0, 0, 0, 0, 0, 1.0, 1},
+  /* scaled units engineers write (BIPM, The International System of Units,
+  ** 9th edition, 2019, tables 8 and 7: units accepted for use with the SI) */
+  {"g", 1, 0, 0, 0, 0, 0, 0, 0, 1e-3, 1},
+  {"t", 1, 0, 0, 0, 0, 0, 0, 0, 1e3, 0},
+  {"min", 0, 0, 1, 0, 0, 0, 0, 0, 60.0, 0},
+  {"h", 0, 0, 1, 0, 0, 0, 0, 0, 3600.0, 0},
+  {"deg", 0, 0, 0, 0, 0, 0, 0, 1, EOM_PI / 180, 0},
+  {"rev", 0, 0, 0, 0, 0, 0, 0, 1, 2 * EOM_PI, 0},
+  {"rpm", 0, 0, -1, 0, 0, 0, 0, 1, 2 * EOM_PI / 60, 0},
+  {"bar", 1, -1, -2, 0, 0, 0, 0, 0, 1e5, 0},
+};
+
+/* SI prefixes a prefixable symbol takes (BIPM 2019, table 7). */
+static const struct {
+  char c;
+  double scale;
+} unit_prefixes[] = {{'G', 1e9}, {'M', 1e6}, {'k', 1e3}, {'c', 1e-2},
+                     {'m', 1e-3}, {'u', 1e-6}, {'n', 1e-9}};
+
+#define NSYMBOLS (sizeof unit_symbols / sizeof unit_symbols[0])
+
+static Unit symbol_unit(const UnitSymbol *y) {
+  Unit u = unit_kms(y->kg, y->m, y->s);
+  u.exp[U_A] = y->a * UNIT_DEN;
+  u.exp[U_K] = y->k * UNIT_DEN;
+  u.exp[U_MOL] = y->mol * UNIT_DEN;
+  u.exp[U_CD] = y->cd * UNIT_DEN;
+  u.exp[U_RAD] = y->rad * UNIT_DEN;
+  return u;
+}
+
+/* A symbol as written, or a prefix and a prefixable symbol.  Whole symbols
+** win (min is the minute, mol the mole, cd the candela, Pa the pascal). */
+static int lookup_symbol(const char *s, Unit *u, double *scale) {
+  for (size_t i = 0; i < NSYMBOLS; i++)
+    if (strcmp(s, unit_symbols[i].sym) == 0) {
+      *u = symbol_unit(&unit_symbols[i]);
+      *scale = unit_symbols[i].scale;
       return 1;
     }
-  if (strcmp(s, "N") == 0) *u = unit_kms(1, 1, -2);
-  else if (strcmp(s, "J") == 0) *u = unit_kms(1, 2, -2);
-  else if (strcmp(s, "W") == 0) *u = unit_kms(1, 2, -3);
-  else if (strcmp(s, "Pa") == 0) *u = unit_kms(1, -1, -2);
-  else if (strcmp(s, "Hz") == 0) *u = unit_kms(0, 0, -1);
-  else return 0;
-  return 1;
+  for (size_t p = 0; p < sizeof unit_prefixes / sizeof unit_prefixes[0]; p++) {
+    if (s[0] != unit_prefixes[p].c) continue;
+    for (size_t i = 0; i < NSYMBOLS; i++)
+      if (unit_symbols[i].prefixable && strcmp(s + 1, unit_symbols[i].sym) == 0) {
+        *u = symbol_unit(&unit_symbols[i]);
+        *scale = unit_prefixes[p].scale * unit_symbols[i].scale;
+        return 1;
+      }
+  }
+  return 0;
 }
 
 /* An integer exponent: a number or a negated number. */
@@ -217,30 +281,36 @@ static int exponent_value(const Expr *e, long *out) {
   return 1;
 }
 
-int unit_parse(const Expr *e, Diag *d, Unit *u) {
+int unit_parse_scaled(const Expr *e, Diag *d, Unit *u, double *scale) {
   Unit a, b;
+  double sa, sb;
   long k;
   switch (e->kind) {
   case EX_NAME:
-    if (lookup_symbol(e->name, u)) return 0;
-    diag_error(d, e->loc, "unknown unit '%s' (units are products of m kg s A K mol cd rad N J W Pa Hz)",
+    if (lookup_symbol(e->name, u, scale)) return 0;
+    diag_error(d, e->loc,
+               "unknown unit '%s' (units are products of m kg s A K mol cd rad N J W Pa Hz, "
+               "with SI prefixes as in mm kN MPa, and g t min h deg rev rpm bar)",
                e->name);
     return -1;
   case EX_NUM:
     if (e->num == 1) {
       *u = unit_dimensionless();
+      *scale = 1.0;
       return 0;
     }
     diag_error(d, e->loc, "a unit cannot hold the number %g (only 1, for dimensionless)", e->num);
     return -1;
   case EX_BINARY:
     if (e->op == OP_MUL || e->op == OP_DIV) {
-      if (unit_parse(e->args[0], d, &a) || unit_parse(e->args[1], d, &b)) return -1;
+      if (unit_parse_scaled(e->args[0], d, &a, &sa) || unit_parse_scaled(e->args[1], d, &b, &sb))
+        return -1;
       *u = e->op == OP_MUL ? unit_mul(a, b) : unit_div(a, b);
+      *scale = e->op == OP_MUL ? sa * sb : sa / sb;
       return 0;
     }
     if (e->op == OP_POW) {
-      if (unit_parse(e->args[0], d, &a)) return -1;
+      if (unit_parse_scaled(e->args[0], d, &a, &sa)) return -1;
       if (!exponent_value(e->args[1], &k)) {
         diag_error(d, e->args[1]->loc, "a unit exponent must be an integer");
         return -1;
@@ -249,6 +319,7 @@ int unit_parse(const Expr *e, Diag *d, Unit *u) {
         diag_error(d, e->loc, "unit exponent too large");
         return -1;
       }
+      *scale = pow(sa, (double)k);
       return 0;
     }
     break;
@@ -257,6 +328,37 @@ int unit_parse(const Expr *e, Diag *d, Unit *u) {
   }
   diag_error(d, e->loc, "not a unit: use SI symbols with *, / and ^ (e.g. [N*m/s])");
   return -1;
+}
+
+/* The first scaled symbol (deg, mm, kN) in a unit annotation, or NULL. */
+static const Expr *first_scaled_symbol(const Expr *e) {
+  Unit u;
+  double scale;
+  if (e->kind == EX_NAME) return lookup_symbol(e->name, &u, &scale) && scale != 1.0 ? e : NULL;
+  for (int i = 0; i < e->nargs; i++) {
+    const Expr *s = first_scaled_symbol(e->args[i]);
+    if (s) return s;
+  }
+  return NULL;
+}
+
+/* A model's units are coherent SI: its numbers are used as written, with
+** no conversion, so a scaled symbol would silently mean the wrong size. */
+int unit_parse(const Expr *e, Diag *d, Unit *u) {
+  double scale;
+  if (unit_parse_scaled(e, d, u, &scale) != 0) return -1;
+  if (scale != 1.0) {
+    const Expr *sym = first_scaled_symbol(e);
+    char coherent[128];
+    unit_format(*u, 1, coherent, sizeof coherent);
+    diag_error(d, sym ? sym->loc : e->loc,
+               "'%s' is a scaled unit, but a model's units are coherent SI units, used with "
+               "no conversion (here [%s]); scaled units are for values given on the command "
+               "line (--set, --at)",
+               sym ? sym->name : "?", coherent);
+    return -1;
+  }
+  return 0;
 }
 
 static void text_of(Buf *b, const Expr *e, int prec) {

@@ -37,10 +37,16 @@ typedef struct Unit {
   int exp[U_NDIM];
 } Unit;
 
-/* Parse the unit annotation `e` (names of SI symbols, the number 1, * / ^
-** with integer exponents, parentheses).  Returns 0 and fills *u, or reports
-** an error at the offending node and returns -1. */
+/* Parse the unit annotation `e` (unit symbols, the number 1, * / ^ with
+** integer exponents, parentheses) of a model.  Returns 0 and fills *u, or
+** reports an error at the offending node and returns -1.  A model's units
+** are coherent SI: a scaled symbol (deg, kN, mm) is an error here. */
 int unit_parse(const Expr *e, Diag *d, Unit *u);
+
+/* The same for a value given with a unit (`--set a=30[deg]`): scaled
+** symbols are allowed and *scale is the unit's size in the coherent SI unit
+** of its dimension (deg: pi/180; km/h: 1/3.6). */
+int unit_parse_scaled(const Expr *e, Diag *d, Unit *u, double *scale);
 
 Unit unit_dimensionless(void);
 Unit unit_base(int dim);                    /* one base dimension to the power 1 */
