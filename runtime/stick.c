@@ -30,7 +30,8 @@
 **
 ** A switch whose rate gradient lies along a stuck one's (two `sign(x')`
 ** terms) follows it: it is held at zero with it and released with it.
-** Models with constraints (nc > 0) keep the plain event handling.
+** Models with constraints (nc > 0) or attitudes keep the plain event
+** handling.
 */
 #include <assert.h>
 #include <float.h>
@@ -55,8 +56,10 @@ static double *take(double **pool, size_t n) {
 int stick_init(SimContext *c, const struct eom_sim_options *o) {
   const struct eom_model *m = c->m;
   c->stick = NULL;
+  /* x = [q; qd] with nq rates each: models with attitudes (nv != nq) and
+  ** constraints keep the plain event handling */
   if (o->no_events || m->ns <= 0 || !m->switches || !m->mass || !m->forcing ||
-      m->nc + m->nvc > 0)
+      m->nc + m->nvc > 0 || m->nattitudes > 0)
     return EOM_OK;
   size_t ns = (size_t)m->ns, nq = (size_t)m->nq, n = 2 * nq;
   StickState *s = calloc(1, sizeof *s);
