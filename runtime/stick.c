@@ -181,8 +181,8 @@ static void forcing_along(SimContext *c, StickState *s, double t, const double *
   m->forcing(t, s->xp, s->xp + nq, c->u, c->p, f);
 }
 
-/* The half jump Df_l across switch l (row l of s->df), the side width
-** used, and f0 corrected for it; s->fb holds the forcing at x itself. */
+/* Half the distance, in units of a switch, between the two sides where
+** the forcing is sampled: small against the rates, far above rounding. */
 static double side_width(const StickState *s, const double *x) {
   double v = 0;
   for (int j = 0; j < s->nq; j++) v = fmax(v, fabs(x[s->nq + j]));
@@ -218,13 +218,14 @@ static int stuck_solve(SimContext *c, StickState *s, double t, const double *x, 
       s->f0[j] += 0.5 * (s->fp[j] + s->fm[j]) - s->fb[j];
     }
   }
+  /* own pivots: c->piv may hold an implicit method's Newton matrix's */
   m->mass(x, c->p, s->M);
-  if (dense_lu(nq, s->M, c->piv) != 0) return EOM_EMASS;
+  if (dense_lu(nq, s->M, s->piv) != 0) return EOM_EMASS;
   memcpy(s->B, s->f0, bytes);
-  dense_lu_solve(nq, s->M, c->piv, s->B);
+  dense_lu_solve(nq, s->M, s->piv, s->B);
   for (int l = 0; l < cnt; l++) {
     memcpy(s->B + (l + 1) * nq, s->df + l * nq, bytes);
-    dense_lu_solve(nq, s->M, c->piv, s->B + (l + 1) * nq);
+    dense_lu_solve(nq, s->M, s->piv, s->B + (l + 1) * nq);
   }
   for (int k = 0; k < cnt; k++) {
     double ab0 = 0;
