@@ -14,6 +14,7 @@
 
 #include "cli/cmd.h"
 #include "cli/plot.h"
+#include "cli/scratch.h"
 #include "cli/steady.h"
 
 static const double TWO_PI = 6.283185307179586476925286766559;
@@ -144,15 +145,16 @@ static int sweep(const struct eom_model *m, RunValues *rv, int *given, double *r
     return EXIT_USAGE;
   }
   given[idx] = 1;
-  char tmp[] = "/tmp/eomc-sweep-XXXXXX";
+  char *tmp = NULL;
   FILE *out = stdout;
   int fd = -1, rc = 0, neig = 0;
   if (o->plot) {
-    fd = mkstemp(tmp);
+    fd = scratch_create("eomc-sweep", &tmp);
     out = fd >= 0 ? fdopen(fd, "w") : NULL;
     if (!out) {
-      fprintf(stderr, "eomc modes: cannot create a temporary file\n");
+      fprintf(stderr, "eomc modes: cannot create a temporary file in %s\n", scratch_dir());
       if (fd >= 0) close(fd), unlink(tmp);
+      free(tmp);
       return EXIT_RUN;
     }
   }
@@ -195,6 +197,7 @@ static int sweep(const struct eom_model *m, RunValues *rv, int *given, double *r
       }
     }
     unlink(tmp);
+    free(tmp);
   }
   return rc;
 }
