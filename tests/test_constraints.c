@@ -18,125 +18,6 @@
 #include "testutil.h"
 
 static const double PI = 3.141592653589793238462643383279502884;
-static char *cache_dir, *work_dir;
-
-
-static char *example(const char *name) {
-  static char buf[4][4096];
-  static int k;
-  k = (k + 1) % 4;
-  snprintf(buf[k], sizeof buf[k], "%s/examples/%s", srcdir(), name);
-  return buf[k];
-}
-
-static char *work_path(const char *name) {
-  static char buf[4][4096];
-  static int k;
-  k = (k + 1) % 4;
-  snprintf(buf[k], sizeof buf[k], "%s/%s", work_dir, name);
-  return buf[k];
-}
-
-static void setup(void) {
-  cache_dir = make_temp_dir();
-  work_dir = make_temp_dir();
-  setenv("EOMC_CACHE_DIR", cache_dir, 1);
-}
-
-static void teardown(void) {
-  remove_tree(cache_dir);
-  remove_tree(work_dir);
-  free(cache_dir);
-  free(work_dir);
-}
-
-/* ------------------------------------------------------------ CSV tables */
-
-typedef struct Table {
-  int ncols, nrows;
-  char **names;
-  double *v; /* nrows x ncols */
-} Table;
-
-static void table_free(Table *t) {
-  for (int i = 0; i < t->ncols; i++) free(t->names[i]);
-  free(t->names);
-  free(t->v);
-  memset(t, 0, sizeof *t);
-}
-
-static Table read_csv(const char *path) {
-  Table t = {0, 0, NULL, NULL};
-  char *text = read_file(path, NULL);
-  ck_assert_msg(text != NULL, "cannot read %s", path);
-  char *line = strtok(text, "\n");
-  ck_assert(line != NULL);
-  for (char *s = line; s; s = strchr(s, ',') ? strchr(s, ',') + 1 : NULL) t.ncols++;
-  t.names = calloc((size_t)t.ncols, sizeof(char *));
-  char *s = line;
-  for (int i = 0; i < t.ncols; i++) {
-    size_t n = strcspn(s, ",");
-    t.names[i] = malloc(n + 1);
-    memcpy(t.names[i], s, n);
-    t.names[i][n] = '\0';
-    s += n + 1;
-  }
-  int cap = 64;
-  t.v = malloc((size_t)cap * t.ncols * sizeof(double));
-  while ((line = strtok(NULL, "\n"))) {
-    if (t.nrows == cap) {
-      cap *= 2;
-      t.v = realloc(t.v, (size_t)cap * t.ncols * sizeof(double));
-    }
-    char *p = line;
-    for (int i = 0; i < t.ncols; i++) {
-      char *end;
-      t.v[(size_t)t.nrows * t.ncols + i] = strtod(p, &end);
-      ck_assert_msg(end != p, "bad number in row %d of %s", t.nrows + 1, path);
-      p = *end == ',' ? end + 1 : end;
-    }
-    t.nrows++;
-  }
-  free(text);
-  return t;
-}
-
-static int col(const Table *t, const char *name) {
-  for (int i = 0; i < t->ncols; i++)
-    if (strcmp(t->names[i], name) == 0) return i;
-  ck_abort_msg("no column %s", name);
-  return -1;
-}
-
-static double at(const Table *t, int row, int c) { return t->v[(size_t)row * t->ncols + c]; }
-
-/* Run `eomc sim MODEL -o OUT ARGS... NULL`; must succeed. */
-static Table sim(const char *model, const char *out, ...) {
-  char *argv[64];
-  int n = 0;
-  argv[n++] = (char *)eomc();
-  argv[n++] = "sim";
-  argv[n++] = (char *)model;
-  argv[n++] = "-o";
-  argv[n++] = (char *)out;
-  va_list ap;
-  va_start(ap, out);
-  for (char *a; (a = va_arg(ap, char *)) != NULL && n < 63;) argv[n++] = a;
-  va_end(ap);
-  argv[n] = NULL;
-  RunResult r = run_argv(argv);
-  ck_assert_msg(r.status == 0, "eomc sim %s: status %d\n%s", model, r.status, r.err);
-  run_free(&r);
-  return read_csv(out);
-}
-
-static char *setf(const char *name, double v) {
-  static char buf[16][128];
-  static int k;
-  k = (k + 1) % 16;
-  snprintf(buf[k], sizeof buf[k], "--set=%s=%.17g", name, v);
-  return buf[k];
-}
 
 /* ------------------------------------------------------------ pendulum */
 
@@ -153,30 +34,30 @@ static const char angle_pendulum[] =
 
 START_TEST(cartesian_matches_angle_pendulum) {
   const double L = 0.85, th0 = 0.6;
-  char *angle_model = write_file(work_dir, "angle_pendulum.eom", angle_pendulum,
-                                 strlen(angle_pendulum));
-  Table a = sim(angle_model, work_path("angle.csv"), "--until", "10", "--step", "0.01",
-                "--rtol", "1e-12", "--atol", "1e-13", NULL);
-  Table c = sim(example("cartesian_pendulum.eom"), work_path("cart.csv"), "--until", "10",
-                "--step", "0.01", "--rtol", "1e-12", "--atol", "1e-13",
-                setf("x", L * sin(th0)), setf("y", -L * cos(th0)), NULL);
+  char *angle_model =
+      write_file(scratch_dir(), "angle_pendulum.eom", angle_pendulum, strlen(angle_pendulum));
+  CsvTable a = sim_csv(angle_model, scratch_path("angle.csv"), "--until", "10", "--step", "0.01",
+                       "--rtol", "1e-12", "--atol", "1e-13", NULL);
+  CsvTable c = sim_csv(example_file("cartesian_pendulum.eom"), scratch_path("cart.csv"), "--until",
+                       "10", "--step", "0.01", "--rtol", "1e-12", "--atol", "1e-13",
+                       set_param_arg("x", L * sin(th0)), set_param_arg("y", -L * cos(th0)), NULL);
   ck_assert_int_eq(a.nrows, 1001);
   ck_assert_int_eq(c.nrows, a.nrows);
-  int th = col(&a, "theta"), thd = col(&a, "theta'");
-  int x = col(&c, "x"), y = col(&c, "y"), xd = col(&c, "x'"), yd = col(&c, "y'");
+  int th = csv_col(&a, "theta"), thd = csv_col(&a, "theta'");
+  int x = csv_col(&c, "x"), y = csv_col(&c, "y"), xd = csv_col(&c, "x'"), yd = csv_col(&c, "y'");
   double worst = 0, worst_rate = 0;
   for (int i = 0; i < a.nrows; i++) {
-    ck_assert(at(&a, i, 0) == at(&c, i, 0));
-    double theta = at(&a, i, th), w = at(&a, i, thd);
-    worst = fmax(worst, fabs(at(&c, i, x) - L * sin(theta)));
-    worst = fmax(worst, fabs(at(&c, i, y) + L * cos(theta)));
-    worst_rate = fmax(worst_rate, fabs(at(&c, i, xd) - L * cos(theta) * w));
-    worst_rate = fmax(worst_rate, fabs(at(&c, i, yd) - L * sin(theta) * w));
+    ck_assert(csv_at(&a, i, 0) == csv_at(&c, i, 0));
+    double theta = csv_at(&a, i, th), w = csv_at(&a, i, thd);
+    worst = fmax(worst, fabs(csv_at(&c, i, x) - L * sin(theta)));
+    worst = fmax(worst, fabs(csv_at(&c, i, y) + L * cos(theta)));
+    worst_rate = fmax(worst_rate, fabs(csv_at(&c, i, xd) - L * cos(theta) * w));
+    worst_rate = fmax(worst_rate, fabs(csv_at(&c, i, yd) - L * sin(theta) * w));
   }
   ck_assert_msg(worst < 1e-8, "positions differ by %.3g", worst);
   ck_assert_msg(worst_rate < 1e-7, "rates differ by %.3g", worst_rate);
-  table_free(&a);
-  table_free(&c);
+  csv_free(&a);
+  csv_free(&c);
   free(angle_model);
 }
 END_TEST
@@ -188,15 +69,16 @@ END_TEST
 ** and lambda < 0 (our sign convention, docs/language.md). */
 START_TEST(pendulum_rod_tension_from_lambda) {
   const double m = 0.65, L = 0.85, g = 9.81;
-  Table c = sim(example("cartesian_pendulum.eom"), work_path("cart.csv"), "--until", "4",
-                "--step", "0.01", NULL);
-  int x = col(&c, "x"), y = col(&c, "y"), xd = col(&c, "x'"), yd = col(&c, "y'");
-  int lam = col(&c, "lambda1");
+  CsvTable c = sim_csv(example_file("cartesian_pendulum.eom"), scratch_path("cart.csv"), "--until",
+                       "4", "--step", "0.01", NULL);
+  int x = csv_col(&c, "x"), y = csv_col(&c, "y"), xd = csv_col(&c, "x'"), yd = csv_col(&c, "y'");
+  int lam = csv_col(&c, "lambda1");
   ck_assert_int_eq(lam, c.ncols - 3); /* docs/runtime.md's order: ..., multipliers, T, V */
   for (int i = 0; i < c.nrows; i++) {
-    double X = at(&c, i, x), Y = at(&c, i, y), Xd = at(&c, i, xd), Yd = at(&c, i, yd);
+    double X = csv_at(&c, i, x), Y = csv_at(&c, i, y), Xd = csv_at(&c, i, xd),
+           Yd = csv_at(&c, i, yd);
     double theta = atan2(X, -Y), w = (X * Yd - Y * Xd) / (L * L);
-    double tension = m * (g * cos(theta) + L * w * w), l = at(&c, i, lam);
+    double tension = m * (g * cos(theta) + L * w * w), l = csv_at(&c, i, lam);
     ck_assert_msg(l < 0, "lambda %.17g at row %d", l, i);
     ck_assert_msg(fabs(-2 * L * l - tension) <= 1e-9 * tension, "row %d: -2 L lambda %.17g, T %.17g",
                   i, -2 * L * l, tension);
@@ -204,15 +86,15 @@ START_TEST(pendulum_rod_tension_from_lambda) {
     ck_assert(fabs(2 * l * X + tension * X / L) <= 1e-9 * tension);
     ck_assert(fabs(2 * l * Y + tension * Y / L) <= 1e-9 * tension);
   }
-  table_free(&c);
+  csv_free(&c);
 }
 END_TEST
 
 /* Small swings of a pendulum: omega = sqrt(g / L) (common textbook result),
 ** through the tangent-space linearization of the Cartesian model. */
 START_TEST(pendulum_modes_on_the_constraint) {
-  char *argv[] = {(char *)eomc(), "modes", example("cartesian_pendulum.eom"), "--at", "x=0",
-                  "--at", "y=-0.8", "--json", NULL};
+  char *argv[] = {(char *)eomc(), "modes", example_file("cartesian_pendulum.eom"), "--at",
+                  "x=0", "--at", "y=-0.8", "--json", NULL};
   RunResult r = run_argv(argv);
   ck_assert_msg(r.status == 0, "status %d: %s", r.status, r.err);
   const char *s = strstr(r.out, "\"omega_rad_s\": ");
@@ -242,27 +124,27 @@ static double loop_residual(const Linkage *k, double t2, double t3, double t4) {
 ** correction at all (Baumgarte, 1972, Comput. Methods Appl. Mech. Eng. 1). */
 START_TEST(fourbar_residual_stays_small) {
   const Linkage k = {0.30, 0.08, 0.32, 0.18};
-  const char *model = example("barrier_fourbar.eom"), *out = work_path("bar.csv");
-  Table t[3];
-  t[0] = sim(model, out, "--until", "20", "--step", "0.01", "--set", "tau=5", NULL);
-  t[1] = sim(model, out, "--until", "20", "--step", "0.01", "--set", "tau=5",
-             "--no-projection", NULL);
-  t[2] = sim(model, out, "--until", "20", "--step", "0.01", "--set", "tau=5",
-             "--no-projection", "--baumgarte", "0,0", NULL);
+  const char *model = example_file("barrier_fourbar.eom"), *out = scratch_path("bar.csv");
+  CsvTable t[3];
+  t[0] = sim_csv(model, out, "--until", "20", "--step", "0.01", "--set", "tau=5", NULL);
+  t[1] = sim_csv(model, out, "--until", "20", "--step", "0.01", "--set", "tau=5", "--no-projection",
+                 NULL);
+  t[2] = sim_csv(model, out, "--until", "20", "--step", "0.01", "--set", "tau=5", "--no-projection",
+                 "--baumgarte", "0,0", NULL);
   double worst[3] = {0, 0, 0};
   for (int run = 0; run < 3; run++) {
-    int t2 = col(&t[run], "th2"), t3 = col(&t[run], "th3"), t4 = col(&t[run], "th4");
+    int t2 = csv_col(&t[run], "th2"), t3 = csv_col(&t[run], "th3"), t4 = csv_col(&t[run], "th4");
     for (int i = 0; i < t[run].nrows; i++)
-      worst[run] = fmax(worst[run], loop_residual(&k, at(&t[run], i, t2), at(&t[run], i, t3),
-                                                  at(&t[run], i, t4)));
+      worst[run] = fmax(worst[run], loop_residual(&k, csv_at(&t[run], i, t2),
+                                                  csv_at(&t[run], i, t3), csv_at(&t[run], i, t4)));
   }
   /* the motor really turns the crank: many revolutions */
-  int t2 = col(&t[0], "th2");
-  ck_assert_msg(at(&t[0], t[0].nrows - 1, t2) - at(&t[0], 0, t2) > 10 * 2 * PI, "crank %.6g",
-                at(&t[0], t[0].nrows - 1, t2));
+  int t2 = csv_col(&t[0], "th2");
+  ck_assert_msg(csv_at(&t[0], t[0].nrows - 1, t2) - csv_at(&t[0], 0, t2) > 10 * 2 * PI,
+                "crank %.6g", csv_at(&t[0], t[0].nrows - 1, t2));
   ck_assert_msg(worst[0] < 1e-10, "residual %.3g with projection", worst[0]);
   ck_assert_msg(worst[1] < worst[2] / 10, "Baumgarte only %.3g, none %.3g", worst[1], worst[2]);
-  for (int run = 0; run < 3; run++) table_free(&t[run]);
+  for (int run = 0; run < 3; run++) csv_free(&t[run]);
 }
 END_TEST
 
@@ -294,17 +176,18 @@ static void grashof_run(const Linkage *k, int expect_full_turn) {
   /* No gravity, motor or drag: the kinetic energy stays and the linkage
   ** keeps moving through every reachable configuration (the heavy boom on
   ** the rocker makes that slow: 40 s cover a few cycles). */
-  Table t = sim(example("barrier_fourbar.eom"), work_path("g.csv"), "--until", "40", "--step",
-                "0.002", setf("a", k->a), setf("b", k->b), setf("c", k->c), setf("e", k->e),
-                "--set", "g=0", "--set", "bm=0", "--set", "th2=0", setf("th3", t3),
-                setf("th4", t4), "--set", "th2'=3", NULL);
-  int t2 = col(&t, "th2"), t2d = col(&t, "th2'");
+  CsvTable t =
+      sim_csv(example_file("barrier_fourbar.eom"), scratch_path("g.csv"), "--until", "40", "--step",
+              "0.002", set_param_arg("a", k->a), set_param_arg("b", k->b), set_param_arg("c", k->c),
+              set_param_arg("e", k->e), "--set", "g=0", "--set", "bm=0", "--set", "th2=0",
+              set_param_arg("th3", t3), set_param_arg("th4", t4), "--set", "th2'=3", NULL);
+  int t2 = csv_col(&t, "th2"), t2d = csv_col(&t, "th2'");
   double lo = 1e9, hi = -1e9;
   int sign_changes = 0;
   for (int i = 0; i < t.nrows; i++) {
-    lo = fmin(lo, at(&t, i, t2));
-    hi = fmax(hi, at(&t, i, t2));
-    if (i > 0 && at(&t, i, t2d) * at(&t, i - 1, t2d) < 0) sign_changes++;
+    lo = fmin(lo, csv_at(&t, i, t2));
+    hi = fmax(hi, csv_at(&t, i, t2));
+    if (i > 0 && csv_at(&t, i, t2d) * csv_at(&t, i - 1, t2d) < 0) sign_changes++;
   }
   if (expect_full_turn) {
     ck_assert_msg(hi - lo > 2 * PI, "crank range %.6g", hi - lo);
@@ -317,7 +200,7 @@ static void grashof_run(const Linkage *k, int expect_full_turn) {
     ck_assert_msg(hi <= limit + 1e-7 && hi > limit - 2e-3, "max %.10g, limit %.10g", hi, limit);
     ck_assert_msg(lo >= -limit - 1e-7 && lo < -limit + 2e-3, "min %.10g, limit %.10g", lo, -limit);
   }
-  table_free(&t);
+  csv_free(&t);
 }
 
 START_TEST(grashof_crank_rocker_turns_fully) {
@@ -338,27 +221,28 @@ END_TEST
 ** x = r cos(theta) + sqrt(L^2 - r^2 sin^2(theta)) (common kinematics result). */
 START_TEST(slider_crank_piston_position) {
   const double r = 0.021, L = 0.078;
-  Table t = sim(example("compressor_slider_crank.eom"), work_path("sc.csv"), "--until", "0.5",
-                "--step", "0.0005", "--set", "tau=0.08", NULL);
-  int th = col(&t, "theta"), x = col(&t, "x");
-  ck_assert(at(&t, t.nrows - 1, th) > 4 * 2 * PI); /* several revolutions */
+  CsvTable t = sim_csv(example_file("compressor_slider_crank.eom"), scratch_path("sc.csv"),
+                       "--until", "0.5", "--step", "0.0005", "--set", "tau=0.08", NULL);
+  int th = csv_col(&t, "theta"), x = csv_col(&t, "x");
+  ck_assert(csv_at(&t, t.nrows - 1, th) > 4 * 2 * PI); /* several revolutions */
   double worst = 0;
   for (int i = 0; i < t.nrows; i++) {
-    double s = sin(at(&t, i, th));
-    worst = fmax(worst, fabs(at(&t, i, x) - (r * cos(at(&t, i, th)) + sqrt(L * L - r * r * s * s))));
+    double s = sin(csv_at(&t, i, th));
+    worst = fmax(
+        worst, fabs(csv_at(&t, i, x) - (r * cos(csv_at(&t, i, th)) + sqrt(L * L - r * r * s * s))));
   }
   ck_assert_msg(worst < 1e-9 * (r + L), "piston off by %.3g m", worst);
-  ck_assert_int_eq(col(&t, "lambda2"), t.ncols - 3);
-  table_free(&t);
+  ck_assert_int_eq(csv_col(&t, "lambda2"), t.ncols - 3);
+  csv_free(&t);
 }
 END_TEST
 
 /* ------------------------------------------------------------ failures */
 
 static RunResult run_model(const char *verb, const char *name, const char *text) {
-  char *path = write_file(work_dir, name, text, strlen(text));
+  char *path = write_file(scratch_dir(), name, text, strlen(text));
   char *argv[] = {(char *)eomc(), (char *)verb, path, "-o",
-                  strcmp(verb, "gen") == 0 ? work_dir : work_path("out.csv"), NULL};
+                  strcmp(verb, "gen") == 0 ? scratch_dir() : scratch_path("out.csv"), NULL};
   RunResult r = run_argv(argv);
   free(path);
   return r;
@@ -389,12 +273,12 @@ START_TEST(dependent_constraints_are_named) {
   /* Redundant rows share the constraint force: a = 1 - b, c = b leaves one
   ** coordinate b with mass 3m/2... here m (a'^2 + b'^2 + c'^2)/2 = 3m b'^2/2
   ** and V = m g b, so b'' = -g/3 whatever the split of the multipliers. */
-  Table t = sim(work_path("redundant.eom"), work_path("r.csv"), "--until", "1", NULL);
-  int cb = col(&t, "b");
+  CsvTable t = sim_csv(scratch_path("redundant.eom"), scratch_path("r.csv"), "--until", "1", NULL);
+  int cb = csv_col(&t, "b");
   double want = 0.5 - 9.81 / 6; /* b(1) = b0 - g t^2 / 6 */
-  ck_assert_msg(fabs(at(&t, t.nrows - 1, cb) - want) < 1e-7, "b(1) = %.12g, want %.12g",
-                at(&t, t.nrows - 1, cb), want);
-  table_free(&t);
+  ck_assert_msg(fabs(csv_at(&t, t.nrows - 1, cb) - want) < 1e-7, "b(1) = %.12g, want %.12g",
+                csv_at(&t, t.nrows - 1, cb), want);
+  csv_free(&t);
   static const char conflicting[] =
     "coord x, y\n"
     "kinetic 1/2*(x'^2 + y'^2)\n"
@@ -467,22 +351,22 @@ END_TEST
 ** pendulum released off its circle keeps the error (Baumgarte pulls it
 ** back slowly), with it the first row is on the circle. */
 START_TEST(initial_fix_and_options) {
-  Table fixed = sim(example("cartesian_pendulum.eom"), work_path("f.csv"), "--until", "0.1",
-                    "--step", "0.05", "--set", "x=0.5", "--set", "y=-0.75", NULL);
-  double x = at(&fixed, 0, col(&fixed, "x")), y = at(&fixed, 0, col(&fixed, "y"));
+  CsvTable fixed = sim_csv(example_file("cartesian_pendulum.eom"), scratch_path("f.csv"), "--until",
+                           "0.1", "--step", "0.05", "--set", "x=0.5", "--set", "y=-0.75", NULL);
+  double x = csv_at(&fixed, 0, csv_col(&fixed, "x")), y = csv_at(&fixed, 0, csv_col(&fixed, "y"));
   ck_assert_msg(fabs(x * x + y * y - 0.85 * 0.85) < 1e-12, "x %.17g y %.17g", x, y);
   /* minimum-norm: the correction is along the gradient (x, y), so the
   ** direction from the anchor is kept */
   ck_assert(fabs(atan2(x, -y) - atan2(0.5, 0.75)) < 1e-12);
-  Table raw = sim(example("cartesian_pendulum.eom"), work_path("r.csv"), "--until", "0.1",
-                  "--step", "0.05", "--set", "x=0.5", "--set", "y=-0.75", "--no-initial-fix",
-                  "--no-projection", "--baumgarte", "0,0", NULL);
-  ck_assert(at(&raw, 0, col(&raw, "x")) == 0.5);
-  ck_assert(at(&raw, 0, col(&raw, "y")) == -0.75);
-  table_free(&fixed);
-  table_free(&raw);
-  char *argv[] = {(char *)eomc(), "sim", example("cartesian_pendulum.eom"), "--baumgarte", "3",
-                  NULL};
+  CsvTable raw = sim_csv(example_file("cartesian_pendulum.eom"), scratch_path("r.csv"), "--until",
+                         "0.1", "--step", "0.05", "--set", "x=0.5", "--set", "y=-0.75",
+                         "--no-initial-fix", "--no-projection", "--baumgarte", "0,0", NULL);
+  ck_assert(csv_at(&raw, 0, csv_col(&raw, "x")) == 0.5);
+  ck_assert(csv_at(&raw, 0, csv_col(&raw, "y")) == -0.75);
+  csv_free(&fixed);
+  csv_free(&raw);
+  char *argv[] = {(char *)eomc(), "sim", example_file("cartesian_pendulum.eom"), "--baumgarte",
+                  "3", NULL};
   RunResult r = run_argv(argv);
   ck_assert_int_eq(r.status, 2);
   ck_assert_ptr_nonnull(strstr(r.err, "--baumgarte"));
@@ -493,16 +377,16 @@ END_TEST
 /* Generate `model` into the work directory, compile it with `driver` (gcc or
 ** $CC, -std=c99 -pedantic -Werror) and return the driver's output. */
 static char *run_driver(const char *model, const char *stem, const char *driver) {
-  char *argv[] = {(char *)eomc(), "gen", (char *)model, "-o", work_dir, NULL};
+  char *argv[] = {(char *)eomc(), "gen", (char *)model, "-o", scratch_dir(), NULL};
   RunResult r = run_argv(argv);
   ck_assert_msg(r.status == 0, "%s", r.err);
   run_free(&r);
-  char *drv = write_file(work_dir, "drv.c", driver, strlen(driver));
+  char *drv = write_file(scratch_dir(), "drv.c", driver, strlen(driver));
   char inc[4200], dinc[4200], csrc[4200], exe[4200];
   snprintf(inc, sizeof inc, "-I%s/include", srcdir());
-  snprintf(dinc, sizeof dinc, "-I%s", work_dir);
-  snprintf(csrc, sizeof csrc, "%s/%s.c", work_dir, stem);
-  snprintf(exe, sizeof exe, "%s/drv", work_dir);
+  snprintf(dinc, sizeof dinc, "-I%s", scratch_dir());
+  snprintf(csrc, sizeof csrc, "%s/%s.c", scratch_dir(), stem);
+  snprintf(exe, sizeof exe, "%s/drv", scratch_dir());
   char *cc[] = {(char *)env_or("CC", "cc"), "-std=c99", "-pedantic", "-Wall", "-Wextra", "-Werror",
                 inc, dinc, csrc, drv, "-o", exe, "-lm", NULL};
   r = run_argv(cc);
@@ -530,7 +414,7 @@ START_TEST(accel_constrained_reports_rank_loss) {
     "  printf(\"%d %d\\n\", cartesian_pendulum_accel_constrained(0, q, qd, NULL, p, qdd, lam),\n"
     "         cartesian_pendulum_accel_constrained(0, q1, qd1, NULL, p, qdd, lam));\n"
     "  return 0;\n}\n";
-  char *out = run_driver(example("cartesian_pendulum.eom"), "cartesian_pendulum", driver);
+  char *out = run_driver(example_file("cartesian_pendulum.eom"), "cartesian_pendulum", driver);
   int at_anchor = -1, regular = -1;
   ck_assert_int_eq(sscanf(out, "%d %d", &at_anchor, &regular), 2);
   ck_assert_int_ne(at_anchor, 0);
@@ -552,7 +436,7 @@ START_TEST(accel_constrained_nearly_dependent_rows) {
     "constraint x^2 + y^2 = 1\n"
     "constraint y = 0.3\n"
     "initial x = 0.95\ninitial y = 0.3\n";
-  char *path = write_file(work_dir, "pinned_bead.eom", model, strlen(model));
+  char *path = write_file(scratch_dir(), "pinned_bead.eom", model, strlen(model));
   static const char driver[] =
     "#include <stdio.h>\n#include \"pinned_bead.h\"\n"
     "int main(void) {\n"
@@ -616,32 +500,32 @@ static const SingularCase singular_cases[] = {
 ** holds, and the crank moves as the one-coordinate parallelogram does. */
 START_TEST(square_fourbar_keeps_its_branch) {
   const SingularCase *k = &singular_cases[_i];
-  char *one = write_file(work_dir, "parallelogram.eom", parallelogram, strlen(parallelogram));
+  char *one = write_file(scratch_dir(), "parallelogram.eom", parallelogram, strlen(parallelogram));
   const char *o[4];
   for (int j = 0; j < 4; j++) o[j] = k->opt[j];
-  Table t = sim(test_model("square_fourbar.eom"), work_path("four.csv"), "--until", "10",
-                "--method", k->method, o[0], o[1], o[2], o[3], NULL);
-  Table r = sim(one, work_path("one.csv"), "--until", "10", "--method", k->method, o[0], o[1],
-                o[2], o[3], NULL);
+  CsvTable t = sim_csv(test_model("square_fourbar.eom"), scratch_path("four.csv"), "--until", "10",
+                       "--method", k->method, o[0], o[1], o[2], o[3], NULL);
+  CsvTable r = sim_csv(one, scratch_path("one.csv"), "--until", "10", "--method", k->method, o[0],
+                       o[1], o[2], o[3], NULL);
   ck_assert_int_eq(t.nrows, r.nrows);
-  int ca = col(&t, "a"), cb = col(&t, "b"), cc = col(&t, "c"), cT = col(&t, "T"),
-      cV = col(&t, "V"), ra = col(&r, "a");
-  double e0 = at(&t, 0, cT) + at(&t, 0, cV), b_max = 0, ac_max = 0, drift = 0, crank = 0;
+  int ca = csv_col(&t, "a"), cb = csv_col(&t, "b"), cc = csv_col(&t, "c"), cT = csv_col(&t, "T"),
+      cV = csv_col(&t, "V"), ra = csv_col(&r, "a");
+  double e0 = csv_at(&t, 0, cT) + csv_at(&t, 0, cV), b_max = 0, ac_max = 0, drift = 0, crank = 0;
   for (int i = 0; i < t.nrows; i++) {
-    b_max = fmax(b_max, fabs(at(&t, i, cb)));
-    ac_max = fmax(ac_max, fabs(at(&t, i, ca) - at(&t, i, cc)));
-    drift = fmax(drift, fabs(at(&t, i, cT) + at(&t, i, cV) - e0) / fabs(e0));
-    crank = fmax(crank, fabs(at(&t, i, ca) - at(&r, i, ra)));
+    b_max = fmax(b_max, fabs(csv_at(&t, i, cb)));
+    ac_max = fmax(ac_max, fabs(csv_at(&t, i, ca) - csv_at(&t, i, cc)));
+    drift = fmax(drift, fabs(csv_at(&t, i, cT) + csv_at(&t, i, cV) - e0) / fabs(e0));
+    crank = fmax(crank, fabs(csv_at(&t, i, ca) - csv_at(&r, i, ra)));
   }
-  ck_assert_msg(at(&t, t.nrows - 1, ca) > 4 * 2 * PI, "%s: the crank made only %.3g turns",
-                k->method, at(&t, t.nrows - 1, ca) / (2 * PI));
+  ck_assert_msg(csv_at(&t, t.nrows - 1, ca) > 4 * 2 * PI, "%s: the crank made only %.3g turns",
+                k->method, csv_at(&t, t.nrows - 1, ca) / (2 * PI));
   ck_assert_msg(b_max <= k->b_tol && ac_max <= k->b_tol, "%s: max|b| %.3g, max|a - c| %.3g",
                 k->method, b_max, ac_max);
   ck_assert_msg(drift <= k->drift_tol, "%s: energy drift %.3g", k->method, drift);
   ck_assert_msg(crank <= k->crank_tol, "%s: crank off the parallelogram's by %.3g", k->method,
                 crank);
-  table_free(&t);
-  table_free(&r);
+  csv_free(&t);
+  csv_free(&r);
   free(one);
 }
 END_TEST
@@ -653,23 +537,23 @@ END_TEST
 ** on a circle of radius r, so J = 3 mc r^2/3 + md r^2 and, about the hanging
 ** position, K = 3 mc g r/2 + md g r; omega = sqrt(K / J). */
 START_TEST(redundant_cranks_run_and_have_one_mode) {
-  const char *model = example("lifting_platform.eom");
+  const char *model = example_file("lifting_platform.eom");
   char *argv[] = {(char *)eomc(), "check", (char *)model, NULL};
   RunResult r = run_argv(argv);
   ck_assert_msg(r.status == 0, "%s", r.err);
   ck_assert_msg(strstr(r.err, "lifting_platform.eom:40:1: note:") != NULL, "%s", r.err);
   ck_assert_msg(strstr(r.err, "redundant") != NULL, "%s", r.err);
   run_free(&r);
-  Table t = sim(model, work_path("lift.csv"), "--until", "5", "--set", "drag=0", NULL);
-  int cth = col(&t, "th"), cT = col(&t, "T"), cV = col(&t, "V");
-  double e0 = at(&t, 0, cT) + at(&t, 0, cV), tilt = 0, drift = 0;
+  CsvTable t = sim_csv(model, scratch_path("lift.csv"), "--until", "5", "--set", "drag=0", NULL);
+  int cth = csv_col(&t, "th"), cT = csv_col(&t, "T"), cV = csv_col(&t, "V");
+  double e0 = csv_at(&t, 0, cT) + csv_at(&t, 0, cV), tilt = 0, drift = 0;
   for (int i = 0; i < t.nrows; i++) {
-    tilt = fmax(tilt, fabs(at(&t, i, cth)));
-    drift = fmax(drift, fabs(at(&t, i, cT) + at(&t, i, cV) - e0) / fabs(e0));
+    tilt = fmax(tilt, fabs(csv_at(&t, i, cth)));
+    drift = fmax(drift, fabs(csv_at(&t, i, cT) + csv_at(&t, i, cV) - e0) / fabs(e0));
   }
   ck_assert_msg(tilt < 1e-9, "the deck tilted by %.3g rad", tilt);
   ck_assert_msg(drift < 1e-6, "energy drift %.3g", drift);
-  table_free(&t);
+  csv_free(&t);
   const double rr = 0.5, mc = 4, md = 60, g = 9.81, lo = -PI / 2;
   const double omega = sqrt((3 * mc * g * rr / 2 + md * g * rr) / (3 * mc * rr * rr / 3 + md * rr * rr));
   char at[5][64];
@@ -692,7 +576,7 @@ END_TEST
 static Suite *constraints_suite(void) {
   Suite *s = suite_create("constraints");
   TCase *tc = tcase_create("end to end");
-  tcase_add_checked_fixture(tc, setup, teardown);
+  tcase_add_checked_fixture(tc, scratch_setup, scratch_teardown);
   tcase_set_timeout(tc, 300);
   tcase_add_test(tc, cartesian_matches_angle_pendulum);
   tcase_add_test(tc, pendulum_rod_tension_from_lambda);

@@ -18,139 +18,6 @@
 
 #include "testutil.h"
 
-static char *cache_dir, *work_dir;
-
-static char *example(const char *name) {
-  static char buf[4][4096];
-  static int k;
-  k = (k + 1) % 4;
-  snprintf(buf[k], sizeof buf[k], "%s/examples/%s", srcdir(), name);
-  return buf[k];
-}
-
-static char *work_path(const char *name) {
-  static char buf[4][4096];
-  static int k;
-  k = (k + 1) % 4;
-  snprintf(buf[k], sizeof buf[k], "%s/%s", work_dir, name);
-  return buf[k];
-}
-
-static void setup(void) {
-  cache_dir = make_temp_dir();
-  work_dir = make_temp_dir();
-  setenv("EOMC_CACHE_DIR", cache_dir, 1);
-}
-
-static void teardown(void) {
-  remove_tree(cache_dir);
-  remove_tree(work_dir);
-  free(cache_dir);
-  free(work_dir);
-}
-
-/* ------------------------------------------------------------ CSV tables */
-
-typedef struct Table {
-  int ncols, nrows;
-  char **names;
-  double *v; /* nrows x ncols */
-} Table;
-
-static void table_free(Table *t) {
-  for (int i = 0; i < t->ncols; i++) free(t->names[i]);
-  free(t->names);
-  free(t->v);
-  memset(t, 0, sizeof *t);
-}
-
-static Table read_csv(const char *path) {
-  Table t = {0, 0, NULL, NULL};
-  char *text = read_file(path, NULL);
-  ck_assert_msg(text != NULL, "cannot read %s", path);
-  char *line = strtok(text, "\n");
-  ck_assert(line != NULL);
-  for (char *s = line; s; s = strchr(s, ',') ? strchr(s, ',') + 1 : NULL) t.ncols++;
-  t.names = calloc((size_t)t.ncols, sizeof(char *));
-  char *s = line;
-  for (int i = 0; i < t.ncols; i++) {
-    size_t n = strcspn(s, ",");
-    t.names[i] = malloc(n + 1);
-    memcpy(t.names[i], s, n);
-    t.names[i][n] = '\0';
-    s += n + 1;
-  }
-  int cap = 64;
-  t.v = malloc((size_t)cap * t.ncols * sizeof(double));
-  while ((line = strtok(NULL, "\n"))) {
-    if (t.nrows == cap) {
-      cap *= 2;
-      t.v = realloc(t.v, (size_t)cap * t.ncols * sizeof(double));
-    }
-    char *p = line;
-    for (int i = 0; i < t.ncols; i++) {
-      char *end;
-      t.v[(size_t)t.nrows * t.ncols + i] = strtod(p, &end);
-      ck_assert_msg(end != p, "bad number in row %d of %s", t.nrows + 1, path);
-      p = *end == ',' ? end + 1 : end;
-    }
-    t.nrows++;
-  }
-  free(text);
-  return t;
-}
-
-static int col(const Table *t, const char *name) {
-  for (int i = 0; i < t->ncols; i++)
-    if (strcmp(t->names[i], name) == 0) return i;
-  ck_abort_msg("no column %s", name);
-  return -1;
-}
-
-static double at(const Table *t, int row, int c) { return t->v[(size_t)row * t->ncols + c]; }
-
-/* Run `eomc sim MODEL -o OUT ARGS... NULL`; must succeed. */
-static Table sim(const char *model, const char *out, ...) {
-  char *argv[64];
-  int n = 0;
-  argv[n++] = (char *)eomc();
-  argv[n++] = "sim";
-  argv[n++] = (char *)model;
-  argv[n++] = "-o";
-  argv[n++] = (char *)out;
-  va_list ap;
-  va_start(ap, out);
-  for (char *a; (a = va_arg(ap, char *)) != NULL && n < 63;) argv[n++] = a;
-  va_end(ap);
-  argv[n] = NULL;
-  RunResult r = run_argv(argv);
-  ck_assert_msg(r.status == 0, "eomc sim %s: status %d\n%s", model, r.status, r.err);
-  run_free(&r);
-  return read_csv(out);
-}
-
-static char *setf(const char *name, double v) {
-  static char buf[16][128];
-  static int k;
-  k = (k + 1) % 16;
-  snprintf(buf[k], sizeof buf[k], "--set=%s=%.17g", name, v);
-  return buf[k];
-}
-
-/* Run `eomc ARGS... NULL` and keep its output. */
-static RunResult run_eomc(const char *verb, ...) {
-  char *argv[64];
-  int n = 0;
-  argv[n++] = (char *)eomc();
-  argv[n++] = (char *)verb;
-  va_list ap;
-  va_start(ap, verb);
-  for (char *a; (a = va_arg(ap, char *)) != NULL && n < 63;) argv[n++] = a;
-  va_end(ap);
-  argv[n] = NULL;
-  return run_argv(argv);
-}
-
 static const char *tight[] = {"--rtol", "1e-12", "--atol", "1e-13"};
 #define TIGHT tight[0], tight[1], tight[2], tight[3]
 
@@ -168,19 +35,21 @@ static const char *tight[] = {"--rtol", "1e-12", "--atol", "1e-13"};
 START_TEST(sledge_straightens_mass_centre_leading) {
   const double m = 18, a = 0.35, I = 0.9, v0 = 0.5, w0 = 1.2;
   const double k = (I + m * a * a) / m, c = sqrt(v0 * v0 + k * w0 * w0);
-  Table s = sim(example("cargo_sledge.eom"), work_path("sledge.csv"), "--until", "20", "--step",
-                "0.01", TIGHT, NULL);
-  int th = col(&s, "th"), xd = col(&s, "x'"), yd = col(&s, "y'"), thd = col(&s, "th'");
-  int T = col(&s, "T"), sp = col(&s, "speed");
-  double E0 = at(&s, 0, T), worst_v = 0, worst_w = 0, worst_e = 0, worst_slip = 0;
+  CsvTable s = sim_csv(example_file("cargo_sledge.eom"), scratch_path("sledge.csv"), "--until",
+                       "20", "--step", "0.01", TIGHT, NULL);
+  int th = csv_col(&s, "th"), xd = csv_col(&s, "x'"), yd = csv_col(&s, "y'"),
+      thd = csv_col(&s, "th'");
+  int T = csv_col(&s, "T"), sp = csv_col(&s, "speed");
+  double E0 = csv_at(&s, 0, T), worst_v = 0, worst_w = 0, worst_e = 0, worst_slip = 0;
   for (int i = 0; i < s.nrows; i++) {
-    double t = at(&s, i, 0), h = at(&s, i, th), v = at(&s, i, sp), w = at(&s, i, thd);
+    double t = csv_at(&s, i, 0), h = csv_at(&s, i, th), v = csv_at(&s, i, sp),
+           w = csv_at(&s, i, thd);
     double v_ref = c * tanh(a * c * t / k + atanh(v0 / c));
     double w_ref = sqrt(fmax(0, c * c - v_ref * v_ref) / k);  /* w keeps its sign (> 0) */
     worst_v = fmax(worst_v, fabs(v - v_ref));
     worst_w = fmax(worst_w, fabs(w - w_ref));
-    worst_e = fmax(worst_e, fabs(at(&s, i, T) - E0) / E0);
-    worst_slip = fmax(worst_slip, fabs(-sin(h) * at(&s, i, xd) + cos(h) * at(&s, i, yd)));
+    worst_e = fmax(worst_e, fabs(csv_at(&s, i, T) - E0) / E0);
+    worst_slip = fmax(worst_slip, fabs(-sin(h) * csv_at(&s, i, xd) + cos(h) * csv_at(&s, i, yd)));
   }
   ck_assert_msg(worst_v < 1e-8, "speed off the closed form by %.3g", worst_v);
   ck_assert_msg(worst_w < 1e-7, "turning rate off the closed form by %.3g", worst_w);
@@ -188,23 +57,23 @@ START_TEST(sledge_straightens_mass_centre_leading) {
   ck_assert_msg(worst_slip < 1e-10, "the runner slides sideways at %.3g m/s", worst_slip);
   /* the end: straight, mass centre leading */
   int last = s.nrows - 1;
-  ck_assert(fabs(at(&s, last, thd)) < 1e-6);
-  ck_assert(at(&s, last, sp) > 0.999 * c);
-  ck_assert_int_eq(col(&s, "lambda1"), s.ncols - 3);
-  table_free(&s);
+  ck_assert(fabs(csv_at(&s, last, thd)) < 1e-6);
+  ck_assert(csv_at(&s, last, sp) > 0.999 * c);
+  ck_assert_int_eq(csv_col(&s, "lambda1"), s.ncols - 3);
+  csv_free(&s);
 }
 END_TEST
 
 /* A sledge whose mass centre trails the runner (a < 0) also ends straight,
 ** but running backwards along the runner: v -> -c (same closed form). */
 START_TEST(sledge_with_trailing_mass_centre_turns_round) {
-  Table s = sim(example("cargo_sledge.eom"), work_path("trail.csv"), "--until", "40", "--step",
-                "0.1", setf("a", -0.35), NULL);
+  CsvTable s = sim_csv(example_file("cargo_sledge.eom"), scratch_path("trail.csv"), "--until", "40",
+                       "--step", "0.1", set_param_arg("a", -0.35), NULL);
   int last = s.nrows - 1;
   double c = sqrt(0.25 + (0.9 + 18 * 0.35 * 0.35) / 18 * 1.44);
-  ck_assert_msg(at(&s, last, col(&s, "speed")) < -0.99 * c, "speed %g",
-                at(&s, last, col(&s, "speed")));
-  table_free(&s);
+  ck_assert_msg(csv_at(&s, last, csv_col(&s, "speed")) < -0.99 * c, "speed %g",
+                csv_at(&s, last, csv_col(&s, "speed")));
+  csv_free(&s);
 }
 END_TEST
 
@@ -223,39 +92,41 @@ static const char rail_head[] =
 START_TEST(rail_velocity_form_matches_position_form) {
   char text[1024];
   snprintf(text, sizeof text, "%sconstraint x' = r*th'\n", rail_head);
-  char *vel = write_file(work_dir, "rail_v.eom", text, strlen(text));
+  char *vel = write_file(scratch_dir(), "rail_v.eom", text, strlen(text));
   snprintf(text, sizeof text, "%sconstraint x = r*th\n", rail_head);
-  char *pos = write_file(work_dir, "rail_p.eom", text, strlen(text));
-  Table a = sim(vel, work_path("v.csv"), "--until", "5", "--step", "0.01", TIGHT, NULL);
-  Table b = sim(pos, work_path("p.csv"), "--until", "5", "--step", "0.01", TIGHT, NULL);
+  char *pos = write_file(scratch_dir(), "rail_p.eom", text, strlen(text));
+  CsvTable a = sim_csv(vel, scratch_path("v.csv"), "--until", "5", "--step", "0.01", TIGHT, NULL);
+  CsvTable b = sim_csv(pos, scratch_path("p.csv"), "--until", "5", "--step", "0.01", TIGHT, NULL);
   ck_assert_int_eq(a.nrows, b.nrows);
   const double omega = sqrt(40 / (2 + 0.01 / 0.01));
   double worst = 0, worst_ref = 0;
   for (int i = 0; i < a.nrows; i++)
     for (int j = 1; j <= 4; j++) {
-      worst = fmax(worst, fabs(at(&a, i, j) - at(&b, i, j)));
-      if (j == 1) worst_ref = fmax(worst_ref, fabs(at(&a, i, j) - 0.2 * cos(omega * at(&a, i, 0))));
+      worst = fmax(worst, fabs(csv_at(&a, i, j) - csv_at(&b, i, j)));
+      if (j == 1)
+        worst_ref = fmax(worst_ref, fabs(csv_at(&a, i, j) - 0.2 * cos(omega * csv_at(&a, i, 0))));
     }
   ck_assert_msg(worst < 1e-9, "the two forms differ by %.3g", worst);
   ck_assert_msg(worst_ref < 1e-9, "off x0 cos(omega t) by %.3g", worst_ref);
   /* the multipliers are the same force: lambda (x' - r th') vs lambda (x - r th) */
-  int la = col(&a, "lambda1"), lb = col(&b, "lambda1");
+  int la = csv_col(&a, "lambda1"), lb = csv_col(&b, "lambda1");
   for (int i = 0; i < a.nrows; i++)
-    ck_assert_msg(fabs(at(&a, i, la) - at(&b, i, lb)) < 1e-7, "multipliers differ at row %d", i);
-  table_free(&a);
-  table_free(&b);
+    ck_assert_msg(fabs(csv_at(&a, i, la) - csv_at(&b, i, lb)) < 1e-7,
+                  "multipliers differ at row %d", i);
+  csv_free(&a);
+  csv_free(&b);
   /* check notes that this one could be a position constraint */
-  RunResult r = run_eomc("check", vel, NULL);
+  RunResult r = eomc_run("check", vel, NULL);
   ck_assert_int_eq(r.status, 0);
   ck_assert_msg(strstr(r.err, "note: the velocity constraints are integrable"), "%s", r.err);
   ck_assert(strstr(r.out, "velocity constraint equations: 1"));
   run_free(&r);
-  r = run_eomc("check", example("cargo_sledge.eom"), NULL);
+  r = eomc_run("check", example_file("cargo_sledge.eom"), NULL);
   ck_assert_int_eq(r.status, 0);
   ck_assert_msg(!strstr(r.err, "integrable"), "%s", r.err);
   run_free(&r);
   /* show prints A q' = b beside the equations of motion */
-  r = run_eomc("show", example("cargo_sledge.eom"), NULL);
+  r = eomc_run("show", example_file("cargo_sledge.eom"), NULL);
   ck_assert_int_eq(r.status, 0);
   ck_assert_msg(strstr(r.out, "  (1) -sin(th)*x' + cos(th)*y' = 0"), "%s", r.out);
   run_free(&r);
@@ -279,8 +150,8 @@ START_TEST(integrability_note_in_general) {
   for (int k = 0; k < 3; k++) {
     char name[32];
     snprintf(name, sizeof name, "frob%d.eom", k);
-    char *path = write_file(work_dir, name, texts[k], strlen(texts[k]));
-    RunResult r = run_eomc("check", path, NULL);
+    char *path = write_file(scratch_dir(), name, texts[k], strlen(texts[k]));
+    RunResult r = eomc_run("check", path, NULL);
     ck_assert_msg(r.status == 0, "%s", r.err);
     ck_assert_msg((strstr(r.err, "integrable") != NULL) == want[k], "model %d: %s", k, r.err);
     run_free(&r);
@@ -303,21 +174,22 @@ START_TEST(vertical_disk_runs_on_a_circle) {
     "kinetic 1/2*m*(x'^2 + y'^2) + 1/2*(m*r^2/4)*psi'^2 + 1/2*(m*r^2/2)*ph'^2\n"
     "constraint [x', y'] = r*ph'*[cos(psi), sin(psi)]\n"
     "initial psi' = 0.8\ninitial ph' = 6\ninitial x' = 1.5\n";
-  char *path = write_file(work_dir, "disk.eom", disk, strlen(disk));
-  Table s = sim(path, work_path("disk.csv"), "--until", "20", "--step", "0.05", TIGHT, NULL);
+  char *path = write_file(scratch_dir(), "disk.eom", disk, strlen(disk));
+  CsvTable s =
+      sim_csv(path, scratch_path("disk.csv"), "--until", "20", "--step", "0.05", TIGHT, NULL);
   const double R = 0.25 * 6 / 0.8, w = 0.8;
-  int x = col(&s, "x"), y = col(&s, "y"), T = col(&s, "T");
+  int x = csv_col(&s, "x"), y = csv_col(&s, "y"), T = csv_col(&s, "T");
   double worst = 0, worst_e = 0;
   for (int i = 0; i < s.nrows; i++) {
-    double t = at(&s, i, 0);
-    worst = fmax(worst, fabs(at(&s, i, x) - R * sin(w * t)));
-    worst = fmax(worst, fabs(at(&s, i, y) - R * (1 - cos(w * t))));
-    worst = fmax(worst, fabs(at(&s, i, col(&s, "ph'")) - 6));
-    worst_e = fmax(worst_e, fabs(at(&s, i, T) - at(&s, 0, T)));
+    double t = csv_at(&s, i, 0);
+    worst = fmax(worst, fabs(csv_at(&s, i, x) - R * sin(w * t)));
+    worst = fmax(worst, fabs(csv_at(&s, i, y) - R * (1 - cos(w * t))));
+    worst = fmax(worst, fabs(csv_at(&s, i, csv_col(&s, "ph'")) - 6));
+    worst_e = fmax(worst_e, fabs(csv_at(&s, i, T) - csv_at(&s, 0, T)));
   }
   ck_assert_msg(worst < 1e-8, "off the circle by %.3g", worst);
-  ck_assert_msg(worst_e < 1e-9 * at(&s, 0, T), "energy changes by %.3g", worst_e);
-  table_free(&s);
+  ck_assert_msg(worst_e < 1e-9 * csv_at(&s, 0, T), "energy changes by %.3g", worst_e);
+  csv_free(&s);
   free(path);
 }
 END_TEST
@@ -333,20 +205,20 @@ END_TEST
 START_TEST(robot_follows_the_kinematic_arc) {
   const double r = 0.075, b = 0.21, wl = 8, wr = 10;
   const double v = r * (wl + wr) / 2, w = r * (wr - wl) / (2 * b);
-  Table s = sim(example("warehouse_robot.eom"), work_path("robot.csv"), "--until", "10", "--step",
-                "0.05", setf("d", 0), TIGHT, NULL);
-  int x = col(&s, "x"), y = col(&s, "y"), th = col(&s, "th");
+  CsvTable s = sim_csv(example_file("warehouse_robot.eom"), scratch_path("robot.csv"), "--until",
+                       "10", "--step", "0.05", set_param_arg("d", 0), TIGHT, NULL);
+  int x = csv_col(&s, "x"), y = csv_col(&s, "y"), th = csv_col(&s, "th");
   double worst = 0;
   for (int i = 0; i < s.nrows; i++) {
-    double t = at(&s, i, 0);
-    worst = fmax(worst, fabs(at(&s, i, x) - v / w * sin(w * t)));
-    worst = fmax(worst, fabs(at(&s, i, y) + v / w * (cos(w * t) - 1)));
-    worst = fmax(worst, fabs(at(&s, i, th) - w * t));
-    worst = fmax(worst, fabs(at(&s, i, col(&s, "pl'")) - wl));
-    worst = fmax(worst, fabs(at(&s, i, col(&s, "pr'")) - wr));
+    double t = csv_at(&s, i, 0);
+    worst = fmax(worst, fabs(csv_at(&s, i, x) - v / w * sin(w * t)));
+    worst = fmax(worst, fabs(csv_at(&s, i, y) + v / w * (cos(w * t) - 1)));
+    worst = fmax(worst, fabs(csv_at(&s, i, th) - w * t));
+    worst = fmax(worst, fabs(csv_at(&s, i, csv_col(&s, "pl'")) - wl));
+    worst = fmax(worst, fabs(csv_at(&s, i, csv_col(&s, "pr'")) - wr));
   }
   ck_assert_msg(worst < 1e-8, "off the arc by %.3g", worst);
-  table_free(&s);
+  csv_free(&s);
 }
 END_TEST
 
@@ -355,24 +227,29 @@ END_TEST
 ** the energy gains: dE/dt = tl pl' + tr pr' (common practice). */
 START_TEST(robot_keeps_its_constraints_under_drive) {
   const double r = 0.075, b = 0.21;
-  Table s = sim(example("warehouse_robot.eom"), work_path("drive.csv"), "--until", "6", "--step",
-                "0.01", "--set", "tl=0.4", "--set", "tr=-0.3", TIGHT, NULL);
-  int th = col(&s, "th"), xd = col(&s, "x'"), yd = col(&s, "y'"), thd = col(&s, "th'");
-  int pl = col(&s, "pl"), pr = col(&s, "pr"), pld = col(&s, "pl'"), prd = col(&s, "pr'");
+  CsvTable s = sim_csv(example_file("warehouse_robot.eom"), scratch_path("drive.csv"), "--until",
+                       "6", "--step", "0.01", "--set", "tl=0.4", "--set", "tr=-0.3", TIGHT, NULL);
+  int th = csv_col(&s, "th"), xd = csv_col(&s, "x'"), yd = csv_col(&s, "y'"),
+      thd = csv_col(&s, "th'");
+  int pl = csv_col(&s, "pl"), pr = csv_col(&s, "pr"), pld = csv_col(&s, "pl'"),
+      prd = csv_col(&s, "pr'");
   double worst = 0;
   for (int i = 0; i < s.nrows; i++) {
-    double h = at(&s, i, th), X = at(&s, i, xd), Y = at(&s, i, yd);
+    double h = csv_at(&s, i, th), X = csv_at(&s, i, xd), Y = csv_at(&s, i, yd);
     worst = fmax(worst, fabs(-sin(h) * X + cos(h) * Y));
-    worst = fmax(worst, fabs(cos(h) * X + sin(h) * Y - r / 2 * (at(&s, i, pld) + at(&s, i, prd))));
-    worst = fmax(worst, fabs(at(&s, i, thd) - r / (2 * b) * (at(&s, i, prd) - at(&s, i, pld))));
+    worst = fmax(worst,
+                 fabs(cos(h) * X + sin(h) * Y - r / 2 * (csv_at(&s, i, pld) + csv_at(&s, i, prd))));
+    worst = fmax(
+        worst, fabs(csv_at(&s, i, thd) - r / (2 * b) * (csv_at(&s, i, prd) - csv_at(&s, i, pld))));
   }
   ck_assert_msg(worst < 1e-10, "a constraint is off by %.3g", worst);
-  int last = s.nrows - 1, T = col(&s, "T");
-  double work = 0.4 * (at(&s, last, pl) - at(&s, 0, pl)) - 0.3 * (at(&s, last, pr) - at(&s, 0, pr));
-  double gain = at(&s, last, T) - at(&s, 0, T);
+  int last = s.nrows - 1, T = csv_col(&s, "T");
+  double work = 0.4 * (csv_at(&s, last, pl) - csv_at(&s, 0, pl)) -
+                0.3 * (csv_at(&s, last, pr) - csv_at(&s, 0, pr));
+  double gain = csv_at(&s, last, T) - csv_at(&s, 0, T);
   ck_assert_msg(fabs(gain - work) < 1e-8 * fmax(1, fabs(work)), "energy gain %.12g, work %.12g",
                 gain, work);
-  table_free(&s);
+  csv_free(&s);
 }
 END_TEST
 
@@ -382,22 +259,23 @@ END_TEST
 ** at the contact at rest, over a 20 s run (the defining properties of
 ** rolling without slipping; Neimark & Fufaev 1972, ch. II, from memory). */
 START_TEST(coin_rolls_without_slipping) {
-  Table s = sim(example("rolling_coin.eom"), work_path("coin.csv"), "--until", "20", "--step",
-                "0.02", NULL);
-  int T = col(&s, "T"), V = col(&s, "V");
-  int s1 = col(&s, "slip[1]"), s2 = col(&s, "slip[2]"), s3 = col(&s, "slip[3]");
-  double E0 = at(&s, 0, T) + at(&s, 0, V), worst_e = 0, worst_slip = 0;
+  CsvTable s = sim_csv(example_file("rolling_coin.eom"), scratch_path("coin.csv"), "--until", "20",
+                       "--step", "0.02", NULL);
+  int T = csv_col(&s, "T"), V = csv_col(&s, "V");
+  int s1 = csv_col(&s, "slip[1]"), s2 = csv_col(&s, "slip[2]"), s3 = csv_col(&s, "slip[3]");
+  double E0 = csv_at(&s, 0, T) + csv_at(&s, 0, V), worst_e = 0, worst_slip = 0;
   for (int i = 0; i < s.nrows; i++) {
-    worst_e = fmax(worst_e, fabs(at(&s, i, T) + at(&s, i, V) - E0) / E0);
-    for (int c = s1; c <= s3; c++) worst_slip = fmax(worst_slip, fabs(at(&s, i, c)));
+    worst_e = fmax(worst_e, fabs(csv_at(&s, i, T) + csv_at(&s, i, V) - E0) / E0);
+    for (int c = s1; c <= s3; c++) worst_slip = fmax(worst_slip, fabs(csv_at(&s, i, c)));
   }
   ck_assert(s2 == s1 + 1 && s3 == s1 + 2);
   ck_assert_msg(worst_e < 1e-8, "energy drifts by %.3g relative", worst_e);
   ck_assert_msg(worst_slip < 1e-9, "the contact point slips at %.3g m/s", worst_slip);
   /* fast enough, it stays up */
   int last = s.nrows - 1;
-  ck_assert_msg(fabs(at(&s, last, col(&s, "th"))) < 0.3, "tilt %g", at(&s, last, col(&s, "th")));
-  table_free(&s);
+  ck_assert_msg(fabs(csv_at(&s, last, csv_col(&s, "th"))) < 0.3, "tilt %g",
+                csv_at(&s, last, csv_col(&s, "th")));
+  csv_free(&s);
 }
 END_TEST
 
@@ -405,7 +283,7 @@ END_TEST
 ** accel_constrained's qdd satisfies A qdd = gamma. */
 START_TEST(generated_velocity_constraint_functions) {
   char *dir = make_temp_dir();
-  RunResult r = run_eomc("gen", example("cargo_sledge.eom"), "-o", dir, NULL);
+  RunResult r = eomc_run("gen", example_file("cargo_sledge.eom"), "-o", dir, NULL);
   ck_assert_msg(r.status == 0, "%s", r.err);
   run_free(&r);
   char path[4200];
@@ -465,7 +343,7 @@ static int json_eigenvalues(const char *out, double *re, double *im, int max) {
 }
 
 static RunResult modes_json(const char *model, const char *a1, const char *a2, const char *a3) {
-  RunResult r = run_eomc("modes", model, "--json", a1, a2, a3, NULL);
+  RunResult r = eomc_run("modes", model, "--json", a1, a2, a3, NULL);
   ck_assert_msg(r.status == 0, "eomc modes %s: %s", model, r.err);
   return r;
 }
@@ -482,14 +360,15 @@ START_TEST(coin_upright_rolling_stability_threshold) {
   for (int k = 0; k < 2; k++) {
     double W = Wc * (k ? 1.05 : 0.95);
     snprintf(rate, sizeof rate, "--rate=ph=%.17g", W);
-    RunResult res = modes_json(example("rolling_coin.eom"), rate, "--at=th=0", "--at=psi=0");
+    RunResult res = modes_json(example_file("rolling_coin.eom"), rate, "--at=th=0", "--at=psi=0");
     ck_assert_msg(strstr(res.out, k ? "\"stable\": true" : "\"stable\": false"), "W = %g:\n%s", W,
                   res.out);
     run_free(&res);
   }
   const double W = 25, m = 1, I1 = m * r * r / 4, I3 = m * r * r / 2;
   const double w2 = (I3 * (I3 + m * r * r) * W * W - m * g * r * I1) / (I1 * (I1 + m * r * r));
-  RunResult res = modes_json(example("rolling_coin.eom"), "--rate=ph=25", "--at=th=0", "--at=psi=0");
+  RunResult res =
+      modes_json(example_file("rolling_coin.eom"), "--rate=ph=25", "--at=th=0", "--at=psi=0");
   double re[16], im[16];
   int n = json_eigenvalues(res.out, re, im, 16);
   ck_assert_int_eq(n, 5);  /* psi, th, psi', th', ph' */
@@ -514,7 +393,7 @@ START_TEST(sledge_straight_run_stability) {
     double v = k ? -1.5 : 1.5, want = -m * a * v / (I + m * a * a);
     char rate[64];
     snprintf(rate, sizeof rate, "--rate=x=%g", v);
-    RunResult res = modes_json(example("cargo_sledge.eom"), rate, "--at=th=0", "--at=y=0");
+    RunResult res = modes_json(example_file("cargo_sledge.eom"), rate, "--at=th=0", "--at=y=0");
     double re[8], im[8];
     int n = json_eigenvalues(res.out, re, im, 8);
     ck_assert_int_eq(n, 3);  /* th, x', th' */
@@ -536,7 +415,7 @@ START_TEST(castor_lines_up_when_trailing) {
     double V = k ? -0.8 : 0.8;
     char rate[64];
     snprintf(rate, sizeof rate, "--rate=x=%g", V);
-    RunResult res = modes_json(example("trolley_castor.eom"), rate, "--at=de=0", "--at=x=0");
+    RunResult res = modes_json(example_file("trolley_castor.eom"), rate, "--at=de=0", "--at=x=0");
     double re[8], im[8];
     int n = json_eigenvalues(res.out, re, im, 8);
     ck_assert_int_eq(n, 2);  /* de (its rate follows), x' */
@@ -547,9 +426,10 @@ START_TEST(castor_lines_up_when_trailing) {
     run_free(&res);
   }
   /* the sideways position of the contact decays on a run (no slip) */
-  Table s = sim(example("trolley_castor.eom"), work_path("castor.csv"), "--until", "2", NULL);
-  ck_assert(fabs(at(&s, s.nrows - 1, col(&s, "de"))) < 1e-6);
-  table_free(&s);
+  CsvTable s =
+      sim_csv(example_file("trolley_castor.eom"), scratch_path("castor.csv"), "--until", "2", NULL);
+  ck_assert(fabs(csv_at(&s, s.nrows - 1, csv_col(&s, "de"))) < 1e-6);
+  csv_free(&s);
 }
 END_TEST
 
@@ -559,8 +439,8 @@ START_TEST(coin_sweep_table_and_plot) {
   const double Wc = sqrt(9.81 / (3 * 0.02));
   char sweep[128];
   snprintf(sweep, sizeof sweep, "ph=%.17g:%.17g:5", 0.5 * Wc, 1.5 * Wc);
-  char *svg = work_path("sweep.svg");
-  RunResult r = run_eomc("modes", example("rolling_coin.eom"), "--at", "th=0", "--sweep-rate",
+  char *svg = scratch_path("sweep.svg");
+  RunResult r = eomc_run("modes", example_file("rolling_coin.eom"), "--at", "th=0", "--sweep-rate",
                          sweep, "--plot", svg, NULL);
   ck_assert_msg(r.status == 0, "%s", r.err);
   ck_assert(strncmp(r.out, "ph',max_growth,stable,re1,im1,", 30) == 0);
@@ -585,22 +465,22 @@ END_TEST
 
 /* What --rate cannot do is said plainly. */
 START_TEST(steady_motion_errors) {
-  RunResult r = run_eomc("modes", example("rolling_coin.eom"), "--rate", "th=3", NULL);
+  RunResult r = eomc_run("modes", example_file("rolling_coin.eom"), "--rate", "th=3", NULL);
   ck_assert_int_eq(r.status, 3);
   ck_assert_msg(strstr(r.err, "'th' enters the dynamics"), "%s", r.err);
   run_free(&r);
-  r = run_eomc("modes", example("cartesian_pendulum.eom"), "--rate", "x=1", NULL);
+  r = eomc_run("modes", example_file("cartesian_pendulum.eom"), "--rate", "x=1", NULL);
   ck_assert_int_eq(r.status, 3);
   ck_assert_msg(strstr(r.err, "position constraints are not supported"), "%s", r.err);
   run_free(&r);
-  r = run_eomc("modes", example("rolling_coin.eom"), "--rate", "nosuch=1", NULL);
+  r = eomc_run("modes", example_file("rolling_coin.eom"), "--rate", "nosuch=1", NULL);
   ck_assert_int_eq(r.status, 2);
   ck_assert_msg(strstr(r.err, "'nosuch' is not a coordinate"), "%s", r.err);
   run_free(&r);
-  r = run_eomc("modes", example("rolling_coin.eom"), "--plot", work_path("x.svg"), NULL);
+  r = eomc_run("modes", example_file("rolling_coin.eom"), "--plot", scratch_path("x.svg"), NULL);
   ck_assert_int_eq(r.status, 2);
   run_free(&r);
-  r = run_eomc("modes", example("rolling_coin.eom"), "--sweep-rate", "ph=1:2", NULL);
+  r = eomc_run("modes", example_file("rolling_coin.eom"), "--sweep-rate", "ph=1:2", NULL);
   ck_assert_int_eq(r.status, 2);
   run_free(&r);
 }
@@ -609,7 +489,7 @@ END_TEST
 static Suite *wheels_suite(void) {
   Suite *s = suite_create("wheels");
   TCase *tc = tcase_create("end to end");
-  tcase_add_checked_fixture(tc, setup, teardown);
+  tcase_add_checked_fixture(tc, scratch_setup, scratch_teardown);
   tcase_set_timeout(tc, 300);
   tcase_add_test(tc, sledge_straightens_mass_centre_leading);
   tcase_add_test(tc, sledge_with_trailing_mass_centre_turns_round);
@@ -622,7 +502,7 @@ static Suite *wheels_suite(void) {
   tcase_add_test(tc, generated_velocity_constraint_functions);
   suite_add_tcase(s, tc);
   TCase *st = tcase_create("steady motions");
-  tcase_add_checked_fixture(st, setup, teardown);
+  tcase_add_checked_fixture(st, scratch_setup, scratch_teardown);
   tcase_set_timeout(st, 300);
   tcase_add_test(st, coin_upright_rolling_stability_threshold);
   tcase_add_test(st, sledge_straight_run_stability);

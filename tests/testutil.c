@@ -1,7 +1,8 @@
 /*
 ** testutil.c — what the end-to-end tests share: run programs, handle
-** temporary files, name the eomc, sources and C compiler under test, and
-** the main() of a suite with its two passes (ordinary and clang).
+** temporary files, name the eomc, sources and C compiler under test, read
+** `eomc sim`'s CSV tables, and the main() of a suite with its two passes
+** (ordinary and clang).
 **
 ** Output is captured through temporary files rather than pipes so a chatty
 ** child can never deadlock the test.
@@ -11,6 +12,7 @@
 #include <assert.h>
 #include <dirent.h>
 #include <fcntl.h>
+#include <stdarg.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -224,4 +226,136 @@ char **model_files(const char *dir, int *n) {
   qsort(paths, (size_t)*n, sizeof *paths, cmp_paths);
   paths[*n] = NULL;
   return paths;
+}
+
+static char *scratch_cache, *scratch_work;
+
+void scratch_setup(void) {
+  scratch_cache = make_temp_dir();
+  scratch_work = make_temp_dir();
+  setenv("EOMC_CACHE_DIR", scratch_cache, 1);
+}
+
+void scratch_teardown(void) {
+  remove_tree(scratch_cache);
+  remove_tree(scratch_work);
+  free(scratch_cache);
+  free(scratch_work);
+  scratch_cache = scratch_work = NULL;
+}
+
+char *scratch_dir(void) {
+  assert(scratch_work); /* only inside the fixture */
+  return scratch_work;
+}
+
+char *scratch_path(const char *name) {
+  static char buf[4][4096];
+  static int k;
+  k = (k + 1) % 4;
+  snprintf(buf[k], sizeof buf[k], "%s/%s", scratch_dir(), name);
+  return buf[k];
+}
+
+char *example_file(const char *name) {
+  static char buf[4][4096];
+  static int k;
+  k = (k + 1) % 4;
+  snprintf(buf[k], sizeof buf[k], "%s/examples/%s", srcdir(), name);
+  return buf[k];
+}
+
+const char *set_param_arg(const char *name, double v) {
+  static char buf[16][128];
+  static int k;
+  k = (k + 1) % 16;
+  snprintf(buf[k], sizeof buf[k], "--set=%s=%.17g", name, v);
+  return buf[k];
+}
+
+/* argv = eomc, the nhead words of head, then the NULL-ended list ap. */
+static RunResult run_eomc_list(const char *const *head, int nhead, va_list ap) {
+  char *argv[64];
+  int n = 0;
+  argv[n++] = (char *)eomc();
+  for (int i = 0; i < nhead; i++) argv[n++] = (char *)head[i];
+  for (char *a; (a = va_arg(ap, char *)) != NULL;) {
+    ck_assert_msg(n < 63, "too many arguments for eomc");
+    argv[n++] = a;
+  }
+  argv[n] = NULL;
+  return run_argv(argv);
+}
+
+RunResult eomc_run(const char *verb, ...) {
+  va_list ap;
+  va_start(ap, verb);
+  RunResult r = run_eomc_list(&verb, 1, ap);
+  va_end(ap);
+  return r;
+}
+
+void csv_free(CsvTable *t) {
+  for (int i = 0; i < t->ncols; i++) free(t->names[i]);
+  free(t->names);
+  free(t->v);
+  memset(t, 0, sizeof *t);
+}
+
+CsvTable csv_read(const char *path) {
+  CsvTable t = {0, 0, NULL, NULL};
+  char *text = read_file(path, NULL);
+  ck_assert_msg(text != NULL, "cannot read %s", path);
+  char *line = strtok(text, "\n");
+  ck_assert(line != NULL);
+  for (char *s = line; s; s = strchr(s, ',') ? strchr(s, ',') + 1 : NULL) t.ncols++;
+  t.names = calloc((size_t)t.ncols, sizeof(char *));
+  ck_assert(t.names != NULL);
+  char *s = line;
+  for (int i = 0; i < t.ncols; i++) {
+    size_t n = strcspn(s, ",");
+    t.names[i] = malloc(n + 1);
+    ck_assert(t.names[i] != NULL);
+    memcpy(t.names[i], s, n);
+    t.names[i][n] = '\0';
+    s += n + 1;
+  }
+  int cap = 64;
+  t.v = malloc((size_t)cap * t.ncols * sizeof(double));
+  ck_assert(t.v != NULL);
+  while ((line = strtok(NULL, "\n"))) {
+    if (t.nrows == cap) {
+      cap *= 2;
+      t.v = realloc(t.v, (size_t)cap * t.ncols * sizeof(double));
+      ck_assert(t.v != NULL);
+    }
+    char *p = line;
+    for (int i = 0; i < t.ncols; i++) {
+      char *end;
+      t.v[(size_t)t.nrows * t.ncols + i] = strtod(p, &end);
+      ck_assert_msg(end != p, "bad number in row %d of %s", t.nrows + 1, path);
+      p = *end == ',' ? end + 1 : end;
+    }
+    t.nrows++;
+  }
+  free(text);
+  return t;
+}
+
+int csv_col(const CsvTable *t, const char *name) {
+  for (int i = 0; i < t->ncols; i++)
+    if (strcmp(t->names[i], name) == 0) return i;
+  ck_abort_msg("no column %s", name);
+  return -1;
+}
+
+CsvTable sim_csv(const char *model, const char *out, ...) {
+  const char *head[] = {"sim", model, "-o", out};
+  va_list ap;
+  va_start(ap, out);
+  RunResult r = run_eomc_list(head, 4, ap);
+  va_end(ap);
+  ck_assert_msg(r.status == 0, "eomc sim %s: status %d\n%s", model, r.status, r.err);
+  run_free(&r);
+  return csv_read(out);
 }

@@ -1,6 +1,7 @@
 /*
 ** testutil.h — helpers for end-to-end tests: run a program, capture its
-** output, make temporary files and directories.
+** output, make temporary files and directories, read the CSV tables that
+** `eomc sim` writes.
 */
 #ifndef EOMC_TESTUTIL_H
 #define EOMC_TESTUTIL_H
@@ -62,5 +63,44 @@ void remove_tree(const char *path);
 ** ends the array); *n gets their count.  NULL when the folder cannot be read.
 ** Suites list them before running so each model can be its own loop test. */
 char **model_files(const char *dir, int *n);
+
+/* The fixture of end-to-end suites: a fresh work folder and a private
+** cache of built models ($EOMC_CACHE_DIR), both removed by
+** scratch_teardown. */
+void scratch_setup(void);
+void scratch_teardown(void);
+/* The work folder, and NAME in it (four rotating buffers, as below). */
+char *scratch_dir(void);
+char *scratch_path(const char *name);
+
+/* examples/NAME in the source tree.  The path lives in one of four
+** rotating buffers: good until the fourth call after. */
+char *example_file(const char *name);
+
+/* "--set=NAME=V" with V to full precision (sixteen rotating buffers). */
+const char *set_param_arg(const char *name, double v);
+
+/* Run `eomc VERB ARGS... NULL` (at most 60 arguments) and keep its output. */
+RunResult eomc_run(const char *verb, ...);
+
+/* A CSV file of numbers under a header row of column names, as `eomc sim
+** -o FILE` writes it. */
+typedef struct CsvTable {
+  int ncols, nrows;
+  char **names;
+  double *v; /* nrows x ncols, row-major */
+} CsvTable;
+
+/* Read a table; fails the running test when the file cannot be read or a
+** cell is not a number. */
+CsvTable csv_read(const char *path);
+void csv_free(CsvTable *t);
+/* The index of the column `name`; fails the running test when missing. */
+int csv_col(const CsvTable *t, const char *name);
+static inline double csv_at(const CsvTable *t, int row, int col) {
+  return t->v[(size_t)row * t->ncols + col];
+}
+/* Run `eomc sim MODEL -o OUT ARGS... NULL`, which must succeed, and read OUT. */
+CsvTable sim_csv(const char *model, const char *out, ...);
 
 #endif

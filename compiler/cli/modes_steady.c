@@ -13,6 +13,7 @@
 #include <unistd.h>
 
 #include "cli/cmd.h"
+#include "cli/json_out.h"
 #include "cli/plot.h"
 #include "cli/scratch.h"
 #include "cli/steady.h"
@@ -102,11 +103,6 @@ static void print_eigenvalues(FILE *f, const SteadyMotion *sm) {
     if (im != 0) fprintf(f, ", frequency %.8g rad/s (%.6g Hz)", fabs(im), fabs(im) / TWO_PI);
     fputc('\n', f);
   }
-}
-
-static void json_num(FILE *f, double v) {
-  if (isfinite(v)) fprintf(f, "%.12g", v);
-  else fputs("null", f);
 }
 
 static void print_json(FILE *f, const struct eom_model *m, const SteadyMotion *sm) {

@@ -23,7 +23,7 @@
 ** functions (docs/language.md).
 **
 ** Shaped functions (vectors, rotations, transforms) have their shape and
-** unit rules in check.c and units.c, and their construction in symbolic.cc:
+** unit rules in check.c and units.c, and their construction in symbolic_eval.cc:
 **   X(ID, NAME, ARITY)      ARITY -1: one or more arguments.
 */
 #ifndef EOMC_BUILTINS_H

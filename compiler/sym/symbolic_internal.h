@@ -1,8 +1,9 @@
 /*
 ** symbolic_internal.h — what the C++ files of the symbolic core share.
 **
-** symbolic.cc derives GiNaC expressions from the model; ir_build.cc turns
-** them into the deterministic, hash-consed IrGraph.  Neither the C parts of
+** symbolic.cc and its companions (listed at "the derivation" below) derive
+** GiNaC expressions from the model; ir_build.cc turns them into the
+** deterministic, hash-consed IrGraph.  Neither the C parts of
 ** the compiler nor the emitter see this header: their interface is symbolic.h.
 **
 ** Errors inside the core are thrown as SymError and turned into one Diag
@@ -14,11 +15,14 @@
 
 #include <ginac/ginac.h>
 
+#include <chrono>
+#include <cstdint>
 #include <functional>
 #include <map>
 #include <memory>
 #include <string>
 #include <typeinfo>
+#include <unordered_map>
 #include <vector>
 
 /* The shared C headers carry no extern "C" of their own. */
@@ -28,6 +32,7 @@ extern "C" {
 #include "front/diag.h"
 }
 #include "sym/ir.h"
+#include "sym/symbolic.h"
 
 namespace eomsym {
 
@@ -200,6 +205,9 @@ struct ControlInput {
   std::function<GiNaC::ex(const GiNaC::ex &)> d_dt;
   std::function<GiNaC::ex(const GiNaC::ex &, const GiNaC::exmap &)> substitute;
   std::function<bool(const GiNaC::ex &, const GiNaC::ex &)> nonzero_somewhere;
+  /* non-empty: no split, for this reason (the Christoffel form of C holds
+  ** for coordinates, not for the angular velocities of attitudes) */
+  std::string no_split;
 };
 
 /* The split M q'' + C q' + g = Q - dD/dq', momenta, energy function and the
@@ -263,6 +271,301 @@ struct KinematicsResult {
 void derive_kinematics(const KinematicsInput &in, KinematicsResult *out);
 /* J' q' = sum_j (sum_k dJ_j/dq_k q'_k) q'_j for a row J(q) of nq entries. */
 GiNaC::ex bias_of(const KinematicsInput &in, const std::vector<GiNaC::ex> &row);
+
+/* Attitude coordinates (symbolic_attitude.cc): R(q) row-major for a unit
+** quaternion q = [w, x, y, z], the map N(q) (4x3 row-major) with
+** q' = N(q) omega for the body-frame omega, and a x b. */
+void attitude_rotation(const GiNaC::ex q[4], GiNaC::ex R[9]);
+void attitude_rate_map(const GiNaC::ex q[4], GiNaC::ex N[12]);
+void attitude_cross(const GiNaC::ex a[3], const GiNaC::ex b[3], GiNaC::ex out[3]);
+
+
+/* ================================================================ the derivation
+** The class Derivation turns a checked model into the roots of one IrGraph.
+** Its methods live in one file per job:
+**   symbolic_calculus.cc   numbers, differentiation with memos, substitution,
+**                          the numeric probes at pseudo-random points
+**   symbolic_eval.cc       model expressions -> values (scalars, vectors,
+**                          matrices, rotations known as products of turns)
+**   symbolic_bodies.cc     statements: terms, bodies, rotations, forces at
+**                          points, torques; bodies placed on frame chains
+**   symbolic_constraints.cc position and velocity constraints, integrability
+**   symbolic.cc            the Euler-Lagrange assembly, M, f, Jacobians, the
+**                          inverse dynamics, the C entry points
+**   symbolic_roots.cc      everything derived -> roots of the graph, EomSystem
+*/
+
+/* An error not tied to one place in the file. */
+extern const SrcLoc kNoLoc;
+
+/* printf into a std::string (messages; 512 bytes at most). */
+std::string fmt(const char *f, ...) __attribute__((format(printf, 1, 2)));
+
+/* The exact rational a double literal stands for (symbolic_calculus.cc). */
+GiNaC::ex exact_number(double v, SrcLoc loc);
+
+/* Which of the variables (t, q, q', q'', u) each node contains, as a bit
+** set per node, memoised and shared by all Derivers: differentiation then
+** skips every subtree free of its variable without visiting it. */
+class DepCache {
+ public:
+  /* Variables may be added at any time: a node built before a variable
+  ** existed cannot contain it, so the sets already computed stay right. */
+  int add_var(const GiNaC::ex &sym);
+  bool contains(const GiNaC::ex &e, int id);
+
+ private:
+  std::map<GiNaC::ex, int, GiNaC::ex_is_less> ids_;
+  size_t words_ = 0;
+  std::vector<uint64_t> pool_;  /* words_ per node; offset 0 is the empty set */
+  std::unordered_map<const GiNaC::basic *, std::pair<GiNaC::ex, size_t>> at_;
+
+  size_t offset(const GiNaC::ex &e);
+};
+
+/* d/d(var) with a memo: each distinct GiNaC node containing var is
+** differentiated once.  Built-in functions use the textbook derivatives
+** (abs' = csgn, csgn' = 0 away from 0, branch derivatives of min, max, step,
+** clamp: symbolic_builtins.cc), which keeps GiNaC's conjugate() forms out of
+** the results. */
+class Deriver {
+ public:
+  Deriver(const GiNaC::ex &var, int id, DepCache *deps);
+  GiNaC::ex operator()(const GiNaC::ex &e);
+
+ private:
+  GiNaC::ex var_;
+  int id_;
+  DepCache *deps_;
+  std::unordered_map<const GiNaC::basic *, std::pair<GiNaC::ex, GiNaC::ex>> memo_;
+
+  GiNaC::ex fresh(const GiNaC::ex &e);
+  GiNaC::ex function_derivative(const GiNaC::ex &e);
+};
+
+/* Substitution with a memo (GiNaC's subs() walks shared subtrees once per path). */
+class Subst : public GiNaC::map_function {
+ public:
+  explicit Subst(const GiNaC::exmap &repl) : repl_(repl) {}
+  GiNaC::ex operator()(const GiNaC::ex &e) override;
+
+ private:
+  GiNaC::exmap repl_;
+  std::unordered_map<const GiNaC::basic *, std::pair<GiNaC::ex, GiNaC::ex>> memo_;
+};
+
+/* Value of e at a point (every symbol of e replaced by a float); NaN if
+** the point is singular for e. */
+double value_at(const GiNaC::ex &e, Subst &point);
+
+/* ------------------------------------------------------------ values */
+
+/* A value of the model language: a rows x cols matrix, row-major;
+** a scalar is 1x1 and a vector n x 1.  A 3x3 rotation (or the rotation part
+** of a 4x4 transform whose last row is 0 0 0 1) built only from rotx, roty,
+** rotz, dh, rot, transpose and products also remembers its factors in
+** `turns`: a body's angular velocity is then read off the factors, the way
+** recursive algorithms work in link frames (see add_rotation). */
+struct Val {
+  int rows, cols;
+  std::vector<GiNaC::ex> a;
+  std::shared_ptr<const std::vector<Turn>> turns;  /* null: not known as a product */
+  /* A 3-vector known as a point T * [local; 1] (placed 1) of the transform T
+  ** whose steps are `turns`, or as a direction R * local (placed 2) of the
+  ** rotation R whose turns are `turns`: a body's velocity is then read off
+  ** the steps too (see add_translation). */
+  int placed = 0;
+  GiNaC::ex local[3];
+  explicit Val(const GiNaC::ex &e) : rows(1), cols(1), a(1, e) {}
+  Val(int r, int c) : rows(r), cols(c), a((size_t)r * c, GiNaC::ex(0)) {}
+  bool scalar() const { return rows == 1 && cols == 1; }
+  bool vector() const { return cols == 1 || rows == 1; }
+  int size() const { return rows * cols; }
+  GiNaC::ex &at(int i, int j) { return a[(size_t)i * cols + j]; }
+  const GiNaC::ex &at(int i, int j) const { return a[(size_t)i * cols + j]; }
+};
+
+/* Is the last row of a 4x4 transform exactly 0 0 0 1? */
+bool last_row_is_unit(const Val &T);
+/* Do the steps of a transform turn like the rotation `turns`? */
+bool same_turns(const std::vector<Turn> &steps, const std::vector<Turn> &turns);
+/* "a scalar", "a 3-vector", "a 3x4 matrix": for messages. */
+std::string shape_name(const Val &v);
+
+/* ------------------------------------------------------------ the derivation */
+
+struct Term {
+  const Stmt *stmt;
+  GiNaC::ex e;
+};
+
+/* A switching function: e changes sign where the branch function at loc
+** changes branch (part: which bound of a clamp). */
+struct SwitchFn {
+  SrcLoc loc;
+  BuiltinFn fn;
+  int part;
+  GiNaC::ex e;
+};
+
+struct RootHandles;  /* symbolic_roots.cc */
+
+/* Everything run() derives before it becomes roots of the graph (see
+** symbolic.cc for each piece; n = nq, nc constraints, nvc velocity ones). */
+struct Equations {
+  GiNaC::ex T, T_rot, V_reported, V_placed, L;   /* energies; L in atoms */
+  std::vector<std::vector<GiNaC::ex>> M, M_lagrange;  /* n x n; M_lagrange: without placed bodies */
+  std::vector<GiNaC::ex> f, f_lagrange, dDdqd;   /* n */
+  std::vector<GiNaC::ex> dM, dfdq, dfdqd, dfdu;  /* n*n*n, n*n, n*n, n*nu */
+  std::vector<GiNaC::ex> inv;                    /* n: inverse dynamics at u = 0 */
+  std::vector<GiNaC::ex> phi, G, gamma, phi_t;   /* nc, nc*n, nc, nc */
+  std::vector<GiNaC::ex> vc_A, vc_b, vc_gamma;   /* nvc*n, nvc, nvc */
+  ControlResult ctl;
+  RegressorResult reg;
+  std::vector<GiNaC::ex> outs;                   /* ny */
+  std::vector<SrcLoc> out_locs;
+  KinematicsResult kr;
+};
+
+class Derivation {
+ public:
+  Derivation(const Model *m, const SymOptions *opt, Diag *d);
+  void run(EomSystem *out);
+
+ private:
+  const Model *m_;
+  Diag *diag_;  /* for warnings; errors are thrown as SymError */
+  double max_seconds_;
+  std::chrono::steady_clock::time_point start_;
+  /* nq_ entries of q: the coordinates, then 4 per attitude (its quaternion);
+  ** nv_ of the velocities v: the coordinates' rates, then 3 per attitude
+  ** (omega); ncoord_ coordinates. */
+  int nq_, nv_, ncoord_, nu_, np_;
+  GiNaC::ex t_;
+  std::vector<GiNaC::ex> q_, qd_, qdd_, u_, p_;  /* qd_, qdd_: v and v' (nv_ each) */
+  std::vector<GiNaC::ex> qrate_;                 /* nq_: q' in terms of q and v (N(q) v) */
+  std::vector<std::array<GiNaC::ex, 12>> att_N_;  /* per attitude: N(q), q' = N omega */
+  VarTable vars_;
+  DepCache deps_;
+  Deriver dt_;
+  std::vector<Deriver> dq_, dqd_, dqdd_, du_;
+  std::unordered_map<const Decl *, Val> let_value_, let_rate_, const_value_;
+
+  /* The rate e' of an expression that is not a coordinate is kept as a
+  ** symbol w (an "atom") while the Lagrangian is differentiated.  With
+  ** L = F(q, q', t, w), w_k = e_k', Lagrange's identities de_k'/dq'_i =
+  ** de_k/dq_i and de_k'/dq_i = d/dt de_k/dq_i give
+  **   E_i = d/dt dF/dq'_i - dF/dq_i + sum_k d/dt(dF/dw_k) de_k/dq_i
+  ** in which the terms that cancel in the textbook form are never made:
+  ** for point masses this is M = J^T m J and f = -J^T m (J' q'), and the
+  ** expressions stay a fraction of the size. */
+  struct Atom {
+    GiNaC::ex w;       /* the symbol */
+    GiNaC::ex e;       /* the expression whose rate it is */
+    GiNaC::ex rate;    /* e' in t, q, q' */
+    GiNaC::ex accel;   /* e'' in t, q, q', q'' */
+  };
+  std::vector<Atom> atoms_;
+  std::vector<Deriver> dw_;
+  std::unique_ptr<Subst> unatom_;  /* w_k -> e_k' */
+  std::unique_ptr<Subst> zero_qdd_;  /* q'' -> 0 */
+  std::vector<const Decl *> let_stack_;  /* lets being evaluated (cycle guard) */
+
+  std::vector<Term> kinetic_, potential_, lagrangian_, dissipation_;
+  std::vector<Term> reported_potential_;  /* in V, not in L (gravity on placed bodies) */
+  /* Rotating bodies whose orientation depends on q and t only enter the
+  ** equations through their generalized inertia forces (see add_body):
+  ** rot_force_[b][i] is body b's share of E_i, rot_energy_ its part of T. */
+  /* Bodies whose mass centre is a point of a chain of turns and shifts
+  ** (see finish_placed); `spins`: the body's axes are the chain's last frame. */
+  struct Placed {
+    const Stmt *stmt;
+    GiNaC::ex mass;
+    Val pos;
+    bool spins;
+    Val I;
+    GiNaC::ex T;  /* kinetic energy, set by finish_placed */
+  };
+  std::vector<Placed> placed_;
+  std::vector<bool> body_placed_;  /* per entry of bodies_ */
+  std::vector<std::vector<GiNaC::ex>> placed_M_;  /* their mass matrix */
+  std::vector<GiNaC::ex> placed_bias_;            /* their forces at q'' = 0 */
+  std::vector<GiNaC::ex> placed_full_;            /* and with q'': M q'' + bias */
+  std::vector<std::vector<GiNaC::ex>> rot_force_;
+  std::vector<GiNaC::ex> rot_energy_;  /* with the translational energy of placed points */
+  std::vector<GiNaC::ex> force_;  /* Q_i */
+
+  struct Body {
+    const Stmt *stmt;
+    GiNaC::ex mass;
+    Val pos;
+  };
+  std::vector<Body> bodies_;
+  std::vector<std::pair<const Stmt *, Val>> gravity_;
+  std::vector<std::pair<const Stmt *, GiNaC::ex>> constraints_;  /* phi = 0, one per entry */
+  std::vector<std::pair<const Stmt *, GiNaC::ex>> vconstraints_;  /* A q' - b = 0, one per entry */
+  /* switching functions of the branch functions in the terms, in source order */
+  bool collecting_ = false;
+  std::vector<SwitchFn> switches_;
+  void note_switches(const Expr *x, BuiltinFn f, const GiNaC::exvector &a);
+
+  void tick(const char *step);
+  GiNaC::ex totald(const GiNaC::ex &e);
+  GiNaC::ex dv(int j, const GiNaC::ex &e);
+  std::string rate_name(int j) const;
+  Val rate(const Val &v);
+  GiNaC::ex unatom(const GiNaC::ex &e);
+
+  Val eval(const Expr *x);
+  Val eval_name(const Expr *x);
+  Val eval_rate(const Expr *x);
+  Val eval_binary(const Expr *x);
+  Val eval_call(const Expr *x);
+  Val eval_index(const Expr *x);
+  Val eval_list(const Expr *x);
+  bool place_sum(const Val &P, const Val &dir, Val &sum);
+  Val let_value(const Decl *d);
+  GiNaC::ex scalar(const Expr *x, const char *what);
+
+  void collect_terms();
+  Val vec3(const Expr *x, const char *what);
+  Val mat3(const Expr *x, const char *what);
+  void add_body(const Stmt *s);
+  void check_inertia(const Stmt *s, const Val &I);
+  void add_rotation(const Val &R, const Val &I);
+  void finish_placed();
+  GiNaC::exmap random_point(uint64_t &state, bool rates);
+  bool point_matches(const Val &P);
+  bool turns_match(const Val &R);
+  void add_force_at(const Stmt *s);
+  void add_torque(const Stmt *s);
+  void add_constraint(const Stmt *s);
+  void derive_velocity_constraints(std::vector<GiNaC::ex> &A, std::vector<GiNaC::ex> &b, std::vector<GiNaC::ex> &gamma);
+  bool velocity_constraints_integrable(const std::vector<GiNaC::ex> &A, const std::vector<GiNaC::ex> &b);
+  bool depends_on_rates(const GiNaC::ex &e);
+  void check_no_qdd(const GiNaC::ex &L);
+  void check_mass(std::vector<std::vector<GiNaC::ex>> &M);
+  bool nonzero_somewhere(const GiNaC::ex &e, const GiNaC::ex &scale);
+  void derive_control_quantities(const GiNaC::ex &L, const std::vector<std::vector<GiNaC::ex>> &M,
+                                 const std::vector<GiNaC::ex> &dM, const std::vector<GiNaC::ex> &dDdqd,
+                                 const std::vector<GiNaC::ex> &phi, const std::vector<GiNaC::ex> &vc_A,
+                                 const std::vector<GiNaC::ex> &vc_b, ControlResult *out);
+  /* the `identify` parameters: indices in p, and derivatives in them (made
+  ** before any expression, so that the DepCache knows them from the start) */
+  std::vector<int> pi_index_;
+  std::vector<Deriver> dpi_;
+  void derive_regressor_quantities(const std::vector<GiNaC::ex> &inv, RegressorResult *out);
+
+  /* the pieces of run(), in order */
+  void derive_lagrange(Equations &eq);
+  void derive_jacobians(Equations &eq);
+  void derive_constraint_equations(Equations &eq);
+  void derive_outputs(Equations &eq);
+  void emit_roots(const Equations &eq, EomSystem *out);
+  void add_roots(const Equations &eq, IrBuilder &b, RootHandles &h);
+  void write_roots(const Equations &eq, const RootHandles &h, const std::vector<int> &roots,
+                   EomSystem *out);
+};
 
 }  // namespace eomsym
 
