@@ -436,10 +436,8 @@ static int run_and_report(const SimArgs *a, const struct eom_model *m, RunValues
             "eomc sim: note: %s does not locate the model's %d switches in time "
             "(dopri and radau5 do)\n", a->method, m->ns);
 
-  interrupt_watch();
   int st = eom_simulate(m, rv->p, in, rv->x, &o, on_sample, &so, &rep);
   if (!so.stopped_by) so.stopped_by = interrupt_signal();
-  interrupt_unwatch();
   free(so.row);
   if (so.drawn) fprintf(stderr, "\r%*s\r", 70, "");
   if (so.stopped_by) {
@@ -554,6 +552,8 @@ int cmd_sim(int argc, char **argv) {
   }
   memcpy(x_given, rv.x, 2 * (size_t)m->nq * sizeof(double));
   H5Meta meta = run_meta(m, rv.p);
+  /* From the first temporary on, a signal stops the run and removes it. */
+  interrupt_watch();
   if (run_sink_open(&sink, m, cols, ncols, a.out, a.plot != NULL, &meta, err, sizeof err) != 0) {
     fprintf(stderr, "eomc sim: error: %s\n", err);
     rc = EXIT_RUN;
@@ -566,6 +566,7 @@ int cmd_sim(int argc, char **argv) {
   }
 out:
   run_sink_free(&sink);
+  interrupt_unwatch();
   eom_inputs_free(in);
   cmon_free(&cmon);
   run_values_free(&rv);

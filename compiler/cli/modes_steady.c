@@ -15,7 +15,7 @@
 #include "cli/cmd.h"
 #include "cli/json_out.h"
 #include "cli/plot.h"
-#include "cli/scratch.h"
+#include "cli/tmpfiles.h"
 #include "cli/steady.h"
 
 static const double TWO_PI = 6.283185307179586476925286766559;
@@ -145,10 +145,10 @@ static int sweep(const struct eom_model *m, RunValues *rv, int *given, double *r
   FILE *out = stdout;
   int fd = -1, rc = 0, neig = 0;
   if (o->plot) {
-    fd = scratch_create("eomc-sweep", &tmp);
+    fd = tmpfiles_create("eomc-sweep", &tmp);
     out = fd >= 0 ? fdopen(fd, "w") : NULL;
     if (!out) {
-      fprintf(stderr, "eomc modes: cannot create a temporary file in %s\n", scratch_dir());
+      fprintf(stderr, "eomc modes: cannot create a temporary file in %s\n", tmpfiles_dir());
       if (fd >= 0) close(fd), unlink(tmp);
       free(tmp);
       return EXIT_RUN;

@@ -20,7 +20,7 @@
 #include <sys/wait.h>
 #include <unistd.h>
 
-#include "cli/scratch.h"
+#include "cli/tmpfiles.h"
 
 int plot_available(char *err, size_t errlen) {
 #ifdef GNUPLOT_PATH
@@ -94,9 +94,9 @@ static int render(PlotScriptWriter write, const void *ctx, const char *data_path
   int rc = -1, fd = -1;
   FILE *f = NULL;
   if (plot_format_check(svg_path, err, errlen) != 0) goto out;
-  fd = scratch_create("eomc-plot", &script);
+  fd = tmpfiles_create("eomc-plot", &script);
   if (!tmp_svg || fd < 0) {
-    snprintf(err, errlen, "cannot create a temporary file in %s: %s", scratch_dir(),
+    snprintf(err, errlen, "cannot create a temporary file in %s: %s", tmpfiles_dir(),
              strerror(errno));
     goto out;
   }

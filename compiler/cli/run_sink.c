@@ -11,7 +11,7 @@
 #include <sys/stat.h>
 #include <unistd.h>
 
-#include "cli/scratch.h"
+#include "cli/tmpfiles.h"
 #include "eom/runtime.h"
 
 static int ends_with(const char *s, const char *tail) {
@@ -105,10 +105,10 @@ int run_sink_open(RunSink *s, const struct eom_model *m, const int *cols, int nc
   if (run_sink_is_h5(out) ? open_h5(s, meta, err, errlen) : open_csv(s, err, errlen)) goto fail;
   /* The plot reads the output itself when it is a regular CSV file. */
   if (plot && (!s->csv || !s->tmp)) {
-    int fd = scratch_create("eomc-sim", &s->plot_tmp);
+    int fd = tmpfiles_create("eomc-sim", &s->plot_tmp);
     if (fd < 0 || !(s->plot_csv = fdopen(fd, "w"))) {
       if (fd >= 0) close(fd);
-      snprintf(err, errlen, "cannot create a scratch file in %s: %s", scratch_dir(),
+      snprintf(err, errlen, "cannot create a scratch file in %s: %s", tmpfiles_dir(),
                strerror(errno));
       goto fail;
     }

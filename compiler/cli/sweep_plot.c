@@ -15,7 +15,7 @@
 #include <unistd.h>
 
 #include "cli/plot.h"
-#include "cli/scratch.h"
+#include "cli/tmpfiles.h"
 
 static const double PERCENTS[5] = {5, 25, 50, 75, 95};
 
@@ -109,7 +109,7 @@ int sweep_bands_svg(const SweepTable *t, double t0, double t_end, const char *sv
     return -1;
   }
   char *data = NULL;
-  int fd = scratch_create("eomc-bands", &data);
+  int fd = tmpfiles_create("eomc-bands", &data);
   if (fd < 0) {
     snprintf(err, errlen, "cannot create a temporary file: %s", strerror(errno));
     return -1;

@@ -1,8 +1,8 @@
 /*
-** scratch.c — scratch files in $TMPDIR (else /tmp), the place POSIX names
+** tmpfiles.c — scratch files in $TMPDIR (else /tmp), the place POSIX names
 ** for them, so a user or a build system can move them off a small /tmp.
 */
-#include "cli/scratch.h"
+#include "cli/tmpfiles.h"
 
 #include <errno.h>
 #include <stdio.h>
@@ -10,13 +10,13 @@
 #include <string.h>
 #include <unistd.h>
 
-const char *scratch_dir(void) {
+const char *tmpfiles_dir(void) {
   const char *d = getenv("TMPDIR");
   return d && *d ? d : "/tmp";
 }
 
-int scratch_create(const char *stem, char **path) {
-  const char *dir = scratch_dir();
+int tmpfiles_create(const char *stem, char **path) {
+  const char *dir = tmpfiles_dir();
   size_t len = strlen(dir) + strlen(stem) + 16;
   int slash = dir[strlen(dir) - 1] != '/';
   *path = malloc(len);

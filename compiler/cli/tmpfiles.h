@@ -1,16 +1,16 @@
 /*
-** scratch.h — scratch files of a command (gnuplot scripts, data for a
+** tmpfiles.h — scratch files of a command (gnuplot scripts, data for a
 ** plot): created in $TMPDIR, else /tmp, and removed by the caller.
 */
-#ifndef EOMC_SCRATCH_H
-#define EOMC_SCRATCH_H
+#ifndef EOMC_TMPFILES_H
+#define EOMC_TMPFILES_H
 
 /* The folder scratch files go in: $TMPDIR when set and not empty, else /tmp. */
-const char *scratch_dir(void);
+const char *tmpfiles_dir(void);
 
-/* Create a new scratch file named "STEM-XXXXXX" in scratch_dir(), opened
+/* Create a new scratch file named "STEM-XXXXXX" in tmpfiles_dir(), opened
 ** for writing.  Returns its descriptor and sets *path (malloc'd), or
 ** returns -1 with errno set and *path NULL. */
-int scratch_create(const char *stem, char **path);
+int tmpfiles_create(const char *stem, char **path);
 
 #endif
