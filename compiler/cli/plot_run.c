@@ -39,15 +39,26 @@ int plot_min_span(double lo, double hi, double *ylo, double *yhi) {
   return 1;
 }
 
-/* The kind of row column k, for grouping the columns without a unit. */
+/* The kind of row column k (eom_row_column's order), for grouping the
+** columns without a unit. */
 static const char *column_kind(const struct eom_model *m, int k) {
+  int natt = m->nattitudes > 0 ? m->nattitudes : 0, width = eom_row_width(m);
+  int angles = 1 + eom_state_size(m), outputs = angles + 3 * natt;
+  int inputs = outputs + m->ny, multipliers = inputs + m->nu;
   if (k == 0) return "t";
   if (k <= m->nq) return "coordinates";
-  if (k <= 2 * m->nq) return "rates";
-  if (k <= 2 * m->nq + m->ny) return "outputs";
-  if (k <= 2 * m->nq + m->ny + m->nu) return "inputs";
-  if (k < eom_row_width(m) - 2) return "multipliers";
+  if (k < angles) return "rates";
+  if (k < outputs) return "attitude angles";
+  if (k < inputs) return "outputs";
+  if (k < multipliers) return "inputs";
+  if (k < width - 2) return "multipliers";
   return "energies";
+}
+
+/* Coordinates before the attitudes' quaternions: those with a rate of
+** their own.  A quaternion is plotted as its roll, pitch and yaw. */
+static int plain_coords(const struct eom_model *m) {
+  return m->nq - 4 * (m->nattitudes > 0 ? m->nattitudes : 0);
 }
 
 typedef struct Panel {
@@ -86,11 +97,12 @@ static int layout_build(const PlotRun *r, Layout *L) {
   L->panels = calloc((size_t)r->ncols + 1, sizeof(Panel));
   L->phase_q = calloc((size_t)m->nq + 1, sizeof(int));
   L->phase_qd = calloc((size_t)m->nq + 1, sizeof(int));
+  assert(plain_coords(m) >= 0);
   if (!L->panels || !L->phase_q || !L->phase_qd) return -1;
   for (int i = 0; i < r->ncols; i++) {
     int k = r->cols[i];
     char unit[96], key[128];
-    if (k == 0) continue;
+    if (k == 0 || (k <= m->nq && k - 1 >= plain_coords(m))) continue;
     eom_row_unit(m, k, unit, sizeof unit);
     if (unit[0]) snprintf(key, sizeof key, "%s", unit);
     else snprintf(key, sizeof key, "(%s)", column_kind(m, k));
@@ -108,7 +120,7 @@ static int layout_build(const PlotRun *r, Layout *L) {
     p->members[p->n++] = i;
     if (r->lo && r->lo[i] <= r->hi[i]) p->lo = fmin(p->lo, r->lo[i]), p->hi = fmax(p->hi, r->hi[i]);
   }
-  for (int q = 0; q < m->nq; q++) {
+  for (int q = 0; q < plain_coords(m); q++) {
     int a = find_csv_col(r, 1 + q), b = find_csv_col(r, 1 + m->nq + q);
     if (a >= 0 && b >= 0) L->phase_q[L->nphase] = a, L->phase_qd[L->nphase++] = b;
   }
