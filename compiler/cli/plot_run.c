@@ -23,8 +23,9 @@
 ** run, far below any variation worth seeing on a plot (common practice). */
 #define PLOT_MIN_SPAN 1e-6
 
-/* Longest y-axis label before the names are elided. */
-#define PLOT_LABEL_MAX 72
+/* Longest y-axis label before the names are elided (the key lists them
+** all): a rotated label longer than its panel would run into the next. */
+#define PLOT_LABEL_MAX 32
 
 int plot_min_span(double lo, double hi, double *ylo, double *yhi) {
   if (!(lo <= hi)) return 0; /* no finite value: leave it to gnuplot */
@@ -134,7 +135,7 @@ static void panel_label(const PlotRun *r, const Panel *p, char *buf, size_t cap)
   buf[0] = '\0';
   for (int i = 0; i < p->n; i++) {
     eom_row_column(r->m, r->cols[p->members[i]], name, sizeof name, NULL);
-    if (len + strlen(name) + 2 > PLOT_LABEL_MAX) {
+    if (i > 0 && len + strlen(name) + strlen(p->unit) + 5 > PLOT_LABEL_MAX) {
       len += (size_t)snprintf(buf + len, cap - len, ", ...");
       break;
     }
