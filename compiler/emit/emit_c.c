@@ -77,6 +77,7 @@ static void emit_source(Emitter *E) {
   if (s->nvc && emit_wants(E, "velocity_constraint")) emit_velocity_constraint(E);
   if (s->nc + s->nvc && emit_wants(E, "accel_constrained")) emit_accel_constrained(E);
   if (s->nc && emit_wants(E, "constraint_gamma")) emit_constraint_gamma(E);
+  if (s->nstops) emit_stops(E);   /* the end stops, whatever --only says */
   PlainFunction fns[EMIT_CONTROL_MAX_FUNCTIONS];
   int nfns = emit_control_functions(s, fns);
   for (int k = 0; k < nfns; k++)
