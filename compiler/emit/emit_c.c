@@ -5,6 +5,7 @@
 ** the writers of each part live beside it (emit_internal.h is the map).
 */
 #include "emit/emit_c.h"
+#include "front/xalloc.h"
 #include "emit/emit_control.h"
 #include "emit/emit_internal.h"
 #include "emit/emit_kinematics.h"
@@ -87,14 +88,10 @@ static int emit_both(const Model *m, const EomSystem *s, const EmitOptions *o, F
     return -1;
   }
   assert(s->np == m->nparams && s->nu == m->ninputs && s->ny == m->ny && s->nq == m->ncoords);
-  E.uses = calloc((size_t)nn + 1, sizeof *E.uses);
-  E.tempno = calloc((size_t)nn + 1, sizeof *E.tempno);
-  E.size = calloc((size_t)nn + 1, sizeof *E.size);
-  E.slot = calloc((size_t)s->nq * (size_t)s->nq, sizeof *E.slot);
-  if (!E.uses || !E.tempno || !E.size || !E.slot) {
-    fputs("eomc: out of memory\n", stderr);
-    abort();
-  }
+  E.uses = xcalloc((size_t)nn + 1, sizeof *E.uses);
+  E.tempno = xcalloc((size_t)nn + 1, sizeof *E.tempno);
+  E.size = xcalloc((size_t)nn + 1, sizeof *E.size);
+  E.slot = xcalloc((size_t)s->nq * (size_t)s->nq, sizeof *E.slot);
   ldl_pattern(&E);
   E.out = h_out;
   emit_header(&E);

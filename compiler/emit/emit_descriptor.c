@@ -4,6 +4,7 @@
 ** eom_model of <eom/model.h>) with its tables of names, units and values.
 */
 #include "emit/emit_internal.h"
+#include "front/xalloc.h"
 #include "emit/emit_control.h"
 
 #include <assert.h>
@@ -45,14 +46,13 @@ static void emit_texts(Emitter *E, const char *name, char **texts, int n) {
 /* A table of one field of each declaration: 0 name, 1 unit, 2 description. */
 static void emit_string_table(Emitter *E, const char *name, Decl **ds, int n, int field) {
   if (!n) return;
-  char **texts = calloc((size_t)n, sizeof *texts);
-  assert(texts);
+  char **texts = xcalloc((size_t)n, sizeof *texts);
   for (int i = 0; i < n; i++) {
     Buf b = {0};
     if (field == 0) buf_put(&b, ds[i]->name);
     else if (field == 2) buf_put(&b, ds[i]->desc ? ds[i]->desc : "");
     else unit_annotation_text(&b, ds[i]->unit);
-    texts[i] = b.s ? b.s : calloc(1, 1);
+    texts[i] = b.s ? b.s : xcalloc(1, 1);
   }
   emit_texts(E, name, texts, n);
   free(texts);
@@ -63,9 +63,8 @@ static void emit_string_table(Emitter *E, const char *name, Decl **ds, int n, in
 static void emit_output_names(Emitter *E) {
   const Model *m = E->m;
   if (!m->ny) return;
-  char **texts = calloc((size_t)m->ny, sizeof *texts);
+  char **texts = xcalloc((size_t)m->ny, sizeof *texts);
   int k = 0;
-  assert(texts);
   for (int i = 0; i < m->noutputs; i++) {
     const Decl *d = m->outputs[i];
     int rows = d->shape.rows, cols = d->shape.cols;
@@ -91,8 +90,7 @@ static void emit_output_names(Emitter *E) {
 static void emit_switch_names(Emitter *E) {
   const EomSystem *s = E->s;
   if (!s->ns) return;
-  char **texts = calloc((size_t)s->ns, sizeof *texts);
-  assert(texts);
+  char **texts = xcalloc((size_t)s->ns, sizeof *texts);
   for (int i = 0; i < s->ns; i++) {
     const EomSwitch *w = &s->switch_info[i];
     Buf b = {0};
@@ -171,9 +169,8 @@ void emit_descriptor(Emitter *E) {
   const Model *m = E->m;
   const EomSystem *s = E->s;
   const char *P = E->P;
-  double *q0 = calloc((size_t)s->nq, sizeof *q0), *qd0 = calloc((size_t)s->nq, sizeof *qd0);
-  double *pd = calloc((size_t)s->np + 1, sizeof *pd);
-  assert(q0 && qd0 && pd);
+  double *q0 = xcalloc((size_t)s->nq, sizeof *q0), *qd0 = xcalloc((size_t)s->nq, sizeof *qd0);
+  double *pd = xcalloc((size_t)s->np + 1, sizeof *pd);
   for (int i = 0; i < s->nq; i++) {
     q0[i] = m->q0 ? m->q0[i] : 0.0;
     qd0[i] = m->qd0 ? m->qd0[i] : 0.0;

@@ -6,6 +6,7 @@
 ** are folded into subtractions, negative powers become denominators.
 */
 #include "emit/emit_show.h"
+#include "front/xalloc.h"
 #include "front/rate_degree.h"
 #include "front/units.h"
 
@@ -29,11 +30,7 @@ static void text_grow(Text *t, size_t extra) {
   if (t->len + extra + 1 <= t->cap) return;
   size_t cap = t->cap ? t->cap : 128;
   while (cap < t->len + extra + 1) cap *= 2;
-  char *s = realloc(t->s, cap);
-  if (!s) {
-    fputs("eomc: out of memory\n", stderr);
-    abort();
-  }
+  char *s = xrealloc(t->s, cap);
   t->s = s;
   t->cap = cap;
 }
@@ -671,11 +668,7 @@ static void print_plain(Show *S, FILE *out) {
     free(e);
   }
   if (s->nc + s->nvc > 0) {
-    Origin *o = calloc((size_t)(s->nc + s->nvc), sizeof *o);
-    if (!o) {
-      fputs("eomc: out of memory\n", stderr);
-      abort();
-    }
+    Origin *o = xcalloc((size_t)(s->nc + s->nvc), sizeof *o);
     constraint_origins(S, o);
     print_constraints_plain(S, o, out);
     free(o);
@@ -688,11 +681,7 @@ static void print_plain(Show *S, FILE *out) {
 static void print_constraints_latex(Show *S, FILE *out) {
   const EomSystem *s = S->s;
   int nc = s->nc, ncall = nc + s->nvc;
-  Origin *o = calloc((size_t)ncall, sizeof *o);
-  if (!o) {
-    fputs("eomc: out of memory\n", stderr);
-    abort();
-  }
+  Origin *o = xcalloc((size_t)ncall, sizeof *o);
   constraint_origins(S, o);
   for (int k = 0; k < ncall; k++) {
     Text eq = {0};
@@ -783,13 +772,9 @@ int show_equations(const Model *m, const EomSystem *s, int latex, FILE *out) {
   S.g = &s->g;
   S.latex = latex;
   S.defining = -1;
-  S.uses = calloc((size_t)nn + 1, sizeof *S.uses);
-  S.size = calloc((size_t)nn + 1, sizeof *S.size);
-  S.name = calloc((size_t)nn + 1, sizeof *S.name);
-  if (!S.uses || !S.size || !S.name) {
-    fputs("eomc: out of memory\n", stderr);
-    abort();
-  }
+  S.uses = xcalloc((size_t)nn + 1, sizeof *S.uses);
+  S.size = xcalloc((size_t)nn + 1, sizeof *S.size);
+  S.name = xcalloc((size_t)nn + 1, sizeof *S.name);
   assert(nq >= 1 && s->mass && s->forcing);
   for (int i = 0; i < nq; i++) count_uses(&S, s->mass + i * nq, i + 1);
   count_uses(&S, s->forcing, nq);
