@@ -99,7 +99,7 @@ static int *ints(int n) {
 
 static void fixture_alloc(Fixture *f, int nq, int nu, int np, int ny) {
   f->zero = num(&f->b, 0.0);
-  f->s.nq = nq, f->s.nu = nu, f->s.np = np, f->s.ny = ny;
+  f->s.nq = nq, f->s.nv = nq, f->s.nu = nu, f->s.np = np, f->s.ny = ny;
   f->s.mass = ints(nq * nq);
   f->s.forcing = ints(nq);
   f->s.dmass_dq = ints(nq * nq * nq);

@@ -316,6 +316,17 @@ int build_model(const char *path, BuiltModel *out) {
 
   rc = frontend_open(&fe, path, 0);
   if (rc != 0) return rc;
+  if (fe.model.nattitudes > 0) {
+    /* libeomrt steps x = [q; qd] with qd = q'; the quaternion state of an
+    ** attitude (q' = N(q) v) is not stepped by it yet */
+    int printed = fe.diag.nmsgs;
+    diag_error(&fe.diag, fe.model.attitudes[0]->loc,
+               "attitude '%s': the runtime does not run models with attitudes yet; 'eomc gen' "
+               "writes their C (P_rhs, P_kinematics, P_normalize)", fe.model.attitudes[0]->name);
+    diag_print_from(&fe.diag, printed, stderr);
+    frontend_free(&fe);
+    return EXIT_MODEL;
+  }
   rc = EXIT_RUN;
   root = build_cache_root();
   if (!root) {

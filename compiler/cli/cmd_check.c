@@ -226,10 +226,7 @@ int cmd_check(int argc, char **argv) {
   int rc = frontend_open(&fe, path, 0);
   if (rc != 0) return rc;
   print_summary(&fe.model, path, stdout);
-  if (derive && fe.model.nattitudes > 0)
-    fputs("equations of motion: not derived (attitudes are read and checked; their derivation is "
-          "not implemented yet)\n", stdout);
-  else if (derive)
+  if (derive)
     rc = print_structure(&fe, stdout) ? EXIT_MODEL : 0;
   frontend_free(&fe);
   return rc;

@@ -19,16 +19,16 @@ void report_identifiability(const Model *m, const EomSystem *s, const char *pref
 }
 
 void report_structure(const Model *m, const EomSystem *s, FILE *out) {
-  assert(m && s && s->cyclic && m->ncoords == s->nq);
+  assert(m && s && s->cyclic && m->ncoords + 4 * m->nattitudes == s->nq);
   if (s->has_split)
     fputs("M/C/g split: available (M q'' + C q' + g = Q - dD/dq'; P_coriolis, P_gravity)\n", out);
   else
     fprintf(out, "M/C/g split: not available: %s\n", s->split_why);
   int n = 0;
-  for (int i = 0; i < s->nq; i++) n += s->cyclic[i] != 0;
+  for (int i = 0; i < m->ncoords; i++) n += s->cyclic[i] != 0;   /* omegas never are */
   n += s->energy_conserved != 0;
   fprintf(out, "conserved quantities (%d):\n", n);
-  for (int i = 0; i < s->nq; i++)
+  for (int i = 0; i < m->ncoords; i++)
     if (s->cyclic[i])
       fprintf(out, "  momentum of %s (dL/d%s'): %s is cyclic\n", m->coords[i]->name,
               m->coords[i]->name, m->coords[i]->name);

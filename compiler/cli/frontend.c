@@ -57,15 +57,24 @@ static int is_zero_root(const EomSystem *sys, int root) {
 
 int frontend_check_inertia(Frontend *fe, const EomSystem *sys, DiagLevel level) {
   const Model *m = &fe->model;
-  int printed = fe->diag.nmsgs, found = 0;
-  assert(sys->nq == m->ncoords);
-  for (int i = 0; i < sys->nq; i++) {
-    if (!is_zero_root(sys, sys->mass[i * sys->nq + i])) continue;
+  int printed = fe->diag.nmsgs, found = 0, nv = sys->nv;
+  assert(sys->nq == m->ncoords + 4 * m->nattitudes && nv == m->ncoords + 3 * m->nattitudes);
+  for (int i = 0; i < nv; i++) {
+    if (!is_zero_root(sys, sys->mass[i * nv + i])) continue;
     found++;
-    diag_report(&fe->diag, level, m->coords[i]->loc,
-                "coordinate '%s' has no inertia: the kinetic energy has no term in %s' (its "
-                "row of the mass matrix is zero), so its acceleration is undefined",
-                m->coords[i]->name, m->coords[i]->name);
+    if (i < m->ncoords) {
+      diag_report(&fe->diag, level, m->coords[i]->loc,
+                  "coordinate '%s' has no inertia: the kinetic energy has no term in %s' (its "
+                  "row of the mass matrix is zero), so its acceleration is undefined",
+                  m->coords[i]->name, m->coords[i]->name);
+    } else {
+      const Decl *a = m->attitudes[(i - m->ncoords) / 3];
+      diag_report(&fe->diag, level, a->loc,
+                  "attitude '%s' has no inertia about its body axis %d: the kinetic energy has no "
+                  "term in omega(%s)[%d] (its row of the mass matrix is zero), so its angular "
+                  "acceleration is undefined", a->name, (i - m->ncoords) % 3 + 1, a->name,
+                  (i - m->ncoords) % 3 + 1);
+    }
   }
   diag_print_from(&fe->diag, printed, stderr);
   return found;

@@ -7,6 +7,7 @@
 #include "emit/emit_c.h"
 #include "front/xalloc.h"
 #include "emit/emit_control.h"
+#include "emit/emit_attitude.h"
 #include "emit/emit_internal.h"
 #include "emit/emit_kinematics.h"
 
@@ -26,6 +27,7 @@ static void emit_source(Emitter *E) {
   emit_mass(E);
   emit_forcing(E);
   emit_accel(E);
+  if (E->m->nattitudes) emit_attitude_functions(E->out, E->m, E->P);
   emit_rhs(E);
   emit_jacobian(E);
   emit_inverse(E);
@@ -87,11 +89,12 @@ static int emit_both(const Model *m, const EomSystem *s, const EmitOptions *o, F
     snprintf(err, errlen, "the model has no generalized coordinates");
     return -1;
   }
-  assert(s->np == m->nparams && s->nu == m->ninputs && s->ny == m->ny && s->nq == m->ncoords);
+  assert(s->np == m->nparams && s->nu == m->ninputs && s->ny == m->ny);
+  assert(s->nq == m->ncoords + 4 * m->nattitudes && s->nv == m->ncoords + 3 * m->nattitudes);
   E.uses = xcalloc((size_t)nn + 1, sizeof *E.uses);
   E.tempno = xcalloc((size_t)nn + 1, sizeof *E.tempno);
   E.size = xcalloc((size_t)nn + 1, sizeof *E.size);
-  E.slot = xcalloc((size_t)s->nq * (size_t)s->nq, sizeof *E.slot);
+  E.slot = xcalloc((size_t)s->nv * (size_t)s->nv, sizeof *E.slot);
   ldl_pattern(&E);
   E.out = h_out;
   emit_header(&E);

@@ -21,7 +21,7 @@ static int has_split(const EomSystem *s) { return s->has_split && s->coriolis &&
 static int has_momenta(const EomSystem *s) { return s->momenta != NULL; }
 static int any_cyclic(const EomSystem *s) {
   int any = 0;
-  for (int i = 0; s->cyclic && i < s->nq; i++) any |= s->cyclic[i] != 0;
+  for (int i = 0; s->cyclic && i < s->nv; i++) any |= s->cyclic[i] != 0;
   return any;
 }
 
@@ -67,7 +67,7 @@ void emit_control_prototypes(FILE *o, const Model *m, const EomSystem *s, const 
     P, P);
   fprintf(o, "#define %s_ENERGY_CONSERVED %d   /* the energy function is a constant of the motion */\n",
           P, s->energy_conserved);
-  for (int i = 0; s->cyclic && i < s->nq; i++)
+  for (int i = 0; s->cyclic && i < s->nv; i++)
     if (s->cyclic[i]) fprintf(o, "#define %s_CYCLIC_%d 1   /* pm[%d] is a constant of the motion */\n", P, i, i);
 }
 
@@ -82,24 +82,24 @@ int emit_control_functions(const EomSystem *s, PlainFunction fns[EMIT_CONTROL_MA
   int n = 0;
   if (has_split(s)) {
     add_function(fns, &n, "coriolis", EMIT_ARG_Q | EMIT_ARG_QD | EMIT_ARG_P, "C", s->coriolis,
-                 s->nq * s->nq);
-    add_function(fns, &n, "gravity", EMIT_ARG_Q | EMIT_ARG_P, "g", s->gravity, s->nq);
+                 s->nv * s->nv);
+    add_function(fns, &n, "gravity", EMIT_ARG_Q | EMIT_ARG_P, "g", s->gravity, s->nv);
   }
   if (s->ni > 0 && s->regressor) {
     unsigned args = EMIT_ARG_T | EMIT_ARG_Q | EMIT_ARG_QD | EMIT_ARG_QDD | EMIT_ARG_P;
-    add_function(fns, &n, "regressor", args, "Y", s->regressor, s->nq * s->ni);
-    add_function(fns, &n, "regressor_offset", args, "Q0", s->regressor_offset, s->nq);
+    add_function(fns, &n, "regressor", args, "Y", s->regressor, s->nv * s->ni);
+    add_function(fns, &n, "regressor_offset", args, "Q0", s->regressor_offset, s->nv);
   }
   if (!has_momenta(s)) return n;
-  add_function(fns, &n, "momenta", EMIT_ARG_Q | EMIT_ARG_QD | EMIT_ARG_P, "pm", s->momenta, s->nq);
+  add_function(fns, &n, "momenta", EMIT_ARG_Q | EMIT_ARG_QD | EMIT_ARG_P, "pm", s->momenta, s->nv);
   add_function(fns, &n, "hamiltonian", EMIT_ARG_Q | EMIT_ARG_QD | EMIT_ARG_P, "h", &s->hamiltonian, 1);
   return n;
 }
 
 void emit_control_tables(FILE *o, const EomSystem *s, const char *P) {
   if (!any_cyclic(s)) return;
-  fprintf(o, "static const int %s_cyclic[%d] = {", P, s->nq);
-  for (int i = 0; i < s->nq; i++) fprintf(o, "%s%d", i ? ", " : "", s->cyclic[i]);
+  fprintf(o, "static const int %s_cyclic[%d] = {", P, s->nv);
+  for (int i = 0; i < s->nv; i++) fprintf(o, "%s%d", i ? ", " : "", s->cyclic[i]);
   fputs("};\n", o);
 }
 

@@ -6,6 +6,7 @@
 #include "emit/emit_internal.h"
 #include "front/xalloc.h"
 #include "emit/emit_control.h"
+#include "emit/emit_attitude.h"
 
 #include <assert.h>
 #include <stdio.h>
@@ -60,6 +61,36 @@ static void emit_string_table(Emitter *E, const char *name, Decl **ds, int n, in
 
 /* The name of each entry of y: the output's name, or name[i] and name[i,j]
 ** (1-based, as the model language indexes) for a vector or matrix output. */
+static void emit_output_names(Emitter *E);
+
+/* Names, units and descriptions of the entries of q: the coordinates', then
+** each attitude's quaternion entries "R.w" ... "R.z" (no unit). */
+static void emit_coord_tables(Emitter *E) {
+  const Model *m = E->m;
+  if (!m->nattitudes) {
+    emit_string_table(E, "coord_names", m->coords, m->ncoords, 0);
+    emit_string_table(E, "coord_units", m->coords, m->ncoords, 1);
+    emit_string_table(E, "coord_descs", m->coords, m->ncoords, 2);
+    return;
+  }
+  static const char *const part = "wxyz";
+  int nq = E->s->nq;
+  for (int field = 0; field < 3; field++) {
+    char **texts = xcalloc((size_t)nq, sizeof *texts);
+    for (int i = 0; i < nq; i++) {
+      Buf b = {0};
+      const Decl *d = i < m->ncoords ? m->coords[i] : m->attitudes[(i - m->ncoords) / 4];
+      if (field == 0 && i < m->ncoords) buf_put(&b, d->name);
+      else if (field == 0) buf_printf(&b, "%s.%c", d->name, part[(i - m->ncoords) % 4]);
+      else if (field == 2) buf_put(&b, d->desc ? d->desc : "");
+      else if (i < m->ncoords) unit_annotation_text(&b, d->unit);
+      texts[i] = b.s ? b.s : calloc(1, 1);
+    }
+    emit_texts(E, field == 0 ? "coord_names" : field == 1 ? "coord_units" : "coord_descs", texts, nq);
+    free(texts);
+  }
+}
+
 static void emit_output_names(Emitter *E) {
   const Model *m = E->m;
   if (!m->ny) return;
@@ -139,6 +170,19 @@ static void emit_derived_params(Emitter *E) {
   fputs("}\n\n", o);
 }
 
+/* q0 (nq) and v0 (nv): the coordinates' `initial` values and rates, then
+** each attitude's quaternion and omega. */
+static void initial_state(const Model *m, double *q0, double *v0) {
+  for (int i = 0; i < m->ncoords; i++) {
+    q0[i] = m->q0 ? m->q0[i] : 0.0;
+    v0[i] = m->qd0 ? m->qd0[i] : 0.0;
+  }
+  for (int k = 0; k < m->nattitudes; k++) {
+    for (int c = 0; c < 4; c++) q0[m->ncoords + 4 * k + c] = m->attitude_q0[4 * k + c];
+    for (int c = 0; c < 3; c++) v0[m->ncoords + 3 * k + c] = m->omega0[3 * k + c];
+  }
+}
+
 void emit_defaults(Emitter *E) {
   FILE *o = E->out;
   const Model *m = E->m;
@@ -153,14 +197,18 @@ void emit_defaults(Emitter *E) {
   fputs("}\n\n", o);
   emit_derived_params(E);
   fprintf(o, "void %s_initial_state(double *x)\n{\n", E->P);
+  double *q0 = xcalloc((size_t)nq, sizeof *q0), *v0 = xcalloc((size_t)E->s->nv, sizeof *v0);
+  initial_state(m, q0, v0);
   for (int i = 0; i < nq; i++) {
-    format_number(E, m->q0 ? m->q0[i] : 0.0, num, sizeof num);
+    format_number(E, q0[i], num, sizeof num);
     fprintf(o, "  x[%d] = %s;\n", i, num);
   }
-  for (int i = 0; i < nq; i++) {
-    format_number(E, m->qd0 ? m->qd0[i] : 0.0, num, sizeof num);
+  for (int i = 0; i < E->s->nv; i++) {
+    format_number(E, v0[i], num, sizeof num);
     fprintf(o, "  x[%d] = %s;\n", nq + i, num);
   }
+  free(q0);
+  free(v0);
   fputs("}\n\n", o);
 }
 
@@ -169,17 +217,12 @@ void emit_descriptor(Emitter *E) {
   const Model *m = E->m;
   const EomSystem *s = E->s;
   const char *P = E->P;
-  double *q0 = xcalloc((size_t)s->nq, sizeof *q0), *qd0 = xcalloc((size_t)s->nq, sizeof *qd0);
+  double *q0 = xcalloc((size_t)s->nq, sizeof *q0), *qd0 = xcalloc((size_t)s->nv, sizeof *qd0);
   double *pd = xcalloc((size_t)s->np + 1, sizeof *pd);
-  for (int i = 0; i < s->nq; i++) {
-    q0[i] = m->q0 ? m->q0[i] : 0.0;
-    qd0[i] = m->qd0 ? m->qd0[i] : 0.0;
-  }
+  initial_state(m, q0, qd0);
   for (int i = 0; i < s->np; i++) pd[i] = m->params[i]->number;
   fprintf(o, "#ifndef EOM_NO_DESCRIPTOR\n#include <eom/model.h>\n\n");
-  emit_string_table(E, "coord_names", m->coords, m->ncoords, 0);
-  emit_string_table(E, "coord_units", m->coords, m->ncoords, 1);
-  emit_string_table(E, "coord_descs", m->coords, m->ncoords, 2);
+  emit_coord_tables(E);
   emit_string_table(E, "param_names", m->params, m->nparams, 0);
   emit_string_table(E, "param_units", m->params, m->nparams, 1);
   emit_string_table(E, "param_descs", m->params, m->nparams, 2);
@@ -189,7 +232,8 @@ void emit_descriptor(Emitter *E) {
   emit_output_names(E);
   emit_switch_names(E);
   emit_double_table(E, "q0", q0, s->nq);
-  emit_double_table(E, "qd0", qd0, s->nq);
+  emit_double_table(E, "qd0", qd0, s->nv);
+  emit_attitude_tables(o, m, P);
   emit_control_tables(o, s, P);
   emit_kinematics_tables(o, m, s, P);
   fprintf(o, "\nconst struct eom_model %s_model = {\n", P);
@@ -198,9 +242,9 @@ void emit_descriptor(Emitter *E) {
   fprintf(o, ",\n  \"%s\",\n", E->hash);
   fprintf(o, "  %d, %d, %d, %d, %d,\n", s->nq, s->nu, s->np, s->ny, s->nc);
 #define TABLE(name, n) fprintf(o, (n) ? "  %s_" name ",\n" : "  0,\n", P)
-  TABLE("coord_names", m->ncoords);
-  TABLE("coord_units", m->ncoords);
-  TABLE("coord_descs", m->ncoords);
+  TABLE("coord_names", s->nq);
+  TABLE("coord_units", s->nq);
+  TABLE("coord_descs", s->nq);
   TABLE("param_names", m->nparams);
   TABLE("param_units", m->nparams);
   TABLE("param_descs", m->nparams);
@@ -229,6 +273,7 @@ void emit_descriptor(Emitter *E) {
   else fputs("  0,\n", o);
   if (s->ns) fprintf(o, "  %d, %s_switches, %s_switch_names,\n", s->ns, P, P);
   else fputs("  0, 0, 0,\n", o);
+  emit_attitude_fields(o, m, P);
   fprintf(o, "};\n#endif\n");
   free(q0);
   free(qd0);

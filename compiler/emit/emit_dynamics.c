@@ -5,6 +5,7 @@
 ** emit_kinematics.c ask for (docs/generated-c.md).
 */
 #include "emit/emit_internal.h"
+#include "emit/emit_attitude.h"
 #include "front/xalloc.h"
 
 #include <assert.h>
@@ -14,7 +15,7 @@
 
 void emit_mass(Emitter *E) {
   const Param ps[] = {PARAM_Q, PARAM_P, {-1, "double *M", "M"}};
-  int nq = E->s->nq;
+  int nq = E->s->nv;
   char lhs[64];
   fn_reset(E);
   add_lower(E, E->s->mass);
@@ -43,13 +44,13 @@ void emit_forcing(Emitter *E) {
   const Param ps[] = {PARAM_T, PARAM_Q, PARAM_QD, PARAM_U, PARAM_P, {-1, "double *f", "f"}};
   char lhs[64];
   fn_reset(E);
-  add_roots(E, E->s->forcing, E->s->nq);
+  add_roots(E, E->s->forcing, E->s->nv);
   fn_analyse(E);
   assert(!needs_missing(E, VARS_STATE));
   emit_signature(E, "void", "forcing", ps, NPARAMS(ps), 0);
   emit_unused(E, ps, NPARAMS(ps));
   emit_temps(E);
-  for (int i = 0; i < E->s->nq; i++) {
+  for (int i = 0; i < E->s->nv; i++) {
     snprintf(lhs, sizeof lhs, "f[%d]", i);
     emit_assign(E, lhs, E->s->forcing[i]);
   }
@@ -61,7 +62,7 @@ void emit_accel(Emitter *E) {
   char lhs[64];
   fn_reset(E);
   add_lower(E, E->s->mass);
-  add_roots(E, E->s->forcing, E->s->nq);
+  add_roots(E, E->s->forcing, E->s->nv);
   fn_analyse(E);
   assert(!needs_missing(E, VARS_STATE));
   emit_signature(E, "int", "accel", ps, NPARAMS(ps), 0);
@@ -70,7 +71,7 @@ void emit_accel(Emitter *E) {
   emit_temps(E);
   emit_mass_slots(E);
   fprintf(E->out, "  if (%s_ldl_factor(a) != 0) return 1;\n", E->P);
-  for (int i = 0; i < E->s->nq; i++) {
+  for (int i = 0; i < E->s->nv; i++) {
     snprintf(lhs, sizeof lhs, "qdd[%d]", i);
     emit_assign(E, lhs, E->s->forcing[i]);
   }
@@ -79,18 +80,23 @@ void emit_accel(Emitter *E) {
 
 void emit_rhs(Emitter *E) {
   FILE *o = E->out;
-  int nq = E->s->nq;
+  int nq = E->s->nq, nv = E->s->nv;
   fprintf(o, "void %s_rhs(double t, const double *x, const double *u, const double *p, double *xdot)\n{\n", E->P);
-  fprintf(o, "  double qdd[%d];\n  int i;\n", nq);
+  fprintf(o, "  double qdd[%d];\n  int i;\n", nv);
   fprintf(o, "  if (%s_accel(t, x, x + %d, u, p, qdd) != 0)\n", E->P, nq);
-  fprintf(o, "    for (i = 0; i < %d; i++) qdd[i] = NAN;   /* M not positive definite */\n", nq);
+  fprintf(o, "    for (i = 0; i < %d; i++) qdd[i] = NAN;   /* M not positive definite */\n", nv);
+  if (E->s->nattitudes) {   /* q' = N(q) v, v' = qdd */
+    fprintf(o, "  %s_kinematics(x, x + %d, xdot);\n", E->P, nq);
+    fprintf(o, "  for (i = 0; i < %d; i++) xdot[%d + i] = qdd[i];\n}\n\n", nv, nq);
+    return;
+  }
   fprintf(o, "  for (i = 0; i < %d; i++) {\n    xdot[i] = x[%d + i];\n    xdot[%d + i] = qdd[i];\n  }\n}\n\n",
           nq, nq, nq);
 }
 
 /* "  c[i] = df - (dM_i0 qdd[0] + ...);" for one column of the Jacobian. */
 static int emit_jac_entry(Emitter *E, int i, int df, const int *dM) {
-  int nq = E->s->nq, any = 0;
+  int nq = E->s->nv, any = 0;
   Buf b = {0};
   if (!emit_is_zero(E, df)) {
     put_at(E, &b, df, PREC_LOW, 0);
@@ -115,30 +121,30 @@ static int emit_jac_entry(Emitter *E, int i, int df, const int *dM) {
 void emit_jacobian(Emitter *E) {
   FILE *o = E->out;
   const EomSystem *s = E->s;
-  int nq = s->nq, nu = s->nu, nx = 2 * nq;
+  int nq = s->nq, nv = s->nv, nu = s->nu, nx = nq + nv;
   char lhs[64];
   /* Which columns of d qdd/d(x, u) are not structurally zero, and whether
   ** any needs qdd itself (through dM/dq). */
   int need_qdd = 0, need_c = 0;
   int *live = xcalloc((size_t)(nx + nu), sizeof *live);
   for (int col = 0; col < nx + nu; col++)
-    for (int i = 0; i < nq; i++) {
+    for (int i = 0; i < nv; i++) {
       int df = col < nq ? s->dforcing_dq[i * nq + col]
-             : col < nx ? s->dforcing_dqd[i * nq + col - nq] : s->dforcing_du[i * nu + col - nx];
+             : col < nx ? s->dforcing_dqd[i * nv + col - nq] : s->dforcing_du[i * nu + col - nx];
       if (!emit_is_zero(E, df)) live[col] = 1;
-      for (int j = 0; col < nq && j < nq; j++) {
-        int d = s->dmass_dq[col * nq * nq + (i >= j ? i * nq + j : j * nq + i)];
+      for (int j = 0; col < nq && j < nv; j++) {
+        int d = s->dmass_dq[col * nv * nv + (i >= j ? i * nv + j : j * nv + i)];
         if (!emit_is_zero(E, d)) live[col] = need_qdd = 1;
       }
       need_c |= live[col];
     }
   fn_reset(E);
   add_lower(E, s->mass);
-  if (need_qdd) add_roots(E, s->forcing, nq);
-  add_roots(E, s->dforcing_dq, nq * nq);
-  add_roots(E, s->dforcing_dqd, nq * nq);
-  for (int k = 0; k < nq; k++) add_lower(E, s->dmass_dq + k * nq * nq);
-  if (nu) add_roots(E, s->dforcing_du, nq * nu);
+  if (need_qdd) add_roots(E, s->forcing, nv);
+  add_roots(E, s->dforcing_dq, nv * nq);
+  add_roots(E, s->dforcing_dqd, nv * nv);
+  for (int k = 0; k < nq; k++) add_lower(E, s->dmass_dq + k * nv * nv);
+  if (nu) add_roots(E, s->dforcing_du, nv * nu);
   fn_analyse(E);
   assert(!needs_missing(E, VARS_STATE));
   fprintf(o, "void %s_jacobian(double t, const double *x, const double *u, const double *p,\n"
@@ -146,8 +152,8 @@ void emit_jacobian(Emitter *E) {
   if (E->vars & VAR_BIT(IRV_Q)) fprintf(o, "  const double *q = x;\n");
   if (E->vars & VAR_BIT(IRV_QD)) fprintf(o, "  const double *qd = x + %d;\n", nq);
   fprintf(o, "  double a[%d];\n", E->nslots);
-  if (need_qdd) fprintf(o, "  double qdd[%d];\n", nq);
-  if (need_c) fprintf(o, "  double c[%d];\n", nq);
+  if (need_qdd) fprintf(o, "  double qdd[%d];\n", nv);
+  if (need_c) fprintf(o, "  double c[%d];\n", nv);
   fprintf(o, "  int i;\n");
   {
     const Param ps[] = {PARAM_T, PARAM_U, PARAM_P};
@@ -157,14 +163,15 @@ void emit_jacobian(Emitter *E) {
   if (!nu) fprintf(o, "  (void)B;\n");
   fprintf(o, "  for (i = 0; i < %d; i++) A[i] = 0.0;\n", nx * nx);
   if (nu) fprintf(o, "  for (i = 0; i < %d; i++) B[i] = 0.0;\n", nx * nu);
-  fprintf(o, "  for (i = 0; i < %d; i++) A[i*%d + %d + i] = 1.0;   /* d q'/d q' = I */\n", nq, nx, nq);
+  if (s->nattitudes) emit_attitude_jacobian_rows(o, E->m, nq, nv);   /* d q'/dx */
+  else fprintf(o, "  for (i = 0; i < %d; i++) A[i*%d + %d + i] = 1.0;   /* d q'/d q' = I */\n", nq, nx, nq);
   emit_temps(E);
   emit_mass_slots(E);
   fprintf(o, "  if (%s_ldl_factor(a) != 0) {   /* M not positive definite */\n", E->P);
   fprintf(o, "    for (i = %d; i < %d; i++) A[i] = NAN;\n", nq * nx, nx * nx);
   if (nu) fprintf(o, "    for (i = %d; i < %d; i++) B[i] = NAN;\n", nq * nu, nx * nu);
   fprintf(o, "    return;\n  }\n");
-  for (int i = 0; need_qdd && i < nq; i++) {
+  for (int i = 0; need_qdd && i < nv; i++) {
     snprintf(lhs, sizeof lhs, "qdd[%d]", i);
     emit_assign(E, lhs, s->forcing[i]);
   }
@@ -176,15 +183,15 @@ void emit_jacobian(Emitter *E) {
     if (col < nq) fprintf(o, "  /* d qdd / d q[%d] */\n", col);
     else if (col < nx) fprintf(o, "  /* d qdd / d qd[%d] */\n", col - nq);
     else fprintf(o, "  /* d qdd / d u[%d] */\n", col - nx);
-    for (int i = 0; i < nq; i++) {
-      if (col < nq) any |= emit_jac_entry(E, i, s->dforcing_dq[i * nq + col], s->dmass_dq + col * nq * nq);
-      else if (col < nx) any |= emit_jac_entry(E, i, s->dforcing_dqd[i * nq + col - nq], NULL);
+    for (int i = 0; i < nv; i++) {
+      if (col < nq) any |= emit_jac_entry(E, i, s->dforcing_dq[i * nq + col], s->dmass_dq + col * nv * nv);
+      else if (col < nx) any |= emit_jac_entry(E, i, s->dforcing_dqd[i * nv + col - nq], NULL);
       else any |= emit_jac_entry(E, i, s->dforcing_du[i * nu + col - nx], NULL);
     }
     assert(any);
     fprintf(o, "  %s_ldl_solve(a, c);\n", E->P);
-    if (col < nx) fprintf(o, "  for (i = 0; i < %d; i++) A[(%d + i)*%d + %d] = c[i];\n", nq, nq, nx, col);
-    else fprintf(o, "  for (i = 0; i < %d; i++) B[(%d + i)*%d + %d] = c[i];\n", nq, nq, nu, col - nx);
+    if (col < nx) fprintf(o, "  for (i = 0; i < %d; i++) A[(%d + i)*%d + %d] = c[i];\n", nv, nq, nx, col);
+    else fprintf(o, "  for (i = 0; i < %d; i++) B[(%d + i)*%d + %d] = c[i];\n", nv, nq, nu, col - nx);
   }
   free(live);
   fputs("}\n\n", o);
@@ -195,18 +202,18 @@ void emit_inverse(Emitter *E) {
   unsigned allowed = VAR_BIT(IRV_T) | VAR_BIT(IRV_Q) | VAR_BIT(IRV_QD) | VAR_BIT(IRV_QDD) | VAR_BIT(IRV_P);
   char lhs[64];
   fn_reset(E);
-  add_roots(E, E->s->inverse, E->s->nq);
+  add_roots(E, E->s->inverse, E->s->nv);
   fn_analyse(E);
   emit_signature(E, "void", "inverse", ps, NPARAMS(ps), 0);
   if (resolve_missing(E, allowed)) {
     char fill[128];
-    snprintf(fill, sizeof fill, "  int i;\n  for (i = 0; i < %d; i++) Q[i] = NAN;\n", E->s->nq);
+    snprintf(fill, sizeof fill, "  int i;\n  for (i = 0; i < %d; i++) Q[i] = NAN;\n", E->s->nv);
     emit_nan_body(E, ps, NPARAMS(ps), "Q", fill, NULL);
   } else {
     emit_unused(E, ps, NPARAMS(ps));
     emit_fixed_locals(E);
     emit_temps(E);
-    for (int i = 0; i < E->s->nq; i++) {
+    for (int i = 0; i < E->s->nv; i++) {
       snprintf(lhs, sizeof lhs, "Q[%d]", i);
       emit_assign(E, lhs, E->s->inverse[i]);
     }

@@ -163,7 +163,7 @@ void add_roots(Emitter *E, const int *r, int n) {
 
 /* The lower triangle (j <= i) of an nq x nq symmetric matrix of roots. */
 void add_lower(Emitter *E, const int *mat) {
-  int nq = E->s->nq;
+  int nq = E->s->nv;
   for (int i = 0; i < nq; i++)
     for (int j = 0; j <= i; j++) add_root(E, mat[i * nq + j]);
 }

@@ -5,6 +5,7 @@
 #include "emit/emit_internal.h"
 #include "front/xalloc.h"
 #include "emit/emit_control.h"
+#include "emit/emit_attitude.h"
 
 #include <assert.h>
 #include <stdio.h>
@@ -107,6 +108,7 @@ void emit_header(Emitter *E) {
   } else {
     fprintf(o, "#define %s_NC %d   /* constraints */\n\n", P, s->nc);
   }
+  if (m->nattitudes) emit_attitude_header(o, m, P);
   /* Index macros, e.g. p[P_P_mass], and the meaning of every slot. */
   static const struct { const char *tag, *arr, *what; } kinds[] = {
     {"Q", "q", "coordinates (qd, qdd: their rates)"}, {"P", "p", "parameters (= default)"},

@@ -57,7 +57,7 @@ static char *copy(const char *a, const char *b) {
 }
 
 int emit_kinematics_functions(const Model *m, const EomSystem *s, KinematicFunction **out) {
-  int nq = s->nq, n = 0;
+  int nq = s->nv, n = 0;   /* Jacobians are over the velocities */
   KinematicFunction *fns = xcalloc((size_t)s->nframes + 2, sizeof *fns);
   if (s->nkinematic > 0) {
     KinematicFunction J = {copy("output_jacobian", ""), EMIT_ARG_Q | EMIT_ARG_P,

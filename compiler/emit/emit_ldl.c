@@ -12,7 +12,7 @@
 /* ------------------------------------------------------------------ the LDLᵀ pattern */
 
 void ldl_pattern(Emitter *E) {
-  int nq = E->s->nq;
+  int nq = E->s->nv;
   int *nz = E->slot;
   for (int i = 0; i < nq; i++)
     for (int j = 0; j < nq; j++) nz[i * nq + j] = j <= i && (i == j || !emit_is_zero(E, E->s->mass[i * nq + j]));
@@ -29,14 +29,14 @@ void ldl_pattern(Emitter *E) {
 }
 
 static int ldl_slot(const Emitter *E, int i, int j) {
-  int nq = E->s->nq;
+  int nq = E->s->nv;
   assert(i >= 0 && j >= 0 && i < nq && j < nq);
   return i >= j ? E->slot[i * nq + j] : E->slot[j * nq + i];
 }
 
 void emit_ldl_factor(Emitter *E) {
   FILE *o = E->out;
-  int nq = E->s->nq;
+  int nq = E->s->nv;
   fprintf(o, "/* M = L D L^T in place, for this model's sparsity pattern: a[] holds the\n"
              "** packed lower triangle of M on entry, L below the diagonal and D on it on\n"
              "** return.  Returns nonzero when a pivot is not positive and finite. */\n");
@@ -82,7 +82,7 @@ void emit_ldl_factor(Emitter *E) {
 
 void emit_ldl_solve(Emitter *E) {
   FILE *o = E->out;
-  int nq = E->s->nq;
+  int nq = E->s->nv;
   fprintf(o, "/* Solve L D L^T x = b in place (b becomes x), with a[] from %s_ldl_factor. */\n", E->P);
   fprintf(o, "static void %s_ldl_solve(const double *a, double *b)\n{\n", E->P);
   for (int i = 0; i < nq; i++) {
@@ -112,7 +112,7 @@ void emit_ldl_solve(Emitter *E) {
 /* a[slot] = M_ij for every stored entry of the lower triangle (fill-in
 ** slots are written by the factorization itself). */
 void emit_mass_slots(Emitter *E) {
-  int nq = E->s->nq;
+  int nq = E->s->nv;
   char lhs[64];
   for (int i = 0; i < nq; i++)
     for (int j = 0; j <= i; j++) {

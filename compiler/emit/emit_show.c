@@ -129,7 +129,39 @@ static const char *coord_name(const Show *S, int i) {
   return decl_name(S->m->coords, S->m->ncoords, i);
 }
 
+/* The name of velocity i (its row of M): a coordinate's, or "omega(R)[c]"
+** for an attitude's (in buf). */
+static const char *rate_label(const Show *S, int i, char *buf, size_t len) {
+  const Model *m = S->m;
+  if (i < m->ncoords) return coord_name(S, i);
+  int k = (i - m->ncoords) / 3;
+  snprintf(buf, len, "omega(%s)[%d]", decl_name(m->attitudes, m->nattitudes, k), (i - m->ncoords) % 3 + 1);
+  return buf;
+}
+
+/* An attitude's quaternion entry (rate 0: "R.w") or omega entry (rate 1:
+** "omega(R)[1]", rate 2: its rate "omega(R)[1]'"). */
+static void put_attitude_var(Show *S, Text *t, int i, int rate) {
+  const Model *m = S->m;
+  int per = rate ? 3 : 4, k = (i - m->ncoords) / per, c = (i - m->ncoords) % per;
+  const char *name = decl_name(m->attitudes, m->nattitudes, k);
+  if (S->latex) {
+    if (rate) putf(t, "%s\\omega_{", rate == 2 ? "\\dot" : "");
+    else put(t, "q_{");
+    latex_name(t, name);
+    if (rate) putf(t, ",%d}", c + 1);
+    else putf(t, ",%c}", "wxyz"[c]);
+    return;
+  }
+  if (rate) putf(t, "omega(%s)[%d]%s", name, c + 1, rate == 2 ? "'" : "");
+  else putf(t, "%s.%c", name, "wxyz"[c]);
+}
+
 static void put_coord(Show *S, Text *t, int i, int rate) {
+  if (i >= S->m->ncoords) {
+    put_attitude_var(S, t, i, rate);
+    return;
+  }
   const char *name = coord_name(S, i);
   if (!S->latex) {
     put(t, name);
@@ -476,7 +508,7 @@ static void put_coef(Show *S, Text *t, int r, const char *times, int *terms) {
 ** returns the number of terms (0: the row is structurally zero). */
 static int mass_row_text(Show *S, int i, const char *times, Text *lhs) {
   const EomSystem *s = S->s;
-  int nq = s->nq, terms = 0;
+  int nq = s->nv, terms = 0;
   for (int j = 0; j < nq; j++) {
     int r = i >= j ? s->mass[i * nq + j] : s->mass[j * nq + i];
     if (is_zero(S, r)) continue;
@@ -522,14 +554,14 @@ static void put_multiplier(const Show *S, Text *t, int k) {
 /* Entry (k, i) of [G; A]: equation k's coefficient of coordinate i. */
 static int constraint_coef(const Show *S, int k, int i) {
   const EomSystem *s = S->s;
-  return k < s->nc ? s->constraint_jacobian[k * s->nq + i]
-                   : s->vconstraint_A[(k - s->nc) * s->nq + i];
+  return k < s->nc ? s->constraint_jacobian[k * s->nv + i]
+                   : s->vconstraint_A[(k - s->nc) * s->nv + i];
 }
 
 /* Row k of [G; A] times the rates of order `rate`: "2*x*x'' + 2*y*y''". */
 static int constraint_row_text(Show *S, int k, int rate, const char *times, Text *t) {
   int terms = 0;
-  for (int j = 0; j < S->s->nq; j++) {
+  for (int j = 0; j < S->s->nv; j++) {
     int r = constraint_coef(S, k, j);
     if (is_zero(S, r)) continue;
     put_coef(S, t, r, times, &terms);
@@ -612,7 +644,7 @@ static void print_constraints_plain(Show *S, const Origin *o, FILE *out) {
 
 static void print_plain_equations(Show *S, FILE *out) {
   const EomSystem *s = S->s;
-  int nq = s->nq, ncall = s->nc + s->nvc;
+  int nq = s->nv, ncall = s->nc + s->nvc;
   fputs(ncall ? "\nequations of motion (M q'' = f + G^T lambda):\n"
               : "\nequations of motion (M q'' = f):\n", out);
   for (int i = 0; i < nq; i++) {
@@ -638,7 +670,7 @@ static void print_plain_equations(Show *S, FILE *out) {
 
 static void print_plain(Show *S, FILE *out) {
   const EomSystem *s = S->s;
-  int nq = s->nq;
+  int nq = s->nv;
   int any = 0;
   for (int n = 0; n < S->g->nnodes; n++) {
     if (!S->name[n]) continue;
@@ -657,14 +689,14 @@ static void print_plain(Show *S, FILE *out) {
     for (int j = i; j < nq; j++) {
       int r = s->mass[j * nq + i];
       if (is_zero(S, r) && i != j) continue;
-      char *e = render(S, r);
-      fprintf(out, "  M[%s, %s] = %s\n", coord_name(S, i), coord_name(S, j), e);
+      char *e = render(S, r), bi[64], bj[64];
+      fprintf(out, "  M[%s, %s] = %s\n", rate_label(S, i, bi, sizeof bi), rate_label(S, j, bj, sizeof bj), e);
       free(e);
     }
   fputs("\nforcing f:\n", out);
   for (int i = 0; i < nq; i++) {
-    char *e = render(S, s->forcing[i]);
-    fprintf(out, "  f[%s] = %s\n", coord_name(S, i), e);
+    char *e = render(S, s->forcing[i]), b[64];
+    fprintf(out, "  f[%s] = %s\n", rate_label(S, i, b, sizeof b), e);
     free(e);
   }
   if (s->nc + s->nvc > 0) {
@@ -721,7 +753,7 @@ static void print_constraints_latex(Show *S, FILE *out) {
 
 static void print_latex(Show *S, FILE *out) {
   const EomSystem *s = S->s;
-  int nq = s->nq;
+  int nq = s->nv;
   fputs(s->nc + s->nvc ? "% equations of motion M(q) \\ddot q = f + G^T \\lambda with the constraints "
                        "and G \\ddot q = \\gamma, written by eomc show\n"
                      : "% equations of motion M(q) \\ddot q = f, written by eomc show\n", out);
@@ -765,7 +797,7 @@ static void print_latex(Show *S, FILE *out) {
 
 int show_equations(const Model *m, const EomSystem *s, int latex, FILE *out) {
   Show S;
-  int nn = s->g.nnodes, nq = s->nq;
+  int nn = s->g.nnodes, nq = s->nv;
   memset(&S, 0, sizeof S);
   S.m = m;
   S.s = s;

@@ -49,24 +49,50 @@ Derivation::Derivation(const Model *m, const SymOptions *opt, Diag *d)
       diag_(d),
       max_seconds_(opt ? opt->max_seconds : 0),
       start_(std::chrono::steady_clock::now()),
-      nq_(m->ncoords),
+      nq_(m->ncoords + 4 * m->nattitudes),
+      nv_(m->ncoords + 3 * m->nattitudes),
+      ncoord_(m->ncoords),
       nu_(m->ninputs),
       np_(m->nparams),
       t_(realsymbol("t")),
       dt_(t_, deps_.add_var(t_), &deps_) {
   vars_[t_] = VarRef{IRV_T, 0};
-  for (int i = 0; i < nq_; i++) {
-    const char *name = m->coords[i]->name;
+  auto add_q = [this](const std::string &name) {
+    int i = (int)q_.size();
     q_.push_back(realsymbol(name));
-    qd_.push_back(realsymbol(std::string(name) + "'"));
-    qdd_.push_back(realsymbol(std::string(name) + "''"));
     vars_[q_[i]] = VarRef{IRV_Q, i};
+    dq_.emplace_back(q_[i], deps_.add_var(q_[i]), &deps_);
+  };
+  auto add_v = [this](const std::string &name) {
+    int i = (int)qd_.size();
+    qd_.push_back(realsymbol(name + "'"));
+    qdd_.push_back(realsymbol(name + "''"));
     vars_[qd_[i]] = VarRef{IRV_QD, i};
     vars_[qdd_[i]] = VarRef{IRV_QDD, i};
-    dq_.emplace_back(q_[i], deps_.add_var(q_[i]), &deps_);
     dqd_.emplace_back(qd_[i], deps_.add_var(qd_[i]), &deps_);
     dqdd_.emplace_back(qdd_[i], deps_.add_var(qdd_[i]), &deps_);
+  };
+  for (int i = 0; i < ncoord_; i++) {
+    add_q(m->coords[i]->name);
+    add_v(m->coords[i]->name);
+    qrate_.push_back(qd_[i]);
   }
+  for (int a = 0; a < m->nattitudes; a++) {
+    const std::string name = m->attitudes[a]->name;
+    static const char *const part[4] = {"w", "x", "y", "z"};
+    for (int k = 0; k < 4; k++) add_q(name + "." + part[k]);
+    for (int k = 0; k < 3; k++) add_v(fmt("omega(%s)[%d]", name.c_str(), k + 1));
+    const ex *quat = &q_[ncoord_ + 4 * a];
+    std::array<ex, 12> N;
+    attitude_rate_map(quat, N.data());
+    att_N_.push_back(N);
+    for (int k = 0; k < 4; k++) {
+      exvector t;
+      for (int c = 0; c < 3; c++) t.push_back(N[3 * k + c] * qd_[ncoord_ + 3 * a + c]);
+      qrate_.push_back(add(t));
+    }
+  }
+  assert((int)q_.size() == nq_ && (int)qd_.size() == nv_);
   for (int i = 0; i < nu_; i++) {
     u_.push_back(realsymbol(m->inputs[i]->name));
     vars_[u_[i]] = VarRef{IRV_U, i};
@@ -83,7 +109,7 @@ Derivation::Derivation(const Model *m, const SymOptions *opt, Diag *d)
     pi_index_.push_back(j);
     dpi_.emplace_back(p_[j], deps_.add_var(p_[j]), &deps_);
   }
-  force_.assign(nq_, ex(0));
+  force_.assign(nv_, ex(0));
 }
 
 void Derivation::tick(const char *step) {
@@ -103,7 +129,9 @@ ex Derivation::totald(const ex &e) {
   if (!d.is_zero()) terms.push_back(d);
   for (int i = 0; i < nq_; i++) {
     d = dq_[i](e);
-    if (!d.is_zero()) terms.push_back(d * qd_[i]);
+    if (!d.is_zero()) terms.push_back(d * qrate_[i]);
+  }
+  for (int i = 0; i < nv_; i++) {
     d = dqd_[i](e);
     if (!d.is_zero()) terms.push_back(d * qdd_[i]);
   }
@@ -112,6 +140,30 @@ ex Derivation::totald(const ex &e) {
     if (!d.is_zero()) terms.push_back(d * atoms_[k].accel);
   }
   return terms.empty() ? ex(0) : ex(add(terms));
+}
+
+/* The derivative of e along velocity j: de/dq_j for a coordinate; for
+** entry c of an attitude's omega, the body-frame direction
+** X_c e = sum_m de/dq_m N_mc (symbolic_attitude.cc).  Generalized forces,
+** partial velocities and the Euler-Lagrange terms all take this in place
+** of d/dq, so coordinates and attitudes share one derivation. */
+ex Derivation::dv(int j, const ex &e) {
+  assert(j >= 0 && j < nv_);
+  if (j < ncoord_) return dq_[j](e);
+  int a = (j - ncoord_) / 3, c = (j - ncoord_) % 3;
+  exvector t;
+  for (int m = 0; m < 4; m++) {
+    ex d = dq_[ncoord_ + 4 * a + m](e);
+    if (!d.is_zero()) t.push_back(d * att_N_[a][3 * m + c]);
+  }
+  return t.empty() ? ex(0) : ex(add(t));
+}
+
+/* "x'" for a coordinate, "omega(R)[2]" for an attitude's velocity. */
+std::string Derivation::rate_name(int j) const {
+  assert(j >= 0 && j < nv_);
+  if (j < ncoord_) return std::string(m_->coords[j]->name) + "'";
+  return fmt("omega(%s)[%d]", m_->attitudes[(j - ncoord_) / 3]->name, (j - ncoord_) % 3 + 1);
 }
 
 /* The rate of each entry: an atom, or 0 for a constant. */
@@ -161,7 +213,7 @@ void Derivation::run(EomSystem *out) {
 
 /* L, the Euler-Lagrange expressions E, and from them M and f. */
 void Derivation::derive_lagrange(Equations &eq) {
-  const int n = nq_;
+  const int n = nv_;  /* M and f live in the velocities */
   exvector Tt, Vt, Lt, Dt;
   for (const Term &t : kinetic_) Tt.push_back(t.e);
   for (const Term &t : potential_) Vt.push_back(t.e);
@@ -188,12 +240,22 @@ void Derivation::derive_lagrange(Equations &eq) {
   std::vector<ex> E(n);
   std::vector<ex> &dDdqd = eq.dDdqd;
   dDdqd.assign(n, ex(0));
+  /* for an attitude's omega, omega x dL/domega besides the rest: the
+  ** Euler-Poincare form (symbolic_attitude.cc), with dv() along omega */
+  std::vector<ex> gyro(n, ex(0));
+  for (int a = 0; a < m_->nattitudes; a++) {
+    const int j0 = ncoord_ + 3 * a;
+    ex w[3], p[3], c[3];
+    for (int k = 0; k < 3; k++) w[k] = qd_[j0 + k], p[k] = dqd_[j0 + k](L);
+    attitude_cross(w, p, c);
+    for (int k = 0; k < 3; k++) gyro[j0 + k] = c[k];
+  }
   for (int i = 0; i < n; i++) {
-    exvector terms{totald(dqd_[i](L)), -dq_[i](L)}, dterms{dqd_[i](D)};
+    exvector terms{totald(dqd_[i](L)), -dv(i, L), gyro[i]}, dterms{dqd_[i](D)};
     for (const std::vector<ex> &share : rot_force_) terms.push_back(share[i]);
     for (size_t k = 0; k < K; k++) {
       if (dLdw[k].is_zero() && dDdw[k].is_zero()) continue;
-      ex J = dq_[i](atoms_[k].e);  /* = d e_k' / d q'_i */
+      ex J = dv(i, atoms_[k].e);  /* = d e_k' / d q'_i (d e_k' / d omega_i) */
       if (J.is_zero()) continue;
       if (!dLdw[k].is_zero()) terms.push_back(dLdw_rate[k] * J);
       if (!dDdw[k].is_zero()) dterms.push_back(dDdw[k] * J);
@@ -236,27 +298,25 @@ void Derivation::derive_lagrange(Equations &eq) {
 /* The exact derivatives the generated Jacobian needs, and the inverse
 ** dynamics. */
 void Derivation::derive_jacobians(Equations &eq) {
-  const int n = nq_;
+  const int n = nv_, nq = nq_;  /* v-space (M, f) and q-space sizes */
   const bool placed = !placed_M_.empty();
   const std::vector<std::vector<ex>> &M = eq.M, &M_lagrange = eq.M_lagrange;
   const std::vector<ex> &f = eq.f, &f_lagrange = eq.f_lagrange;
   /* Jacobian pieces, each an exact symbolic derivative */
   std::vector<ex> &dM = eq.dM, &dfdq = eq.dfdq, &dfdqd = eq.dfdqd, &dfdu = eq.dfdu;
-  dM.assign((size_t)n * n * n, ex(0));
-  dfdq.assign((size_t)n * n, ex(0));
+  dM.assign((size_t)nq * n * n, ex(0));
+  dfdq.assign((size_t)n * nq, ex(0));
   dfdqd.assign((size_t)n * n, ex(0));
   dfdu.assign((size_t)n * nu_, ex(0));
-  for (int k = 0; k < n; k++) {
+  for (int k = 0; k < nq; k++) {
     for (int i = 0; i < n; i++)
       for (int j = i; j < n; j++)
         dM[(size_t)k * n * n + i * n + j] = dM[(size_t)k * n * n + j * n + i] = dq_[k](M[i][j]);
     tick("deriving dM/dq");
   }
   for (int i = 0; i < n; i++) {
-    for (int j = 0; j < n; j++) {
-      dfdq[(size_t)i * n + j] = dq_[j](f[i]);
-      dfdqd[(size_t)i * n + j] = dqd_[j](f[i]);
-    }
+    for (int j = 0; j < nq; j++) dfdq[(size_t)i * nq + j] = dq_[j](f[i]);
+    for (int j = 0; j < n; j++) dfdqd[(size_t)i * n + j] = dqd_[j](f[i]);
     for (int j = 0; j < nu_; j++) dfdu[(size_t)i * nu_ + j] = du_[j](f[i]);
     tick("deriving the Jacobian of the forcing");
   }
@@ -280,6 +340,7 @@ void Derivation::derive_jacobians(Equations &eq) {
 ** constraints' A, b, gamma (symbolic_constraints.cc). */
 void Derivation::derive_constraint_equations(Equations &eq) {
   const int n = nq_;
+  assert(constraints_.empty() || nq_ == nv_);  /* add_constraint refuses them with attitudes */
   exmap no_accel;
   for (const ex &a : qdd_) no_accel[a] = 0;
   Subst zero_qdd(no_accel);
@@ -325,11 +386,11 @@ void Derivation::derive_outputs(Equations &eq) {
     }
   }
   tick("computing the outputs");
-  kin.nq = nq_;
+  kin.nq = nv_;  /* Jacobians over the velocities: dy/dq, or X_a y for an attitude */
   kin.nu = nu_;
   kin.qd = qd_;
   kin.outputs = outs;
-  kin.d_dq = [this](int i, const ex &e) { return dq_[i](e); };
+  kin.d_dq = [this](int i, const ex &e) { return dv(i, e); };
   kin.d_dqd = [this](int i, const ex &e) { return dqd_[i](e); };
   kin.d_du = [this](int i, const ex &e) { return du_[i](e); };
   kin.d_dt = [this](const ex &e) { return dt_(e); };
@@ -340,13 +401,13 @@ void Derivation::derive_outputs(Equations &eq) {
 /* ---- checks of the Lagrangian and the mass matrix ---- */
 
 void Derivation::check_no_qdd(const ex &L) {
-  for (int k = 0; k < nq_; k++) {
+  for (int k = 0; k < nv_; k++) {
     if (dqdd_[k](unatom(L)).is_zero()) continue;
     for (const auto *terms : {&kinetic_, &potential_, &lagrangian_})
       for (const Term &t : *terms)
         if (!dqdd_[k](unatom(t.e)).is_zero())
-          throw SymError{t.stmt->loc, fmt("this term depends on the acceleration %s''",
-                                          m_->coords[k]->name)};
+          throw SymError{t.stmt->loc, fmt("this term depends on the acceleration %s'",
+                                          rate_name(k).c_str())};
   }
 }
 
@@ -361,14 +422,14 @@ void Derivation::check_mass(std::vector<std::vector<ex>> &M) {
     std::string what;
   };
   std::vector<Banned> banned;
-  for (int k = 0; k < nq_; k++)
-    banned.push_back({qd_[k], &dqd_[k], fmt("the rate %s'", m_->coords[k]->name)});
+  for (int k = 0; k < nv_; k++)
+    banned.push_back({qd_[k], &dqd_[k], "the rate " + rate_name(k)});
   banned.push_back({t_, &dt_, "the time t"});
   for (int k = 0; k < nu_; k++)
     banned.push_back({u_[k], &du_[k], fmt("the input '%s'", m_->inputs[k]->name)});
   exmap cancelled;
-  for (int i = 0; i < nq_; i++)
-    for (int j = i; j < nq_; j++)
+  for (int i = 0; i < nv_; i++)
+    for (int j = i; j < nv_; j++)
       for (const Banned &v : banned) {
         ex d = (*v.d)(M[i][j]);
         if (d.is_zero()) continue;
@@ -377,7 +438,7 @@ void Derivation::check_mass(std::vector<std::vector<ex>> &M) {
           continue;
         }
         bool rate = false;
-        for (int k = 0; k < nq_; k++) rate = rate || v.var.is_equal(qd_[k]);
+        for (int k = 0; k < nv_; k++) rate = rate || v.var.is_equal(qd_[k]);
         std::string msg = rate ? "the Lagrangian is not quadratic in the rates: "
                                : "the mass matrix must depend on coordinates and params only: ";
         /* name the first term whose own second derivative depends on it */
@@ -399,8 +460,8 @@ void Derivation::check_mass(std::vector<std::vector<ex>> &M) {
       }
   if (cancelled.empty()) return;
   Subst clean(cancelled);
-  for (int i = 0; i < nq_; i++)
-    for (int j = i; j < nq_; j++) M[i][j] = M[j][i] = clean(M[i][j]);
+  for (int i = 0; i < nv_; i++)
+    for (int j = i; j < nv_; j++) M[i][j] = M[j][i] = clean(M[i][j]);
 }
 
 /* The regressor form of the inverse dynamics (symbolic_control.cc). */
@@ -430,9 +491,15 @@ void Derivation::derive_control_quantities(const ex &L, const std::vector<std::v
                                            const std::vector<ex> &vc_A,
                                            const std::vector<ex> &vc_b, ControlResult *out) {
   ControlInput in;
-  in.nq = nq_;
+  in.nq = nv_;
   in.nu = nu_;
-  for (int i = 0; i < nq_; i++) in.coord_names.push_back(m_->coords[i]->name);
+  for (int i = 0; i < nv_; i++) {
+    std::string r = rate_name(i);
+    in.coord_names.push_back(i < ncoord_ ? r.substr(0, r.size() - 1) : r);
+  }
+  if (nv_ != nq_)
+    in.no_split = "the model has attitudes: its velocities are angular velocities, not "
+                  "rates of coordinates";
   for (int i = 0; i < nu_; i++) in.input_names.push_back(m_->inputs[i]->name);
   in.qd = qd_;
   in.L = unatom(L);
@@ -443,7 +510,7 @@ void Derivation::derive_control_quantities(const ex &L, const std::vector<std::v
   in.constraints = phi;
   in.vc_A = vc_A;
   in.vc_b = vc_b;
-  in.d_dq = [this](int i, const ex &e) { return dq_[i](e); };
+  in.d_dq = [this](int i, const ex &e) { return dv(i, e); };
   in.d_dqd = [this](int i, const ex &e) { return dqd_[i](e); };
   in.d_du = [this](int i, const ex &e) { return du_[i](e); };
   in.d_dt = [this](const ex &e) { return dt_(e); };
@@ -452,6 +519,8 @@ void Derivation::derive_control_quantities(const ex &L, const std::vector<std::v
     return nonzero_somewhere(e, scale);
   };
   derive_control(in, out);
+  /* omega's equations keep a gyroscopic term: its momenta are not conserved alone */
+  for (int i = ncoord_; i < nv_; i++) out->cyclic[i] = 0;
 }
 
 }  // namespace eomsym
@@ -460,18 +529,13 @@ void Derivation::derive_control_quantities(const ex &L, const std::vector<std::v
 extern "C" int sym_derive(const Model *m, const SymOptions *opt, Diag *d, EomSystem *out) {
   assert(m && d && out);
   memset(out, 0, sizeof *out);
-  out->nq = m->ncoords;
+  out->nq = m->ncoords + 4 * m->nattitudes;
+  out->nv = m->ncoords + 3 * m->nattitudes;
+  out->nattitudes = m->nattitudes;
   out->nu = m->ninputs;
   out->np = m->nparams;
   out->ny = m->ny;
   out->nc = 0;
-  if (m->nattitudes > 0) {
-    /* The front end reads and checks attitudes; their equations of motion
-    ** (quasi-velocities, NV < NQ) are not derived by this version. */
-    diag_error(d, m->attitudes[0]->loc, "attitude '%s': equations of motion for attitude coordinates "
-               "are not implemented yet (eomc check reads and checks them)", m->attitudes[0]->name);
-    return 1;
-  }
   try {
     eomsym::Derivation dv(m, opt, d);
     dv.run(out);

@@ -6,7 +6,11 @@
 ** row-major arrays of node indices.  A root may be a structural zero (an
 ** IR_NUM node with num == 0); the emitter skips those.
 **
-** Conventions (docs/generated-c.md): M(q) q'' = f(t, q, q', u); the state is x = [q; q'].
+** Conventions (docs/generated-c.md): M(q) v' = f(t, q, v, u); the state is
+** x = [q; v].  Without attitudes v = q' (nv == nq); each attitude adds 4
+** entries to q (its quaternion, after the coordinates) and 3 to v (its
+** body-frame omega), with q' = N(q) v (written by the emitter: emit_attitude.c).  Below, "qd"
+** and "qdd" stand for v and v', and matrices over rates are nv wide.
 */
 #ifndef EOMC_SYMBOLIC_H
 #define EOMC_SYMBOLIC_H
@@ -30,13 +34,15 @@ typedef struct EomSwitch {
 typedef struct EomSystem {
   IrGraph g;
   int nq, nu, np, ny, nc;
-  int *mass;          /* nq*nq  M(q, p), symmetric */
-  int *forcing;       /* nq     f(t, q, qd, u, p) */
-  int *dmass_dq;      /* nq*nq*nq: [k*nq*nq + i*nq + j] = dM_ij/dq_k */
-  int *dforcing_dq;   /* nq*nq  [i*nq + j] = df_i/dq_j */
-  int *dforcing_dqd;  /* nq*nq  [i*nq + j] = df_i/dqd_j */
-  int *dforcing_du;   /* nq*nu  [i*nu + j] = df_i/du_j */
-  int *inverse;       /* nq     M qdd - f(u = 0), in terms of IRV_QDD */
+  int nv;             /* velocities: nq - nattitudes */
+  int nattitudes;
+  int *mass;          /* nv*nv  M(q, p), symmetric */
+  int *forcing;       /* nv     f(t, q, qd, u, p) */
+  int *dmass_dq;      /* nq*nv*nv: [k*nv*nv + i*nv + j] = dM_ij/dq_k */
+  int *dforcing_dq;   /* nv*nq  [i*nq + j] = df_i/dq_j */
+  int *dforcing_dqd;  /* nv*nv  [i*nv + j] = df_i/dqd_j */
+  int *dforcing_du;   /* nv*nu  [i*nu + j] = df_i/du_j */
+  int *inverse;       /* nv     M qdd - f(u = 0), in terms of IRV_QDD */
   int energy_T, energy_V;
   int *outputs;       /* ny     y(t, q, qd, u, p) */
   int *constraint;    /* nc     phi(q, p) (t allowed) */

@@ -59,7 +59,7 @@ void Derivation::collect_terms() {
           break;
         case ST_FORCE: {
           int k = -1;
-          for (int c = 0; c < nq_; c++)
+          for (int c = 0; c < ncoord_; c++)
             if (strcmp(m_->coords[c]->name, s->name) == 0) k = c;
           if (k < 0) throw SymError{s->name_loc, fmt("'%s' is not a coordinate", s->name)};
           force_[k] = force_[k] + scalar(s->e[0], "a generalized force");
@@ -93,7 +93,7 @@ void Derivation::collect_terms() {
 
 /* Does e contain a rate (of a coordinate or, through an atom, of anything)? */
 bool Derivation::depends_on_rates(const ex &e) {
-  for (int i = 0; i < nq_; i++)
+  for (int i = 0; i < nv_; i++)
     if (!dqd_[i](e).is_zero() || !dqdd_[i](e).is_zero()) return true;
   for (Deriver &d : dw_)
     if (!d(e).is_zero()) return true;
@@ -183,7 +183,9 @@ void Derivation::check_inertia(const Stmt *s, const Val &I) {
     }
   exmap point;
   point[t_] = 0;
-  for (int i = 0; i < nq_; i++) point[q_[i]] = m_->q0 ? m_->q0[i] : 0.0, point[qd_[i]] = 0;
+  for (int i = 0; i < ncoord_; i++) point[q_[i]] = m_->q0 ? m_->q0[i] : 0.0;
+  for (int i = ncoord_; i < nq_; i++) point[q_[i]] = m_->attitude_q0[i - ncoord_];
+  for (int i = 0; i < nv_; i++) point[qd_[i]] = 0;
   for (int i = 0; i < nu_; i++) point[u_[i]] = 0;
   for (int i = 0; i < np_; i++) point[p_[i]] = m_->params[i]->number;
   Subst at(point);
@@ -212,7 +214,7 @@ void Derivation::check_inertia(const Stmt *s, const Val &I) {
 ** link frames.  Bodies further out the same chain share these vectors.
 ** Otherwise W_j = vee(R^T dR/dq_j) from the entries. */
 void Derivation::add_rotation(const Val &R, const Val &I) {
-  std::vector<std::array<ex, 3>> W(nq_);
+  std::vector<std::array<ex, 3>> W(nv_);
   ex w[3], wdot[3];
   if (R.turns && turns_match(R)) {
     const std::vector<Turn> &f = *R.turns;
@@ -225,8 +227,8 @@ void Derivation::add_rotation(const Val &R, const Val &I) {
       ex v[3] = {0, 0, 0};  /* S_k^T e_k */
       v[f[k].axis] = 1;
       for (size_t l = k + 1; l < m; l++) turn_back(f[l], v);
-      for (int j = 0; j < nq_; j++) {
-        ex d = dq_[j](f[k].angle);
+      for (int j = 0; j < nv_; j++) {
+        ex d = dv(j, f[k].angle);
         if (d.is_zero()) continue;
         for (int c = 0; c < 3; c++) W[j][c] = W[j][c] + d * v[c];
       }
@@ -247,9 +249,9 @@ void Derivation::add_rotation(const Val &R, const Val &I) {
       }
     };
     exvector wt[3];
-    for (int j = 0; j < nq_; j++) {
+    for (int j = 0; j < nv_; j++) {
       Val X(3, 3);
-      for (int k = 0; k < 9; k++) X.a[k] = dq_[j](R.a[k]);
+      for (int k = 0; k < 9; k++) X.a[k] = dv(j, R.a[k]);
       vee(X, W[j].data());
       for (int c = 0; c < 3; c++)
         if (!W[j][c].is_zero()) wt[c].push_back(W[j][c] * qd_[j]);
@@ -281,8 +283,8 @@ void Derivation::add_rotation(const Val &R, const Val &I) {
     t.push_back(w[a] * Iw[b] - w[b] * Iw[a]);
     euler[r] = add(t);
   }
-  std::vector<ex> share(nq_);
-  for (int i = 0; i < nq_; i++) {
+  std::vector<ex> share(nv_);
+  for (int i = 0; i < nv_; i++) {
     exvector t;
     for (int c = 0; c < 3; c++)
       if (!W[i][c].is_zero()) t.push_back(W[i][c] * euler[c]);
@@ -299,7 +301,7 @@ void Derivation::add_rotation(const Val &R, const Val &I) {
 void Derivation::finish_placed() {
   if (placed_.empty()) return;
   ChainTools tools;
-  tools.nq = nq_;
+  tools.nq = nv_;  /* velocity directions: a chain's angles move with coordinates only */
   for (int c = 0; c < 3; c++) {
     exvector t;
     for (const auto &g : gravity_) t.push_back(g.second.a[c]);
@@ -314,7 +316,7 @@ void Derivation::finish_placed() {
     }
     return (*zero_qdd_)(e);
   };
-  tools.d_dq = [this](int j, const ex &e) { return dq_[j](e); };
+  tools.d_dq = [this](int j, const ex &e) { return dv(j, e); };
   tools.tick = [this](const char *step) { tick(step); };
   FrameTree tree(tools);
   for (Placed &pb : placed_) {
@@ -322,7 +324,7 @@ void Derivation::finish_placed() {
     pb.T = tree.add_body(k, pb.mass, pb.pos.local, pb.spins ? pb.I.a.data() : nullptr);
     rot_energy_.push_back(pb.T);
   }
-  placed_M_.assign(nq_, std::vector<ex>(nq_, ex(0)));
+  placed_M_.assign(nv_, std::vector<ex>(nv_, ex(0)));
   tree.equations(placed_M_, placed_bias_, placed_full_);
 }
 
@@ -372,22 +374,22 @@ void Derivation::add_force_at(const Stmt *s) {
   if (!F.vector() || !P.vector() || F.size() != P.size() || F.scalar())
     throw SymError{s->loc, fmt("a force and its point must be vectors of one length, not %s "
                                "and %s", shape_name(F).c_str(), shape_name(P).c_str())};
-  for (int i = 0; i < nq_; i++) {
+  for (int i = 0; i < nv_; i++) {
     exvector terms{force_[i]};
-    for (int c = 0; c < F.size(); c++) terms.push_back(F.a[c] * dq_[i](P.a[c]));
+    for (int c = 0; c < F.size(); c++) terms.push_back(F.a[c] * dv(i, P.a[c]));
     force_[i] = add(terms);
   }
 }
 
 /* Q_i += TAU . w_i, with skew(w_i) = dR/dq_i R^T the world-frame angular
-** velocity per unit rate of q_i. */
+** velocity per unit rate of q_i (per unit of omega_i: X_i R R^T). */
 void Derivation::add_torque(const Stmt *s) {
   Val tau = vec3(s->e[0], "a torque");
   Val R = mat3(s->e[1], "an orientation");
-  for (int i = 0; i < nq_; i++) {
+  for (int i = 0; i < nv_; i++) {
     auto W = [&](int r, int c) {  /* (dR/dq_i R^T)_rc */
       exvector t;
-      for (int k = 0; k < 3; k++) t.push_back(dq_[i](R.at(r, k)) * R.at(c, k));
+      for (int k = 0; k < 3; k++) t.push_back(dv(i, R.at(r, k)) * R.at(c, k));
       return ex(add(t));
     };
     force_[i] = force_[i] + tau.a[0] * W(2, 1) + tau.a[1] * W(0, 2) + tau.a[2] * W(1, 0);

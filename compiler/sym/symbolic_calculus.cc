@@ -219,10 +219,8 @@ exmap Derivation::random_point(uint64_t &state, bool rates) {
   auto next = [&state]() { return 0.35 + num_uniform(&state); };
   exmap point;
   point[t_] = next();
-  for (int i = 0; i < nq_; i++) {
-    point[q_[i]] = next();
-    if (rates) point[qd_[i]] = next(), point[qdd_[i]] = next();
-  }
+  for (int i = 0; i < nq_; i++) point[q_[i]] = next();
+  for (int i = 0; rates && i < nv_; i++) point[qd_[i]] = next(), point[qdd_[i]] = next();
   for (int i = 0; i < nu_; i++) point[u_[i]] = next();
   for (int i = 0; i < np_; i++) point[p_[i]] = next();
   return point;

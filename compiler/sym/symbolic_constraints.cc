@@ -15,6 +15,8 @@ using namespace GiNaC;
 namespace eomsym {
 
 void Derivation::add_constraint(const Stmt *s) {
+  if (m_->nattitudes > 0)
+    throw SymError{s->loc, "constraints in a model with attitudes are not supported yet"};
   Val a = eval(s->e[0]), b = eval(s->e[1]);
   if (a.rows != b.rows || a.cols != b.cols)
     throw SymError{s->loc, fmt("the sides of a constraint are %s and %s", shape_name(a).c_str(),
@@ -33,7 +35,7 @@ void Derivation::add_constraint(const Stmt *s) {
 ** the rates (the checker names a non-linear term; this is the exact test). */
 void Derivation::derive_velocity_constraints(std::vector<ex> &A, std::vector<ex> &b,
                                              std::vector<ex> &gamma) {
-  const int nvc = (int)vconstraints_.size(), n = nq_;
+  const int nvc = (int)vconstraints_.size(), n = nv_;  /* none with attitudes */
   exmap at_rest, no_accel;
   for (int i = 0; i < n; i++) at_rest[qd_[i]] = 0, no_accel[qdd_[i]] = 0;
   Subst zero_qd(at_rest), zero_qdd(no_accel);

@@ -90,13 +90,14 @@ bool is_cyclic(const ControlInput &in, const ex &L, int i) {
 
 void derive_control(const ControlInput &in, ControlResult *out) {
   const int n = in.nq;
-  assert((int)in.qd.size() == n && (int)in.M.size() == n && (int)in.dM.size() == n * n * n);
+  assert((int)in.qd.size() == n && (int)in.M.size() == n);
+  assert(!in.no_split.empty() || (int)in.dM.size() == n * n * n);
   const ex &L = in.L;
   exmap at_rest;
   for (const ex &v : in.qd) at_rest[v] = 0;
   ex L0 = in.substitute(L, at_rest);
 
-  out->split_why = split_obstacle(in, L, L0);
+  out->split_why = in.no_split.empty() ? split_obstacle(in, L, L0) : in.no_split;
   out->split = out->split_why.empty();
   out->coriolis.clear();
   out->gravity.clear();

@@ -66,7 +66,7 @@ Val Derivation::eval_name(const Expr *x) {
   }
   switch (d->kind) {
     case DECL_COORD:
-      assert(d->index >= 0 && d->index < nq_);
+      assert(d->index >= 0 && d->index < ncoord_);
       return Val(q_[d->index]);
     case DECL_PARAM:
       assert(d->index >= 0 && d->index < np_);
@@ -93,7 +93,12 @@ Val Derivation::eval_name(const Expr *x) {
     case DECL_OUTPUT: return let_value(d);
     case DECL_BODY:
       throw SymError{x->loc, fmt("bodies are not supported yet ('%s')", d->name)};
-    case DECL_ATTITUDE: break;   /* refused by sym_derive before any evaluation */
+    case DECL_ATTITUDE: {       /* R(q) of its quaternion */
+      assert(d->index >= 0 && d->index < m_->nattitudes);
+      Val R(3, 3);
+      attitude_rotation(&q_[ncoord_ + 4 * d->index], R.a.data());
+      return R;
+    }
   }
   throw SymError{x->loc, "internal: unknown declaration kind"};
 }
@@ -307,6 +312,14 @@ static Val rotation(int axis, const ex &a) {
 ** reads like the table in front/builtins.h; each branch is short. */
 Val Derivation::eval_call(const Expr *x) {
   const char *name = x->name;
+  if (strcmp(name, "omega") == 0 && x->nargs == 1 && x->args[0]->kind == EX_NAME &&
+      x->args[0]->ref && x->args[0]->ref->kind == DECL_ATTITUDE) {
+    int a = x->args[0]->ref->index;
+    assert(a >= 0 && a < m_->nattitudes);
+    Val w(3, 1);
+    for (int c = 0; c < 3; c++) w.a[c] = qd_[ncoord_ + 3 * a + c];
+    return w;
+  }
   std::vector<Val> args;
   for (int i = 0; i < x->nargs; i++) args.push_back(eval(x->args[i]));
   auto need = [&](int n) {

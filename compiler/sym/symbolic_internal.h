@@ -205,6 +205,9 @@ struct ControlInput {
   std::function<GiNaC::ex(const GiNaC::ex &)> d_dt;
   std::function<GiNaC::ex(const GiNaC::ex &, const GiNaC::exmap &)> substitute;
   std::function<bool(const GiNaC::ex &, const GiNaC::ex &)> nonzero_somewhere;
+  /* non-empty: no split, for this reason (the Christoffel form of C holds
+  ** for coordinates, not for the angular velocities of attitudes) */
+  std::string no_split;
 };
 
 /* The split M q'' + C q' + g = Q - dD/dq', momenta, energy function and the
@@ -268,6 +271,13 @@ struct KinematicsResult {
 void derive_kinematics(const KinematicsInput &in, KinematicsResult *out);
 /* J' q' = sum_j (sum_k dJ_j/dq_k q'_k) q'_j for a row J(q) of nq entries. */
 GiNaC::ex bias_of(const KinematicsInput &in, const std::vector<GiNaC::ex> &row);
+
+/* Attitude coordinates (symbolic_attitude.cc): R(q) row-major for a unit
+** quaternion q = [w, x, y, z], the map N(q) (4x3 row-major) with
+** q' = N(q) omega for the body-frame omega, and a x b. */
+void attitude_rotation(const GiNaC::ex q[4], GiNaC::ex R[9]);
+void attitude_rate_map(const GiNaC::ex q[4], GiNaC::ex N[12]);
+void attitude_cross(const GiNaC::ex a[3], const GiNaC::ex b[3], GiNaC::ex out[3]);
 
 
 /* ================================================================ the derivation
@@ -427,9 +437,14 @@ class Derivation {
   Diag *diag_;  /* for warnings; errors are thrown as SymError */
   double max_seconds_;
   std::chrono::steady_clock::time_point start_;
-  int nq_, nu_, np_;
+  /* nq_ entries of q: the coordinates, then 4 per attitude (its quaternion);
+  ** nv_ of the velocities v: the coordinates' rates, then 3 per attitude
+  ** (omega); ncoord_ coordinates. */
+  int nq_, nv_, ncoord_, nu_, np_;
   GiNaC::ex t_;
-  std::vector<GiNaC::ex> q_, qd_, qdd_, u_, p_;
+  std::vector<GiNaC::ex> q_, qd_, qdd_, u_, p_;  /* qd_, qdd_: v and v' (nv_ each) */
+  std::vector<GiNaC::ex> qrate_;                 /* nq_: q' in terms of q and v (N(q) v) */
+  std::vector<std::array<GiNaC::ex, 12>> att_N_;  /* per attitude: N(q), q' = N omega */
   VarTable vars_;
   DepCache deps_;
   Deriver dt_;
@@ -496,6 +511,8 @@ class Derivation {
 
   void tick(const char *step);
   GiNaC::ex totald(const GiNaC::ex &e);
+  GiNaC::ex dv(int j, const GiNaC::ex &e);
+  std::string rate_name(int j) const;
   Val rate(const Val &v);
   GiNaC::ex unatom(const GiNaC::ex &e);
 

@@ -43,7 +43,7 @@ void Derivation::emit_roots(const Equations &eq, EomSystem *out) {
 
 /* One graph for everything; root handles are kept in this order. */
 void Derivation::add_roots(const Equations &eq, IrBuilder &b, RootHandles &h) {
-  const int n = nq_, nc = (int)eq.phi.size(), nvc = (int)eq.vc_b.size();
+  const int n = nv_, nq = nq_, nc = (int)eq.phi.size(), nvc = (int)eq.vc_b.size();
   const SrcLoc none = kNoLoc;
   for (int i = 0; i < n; i++)
     for (int j = 0; j < n; j++) h.mass.push_back(b.add_root(eq.M[i][j], none));
@@ -51,10 +51,16 @@ void Derivation::add_roots(const Equations &eq, IrBuilder &b, RootHandles &h) {
   tick("building the expression graph");
   for (const ex &e : eq.dM) h.dM.push_back(b.add_root(e, none));
   tick("building the expression graph");
-  for (size_t k = 0; k < eq.dfdq.size(); k++) {
-    h.dfdq.push_back(b.add_root(eq.dfdq[k], none));
-    h.dfdqd.push_back(b.add_root(eq.dfdqd[k], none));
-    if (k % n == 0) tick("building the expression graph");
+  if (nq == n) {  /* interleaved, as always for models without attitudes */
+    for (size_t k = 0; k < eq.dfdq.size(); k++) {
+      h.dfdq.push_back(b.add_root(eq.dfdq[k], none));
+      h.dfdqd.push_back(b.add_root(eq.dfdqd[k], none));
+      if (k % n == 0) tick("building the expression graph");
+    }
+  } else {
+    for (const ex &e : eq.dfdq) h.dfdq.push_back(b.add_root(e, none));
+    for (const ex &e : eq.dfdqd) h.dfdqd.push_back(b.add_root(e, none));
+    tick("building the expression graph");
   }
   for (const ex &e : eq.dfdu) h.dfdu.push_back(b.add_root(e, none));
   for (const ex &e : eq.inv) h.inv.push_back(b.add_root(e, none));
@@ -95,7 +101,8 @@ void Derivation::add_roots(const Equations &eq, IrBuilder &b, RootHandles &h) {
   for (const SwitchFn &w : switches_) {
     ex e = unatom(w.e);
     bool moves = e.has(t_);
-    for (int i = 0; i < n; i++) moves = moves || e.has(q_[i]) || e.has(qd_[i]);
+    for (int i = 0; i < nq; i++) moves = moves || e.has(q_[i]);
+    for (int i = 0; i < n; i++) moves = moves || e.has(qd_[i]);
     for (const ex &u : u_) moves = moves || e.has(u);
     bool again = false;
     for (const ex &o : sw) again = again || (e - o).is_zero() || (e + o).is_zero();
@@ -112,7 +119,7 @@ void Derivation::add_roots(const Equations &eq, IrBuilder &b, RootHandles &h) {
 /* The EomSystem's arrays: node indices of the roots, by quantity. */
 void Derivation::write_roots(const Equations &eq, const RootHandles &h,
                              const std::vector<int> &roots, EomSystem *out) {
-  const int n = nq_, nc = (int)eq.phi.size(), nvc = (int)eq.vc_b.size();
+  const int n = nv_, nq = nq_, nc = (int)eq.phi.size(), nvc = (int)eq.vc_b.size();
   const size_t ny = eq.outs.size(), ns = h.sw.size();
   const ControlResult &ctl = eq.ctl;
   auto place = [&roots](const std::vector<int> &handles, size_t count) {
@@ -123,8 +130,8 @@ void Derivation::write_roots(const Equations &eq, const RootHandles &h,
   };
   out->mass = place(h.mass, (size_t)n * n);
   out->forcing = place(h.f, n);
-  out->dmass_dq = place(h.dM, (size_t)n * n * n);
-  out->dforcing_dq = place(h.dfdq, (size_t)n * n);
+  out->dmass_dq = place(h.dM, (size_t)nq * n * n);
+  out->dforcing_dq = place(h.dfdq, (size_t)n * nq);
   out->dforcing_dqd = place(h.dfdqd, (size_t)n * n);
   out->dforcing_du = place(h.dfdu, (size_t)n * nu_);
   out->inverse = place(h.inv, n);
@@ -189,6 +196,7 @@ void Derivation::write_roots(const Equations &eq, const RootHandles &h,
   }
   out->frame_jacobian = place(h.fjac, (size_t)out->nframes * 6 * n);
   out->frame_bias = place(h.fbias, (size_t)out->nframes * 6);
+  assert(out->nv == n && out->nattitudes == m_->nattitudes);
   out->param_rule = alloc_roots(np_);
   out->nderived = 0;
   for (int i = 0; i < np_; i++) {

@@ -3,7 +3,10 @@
 **
 ** One runtime (libeomrt) drives any generated model through this struct:
 ** sizes, names, units, defaults, initial state and the generated functions.
-** Arrays are plain double*, matrices row-major; the state is x = [q; qd].
+** Arrays are plain double*, matrices row-major; the state is x = [q; qd]
+** (nq + nv entries: qd is v, the velocities, which are the rates of q
+** except for attitudes, whose velocities are their body-frame omega; see
+** the fields of ABI 8 at the end).
 ** Function pointers of features a model lacks are NULL (e.g. the constraint
 ** functions when nc == 0).
 */
@@ -15,7 +18,7 @@ extern "C" {
 #endif
 
 /* Bumped whenever the layout of struct eom_model changes. */
-#define EOM_MODEL_ABI 7
+#define EOM_MODEL_ABI 8
 
 struct eom_model {
   int abi;                          /* EOM_MODEL_ABI of the generating eomc */
@@ -116,6 +119,25 @@ struct eom_model {
   void (*switches)(double t, const double *q, const double *qd, const double *u,
                    const double *p, double *s);
   const char *const *switch_names;
+
+  /* Since ABI 8: attitudes (free orientations).  Each adds a unit
+  ** quaternion [w, x, y, z] (body axes to world) to q, after the
+  ** coordinates, and its body-frame angular velocity omega to the
+  ** velocities v, after the coordinates' rates: nv = nq - nattitudes, the
+  ** state is x = [q; v] (nq + nv), q' = kinematics(q, v), and everything
+  ** over rates (qd, qdd, M, f, Q, the momenta, the Jacobians' columns of
+  ** outputs and frames, qd0) is nv long.  coord_names (nq) name the
+  ** quaternion entries "R.w" ... "R.z"; rate_names (nv) name the entries
+  ** of v ("x'", "omega(R)[1]").  normalize divides each quaternion by its
+  ** norm (integrators call it after every step) and returns the largest
+  ** | |q| - 1 | it met.  Without attitudes: nv == nq (hand-written
+  ** descriptors may leave it 0, meaning the same) and the rest 0/NULL. */
+  int nv;
+  int nattitudes;
+  const char *const *attitude_names;
+  const char *const *rate_names;
+  void (*kinematics)(const double *q, const double *v, double *qdot);
+  double (*normalize)(double *q);
 };
 
 #ifdef __cplusplus

@@ -381,5 +381,6 @@ const struct eom_model cargo_sledge_model = {
   1, cargo_sledge_velocity_constraint,
   0,
   0, 0, 0,
+  3, 0, 0, 0, 0, 0,
 };
 #endif

@@ -339,5 +339,6 @@ const struct eom_model cartesian_pendulum_model = {
   0, 0,
   cartesian_pendulum_constraint_gamma,
   0, 0, 0,
+  2, 0, 0, 0, 0, 0,
 };
 #endif

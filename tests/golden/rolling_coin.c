@@ -848,5 +848,6 @@ const struct eom_model rolling_coin_model = {
   2, rolling_coin_velocity_constraint,
   0,
   0, 0, 0,
+  5, 0, 0, 0, 0, 0,
 };
 #endif

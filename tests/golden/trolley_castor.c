@@ -364,5 +364,6 @@ const struct eom_model trolley_castor_model = {
   1, trolley_castor_velocity_constraint,
   0,
   0, 0, 0,
+  2, 0, 0, 0, 0, 0,
 };
 #endif

@@ -553,5 +553,6 @@ const struct eom_model warehouse_robot_model = {
   3, warehouse_robot_velocity_constraint,
   0,
   0, 0, 0,
+  5, 0, 0, 0, 0, 0,
 };
 #endif
