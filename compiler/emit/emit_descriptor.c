@@ -84,7 +84,7 @@ static void emit_coord_tables(Emitter *E) {
       else if (field == 0) buf_printf(&b, "%s.%c", d->name, part[(i - m->ncoords) % 4]);
       else if (field == 2) buf_put(&b, d->desc ? d->desc : "");
       else if (i < m->ncoords) unit_annotation_text(&b, d->unit);
-      texts[i] = b.s ? b.s : calloc(1, 1);
+      texts[i] = b.s ? b.s : xcalloc(1, 1);
     }
     emit_texts(E, field == 0 ? "coord_names" : field == 1 ? "coord_units" : "coord_descs", texts, nq);
     free(texts);

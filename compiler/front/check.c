@@ -26,6 +26,7 @@
 #include <stdlib.h>
 #include <string.h>
 #include "front/attitude.h"
+#include "front/keywords.h"
 #include "front/units.h"
 
 /* pi to double precision (M_PI is not C99). */
@@ -34,9 +35,9 @@
 /* ------------------------------------------------------------ reserved names */
 
 static const char *const keywords[] = {
-  "model", "coord", "param", "const", "input", "let", "initial", "output", "identify",
-  "kinetic", "potential", "lagrangian", "dissipation", "force", "torque", "gravity",
-  "body", "constraint", "frame", "attitude",
+#define SPELLING(token, spelling) spelling,
+  EOM_WORDS(SPELLING, EOM_WORD_SKIP)
+#undef SPELLING
 };
 
 int check_is_keyword(const char *s) {
