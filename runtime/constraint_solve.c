@@ -39,9 +39,15 @@
 ** 2e-7 at 1e-8 with dopri over 10 s). */
 #define RANK_TOL 1e-8
 
-size_t csolve_doubles(int nq, int nc) {
+/* Doubles of the dense layout; the sparse route's integers follow them. */
+static size_t dense_doubles(int nq, int nc) {
   return (size_t)nq * nq + 2 * (size_t)nc * nq + 2 * (size_t)nc * nc + 2 * (size_t)nc +
          (size_t)(nq > nc ? nq : nc);
+}
+
+size_t csolve_doubles(int nq, int nc) {
+  return dense_doubles(nq, nc) + csparse_doubles(nc) +
+         (csparse_ints(nq, nc) * sizeof(int) + sizeof(double) - 1) / sizeof(double);
 }
 
 void csolve_init(ConstraintSolver *s, int nq, int nc, double *work) {
@@ -56,7 +62,12 @@ void csolve_init(ConstraintSolver *s, int nq, int nc, double *work) {
   s->ev = s->S + (size_t)nc * nc;
   s->rhs = s->ev + nc;
   s->tmp = s->rhs + nc;
+  s->dwork = work + dense_doubles(nq, nc);
+  s->iwork = (int *)(s->dwork + csparse_doubles(nc));
   s->rank = 0;
+  s->mode = EOM_CSOLVE_AUTO;
+  s->sparse = 0;
+  s->nblocks = s->nnull = s->nput = s->crank = 0;
 }
 
 /* Cholesky M = L Lᵀ in place (lower triangle); -1 when M is not clearly
@@ -138,7 +149,8 @@ static void jacobi_eigen(int n, double *a, double *v, double *ev) {
   for (int i = 0; i < n; i++) ev[i] = a[i * n + i];
 }
 
-int csolve_factor(ConstraintSolver *s, const double *M, const double *G) {
+/* The dense route: M = LLᵀ, W = L⁻¹Gᵀ, S = WWᵀ diagonalized. */
+static int dense_factor(ConstraintSolver *s, const double *M, const double *G) {
   int nq = s->nq, nc = s->nc;
   memcpy(s->L, M, (size_t)nq * nq * sizeof(double));
   if (cholesky(nq, s->L) != 0) return EOM_EMASS;
@@ -169,8 +181,18 @@ int csolve_factor(ConstraintSolver *s, const double *M, const double *G) {
   return EOM_OK;
 }
 
+int csolve_factor(ConstraintSolver *s, const double *M, const double *G) {
+  s->sparse = s->mode == EOM_CSOLVE_SPARSE ||
+              (s->mode == EOM_CSOLVE_AUTO && s->nc >= CSOLVE_SPARSE_ROWS);
+  return s->sparse ? csparse_factor(s, M, G, RANK_TOL) : dense_factor(s, M, G);
+}
+
 void csolve_pinv(const ConstraintSolver *s, const double *r, double *mu) {
   int nc = s->nc;
+  if (s->sparse) {
+    csparse_pinv(s, r, mu);
+    return;
+  }
   for (int k = 0; k < nc; k++) { /* tmp = diag(1/ev) Vᵀ r */
     double v = 0;
     if (s->ev[k] > 0) {
@@ -187,12 +209,20 @@ void csolve_pinv(const ConstraintSolver *s, const double *r, double *mu) {
 }
 
 void csolve_mass_solve(const ConstraintSolver *s, double *b) {
+  if (s->sparse) {
+    csparse_mass_solve(s, b);
+    return;
+  }
   forward(s->nq, s->L, b);
   backward(s->nq, s->L, b);
 }
 
 void csolve_add_reaction(const ConstraintSolver *s, const double *mu, double scale, double *v) {
   int nq = s->nq, nc = s->nc;
+  if (s->sparse) {
+    csparse_add_reaction(s, mu, scale, v);
+    return;
+  }
   for (int i = 0; i < nq; i++) { /* tmp = Wᵀ mu = L⁻¹ Gᵀ mu */
     double x = 0;
     for (int k = 0; k < nc; k++) x += s->W[k * nq + i] * mu[k];

@@ -40,6 +40,7 @@ typedef struct SimContext {
   double *cs_work;          /* scratch of stabilize.c */
   double *cs_sample;        /* n: a sample projected onto the constraints */
   const int *cs_hold;       /* nq flags or NULL: coordinates the initial fix keeps */
+  int cs_solver;            /* enum eom_constraint_solver */
   int cs_holding;           /* 1 during the initial fix: honour cs_hold */
 } SimContext;
 
@@ -132,13 +133,25 @@ int constrained_equilibrium(const struct eom_model *m, const double *p, const do
 ** definite), after which the other calls reuse the factors. */
 typedef struct ConstraintSolver {
   int nq, nc, rank;          /* rank: rows of G that act (nc when regular) */
-  double *L;                 /* nq x nq: Cholesky factor of M */
-  double *W;                 /* nc x nq: L⁻¹ Gᵀ, stored by rows of G */
+  int mode;                  /* enum eom_constraint_solver: which route to take */
+  int sparse;                /* the route of the last factorization: 1 sparse */
+  double *L;                 /* nq x nq: Cholesky factor of M (per block: sparse) */
+  double *W;                 /* nc x nq: L⁻¹ Gᵀ (dense), M⁻¹ Gᵀ (sparse), by rows of G */
   double *G;                 /* nc x nq: G at the factored configuration */
-  double *V, *S;             /* nc x nc: eigenvectors of G M⁻¹ Gᵀ; scratch */
-  double *ev;                /* nc: its eigenvalues, dropped ones set to 0 */
+  double *V, *S;             /* nc x nc: eigenvectors of G M⁻¹ Gᵀ; scratch (dense);
+                                null-space basis; L D Lᵀ factor (sparse) */
+  double *ev;                /* nc: its eigenvalues, dropped ones set to 0 (dense);
+                                D (sparse) */
   double *rhs, *tmp;         /* nc, max(nq, nc): scratch */
+  double *dwork;             /* the sparse route's border scratch */
+  int *iwork;                /* the sparse route's index scratch */
+  int nblocks, nnull, nput;  /* sparse: blocks of M, dimension of the null space,
+                                rows put off to the border */
+  int crank;                 /* sparse: rank of the border's Schur complement */
 } ConstraintSolver;
+/* The route AUTO takes from this many rows of G on: the sparse one
+** (constraint_sparse.c).  Measured by `make bench` (bench/bench_linkage.py). */
+#define CSOLVE_SPARSE_ROWS 8
 size_t csolve_doubles(int nq, int nc);
 void csolve_init(ConstraintSolver *s, int nq, int nc, double *work);
 int csolve_factor(ConstraintSolver *s, const double *M, const double *G);
@@ -154,6 +167,15 @@ void csolve_correct(const ConstraintSolver *s, const double *r, double *mu, doub
 /* M qdd = f + Gᵀλ, G qdd = gamma with minimum-norm λ. */
 int csolve_accel(ConstraintSolver *s, const double *M, const double *G, const double *f,
                  const double *gamma, double *qdd, double *lambda);
+
+/* The sparse route (constraint_sparse.c): the same solves from M's blocks
+** and a profile L D Lᵀ of G M⁻¹ Gᵀ; csparse_ints is its integer scratch. */
+size_t csparse_ints(int nq, int nc);
+size_t csparse_doubles(int nc);
+int csparse_factor(ConstraintSolver *s, const double *M, const double *G, double tol);
+void csparse_pinv(const ConstraintSolver *s, const double *r, double *mu);
+void csparse_mass_solve(const ConstraintSolver *s, double *b);
+void csparse_add_reaction(const ConstraintSolver *s, const double *mu, double scale, double *v);
 
 /* Constraint upkeep of constrained models (stabilize.c).  stabilize_init
 ** reads the options and checks at the state x that phi can be evaluated

@@ -83,6 +83,7 @@ int stabilize_init(SimContext *c, const struct eom_sim_options *o, const double 
   c->cs_beta = o->baumgarte_beta;
   c->cs_tol = o->constraint_tol > 0 ? o->constraint_tol : 1e-12;
   c->cs_hold = o->hold;
+  c->cs_solver = o->constraint_solver;
   return EOM_OK;
 }
 
@@ -116,13 +117,16 @@ static Scratch scratch(const SimContext *c) {
   s.x = s.f + nq;
   s.solver_work = s.x + c->n;
   csolve_init(&s.solver, nq, nt, s.solver_work);
+  s.solver.mode = c->cs_solver;
   return s;
 }
 
 /* Point the solver at the first `rows` rows: nc for positions, nt for rates
 ** and accelerations (the scratch fits the larger). */
 static void solver_rows(Scratch *s, int nq, int rows) {
+  int mode = s->solver.mode;
   csolve_init(&s->solver, nq, rows, s->solver_work);
+  s->solver.mode = mode;
 }
 
 /* phi at (t, q); G and phi_t too unless NULL (phi_t is 0 without constraint_at). */

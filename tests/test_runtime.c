@@ -1144,6 +1144,114 @@ START_TEST(constraint_solve_redundant_rows) {
 }
 END_TEST
 
+/* A chain-shaped system as the sparse route meets it: M block diagonal
+** (2 x 2 blocks and a 1 x 1, like a row of parallelograms in the order
+** rocker, coupler, ...), each pair of rows of G touching three neighbouring
+** coordinates.  Case 0 is regular; case 1 repeats a row (redundant joint,
+** consistent gamma); case 2 zeroes every other row with gamma kept (the
+** aligned position of a row of parallelograms: those rows vanish and
+** S λ = r has no exact solution, so λ is the minimum-norm least-squares
+** one); case 3 has both. */
+enum { CH_N = 6, CH_NQ = 2 * CH_N + 1, CH_NC = 2 * CH_N };
+
+static double chain_rand(unsigned *state) { /* a plain LCG: fixed, portable data */
+  *state = *state * 1103515245u + 12345u;
+  return ((*state >> 8) & 0xffff) / 65536.0 - 0.5;
+}
+
+static void chain_system(int kind, double *M, double *G, double *f, double *gamma) {
+  unsigned st = 12345u + (unsigned)kind;
+  memset(M, 0, sizeof(double) * CH_NQ * CH_NQ);
+  memset(G, 0, sizeof(double) * CH_NC * CH_NQ);
+  for (int b = 0; b < CH_NQ; b += 2) { /* blocks {b, b+1} and the last {NQ-1} */
+    int n = b + 1 < CH_NQ ? 2 : 1;
+    double a[2][2] = {{1 + chain_rand(&st), chain_rand(&st)}, {chain_rand(&st), 1 + chain_rand(&st)}};
+    for (int i = 0; i < n; i++)
+      for (int j = 0; j < n; j++) {
+        double v = i == j ? 0.2 : 0; /* A Aᵀ + 0.2 I */
+        for (int k = 0; k < n; k++) v += a[i][k] * a[j][k];
+        M[(b + i) * CH_NQ + b + j] = v;
+      }
+  }
+  for (int k = 0; k < CH_NC; k++) {
+    int j = k / 2; /* rows 2j, 2j+1 touch coordinates 2j, 2j+1, 2j+2 */
+    for (int i = 2 * j; i <= 2 * j + 2; i++) G[k * CH_NQ + i] = 1.5 * chain_rand(&st);
+    gamma[k] = chain_rand(&st);
+  }
+  for (int i = 0; i < CH_NQ; i++) f[i] = 2 * chain_rand(&st);
+  if (kind == 1 || kind == 3) { /* row 5 := row 3 (the joint written twice) */
+    memcpy(G + 5 * CH_NQ, G + 3 * CH_NQ, sizeof(double) * CH_NQ);
+    gamma[5] = gamma[3];
+  }
+  if (kind >= 2)
+    for (int k = 0; k < CH_NC; k += 2) memset(G + k * CH_NQ, 0, sizeof(double) * CH_NQ);
+}
+
+/* λ by LAPACK's dgelss on S λ = r, S and r built with the given solver's
+** mass solves (the reference, Anderson et al., LAPACK Users' Guide, 3rd
+** ed., 1999, §2.4.2.1); returns the rank dgelss found. */
+static int chain_reference(ConstraintSolver *cs, const double *G, const double *f,
+                           const double *gamma, double *lambda) {
+  double Minv_f[CH_NQ], Minv_G[CH_NC][CH_NQ], S[CH_NC * CH_NC];
+  memcpy(Minv_f, f, sizeof Minv_f);
+  csolve_mass_solve(cs, Minv_f);
+  for (int k = 0; k < CH_NC; k++) {
+    memcpy(Minv_G[k], G + k * CH_NQ, sizeof Minv_G[k]);
+    csolve_mass_solve(cs, Minv_G[k]);
+  }
+  for (int a = 0; a < CH_NC; a++) {
+    lambda[a] = gamma[a];
+    for (int i = 0; i < CH_NQ; i++) lambda[a] -= G[a * CH_NQ + i] * Minv_f[i];
+    for (int b = 0; b < CH_NC; b++) {
+      double v = 0;
+      for (int i = 0; i < CH_NQ; i++) v += G[a * CH_NQ + i] * Minv_G[b][i];
+      S[b * CH_NC + a] = v;
+    }
+  }
+  int m = CH_NC, nrhs = 1, rank = 0, info = 0, lwork = 512;
+  double sv[CH_NC], wk[512], rcond = 1e-10;
+  dgelss_(&m, &m, &nrhs, S, &m, lambda, &m, sv, &rcond, &rank, wk, &lwork, &info);
+  ck_assert_int_eq(info, 0);
+  return rank;
+}
+
+/* The sparse route (constraint_sparse.c) against the dense one and against
+** LAPACK: the same rank, λ equal to LAPACK's minimum-norm solution and the
+** dense route's to rounding, and the same accelerations. */
+START_TEST(constraint_solve_sparse_matches_dense) {
+  static const int want_rank[4] = {CH_NC, CH_NC - 1, CH_N, CH_N - 1};
+  double M[CH_NQ * CH_NQ], G[CH_NC * CH_NQ], f[CH_NQ], gamma[CH_NC];
+  chain_system(_i, M, G, f, gamma);
+  double qdd[2][CH_NQ], lambda[2][CH_NC], ref[CH_NC];
+  double *work = malloc(csolve_doubles(CH_NQ, CH_NC) * sizeof(double));
+  ck_assert_ptr_nonnull(work);
+  for (int route = 0; route < 2; route++) {
+    ConstraintSolver cs;
+    csolve_init(&cs, CH_NQ, CH_NC, work);
+    cs.mode = route == 0 ? EOM_CSOLVE_DENSE : EOM_CSOLVE_SPARSE;
+    ck_assert_int_eq(csolve_accel(&cs, M, G, f, gamma, qdd[route], lambda[route]), EOM_OK);
+    ck_assert_int_eq(cs.sparse, route);
+    ck_assert_int_eq(cs.rank, want_rank[_i]);
+    if (route == 1) {
+      ck_assert_int_eq(cs.nblocks, CH_N + 1);
+      ck_assert_int_eq(chain_reference(&cs, G, f, gamma, ref), want_rank[_i]);
+    }
+  }
+  double scale = 0;
+  for (int k = 0; k < CH_NC; k++) scale = fmax(scale, fabs(ref[k]));
+  for (int k = 0; k < CH_NC; k++) {
+    ck_assert_msg(fabs(lambda[1][k] - ref[k]) < 1e-11 * scale, "case %d, lambda %d: %.15g, LAPACK %.15g",
+                  _i, k, lambda[1][k], ref[k]);
+    ck_assert_msg(fabs(lambda[1][k] - lambda[0][k]) < 1e-11 * scale,
+                  "case %d, lambda %d: sparse %.15g, dense %.15g", _i, k, lambda[1][k], lambda[0][k]);
+  }
+  for (int i = 0; i < CH_NQ; i++)
+    ck_assert_msg(fabs(qdd[1][i] - qdd[0][i]) < 1e-11 * (1 + fabs(qdd[0][i])),
+                  "case %d, qdd %d: sparse %.15g, dense %.15g", _i, i, qdd[1][i], qdd[0][i]);
+  free(work);
+}
+END_TEST
+
 #ifdef HAVE_GSL
 /* The checks against GSL, run by tests/gsl.test (`test_runtime gsl`). */
 static Suite *gsl_suite(void) {
@@ -1206,6 +1314,7 @@ static Suite *runtime_suite(void) {
   tcase_set_timeout(tm, 60);
   tcase_add_test(tm, equilibrium_with_input);
   tcase_add_test(tm, constraint_solve_redundant_rows);
+  tcase_add_loop_test(tm, constraint_solve_sparse_matches_dense, 0, 4);
   tcase_add_test(tm, equilibrium_pendulum_torque);
   tcase_add_test(tm, modes_two_masses_three_springs);
   tcase_add_test(tm, modes_double_pendulum);

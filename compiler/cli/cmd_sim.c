@@ -70,6 +70,10 @@ static const char sim_usage_tail[] =
   "  --constraint-tol E max|phi| the projections aim for (default 1e-12)\n"
   "  --hold NAME        the initial fix keeps coordinate NAME (and its rate) at\n"
   "                     its given value and moves the others (repeatable)\n"
+  "  --constraint-solver auto|dense|sparse\n"
+  "                     how G M^-1 G^T is factored: eigenvalues (dense) or a\n"
+  "                     banded L D L^T over M's blocks (sparse); auto (the\n"
+  "                     default) takes sparse from 8 constraint rows on\n"
   "\n"
   "Cache: $EOMC_CACHE_DIR, else $XDG_CACHE_HOME/eomc, else ~/.cache/eomc.\n"
   "Compiler: $CC (default cc).\n"
@@ -90,6 +94,7 @@ typedef struct SimArgs {
   /* constraints */
   double alpha, beta, constraint_tol;
   int no_projection, no_initial_fix;
+  int constraint_solver;  /* enum eom_constraint_solver */
   char **holds;   /* --hold NAME: coordinates the initial fix keeps */
   int nholds;
   int log_events, no_events;
@@ -147,6 +152,15 @@ static int parse_args(int argc, char **argv, SimArgs *a) {
     else if ((v = option_value(argc, argv, &i, "--plot"))) a->plot = v;
     else if ((v = option_value(argc, argv, &i, "-o"))) a->out = v;
     else if ((v = option_value(argc, argv, &i, "--constraint-tol"))) num = &a->constraint_tol;
+    else if ((v = option_value(argc, argv, &i, "--constraint-solver"))) {
+      static const char *const routes[] = {"auto", "dense", "sparse"};
+      a->constraint_solver = -1;
+      for (int k = 0; k < 3; k++)
+        if (strcmp(v, routes[k]) == 0) a->constraint_solver = k;
+      if (a->constraint_solver < 0)
+        return usage_error("'--constraint-solver' is auto, dense or sparse (got '%s')", v);
+      continue;
+    }
     else if (strcmp(arg, "--events") == 0) {
       a->log_events = 1;
       continue;
@@ -466,6 +480,7 @@ int cmd_sim(int argc, char **argv) {
   o.no_projection = a.no_projection;
   o.no_initial_fix = a.no_initial_fix;
   o.constraint_tol = a.constraint_tol;
+  o.constraint_solver = a.constraint_solver;
   o.hold = hold;
   o.no_events = a.no_events;
   o.event_log = a.log_events ? stderr : NULL;

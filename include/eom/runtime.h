@@ -113,7 +113,14 @@ struct eom_sim_options {
   ** fixed-step methods do not (docs/runtime.md). */
   int no_events;       /* 1: step across switches like any other point */
   FILE *event_log;     /* non-NULL: one line per located event */
+  /* Models with constraints: how G M⁻¹ Gᵀ is factored (docs/runtime.md,
+  ** "Models with constraints"): enum eom_constraint_solver. */
+  int constraint_solver;
 };
+
+/* The routes of the constrained solve: AUTO (the default) takes the dense
+** one below 8 constraint rows and the sparse one from there on. */
+enum eom_constraint_solver { EOM_CSOLVE_AUTO = 0, EOM_CSOLVE_DENSE, EOM_CSOLVE_SPARSE };
 
 void eom_sim_options_init(struct eom_sim_options *o);
 
