@@ -66,6 +66,8 @@ def main():
     for th in (1, 2):
         print("%-10d %12.3f %12.1f" % (th, best[th], RUNS / best[th]))
     print("speed-up on 2 threads: %.2fx (target >= 1.8x on 2 free cores)" % (best[1] / best[2]))
+    # The ratio needs two free cores: say how busy the machine was.
+    print("load average during the runs: %.1f on %d cores" % (os.getloadavg()[0], os.cpu_count() or 1))
     per_run = max(tiny - start, 0.0) / RUNS
     integrate = max(best[1] - tiny, 1e-12) / RUNS
     print("per run: integration %.3f ms, overhead %.4f ms = %.2f %% (target < 5 %%)"

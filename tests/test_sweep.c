@@ -309,6 +309,29 @@ START_TEST(same_rows_whatever_the_threads) {
 }
 END_TEST
 
+/* The summary is the answer on stdout when the table goes to a file (-o);
+** with the table on stdout, stdout is the table alone (header and one row
+** per run) and the summary goes to stderr. */
+START_TEST(summary_goes_where_the_table_does) {
+  const char *out = work("summary.csv");
+  RunResult r = sweep(model("dock_buffer.eom"), "--vary", "k=1000:3000:3", "--until", "0.1", "-o",
+                      out, NULL);
+  ck_assert_msg(r.status == 0, "%.2000s", r.err);
+  ck_assert_msg(strncmp(r.out, "3 runs, 3 ok, 0 failed\n", 23) == 0, "%.2000s", r.out);
+  ck_assert_msg(strstr(r.out, "quantity") != NULL, "%.2000s", r.out);
+  ck_assert_msg(strstr(r.err, "runs, ") == NULL, "%.2000s", r.err);
+  run_free(&r);
+  r = sweep(model("dock_buffer.eom"), "--vary", "k=1000:3000:3", "--until", "0.1", NULL);
+  ck_assert_msg(r.status == 0, "%.2000s", r.err);
+  ck_assert_msg(strncmp(r.out, "run,", 4) == 0, "%.2000s", r.out);
+  int lines = 0;
+  for (const char *p = r.out; *p; p++) lines += *p == '\n';
+  ck_assert_int_eq(lines, 4);
+  ck_assert_msg(strstr(r.err, "eomc sweep: 3 runs, 3 ok, 0 failed") != NULL, "%.2000s", r.err);
+  run_free(&r);
+}
+END_TEST
+
 /* ------------------------------------------------------------ failures */
 
 /* m = 0 makes M singular in run 0 only: it is reported in its row and the
@@ -318,7 +341,7 @@ START_TEST(failing_run_in_its_row) {
   RunResult r = sweep(model("dock_buffer.eom"), "--vary", "m=0:80:5", "--until", "0.2", "-o", out,
                       NULL);
   ck_assert_int_eq(r.status, 3);
-  ck_assert_msg(strstr(r.err, "5 runs, 4 ok, 1 failed (the first: run 0)") != NULL, "%.2000s", r.err);
+  ck_assert_msg(strstr(r.out, "5 runs, 4 ok, 1 failed (the first: run 0)") != NULL, "%.2000s", r.out);
   Table t = read_table(out);
   ck_assert_int_eq(t.nrows, 5);
   ck_assert_msg(strncmp(t.status[0], "\"failed: ", 9) == 0, "%s", t.status[0]);
@@ -472,6 +495,7 @@ static Suite *sweep_suite(void) {
   tcase_add_test(tc, random_draws_follow_their_distributions);
   tcase_add_test(tc, same_rows_whatever_the_threads);
   tcase_add_test(tc, failing_run_in_its_row);
+  tcase_add_test(tc, summary_goes_where_the_table_does);
   tcase_add_test(tc, usage_errors_before_any_run);
   tcase_add_test(tc, plot_bands);
   suite_add_tcase(s, tc);
@@ -515,9 +539,9 @@ START_TEST(mpi_same_rows_whatever_the_ranks) {
     argv[n] = NULL;
     RunResult r = run_argv(argv);
     ck_assert_msg(r.status == 0, "%d ranks: status %d\n%.2000s", ranks, r.status, r.err);
-    /* one summary, from rank 0 */
-    const char *sum = strstr(r.err, "21 runs, 21 ok");
-    ck_assert_msg(sum && !strstr(sum + 1, "21 runs, 21 ok"), "%.2000s", r.err);
+    /* one summary, from rank 0, on stdout (the table went to a file) */
+    const char *sum = strstr(r.out, "21 runs, 21 ok");
+    ck_assert_msg(sum && !strstr(sum + 1, "21 runs, 21 ok"), "%.2000s", r.out);
     char *text = read_file(outbuf, NULL);
     ck_assert(text != NULL);
     ck_assert_int_eq(count_lines(text), 22);

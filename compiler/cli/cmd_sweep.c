@@ -41,8 +41,10 @@ static const char sweep_usage[] =
   "the final state and outputs (final(NAME)), the time reached t, min(NAME) and\n"
   "max(NAME) of every coordinate and output, dE (T + V at the end minus at the\n"
   "start) and status (ok, or the failure).  A summary of the runs follows on\n"
-  "stderr.  NAME is a parameter, a constant input, a coordinate (its initial\n"
-  "value) or a coordinate followed by ' (its initial rate).\n"
+  "standard output when the table goes to a file (-o), else on standard error\n"
+  "(standard output is the table then).  NAME is a parameter, a constant\n"
+  "input, a coordinate (its initial value) or a coordinate followed by ' (its\n"
+  "initial rate).\n"
   "\n"
   "options:\n"
   "  --vary NAME=LO:HI:N      N equally spaced values from LO to HI (repeatable;\n"
@@ -490,8 +492,18 @@ static int run_and_write(Sweep *s, const struct eom_model *m, const SweepComm *c
     rc = EXIT_RUN;
     goto out;
   }
-  fputs("eomc sweep: ", stderr);
-  sweep_table_summary(&table, stderr);
+  /* The summary is the command's answer when the table went to a file;
+  ** with the table on stdout it keeps out of it, on stderr. */
+  if (a->out) {
+    sweep_table_summary(&table, stdout);
+    if (fflush(stdout) != 0 || ferror(stdout)) {
+      fprintf(stderr, "eomc sweep: error: writing the summary to standard output failed\n");
+      rc = EXIT_RUN;
+    }
+  } else {
+    fputs("eomc sweep: ", stderr);
+    sweep_table_summary(&table, stderr);
+  }
   if (table.failed) rc = EXIT_RUN;
   if (a->plot && sweep_bands_svg(&table, 0, a->until, a->plot, err, sizeof err) != 0) {
     fprintf(stderr, "eomc sweep: error: %s\n", err);
