@@ -126,7 +126,7 @@ static int continues(int kind) {
 /* May a `[` right after a token of this kind index it? */
 static int indexable(int kind) {
   switch (kind) {
-    case T_NAME: case CW_MASS: case CW_AT: case CW_ON: case CW_ORIENT: case CW_INERTIA:
+    case T_NAME: case CW_MASS: case CW_AT: case CW_ON: case CW_ORIENT: case CW_INERTIA: case CW_BOUNCE:
     case ')': case ']': case '\'':
       return 1;
     default:
@@ -392,6 +392,7 @@ static int scan(Lexer *lx, Token *t) {
         finish(lx, t, ';');
         return ';';
       }
+      ">="          { finish(lx, t, T_GE); return T_GE; }
       [-+*/^=,']    { finish(lx, t, *lx->tok); return t->kind; }
 
       *             { return invalid_char(lx, t); }

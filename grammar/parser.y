@@ -163,12 +163,14 @@ static Stmt *expr_stmt(ParseCtx *ctx, StmtKind sk, YYLTYPE kw, Expr *e0, Expr *e
 %token KW_MODEL KW_COORD KW_PARAM KW_CONST KW_INPUT KW_LET KW_INITIAL KW_OUTPUT
 %token KW_IDENTIFY KW_KINETIC KW_POTENTIAL KW_LAGRANGIAN KW_DISSIPATION
 %token KW_FORCE KW_TORQUE KW_GRAVITY KW_BODY KW_CONSTRAINT KW_FRAME KW_ATTITUDE
-/* Contextual words: ordinary names except where `body`, `force` and
-** `torque` expect them. */
-%token <str> CW_MASS CW_AT CW_ON CW_ORIENT CW_INERTIA
+%token KW_STOP
+%token T_GE          /* `>=` (only in `stop`) */
+/* Contextual words: ordinary names except where `body`, `force`,
+** `torque` and `stop` expect them. */
+%token <str> CW_MASS CW_AT CW_ON CW_ORIENT CW_INERTIA CW_BOUNCE
 
 %type <str> name desc_opt
-%type <expr> expr postfix primary unit_opt name_unit_opt
+%type <expr> bounce_opt expr postfix primary unit_opt name_unit_opt
 %type <vec> namelist exprlist args_opt
 %type <stmt> stmt body_parts
 %type <ival> body_word
@@ -190,7 +192,7 @@ file:
 sep: T_NEWLINE | ';' ;
 
 name:
-    T_NAME | CW_MASS | CW_AT | CW_ON | CW_ORIENT | CW_INERTIA ;
+    T_NAME | CW_MASS | CW_AT | CW_ON | CW_ORIENT | CW_INERTIA | CW_BOUNCE ;
 
 stmt:
     KW_MODEL name {
@@ -282,6 +284,11 @@ stmt:
       $$ = expr_stmt(ctx, ST_CONSTRAINT, @1, $2, $4);
       if ($$) $$->e[2] = $5;
     }
+  | KW_STOP expr T_GE expr bounce_opt desc_opt {
+      $$ = expr_stmt(ctx, ST_STOP, @1, $2, $4);
+      $$->e[2] = $5;
+      $$->desc = $6;
+    }
   | KW_BODY name body_parts {
       $$ = $3;
       if ($$) {
@@ -337,6 +344,11 @@ name_unit_opt:
     %empty                  { $$ = NULL; }
   | '[' expr ']'            { $$ = $2; }
   | T_IDX_LBRACK expr ']'   { $$ = $2; }
+  ;
+
+bounce_opt:
+    %empty              { $$ = NULL; }
+  | CW_BOUNCE expr      { $$ = $2; }
   ;
 
 desc_opt:
@@ -440,6 +452,7 @@ static void describe(yysymbol_kind_t k, const Token *tok, char *buf, size_t n) {
 #define WORD(token, spelling) {YYSYMBOL_##token, spelling},
     EOM_WORDS(WORD, WORD)
 #undef WORD
+    {YYSYMBOL_T_GE, ">="},
   };
   for (size_t i = 0; i < sizeof words / sizeof words[0]; i++)
     if (words[i].k == k) {

@@ -5,7 +5,8 @@
 **                                    and can never be a name
 **   CONTEXT_WORD(TOKEN, "spelling")  a word with a meaning in one place
 **                                    (body b mass m at P, force F at P,
-**                                    torque T on R) and a name elsewhere
+**                                    torque T on R, stop ... bounce) and a
+**                                    name elsewhere
 **
 ** TOKEN is the parser's token (grammar/parser.y) that the lexer returns
 ** for the word.  The lexer glue looks every name up here, the parser's
@@ -37,11 +38,13 @@
   KEYWORD(KW_GRAVITY, "gravity")          \
   KEYWORD(KW_BODY, "body")                \
   KEYWORD(KW_CONSTRAINT, "constraint")    \
+  KEYWORD(KW_STOP, "stop")                \
   CONTEXT_WORD(CW_MASS, "mass")           \
   CONTEXT_WORD(CW_AT, "at")               \
   CONTEXT_WORD(CW_ON, "on")               \
   CONTEXT_WORD(CW_ORIENT, "orient")       \
-  CONTEXT_WORD(CW_INERTIA, "inertia")
+  CONTEXT_WORD(CW_INERTIA, "inertia")     \
+  CONTEXT_WORD(CW_BOUNCE, "bounce")
 
 /* For an X-macro argument that ignores its entries. */
 #define EOM_WORD_SKIP(token, spelling)
