@@ -3,7 +3,10 @@
 ** sample, and CSV text for them.  The columns, in this order: t, the
 ** coordinates, their rates (name'), the outputs, the inputs, the
 ** multipliers lambda1..lambdaNC (only for a model with constraints) and the
-** energies T, V.  The multipliers are those of accel_constrained at the
+** energies T, V.  A model with attitudes has its quaternions among the
+** coordinates, its velocities (omega(R)[1] ...) as the rates, and each
+** attitude's roll, pitch and yaw (R.roll, R.pitch, R.yaw; for reading)
+** right after the rates.  The multipliers are those of accel_constrained at the
 ** sample: the generalized constraint force is +Gᵀλ (G = dphi/dq).
 **
 ** Numbers are written by eom_format_double (shortest exact round trip) into
@@ -21,9 +24,12 @@ static int multipliers(const struct eom_model *m) {
   return m->accel_constrained ? m->nc + m->nvc : 0;
 }
 
+/* Roll, pitch and yaw columns: 3 per attitude. */
+static int angle_columns(const struct eom_model *m) { return 3 * (m->nattitudes > 0 ? m->nattitudes : 0); }
+
 int eom_row_width(const struct eom_model *m) {
   assert(m);
-  return 1 + 2 * m->nq + m->ny + m->nu + multipliers(m) + 2;
+  return 1 + eom_state_size(m) + angle_columns(m) + m->ny + m->nu + multipliers(m) + 2;
 }
 
 /* Column k's name into buf ("" for k out of range); its unit into *unit
@@ -31,16 +37,23 @@ int eom_row_width(const struct eom_model *m) {
 const char *eom_row_column(const struct eom_model *m, int k, char *buf, size_t size,
                            const char **unit) {
   const char *u = "";
+  int nv = eom_nv(m);
   assert(m && buf && size >= 2);
   buf[0] = '\0';
   if (k == 0) snprintf(buf, size, "t"), u = "s";
   else if ((k -= 1) < m->nq) {
     snprintf(buf, size, "%s", m->coord_names[k]);
     u = m->coord_units ? m->coord_units[k] : "";
-  } else if ((k -= m->nq) < m->nq) {
-    snprintf(buf, size, "%s'", m->coord_names[k]);
-    u = m->coord_units ? m->coord_units[k] : "";  /* per second: see eom_row_unit */
-  } else if ((k -= m->nq) < m->ny) snprintf(buf, size, "%s", m->output_names[k]);
+  } else if ((k -= m->nq) < nv) {
+    if (m->nattitudes > 0 && m->rate_names) snprintf(buf, size, "%s", m->rate_names[k]);
+    else snprintf(buf, size, "%s'", m->coord_names[k]);
+    /* per second: see eom_row_unit (an attitude's omega: rad/s) */
+    u = k >= m->nq - 4 * m->nattitudes ? "rad" : m->coord_units ? m->coord_units[k] : "";
+  } else if ((k -= nv) < angle_columns(m)) {
+    static const char *const angle[3] = {"roll", "pitch", "yaw"};
+    snprintf(buf, size, "%s.%s", m->attitude_names[k / 3], angle[k % 3]);
+    u = "rad";
+  } else if ((k -= angle_columns(m)) < m->ny) snprintf(buf, size, "%s", m->output_names[k]);
   else if ((k -= m->ny) < m->nu) {
     snprintf(buf, size, "%s", m->input_names[k]);
     u = m->input_units ? m->input_units[k] : "";
@@ -57,7 +70,7 @@ const char *eom_row_unit(const struct eom_model *m, int k, char *buf, size_t siz
   const char *u;
   assert(buf && size > 0);
   eom_row_column(m, k, name, sizeof name, &u);
-  if (k >= 1 + m->nq && k < 1 + 2 * m->nq)
+  if (k >= 1 + m->nq && k < 1 + eom_state_size(m))
     snprintf(buf, size, "%s/s", u && *u ? u : "1");
   else
     snprintf(buf, size, "%s", u ? u : "");
@@ -72,8 +85,9 @@ int eom_row_eval(const struct eom_model *m, const double *p, double t, const dou
   if (!p) p = m->param_defaults;
   double *r = row;
   *r++ = t;
-  memcpy(r, x, 2 * (size_t)m->nq * sizeof(double));
-  r += 2 * m->nq;
+  memcpy(r, x, (size_t)eom_state_size(m) * sizeof(double));
+  r += eom_state_size(m);
+  for (int a = 0; a < m->nattitudes; a++, r += 3) eom_quaternion_rpy(x + eom_first_quaternion(m) + 4 * a, r);
   double *zeros = NULL;
   if (!u && (m->nu > 0 || nmul > 0)) {
     zeros = calloc((size_t)m->nu + 1, sizeof(double));
@@ -88,7 +102,7 @@ int eom_row_eval(const struct eom_model *m, const double *p, double t, const dou
   if (m->nu > 0) memcpy(r, u, (size_t)m->nu * sizeof(double));
   r += m->nu;
   if (nmul > 0) {
-    double *qdd = malloc((size_t)m->nq * sizeof(double));
+    double *qdd = malloc((size_t)eom_nv(m) * sizeof(double));
     /* NaN when the saddle-point system is singular there. */
     if (!qdd) st = -1;
     else if (m->accel_constrained(t, x, x + m->nq, u, p, qdd, r) != 0)

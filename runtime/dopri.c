@@ -271,6 +271,9 @@ int dopri_run(SimContext *c, const struct eom_sim_options *o, Sampler *smp, doub
         if ((st = sampler_emit(c, smp, ts, sample))) goto done;
       }
       memcpy(x, y_end, (size_t)n * sizeof(double));
+      /* unit quaternions again; the moved state keeps y_end's slope (the
+      ** move is of the order of the step's error) */
+      sim_normalize(c, x);
       if (event) {
         /* restart on the new branch: its own slope, a fresh controller */
         last = 0;

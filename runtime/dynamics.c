@@ -1,5 +1,6 @@
 /*
-** dynamics.c — evaluate a model for the integrators: x' = [qd; M⁻¹ f], its
+** dynamics.c — evaluate a model for the integrators: x' = [N(q) v; M⁻¹ f]
+** (N(q) v = qd without attitudes), its
 ** jacobian (the model's own or central differences), and the norms the
 ** adaptive methods share.  Failure messages are report.c's.
 */
@@ -23,7 +24,7 @@ int simctx_init(SimContext *c, const struct eom_model *m, const double *p,
   c->m = m;
   c->p = p ? p : m->param_defaults;
   c->in = in;
-  c->n = 2 * m->nq;
+  c->n = eom_state_size(m);
   c->rep = rep;
   c->rtol = 1e-8;
   c->atol = 1e-10;
@@ -34,6 +35,10 @@ int simctx_init(SimContext *c, const struct eom_model *m, const double *p,
   c->fd_f1 = alloc_doubles((size_t)c->n);
   c->fd_f2 = alloc_doubles((size_t)c->n);
   c->piv = calloc((size_t)(3 * c->n + 1), sizeof(int));
+  if (m->nattitudes > 0 && !(c->att_sample = alloc_doubles((size_t)c->n))) {
+    simctx_free(c);
+    return EOM_ENOMEM;
+  }
   if (!c->piv || !c->u || !c->lambda || !c->jac_b || !c->fd_x || !c->fd_f1 || !c->fd_f2) {
     simctx_free(c);
     return EOM_ENOMEM;
@@ -50,6 +55,8 @@ void simctx_free(SimContext *c) {
   free(c->fd_f2);
   free(c->piv);
   free(c->cs_work);
+  free(c->att_sample);
+  c->att_sample = NULL;
   c->piv = NULL;
   c->cs_work = c->cs_sample = NULL;
   c->u = c->lambda = c->jac_b = c->fd_x = c->fd_f1 = c->fd_f2 = NULL;
@@ -74,12 +81,20 @@ static int model_accel(const struct eom_model *m, const double *p, double t, con
   return m->accel(t, q, qd, u, p, qdd);
 }
 
+/* q' = v, or the kinematic map of a model with attitudes. */
+static void rates_of_q(const struct eom_model *m, const double *x, double *qdot) {
+  if (m->nattitudes > 0 && m->kinematics) m->kinematics(x, x + m->nq, qdot);
+  else memcpy(qdot, x + m->nq, (size_t)m->nq * sizeof(double));
+}
+
+void sim_normalize(SimContext *c, double *x) { (void)eom_normalize_state(c->m, x); }
+
 int sim_rhs(SimContext *c, double t, const double *x, double *xdot) {
   const struct eom_model *m = c->m;
   int nq = m->nq;
   sim_load_inputs(c, t);
   c->rep->rhs_evals++;
-  memcpy(xdot, x + nq, (size_t)nq * sizeof(double));
+  rates_of_q(m, x, xdot);
   if (c->cs_active && (m->nc == 0 || m->constraint_gamma))
     return stabilize_accel(c, t, x, c->u, xdot + nq);
   int bad = model_accel(m, c->p, t, x, c->u, xdot + nq, c->lambda);
@@ -175,7 +190,7 @@ int eom_dynamics(const struct eom_model *m, const double *p, double t, const dou
       return EOM_ENOMEM;
     }
   }
-  memcpy(xdot, x + m->nq, (size_t)m->nq * sizeof(double));
+  rates_of_q(m, x, xdot);
   int bad = model_accel(m, p ? p : m->param_defaults, t, x, u, xdot + m->nq, lambda);
   if (lambda != lambda_small) free(lambda);
   free(zero_u);

@@ -468,6 +468,7 @@ int radau5_run(SimContext *c, const struct eom_sim_options *o, Sampler *smp, dou
     if (c->cs_project &&
         (st = stabilize_project(c, t, x, 10, "projecting onto the constraints")))
       goto done;
+    sim_normalize(c, x);
     mass_pending = 0;
     if (smp->every_step && (st = sampler_emit(c, smp, t, x))) goto done;
     if (last) break;

@@ -119,6 +119,12 @@ double sampler_next(const Sampler *s) {
 static int sampler_deliver(SimContext *c, Sampler *s, double t, const double *x) {
   s->last_t = t;
   if (!s->fn) return EOM_OK;
+  /* Interpolated samples of a model with attitudes: unit quaternions too. */
+  if (c->att_sample) {
+    memcpy(c->att_sample, x, (size_t)c->n * sizeof(double));
+    sim_normalize(c, c->att_sample);
+    x = c->att_sample;
+  }
   /* Interpolated samples of a constrained run go out on the constraints too. */
   if (c->cs_active && c->cs_project) {
     stabilize_sample(c, t, x, c->cs_sample);
@@ -227,6 +233,7 @@ static int fixed_run(SimContext *c, const Method *m, const struct eom_sim_option
                       "the state became non-finite in the step from here");
         goto done;
       }
+      sim_normalize(c, x);
       if (c->cs_project &&
           (st = stabilize_project(c, t_next, x, 10, "projecting onto the constraints")))
         goto restore;
@@ -326,6 +333,7 @@ static int fixed_run_keep_step(SimContext *c, const Method *m, const struct eom_
       st = sim_fail(c, EOM_ENONFINITE, t, x, "the state became non-finite in the step from here");
       goto done;
     }
+    sim_normalize(c, x);
     if (c->cs_project &&
         (st = stabilize_project(c, t1, x, 10, "projecting onto the constraints")))
       goto restore;

@@ -22,7 +22,8 @@ typedef struct SimContext {
   const double *p;          /* parameters (np) */
   const eom_inputs *in;     /* may be NULL */
   const double *u_fixed;    /* when set, u is this instead of in's signals */
-  int n;                    /* state size 2*nq */
+  int n;                    /* state size nq + nv (2 nq without attitudes) */
+  double *att_sample;       /* n: a sample with its quaternions normalized */
   double *u;                /* nu: inputs at the last evaluation */
   double *lambda;           /* nc: multipliers (constrained models) */
   double *jac_b;            /* n*nu: d xdot/du, filled by jacobian() and dropped */
@@ -49,6 +50,10 @@ typedef struct SimContext {
 int simctx_init(SimContext *c, const struct eom_model *m, const double *p,
                 const eom_inputs *in, struct eom_report *rep);
 void simctx_free(SimContext *c);
+
+/* Put each quaternion of x back on the unit sphere after an accepted step
+** (models with attitudes; nothing otherwise: eom_normalize_state). */
+void sim_normalize(SimContext *c, double *x);
 
 /* xdot = dynamics at (t, x) with u = u(t).  When accel() reports a mass
 ** matrix that is not positive definite, fills c->rep with the time and state

@@ -35,8 +35,12 @@ int sim_fail(SimContext *c, int status, double t, const double *x, const char *w
     len = append(r->message, cap, len, "; state");
     for (int i = 0; i < m->nq; i++)
       len = append(r->message, cap, len, "%s %s = %.10g", i ? "," : "", m->coord_names[i], x[i]);
-    for (int i = 0; i < m->nq; i++)
-      len = append(r->message, cap, len, ", %s' = %.10g", m->coord_names[i], x[m->nq + i]);
+    for (int i = 0; i < eom_nv(m); i++) {
+      if (m->nattitudes > 0 && m->rate_names)
+        len = append(r->message, cap, len, ", %s = %.10g", m->rate_names[i], x[m->nq + i]);
+      else
+        len = append(r->message, cap, len, ", %s' = %.10g", m->coord_names[i], x[m->nq + i]);
+    }
   }
   return status;
 }

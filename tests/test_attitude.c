@@ -21,6 +21,10 @@
 **                                 quaternion kinematics, integrated by hand
 **                                 here (Euler's equations: Goldstein §5.5)
 **   generated Jacobian            against central differences of P_rhs
+**   eomc sim                      unit quaternions with every method, roll/
+**                                 pitch/yaw columns; the heavy top against
+**                                 examples/gimbal_top.eom (Euler angles),
+**                                 and from the vertical where those fail
 **
 ** The driver steps the state x = [q; v] with the classical Runge–Kutta
 ** method and divides each quaternion by its norm after every step (the
@@ -447,6 +451,137 @@ START_TEST(jacobian_against_differences) {
 }
 END_TEST
 
+/* ------------------------------------------------------------ eomc sim */
+
+/* dst = rotz(yaw) roty(pitch) rotx(roll), row-major (the Z-Y-X convention
+** the CSV's angles follow; common practice). */
+static void rotation_of_rpy(double roll, double pitch, double yaw, double R[9]) {
+  double cr = cos(roll), sr = sin(roll), cp = cos(pitch), sp = sin(pitch), cy = cos(yaw), sy = sin(yaw);
+  R[0] = cy * cp, R[1] = cy * sp * sr - sy * cr, R[2] = cy * sp * cr + sy * sr;
+  R[3] = sy * cp, R[4] = sy * sp * sr + cy * cr, R[5] = sy * sp * cr - cy * sr;
+  R[6] = -sp, R[7] = cp * sr, R[8] = cp * cr;
+}
+
+/* Every method of `eomc sim` steps the quaternion and keeps it unit; the
+** CSV has the quaternion, omega and roll/pitch/yaw columns, the angles
+** give back the quaternion's rotation, and the torque-free body keeps its
+** energy. */
+START_TEST(sim_keeps_unit_quaternions) {
+  static const char *const methods[][3] = {
+    {"--method=dopri", "--rtol=1e-10", "--atol=1e-12"},
+    {"--method=rk4", "--step=0.002", "--atol=1e-12"},
+    {"--method=radau5", "--rtol=1e-10", "--atol=1e-12"},
+    {"--method=midpoint", "--step=0.002", "--atol=1e-12"}};
+  char *model = write_file(scratch_dir(), "spinner.eom", free_body, strlen(free_body));
+  for (size_t k = 0; k < sizeof methods / sizeof methods[0]; k++) {
+    CsvTable t = sim_csv(model, scratch_path("run.csv"), "--until=20", "--every=0.1", methods[k][0],
+                         methods[k][1], methods[k][2], NULL);
+    ck_assert_int_eq(t.nrows, 201);
+    int q = csv_col(&t, "R.w"), w = csv_col(&t, "omega(R)[1]"), a = csv_col(&t, "R.roll");
+    int T = csv_col(&t, "T");
+    ck_assert_int_eq(csv_col(&t, "R.z"), q + 3);
+    ck_assert_int_eq(csv_col(&t, "omega(R)[3]"), w + 2);
+    ck_assert_int_eq(csv_col(&t, "R.pitch"), a + 1);
+    ck_assert_int_eq(csv_col(&t, "R.yaw"), a + 2);
+    double T0 = csv_at(&t, 0, T);
+    for (int r = 0; r < t.nrows; r++) {
+      double qq[4], R[9], E[9], n = 0;
+      for (int c = 0; c < 4; c++) qq[c] = csv_at(&t, r, q + c), n += qq[c] * qq[c];
+      ck_assert_msg(fabs(sqrt(n) - 1) < 1e-12, "%s: |q| - 1 = %g at row %d", methods[k][0], sqrt(n) - 1, r);
+      rotation_of(qq, R);
+      rotation_of_rpy(csv_at(&t, r, a), csv_at(&t, r, a + 1), csv_at(&t, r, a + 2), E);
+      for (int c = 0; c < 9; c++)
+        ck_assert_msg(fabs(R[c] - E[c]) < 1e-12, "%s: roll/pitch/yaw do not give R at row %d", methods[k][0], r);
+      /* the midpoint rule keeps a quadratic invariant only up to its error */
+      double tol = strcmp(methods[k][0], "--method=midpoint") == 0 ? 1e-5 : 1e-8;
+      ck_assert_msg(fabs(csv_at(&t, r, T) - T0) <= tol * T0, "%s: T %.12g, want %.12g at row %d",
+                    methods[k][0], csv_at(&t, r, T), T0, r);
+    }
+    csv_free(&t);
+  }
+  free(model);
+}
+END_TEST
+
+/* The heavy symmetric top of examples/gimbal_top.eom (z-x-z Euler angles)
+** written with an attitude: same parameters, no drag, R0 = rotx(0.35), and
+** the body-frame omega of the Euler rates phi' = 1.2, psi' = 150 at psi = 0,
+** theta' = 0: omega = [theta', phi' sin(theta), phi' cos(theta) + psi'] (the
+** kinematic equations of the Euler angles, Goldstein, Classical Mechanics,
+** §4.9, at psi = 0).  Where both are valid they must agree (to 1e-9 of the axle); from
+** the vertical, where the angles are singular, only the attitude runs. */
+static const char top_model[] =
+  "model free_top\n"
+  "attitude R \"rotor and axle\"\n"
+  "param m = 0.18 [kg]\nparam l = 0.035 [m]\n"
+  "param A = 6.5e-5 [kg*m^2]\nparam C = 1.1e-4 [kg*m^2]\nparam g = 9.81 [m/s^2]\n"
+  "body rotor mass m at R*[0, 0, l] orient R inertia diag(A, A, C)\n"
+  "gravity [0, 0, -g]\n"
+  "let axle_tip = R*[0, 0, 2*l]\n"
+  "output tip_x = axle_tip[1] [m]\noutput tip_y = axle_tip[2] [m]\noutput height = axle_tip[3] [m]\n"
+  "initial R = rotx(0.35)\n"
+  "initial omega(R) = [0, 1.2*sin(0.35), 1.2*cos(0.35) + 150]\n";
+
+START_TEST(heavy_top_against_euler_angles) {
+  char *model = write_file(scratch_dir(), "free_top.eom", top_model, strlen(top_model));
+  CsvTable a = sim_csv(model, scratch_path("att.csv"), "--until=0.5", "--every=0.05", "--rtol=1e-13",
+                       "--atol=1e-16", NULL);
+  CsvTable e = sim_csv(example_file("gimbal_top.eom"), scratch_path("euler.csv"), "--set=c=0", "--until=0.5",
+                       "--every=0.05", "--rtol=1e-13", "--atol=1e-16", NULL);
+  ck_assert_int_eq(a.nrows, 11);
+  ck_assert_int_eq(e.nrows, 11);
+  static const char *const tip[3] = {"tip_x", "tip_y", "height"};
+  double moved = 0;
+  for (int r = 0; r < a.nrows; r++)
+    for (int c = 0; c < 3; c++) {
+      double x = csv_at(&a, r, csv_col(&a, tip[c])), y = csv_at(&e, r, csv_col(&e, tip[c]));
+      ck_assert_msg(fabs(x - y) <= 1e-9 * 0.07, "t = %g, %s: attitude %.15g, Euler angles %.15g",
+                    csv_at(&a, r, 0), tip[c], x, y);
+      moved = fmax(moved, fabs(x - csv_at(&a, 0, csv_col(&a, tip[c]))));
+    }
+  ck_assert_msg(moved > 0.01, "the top hardly moved (%g m)", moved);
+  csv_free(&a), csv_free(&e);
+  free(model);
+}
+END_TEST
+
+START_TEST(heavy_top_through_the_vertical) {
+  char text[sizeof top_model + 64];
+  snprintf(text, sizeof text, "%.*s", (int)(strstr(top_model, "initial R") - top_model), top_model);
+  strcat(text, "initial omega(R) = [0.3, 0, 150]\n");   /* upright: R = I */
+  char *model = write_file(scratch_dir(), "upright.eom", text, strlen(text));
+  CsvTable a = sim_csv(model, scratch_path("up.csv"), "--until=1", "--every=0.01", "--rtol=1e-11",
+                       "--atol=1e-13", NULL);
+  ck_assert_int_eq(a.nrows, 101);
+  int T = csv_col(&a, "T"), V = csv_col(&a, "V"), h = csv_col(&a, "height");
+  double E0 = csv_at(&a, 0, T) + csv_at(&a, 0, V);
+  ck_assert(fabs(csv_at(&a, 0, h) - 0.07) < 1e-15);   /* starts exactly upright */
+  for (int r = 0; r < a.nrows; r++)
+    ck_assert_msg(fabs(csv_at(&a, r, T) + csv_at(&a, r, V) - E0) <= 1e-7 * E0, "energy at row %d", r);
+  csv_free(&a);
+  /* the Euler-angle model cannot start there: its mass matrix is singular */
+  RunResult r = eomc_run("sim", example_file("gimbal_top.eom"), "--set=th=0", "--until=0.1", NULL);
+  ck_assert_int_ne(r.status, 0);
+  ck_assert_msg(strstr(r.err, "mass matrix is not positive definite") != NULL, "%s", r.err);
+  run_free(&r);
+  free(model);
+}
+END_TEST
+
+/* Verbs whose analysis does not handle attitudes yet say so at the attitude. */
+START_TEST(modes_refuses_attitudes_at_the_attitude) {
+  char *model = write_file(scratch_dir(), "spinner.eom", free_body, strlen(free_body));
+  static const char *const verbs[] = {"modes", "linearize"};
+  for (int k = 0; k < 2; k++) {
+    RunResult r = eomc_run(verbs[k], model, NULL);
+    ck_assert_int_eq(r.status, 1);
+    ck_assert_msg(strstr(r.err, "spinner.eom:2:10: error: attitude 'R'") != NULL, "%s", r.err);
+    run_free(&r);
+  }
+  free(model);
+}
+END_TEST
+
 static Suite *make_suite(void) {
   Suite *s = suite_create("attitude");
   TCase *tc = tcase_create("free bodies");
@@ -457,6 +592,14 @@ static Suite *make_suite(void) {
   tcase_add_test(tc, hover_is_equilibrium);
   tcase_add_test(tc, flight_against_newton_euler);
   tcase_add_test(tc, jacobian_against_differences);
+  suite_add_tcase(s, tc);
+  tc = tcase_create("runs");
+  tcase_set_timeout(tc, 120);
+  tcase_add_checked_fixture(tc, scratch_setup, scratch_teardown);
+  tcase_add_test(tc, sim_keeps_unit_quaternions);
+  tcase_add_test(tc, heavy_top_against_euler_angles);
+  tcase_add_test(tc, heavy_top_through_the_vertical);
+  tcase_add_test(tc, modes_refuses_attitudes_at_the_attitude);
   suite_add_tcase(s, tc);
   return s;
 }

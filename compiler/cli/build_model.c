@@ -304,7 +304,7 @@ static int load(const char *so_path, const char *prefix, BuiltModel *out, char *
   return 0;
 }
 
-int build_model(const char *path, BuiltModel *out) {
+static int build(const char *path, const char *refuse_attitudes, BuiltModel *out) {
   Frontend fe;
   char key[HASH_HEX_LEN + 1], err[1024];
   char *root = NULL, *so_path = NULL;
@@ -316,13 +316,12 @@ int build_model(const char *path, BuiltModel *out) {
 
   rc = frontend_open(&fe, path, 0);
   if (rc != 0) return rc;
-  if (fe.model.nattitudes > 0) {
-    /* libeomrt steps x = [q; qd] with qd = q'; the quaternion state of an
-    ** attitude (q' = N(q) v) is not stepped by it yet */
+  if (refuse_attitudes && fe.model.nattitudes > 0) {
+    /* their perturbations need 3 parameters per attitude, not 4 */
     int printed = fe.diag.nmsgs;
     diag_error(&fe.diag, fe.model.attitudes[0]->loc,
-               "attitude '%s': the runtime does not run models with attitudes yet; 'eomc gen' "
-               "writes their C (P_rhs, P_kinematics, P_normalize)", fe.model.attitudes[0]->name);
+               "attitude '%s': 'eomc %s' does not handle models with attitudes yet ('eomc sim' "
+               "runs them, 'eomc gen' writes their C)", fe.model.attitudes[0]->name, refuse_attitudes);
     diag_print_from(&fe.diag, printed, stderr);
     frontend_free(&fe);
     return EXIT_MODEL;
@@ -375,6 +374,13 @@ out:
   free(so_path);
   frontend_free(&fe);
   return rc;
+}
+
+int build_model(const char *path, BuiltModel *out) { return build(path, NULL, out); }
+
+int build_model_without_attitudes(const char *path, const char *verb, BuiltModel *out) {
+  assert(verb);
+  return build(path, verb, out);
 }
 
 void built_model_close(BuiltModel *b) {

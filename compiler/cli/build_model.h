@@ -24,6 +24,10 @@ typedef struct BuiltModel {
 ** Cache directory: $EOMC_CACHE_DIR, else $XDG_CACHE_HOME/eomc, else
 ** $HOME/.cache/eomc.  Compiler: $CC (split at blanks; default "cc"). */
 int build_model(const char *path, BuiltModel *out);
+/* The same for a verb whose analysis does not handle attitudes yet (modes,
+** linearize, sweep): a model with one is refused with an error at its
+** first attitude (EXIT_MODEL). */
+int build_model_without_attitudes(const char *path, const char *verb, BuiltModel *out);
 void built_model_close(BuiltModel *b);
 
 /* The cache root as above, malloc'd, or NULL when no variable gives one. */

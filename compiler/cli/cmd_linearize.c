@@ -415,7 +415,7 @@ int cmd_linearize(int argc, char **argv) {
   Linear L;
   char **xs = NULL, err[512] = "";
   memset(&L, 0, sizeof L);
-  if ((rc = build_model(o.model, &bm)) != 0) goto done;
+  if ((rc = build_model_without_attitudes(o.model, "linearize", &bm)) != 0) goto done;
   const struct eom_model *m = bm.model;
   if (run_values_init(&rv, m) != 0) {
     fputs("eomc linearize: out of memory\n", stderr);

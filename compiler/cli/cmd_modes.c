@@ -327,7 +327,7 @@ int cmd_modes(int argc, char **argv) {
 
   BuiltModel bm;
   RunValues rv;
-  if ((rc = build_model(model, &bm)) != 0) goto done;
+  if ((rc = build_model_without_attitudes(model, "modes", &bm)) != 0) goto done;
   const struct eom_model *m = bm.model;
   ModalResult mr;
   memset(&mr, 0, sizeof mr);

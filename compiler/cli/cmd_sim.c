@@ -220,7 +220,7 @@ typedef struct SimOut {
   double t_end, started, last_draw;
   int drawn;
   ConservedMonitor *conserved;  /* constants of the motion, watched per sample */
-  double *x_first;              /* 2 nq: the first row's state (after the initial fix) */
+  double *x_first;              /* nq + nv: the first row's state (after the initial fix) */
 } SimOut;
 
 static double now_seconds(void) {
@@ -277,7 +277,7 @@ static int on_sample(void *ctx, double t, const double *x, const double *u) {
   if (m->energy) m->energy(x, x + m->nq, s->p, &T, &V);
   cmon_sample(s->conserved, x, s->p);
   if (s->rows == 0) s->E0 = T + V;
-  if (s->rows == 0 && s->x_first) memcpy(s->x_first, x, 2 * (size_t)m->nq * sizeof(double));
+  if (s->rows == 0 && s->x_first) memcpy(s->x_first, x, (size_t)eom_state_size(m) * sizeof(double));
   s->E = T + V;
   s->rows++;
   s->t_last = t;
@@ -439,13 +439,13 @@ int cmd_sim(int argc, char **argv) {
     rc = EXIT_USAGE;
     goto out;
   }
-  x_given = malloc(4 * (size_t)m->nq * sizeof(double) + 1);
+  x_given = malloc(2 * (size_t)eom_state_size(m) * sizeof(double) + 1);
   if (!x_given) {
     fprintf(stderr, "eomc sim: error: out of memory\n");
     rc = EXIT_RUN;
     goto out;
   }
-  memcpy(x_given, rv.x, 2 * (size_t)m->nq * sizeof(double));
+  memcpy(x_given, rv.x, (size_t)eom_state_size(m) * sizeof(double));
   csv = open_csv(&a, &tmp_csv);
   if (!csv) {
     fprintf(stderr, "eomc sim: error: cannot write %s: %s\n", tmp_csv ? tmp_csv : "the CSV",
@@ -465,7 +465,7 @@ int cmd_sim(int argc, char **argv) {
   so.tty = isatty(STDERR_FILENO);
   so.t_end = a.until;
   so.started = so.last_draw = now_seconds();
-  so.x_first = x_given + 2 * m->nq;
+  so.x_first = x_given + eom_state_size(m);
   eom_sim_options_init(&o);
   o.method = a.method;
   o.t0 = 0;

@@ -383,12 +383,12 @@ static FILE *open_csv(const char *out, char **tmp_path) {
 static int load_model(const SweepComm *comm, const char *path, BuiltModel *bm) {
   int rc = 0;
   memset(bm, 0, sizeof *bm);
-  if (comm->rank == 0) rc = build_model(path, bm);
+  if (comm->rank == 0) rc = build_model_without_attitudes(path, "sweep", bm);
   rc = sweep_comm_max(comm, rc);
   if (rc != 0 || comm->rank == 0) return rc;
   int saved = dup(STDERR_FILENO), null = open("/dev/null", O_WRONLY);
   if (saved >= 0 && null >= 0) dup2(null, STDERR_FILENO);
-  rc = build_model(path, bm);
+  rc = build_model_without_attitudes(path, "sweep", bm);
   if (saved >= 0 && null >= 0) dup2(saved, STDERR_FILENO);
   if (saved >= 0) close(saved);
   if (null >= 0) close(null);

@@ -22,7 +22,7 @@ int cmon_init(ConservedMonitor *c, const struct eom_model *m) {
     cmon_free(c);
     return -1;
   }
-  for (int i = 0; i < m->nq; i++)
+  for (int i = 0; i < m->nq - 4 * m->nattitudes; i++)   /* an attitude's omega is never cyclic */
     if (m->cyclic && m->cyclic[i]) c->coord[c->n++] = i;
   if (m->energy_conserved) c->coord[c->n++] = -1;
   return 0;

@@ -6,6 +6,7 @@
 ** frequencies of the eigenvalues against the swept rate.
 */
 #include "cli/plot.h"
+#include "eom/runtime.h"
 
 #ifdef HAVE_CONFIG_H
 #include "config.h"
@@ -43,19 +44,25 @@ static void put_quoted(FILE *f, const char *s) {
   fputc('\'', f);
 }
 
+/* Panels: the coordinates (with attitudes: each one's roll, pitch and yaw
+** instead of its quaternion), the energies, and a phase portrait per
+** coordinate; columns as eom_row_column numbers them (1-based here). */
 static int write_script(FILE *f, const struct eom_model *m, const char *csv, const char *out) {
-  int nq = m->nq, col_T = 2 + 2 * nq + m->ny, col_V = col_T + 1;
-  int panels = 2 + nq;
+  int nq = m->nq, nplain = m->nq - 4 * m->nattitudes, width = eom_row_width(m);
+  int col_T = width - 1, col_V = width, col_angles = 2 + eom_state_size(m);
+  int panels = 2 + nplain;
   fprintf(f, "set terminal svg size 900,%d dynamic noenhanced font 'sans,11'\n", 260 * panels);
   fputs("set output ", f);
   put_quoted(f, out);
   fputs("\nset datafile separator ','\nset grid\nset key outside right top\n", f);
   fprintf(f, "set multiplot layout %d,1\n", panels);
   fputs("set title 'coordinates'\nset xlabel 't'\nset ylabel ''\nplot ", f);
-  for (int i = 0; i < nq; i++) {
-    fputs(i ? ", '' " : "", f);
-    if (!i) put_quoted(f, csv);
-    fprintf(f, " using 1:%d with lines title columnheader(%d)", 2 + i, 2 + i);
+  int ncurves = 0;
+  for (int c = 0; c < nplain + 3 * m->nattitudes; c++) {
+    int col = c < nplain ? 2 + c : col_angles + (c - nplain);
+    fputs(ncurves++ ? ", '' " : "", f);
+    if (c == 0) put_quoted(f, csv);
+    fprintf(f, " using 1:%d with lines title columnheader(%d)", col, col);
   }
   fputs("\nset title 'energy'\nplot ", f);
   put_quoted(f, csv);
@@ -63,7 +70,7 @@ static int write_script(FILE *f, const struct eom_model *m, const char *csv, con
           " using 1:%d with lines title 'T', '' using 1:%d with lines title 'V', "
           "'' using 1:(column(%d) + column(%d)) with lines title 'T + V'\n",
           col_T, col_V, col_T, col_V);
-  for (int i = 0; i < nq; i++) {
+  for (int i = 0; i < nplain; i++) {
     const char *name = m->coord_names[i];
     fputs("set title ", f);
     char buf[300];

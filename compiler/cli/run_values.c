@@ -4,6 +4,7 @@
 */
 #include "cli/run_values.h"
 #include "cli/value_text.h"
+#include "eom/runtime.h"
 
 #include <assert.h>
 #include <math.h>
@@ -23,7 +24,7 @@ int parse_number(const char *s, double *out) {
 int run_values_init(RunValues *v, const struct eom_model *m) {
   memset(v, 0, sizeof *v);
   v->p = calloc((size_t)m->np + 1, sizeof(double));
-  v->x = calloc(2 * (size_t)m->nq + 1, sizeof(double));
+  v->x = calloc((size_t)eom_state_size(m) + 1, sizeof(double));
   v->u = calloc((size_t)m->nu + 1, sizeof(double));
   v->u_set = calloc((size_t)m->nu + 1, sizeof(int));
   v->p_set = calloc((size_t)m->np + 1, sizeof(int));
@@ -32,10 +33,8 @@ int run_values_init(RunValues *v, const struct eom_model *m) {
     return -1;
   }
   for (int i = 0; i < m->np; i++) v->p[i] = m->param_defaults[i];
-  for (int i = 0; i < m->nq; i++) {
-    v->x[i] = m->q0 ? m->q0[i] : 0.0;
-    v->x[m->nq + i] = m->qd0 ? m->qd0[i] : 0.0;
-  }
+  for (int i = 0; i < m->nq; i++) v->x[i] = m->q0 ? m->q0[i] : 0.0;
+  for (int i = 0; i < eom_nv(m); i++) v->x[m->nq + i] = m->qd0 ? m->qd0[i] : 0.0;
   return 0;
 }
 
@@ -47,6 +46,10 @@ void run_values_free(RunValues *v) {
   free(v->p_set);
   memset(v, 0, sizeof *v);
 }
+
+/* The coordinates that are not attitude quaternions: a quaternion is set as
+** a whole (`initial R = ...` in the model), its omega entries by name. */
+static int plain_coords(const struct eom_model *m) { return m->nq - 4 * m->nattitudes; }
 
 /* Append the names allowed by kinds to buf, comma-separated. */
 static void allowed_names(const struct eom_model *m, int kinds, char *buf, size_t cap) {
@@ -64,9 +67,11 @@ static void allowed_names(const struct eom_model *m, int kinds, char *buf, size_
   if (kinds & RV_INPUTS)
     for (int i = 0; i < m->nu; i++) ADD("%s%s", m->input_names[i]);
   if (kinds & RV_COORDS)
-    for (int i = 0; i < m->nq; i++) ADD("%s%s", m->coord_names[i]);
-  if (kinds & RV_RATES)
-    for (int i = 0; i < m->nq; i++) ADD("%s%s'", m->coord_names[i]);
+    for (int i = 0; i < plain_coords(m); i++) ADD("%s%s", m->coord_names[i]);
+  if (kinds & RV_RATES) {
+    for (int i = 0; i < plain_coords(m); i++) ADD("%s%s'", m->coord_names[i]);
+    for (int i = plain_coords(m); i < eom_nv(m); i++) ADD("%s%s", m->rate_names[i]);
+  }
 #undef ADD
   if (len == 0) snprintf(buf, cap, "none");
 }
@@ -78,10 +83,13 @@ static int find_name(const struct eom_model *m, const char *name, size_t base, i
 #define SAME(n) (strlen(n) == base && strncmp((n), name, base) == 0)
   if (rate) {
     if (kinds & RV_RATES)
-      for (int i = 0; i < m->nq; i++)
+      for (int i = 0; i < plain_coords(m); i++)
         if (SAME(m->coord_names[i])) return *index = i, RV_RATES;
     return 0;
   }
+  if (kinds & RV_RATES)   /* omega(R)[k] */
+    for (int i = plain_coords(m); i < eom_nv(m); i++)
+      if (SAME(m->rate_names[i])) return *index = i, RV_RATES;
   if (kinds & RV_PARAMS)
     for (int i = 0; i < m->np; i++)
       if (SAME(m->param_names[i])) return *index = i, RV_PARAMS;
@@ -89,7 +97,7 @@ static int find_name(const struct eom_model *m, const char *name, size_t base, i
     for (int i = 0; i < m->nu; i++)
       if (SAME(m->input_names[i])) return *index = i, RV_INPUTS;
   if (kinds & RV_COORDS)
-    for (int i = 0; i < m->nq; i++)
+    for (int i = 0; i < plain_coords(m); i++)
       if (SAME(m->coord_names[i])) return *index = i, RV_COORDS;
 #undef SAME
   return 0;
@@ -104,6 +112,7 @@ static const char *declared_unit(const struct eom_model *m, int kind, int i, cha
   case RV_INPUTS: u = m->input_units ? m->input_units[i] : ""; break;
   case RV_COORDS: u = m->coord_units ? m->coord_units[i] : ""; break;
   case RV_RATES:
+    if (i >= plain_coords(m)) return "rad/s";   /* an attitude's omega */
     u = m->coord_units ? m->coord_units[i] : "";
     if (*u) {
       snprintf(buf, cap, "(%s)/s", u);

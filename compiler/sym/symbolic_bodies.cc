@@ -216,10 +216,23 @@ void Derivation::check_inertia(const Stmt *s, const Val &I) {
 void Derivation::add_rotation(const Val &R, const Val &I) {
   std::vector<std::array<ex, 3>> W(nv_);
   ex w[3], wdot[3];
-  if (R.turns && turns_match(R)) {
-    const std::vector<Turn> &f = *R.turns;
+  static const std::vector<Turn> no_turns;
+  if (R.att >= 0 || (R.turns && turns_match(R))) {
+    /* R = R_att F_1 ... F_m: the attitude's omega (body axes of R_att) is
+    ** carried out through the turns like a turn's axis, per entry */
+    const std::vector<Turn> &f = R.att >= 0 ? (R.att_rest ? *R.att_rest : no_turns) : *R.turns;
     const size_t m = f.size();
     exvector wt[3];
+    for (int c = 0; R.att >= 0 && c < 3; c++) {
+      const int j = ncoord_ + 3 * R.att + c;
+      ex v[3] = {0, 0, 0};
+      v[c] = 1;
+      for (size_t l = 0; l < m; l++) turn_back(f[l], v);
+      for (int k = 0; k < 3; k++) {
+        W[j][k] = W[j][k] + v[k];
+        if (!v[k].is_zero()) wt[k].push_back(qd_[j] * v[k]);
+      }
+    }
     for (size_t k = 0; k < m; k++) {
       if (f[k].shift) continue;
       ex th_rate = totald(f[k].angle);

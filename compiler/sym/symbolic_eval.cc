@@ -44,7 +44,7 @@ Val Derivation::eval(const Expr *x) {
       assert(x->op == OP_NEG && x->nargs == 1);
       Val v = eval(x->args[0]);
       for (ex &e : v.a) e = -e;
-      v.turns.reset();
+      v.turns.reset(), v.att = -1;
       v.placed = 0;
       return v;
     }
@@ -97,6 +97,7 @@ Val Derivation::eval_name(const Expr *x) {
       assert(d->index >= 0 && d->index < m_->nattitudes);
       Val R(3, 3);
       attitude_rotation(&q_[ncoord_ + 4 * d->index], R.a.data());
+      R.att = d->index;
       return R;
     }
   }
@@ -142,7 +143,7 @@ Val Derivation::eval_binary(const Expr *x) {
                                    shape_name(a).c_str(), shape_name(b).c_str())};
       Val sum = a;
       for (int k = 0; k < a.size(); k++) sum.a[k] = x->op == OP_ADD ? a.a[k] + b.a[k] : a.a[k] - b.a[k];
-      sum.turns.reset();
+      sum.turns.reset(), sum.att = -1;
       sum.placed = 0;
       if (b.placed == 2 && x->op == OP_SUB)
         for (ex &e : b.local) e = -e;  /* - R v = R (-v) */
@@ -160,7 +161,7 @@ Val Derivation::eval_binary(const Expr *x) {
           for (ex &e : v.local) e = c * e;
           return v;
         }
-        v.turns.reset();
+        v.turns.reset(), v.att = -1;
         v.placed = 0;
         return v;
       }
@@ -175,6 +176,14 @@ Val Derivation::eval_binary(const Expr *x) {
           r.at(i, j) = add(terms);
         }
       bool square = a.rows == a.cols && b.rows == b.cols && a.rows == b.rows && !a.placed && !b.placed;
+      if (a.att >= 0 && b.turns && square && a.rows == 3) {  /* R_att F ... times more turns */
+        auto t = std::make_shared<std::vector<Turn>>();
+        if (a.att_rest) *t = *a.att_rest;
+        t->insert(t->end(), b.turns->begin(), b.turns->end());
+        r.att = a.att;
+        r.att_rest = t;
+        return r;
+      }
       if (a.turns && b.turns && square &&
           (a.rows == 3 || (a.rows == 4 && last_row_is_unit(a) && last_row_is_unit(b)))) {
         auto t = std::make_shared<std::vector<Turn>>(*a.turns);
@@ -192,7 +201,7 @@ Val Derivation::eval_binary(const Expr *x) {
         throw SymError{x->loc, fmt("cannot divide by %s", shape_name(b).c_str())};
       if (b.a[0].is_zero()) throw SymError{x->loc, "division by zero"};
       for (ex &e : a.a) e = e / b.a[0];
-      a.turns.reset();
+      a.turns.reset(), a.att = -1;
       a.placed = 0;
       return a;
     }

@@ -376,6 +376,11 @@ struct Val {
   ** the steps too (see add_translation). */
   int placed = 0;
   GiNaC::ex local[3];
+  /* A 3x3 rotation known as R_att F_1 ... F_m: attitude `att` (-1: not so)
+  ** followed by the turns `att_rest` (null: none).  A body's angular
+  ** velocity is then omega(R_att) carried through the turns (add_rotation). */
+  int att = -1;
+  std::shared_ptr<const std::vector<Turn>> att_rest;
   explicit Val(const GiNaC::ex &e) : rows(1), cols(1), a(1, e) {}
   Val(int r, int c) : rows(r), cols(c), a((size_t)r * c, GiNaC::ex(0)) {}
   bool scalar() const { return rows == 1 && cols == 1; }

@@ -145,6 +145,23 @@ int eom_simulate(const struct eom_model *m, const double *p, const eom_inputs *i
                  double *x, const struct eom_sim_options *o,
                  eom_sample_fn sample, void *ctx, struct eom_report *rep);
 
+/* ------------------------------------------------------------ attitudes */
+
+/* Velocities of the model: m->nv (ABI 8), or nq for a descriptor that
+** leaves it 0.  The state x = [q; v] has eom_state_size(m) = nq + nv
+** entries; without attitudes nv = nq and v = q'. */
+int eom_nv(const struct eom_model *m);
+int eom_state_size(const struct eom_model *m);
+/* Index in q of the first attitude's quaternion (after the coordinates). */
+int eom_first_quaternion(const struct eom_model *m);
+/* Divide each quaternion of x by its norm (the model's normalize()); returns
+** the largest | |q| - 1 | met, 0 for a model without attitudes.  The
+** integrators call it after every accepted step. */
+double eom_normalize_state(const struct eom_model *m, double *x);
+/* Roll, pitch, yaw (rad) of the quaternion q[0..3], R = rotz(yaw)
+** roty(pitch) rotx(roll); roll is 0 at pitch = +-90 degrees.  For reading. */
+void eom_quaternion_rpy(const double *q, double rpy[3]);
+
 /* xdot = [qd; qdd] at (t, x, u), through accel() (or accel_constrained()
 ** when the model has constraints).  Returns EOM_OK or EOM_EMASS. */
 /* (u NULL: all inputs zero, here and below.) */
@@ -203,7 +220,10 @@ int eom_state_matrix(const struct eom_model *m, const double *p, double t, const
 /* A run's row has eom_row_width(m) columns, in this order: t, the
 ** coordinates, their rates (name'), the outputs, the inputs, the
 ** multipliers lambda1..lambdaNC (models with constraints: the constraint
-** force is Gᵀλ) and the energies T, V. */
+** force is Gᵀλ) and the energies T, V.  With attitudes the coordinates
+** include each quaternion ("R.w" ... "R.z"), the rates are the velocities
+** ("omega(R)[1]" ...), and after them come each attitude's "R.roll",
+** "R.pitch", "R.yaw" (rad, eom_quaternion_rpy). */
 int eom_row_width(const struct eom_model *m);
 /* Column k's name written into buf (e.g. "x'", "lambda2"); *unit (when unit
 ** is not NULL) is its declared unit, "" when unknown. */
