@@ -203,6 +203,14 @@ int dopri_run(SimContext *c, const struct eom_sim_options *o, Sampler *smp, doub
       st = EOM_EMASS;
       goto done;
     }
+    /* Steps that shrink away while a rate creeps up on zero: it has as
+    ** good as reached it (stick.c), and the run goes on from there. */
+    if (h < hmin && !mass_pending && ev.ns && events_reach(c, &ev, &t, 1e3 * hmin, x)) {
+      if ((st = sim_rhs(c, t, x, s.k1))) goto done;
+      h = 1e3 * hmin;
+      landing = 0;
+      continue;
+    }
     if (h < hmin || !(h > 0)) {
       snprintf(what, sizeof what, "step size underflow (h = %.3g)", h);
       st = sim_fail(c, EOM_ESTEP, t, x, what);
@@ -261,7 +269,16 @@ int dopri_run(SimContext *c, const struct eom_sim_options *o, Sampler *smp, doub
         st = -event;
         goto done;
       }
-      const double *y_end = event ? ev.x_ev : s.y1;
+      /* A landing that stopped short of its switch (the trial it was cut
+      ** from is inaccurate past the kink): cutting the next trial again
+      ** would only creep up on it.  The landed step's own extension,
+      ** carried a little past its end, finds the crossing instead. */
+      if (!event && landing && !last)
+        event = events_past_end(c, &ev, t, t_new, fmin(t_new + 0.1 * h, t_end), dopri_dense,
+                                &dd, events_tol(rtol, t, h), &t_new);
+      double *y_end = event ? ev.x_ev : s.y1;
+      /* a rate that reached zero may stick, a stuck one slip */
+      if (events_stick(c, &ev, t_new, y_end)) event = 1;
       for (double ts = sampler_next(smp); ts <= t_new; ts = sampler_next(smp)) {
         if (ts >= t_new) {
           memcpy(sample, y_end, (size_t)n * sizeof(double));
@@ -276,9 +293,13 @@ int dopri_run(SimContext *c, const struct eom_sim_options *o, Sampler *smp, doub
       sim_normalize(c, x);
       if (event) {
         /* restart on the new branch: its own slope, a fresh controller */
-        last = 0;
+        last = t_new >= t_end;
         facold = 1e-4;
         if ((st = sim_rhs(c, t_new, x, s.k1))) goto done;
+        if (!all_finite(n, s.k1)) {
+          st = sim_fail(c, EOM_ENONFINITE, t_new, x, "the acceleration is not finite");
+          goto done;
+        }
       } else {
         memcpy(s.k1, s.k7, (size_t)n * sizeof(double));
       }
@@ -289,7 +310,7 @@ int dopri_run(SimContext *c, const struct eom_sim_options *o, Sampler *smp, doub
           goto done;
       }
       /* steps in a row whose trials all ran into a switch: the motion is
-      ** held on it (sliding), which only a sticking law could follow */
+      ** held on it (sliding; dry friction sticks instead, stick.c) */
       if ((st = events_pinned(c, &ev, trial_crossed, t_new, x))) goto done;
       t = t_new;
       landing = 0;

@@ -55,6 +55,7 @@ void simctx_free(SimContext *c) {
   free(c->fd_f2);
   free(c->piv);
   free(c->cs_work);
+  stick_free(c);
   free(c->att_sample);
   c->att_sample = NULL;
   c->piv = NULL;
@@ -95,6 +96,7 @@ int sim_rhs(SimContext *c, double t, const double *x, double *xdot) {
   sim_load_inputs(c, t);
   c->rep->rhs_evals++;
   rates_of_q(m, x, xdot);
+  if (stick_holding(c)) return stick_accel(c, t, x, xdot + nq);
   if (c->cs_active && (m->nc == 0 || m->constraint_gamma))
     return stabilize_accel(c, t, x, c->u, xdot + nq);
   int bad = model_accel(m, c->p, t, x, c->u, xdot + nq, c->lambda);
@@ -110,7 +112,8 @@ int sim_rhs(SimContext *c, double t, const double *x, double *xdot) {
 int sim_jacobian(SimContext *c, double t, const double *x, double *A) {
   const struct eom_model *m = c->m;
   int n = c->n;
-  if (m->jacobian && m->nc + m->nvc == 0 && !c->jacobian_by_fd) {
+  /* while a rate sticks the motion is not the model's own: differences */
+  if (m->jacobian && m->nc + m->nvc == 0 && !c->jacobian_by_fd && !stick_holding(c)) {
     sim_load_inputs(c, t);
     m->jacobian(t, x, c->u, c->p, A, c->jac_b);
     return EOM_OK;
@@ -135,7 +138,7 @@ int sim_jacobian(SimContext *c, double t, const double *x, double *A) {
 int sim_distrust_jacobian(SimContext *c, double t, const double *x) {
   const struct eom_model *m = c->m;
   int n = c->n;
-  if (!m->jacobian || m->nc + m->nvc > 0 || c->jacobian_by_fd) return 0;
+  if (!m->jacobian || m->nc + m->nvc > 0 || c->jacobian_by_fd || stick_holding(c)) return 0;
   double *a = malloc(2 * (size_t)n * (size_t)n * sizeof(double));
   if (!a) return 0;
   double *d = a + (size_t)n * n, diff = 0, scale = 1e-300;

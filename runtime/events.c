@@ -56,6 +56,7 @@ void events_values(SimContext *c, double t, const double *x, double *s) {
   assert(m->switches);
   sim_load_inputs(c, t);
   m->switches(t, x, x + m->nq, c->u, c->p, s);
+  stick_margins(c, t, x, s);
 }
 
 /* Crossings back right after an event, in a row, before a run gives up. */
@@ -66,6 +67,8 @@ static int sign_of(double v) { return (v > 0) - (v < 0); }
 /* Count the event and, when asked, log it: time, the switch's call, which way. */
 static void log_event(SimContext *c, EventWatch *w, double t, int k, double before) {
   const struct eom_model *m = c->m;
+  /* a stuck switch's crossing is its release: stick.c logs it */
+  if (c->stick && c->stick->follows[k] == k) return;
   c->rep->events++;
   if (!w->log) return;
   fprintf(w->log, "event at t = %.10g: switch %d (%s) %s\n", t, k + 1,
@@ -128,8 +131,8 @@ int events_pinned(SimContext *c, EventWatch *w, int crossing, double t, const do
   }
   if (++w->pinned < EVENTS_MAX_CHATTER) return EOM_OK;
   return sim_fail(c, EOM_ECHATTER, t, x,
-                  "the motion is held on a switch (every step runs into it; a body held by "
-                  "dry friction would stick, and sticking is not modelled)");
+                  "the motion is held on a switch (every step runs into it: a sliding "
+                  "motion, or dry friction in a model with constraints, which does not stick)");
 }
 
 int events_after_step(SimContext *c, EventWatch *w, double t, double t_new, const double *x_new,
@@ -153,7 +156,7 @@ int events_after_step(SimContext *c, EventWatch *w, double t, double t_new, cons
       char what[200];
       snprintf(what, sizeof what,
                "switch %d (%s) chatters: it crossed back right after each of its last %d "
-               "events (a body held by dry friction would stick; sticking is not modelled)",
+               "events (dry friction in a model with constraints does not stick)",
                w->last + 1, c->m->switch_names ? c->m->switch_names[w->last] : "?",
                EVENTS_MAX_CHATTER);
       return -sim_fail(c, EOM_ECHATTER, t, x_new, what);
@@ -180,4 +183,72 @@ int events_after_step(SimContext *c, EventWatch *w, double t, double t_new, cons
   w->t_last = best;
   *t_ev = best;
   return 1;
+}
+
+int events_past_end(SimContext *c, EventWatch *w, double t, double t1, double t2, DenseFn dense,
+                    const void *dctx, double tol, double *t_ev) {
+  if (!w->ns || !(t2 > t1)) return 0;
+  (void)t;
+  dense(dctx, t2, w->xa);
+  events_values(c, t2, w->xa, w->s1);
+  double best = INFINITY;
+  int which = -1;
+  for (int k = 0; k < w->ns; k++) {
+    if (!crosses(w->s0[k], w->s1[k])) continue;
+    double tk = locate(c, w, k, t1, w->s0[k], t2, w->s1[k], dense, dctx, tol);
+    if (tk < best) best = tk, which = k;
+  }
+  if (which < 0) return 0;
+  double before = w->s0[which];
+  dense(dctx, best, w->x_ev);
+  events_values(c, best, w->x_ev, w->s0);
+  log_event(c, w, best, which, before);
+  w->last = which;
+  w->t_last = best;
+  w->chatters = 0;
+  *t_ev = best;
+  return 1;
+}
+
+int events_reach(SimContext *c, EventWatch *w, double *t, double h, double *x) {
+  if (!c->stick || !w->ns) return 0;
+  sim_load_inputs(c, *t);
+  if (!stick_reach(c, t, h, x)) return 0;
+  events_values(c, *t, x, w->s0);
+  w->last = -1;
+  c->t_good = *t;
+  return 1;
+}
+
+int events_stick(SimContext *c, EventWatch *w, double t, double *x) {
+  if (!c->stick || !w->ns) return 0;
+  sim_load_inputs(c, t);
+  int changed = w->last >= 0 && w->t_last == t ? stick_event(c, w->last, t, x, 1)
+                                               : stick_near_zero(c, t, x);
+  if (!changed) return 0;
+  /* the stuck set changed what the switches' values mean */
+  events_values(c, t, x, w->s0);
+  w->last = -1;
+  return 1;
+}
+
+int events_start(SimContext *c, double t, double *x) {
+  if (!c->stick) return 0;
+  sim_load_inputs(c, t);
+  return stick_start(c, t, x);
+}
+
+void events_fixed_step(SimContext *c, double t, double *x) {
+  StickState *s = c->stick;
+  if (!s) return;
+  double *now = s->vals;
+  events_values(c, t, x, now);
+  for (int k = 0; k < s->ns; k++) {
+    int lead = s->follows[k] == k, free_rate = s->follows[k] < 0;
+    if ((lead && now[k] <= 0) || (free_rate && crosses(s->s_prev[k], now[k]))) {
+      sim_load_inputs(c, t);
+      if (stick_event(c, k, t, x, 0)) events_values(c, t, x, now);
+    }
+  }
+  memcpy(s->s_prev, now, (size_t)s->ns * sizeof(double));
 }

@@ -296,7 +296,7 @@ int radau5_run(SimContext *c, const struct eom_sim_options *o, Sampler *smp, dou
   double rtol_e = pow(c->rtol, 0.8), atol_e = rtol_e * (c->atol / c->rtol);
   struct eom_report *rep = c->rep;
   size_t nn = (size_t)n;
-  double *mem = malloc((3 * (size_t)N + 10 * nn + 11 * nn * nn) * sizeof(double));
+  double *mem = malloc((3 * (size_t)N + 14 * nn + 11 * nn * nn) * sizeof(double));
   int *epiv = malloc(nn * sizeof(int));
   char what[128];
 
@@ -314,6 +314,9 @@ int radau5_run(SimContext *c, const struct eom_sim_options *o, Sampler *smp, dou
   double *f0 = sk + n, *e = f0 + n, *sample = e + n;
   Collocation poly = {0, 0, sample + n, sample + 2 * n, sample + 3 * n, sample + 4 * n};
   double *jac = poly.a3 + n, *mat = jac + nn * nn, *emat = mat + 9 * nn * nn;
+  double *tr = emat + nn * nn;  /* the trial's polynomial, for the switch search */
+  Collocation trial = {0, 0, tr, tr + n, tr + 2 * n, tr + 3 * n};
+  int landing = 0;  /* this step was shortened to end at a switch */
   EventWatch ev = {0};
   if ((st = events_init(c, o, &ev, t, x))) goto done;
 
@@ -401,6 +404,14 @@ int radau5_run(SimContext *c, const struct eom_sim_options *o, Sampler *smp, dou
         jac_valid = 0;
         continue;
       }
+      /* Newton cannot follow a rate across a dry friction's jump: once
+      ** the rate is as good as at zero, it sticks or turns there. */
+      if (events_reach(c, &ev, &t, h, x)) {
+        if ((st = sim_rhs(c, t, x, f0))) goto done;
+        jac_valid = have_poly = 0;
+        accepted = 0;
+        continue;
+      }
       newton_failed = 1;
       h *= 0.5;
       rep->rejected++;
@@ -414,6 +425,23 @@ int radau5_run(SimContext *c, const struct eom_sim_options *o, Sampler *smp, dou
       rep->rejected++;
       reject = 1;
       continue;
+    }
+    /* A trial step across a switch (as in dopri.c): its error estimate
+    ** and Newton assume a smooth right-hand side, so shorten it once to
+    ** end just past the switch, located on the trial's own collocation
+    ** polynomial, and take it again from the same point. */
+    if (ev.ns && !landing) {
+      double t_sw;
+      collocation_fit(&trial, n, t, h, x, z);
+      for (int i = 0; i < n; i++) y[i] = x[i] + z[2 * n + i];
+      RadauDense td = {&trial, n};
+      if (events_crossing(c, &ev, t, t + h, y, radau5_dense, &td, events_tol(c->rtol, t, h),
+                          &t_sw) &&
+          t_sw < t + h && t_sw - t > 0.01 * h) {
+        h = t_sw - t;
+        landing = 1;
+        continue;
+      }
     }
     err = fmax(err, 1e-10);
     double fac = fmin(safe, safe * (1 + 2 * NEWTON_MAX_ITER) / (iters + 2 * NEWTON_MAX_ITER));
@@ -446,11 +474,13 @@ int radau5_run(SimContext *c, const struct eom_sim_options *o, Sampler *smp, dou
       st = -event;
       goto done;
     }
+    if (event) memcpy(x, ev.x_ev, nn * sizeof(double));
+    /* a rate that reached zero may stick, a stuck one slip */
+    if (events_stick(c, &ev, t_new, x)) event = 1;
     if (event) {
       /* samples up to the event come from this step's polynomial; then the
       ** method starts over on the new branch (no extrapolated guess) */
-      memcpy(x, ev.x_ev, nn * sizeof(double));
-      last = 0;
+      last = t_new >= t_end;
       have_poly = 0;
       accepted = 0;
     }
@@ -462,6 +492,7 @@ int radau5_run(SimContext *c, const struct eom_sim_options *o, Sampler *smp, dou
       if ((st = sampler_emit(c, smp, ts, sample))) goto done;
     }
     t = t_new;
+    landing = 0;
     rep->steps++;
     accepted++;
     c->t_good = t;

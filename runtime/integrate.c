@@ -155,6 +155,10 @@ static int guarded_step(SimContext *c, const Method *m, double t, double h, doub
   int st = m->step(c, t, h, x, work);
   if (st != EOM_ENEWTON) return st;
   memcpy(x, backup, (size_t)c->n * sizeof(double));
+  /* Newton cannot follow a rate across a dry friction's jump: where the
+  ** friction holds it, the rate sticks and the step is taken stuck. */
+  sim_load_inputs(c, t);
+  if (stick_rescue(c, t, h, x)) return guarded_step(c, m, t, h, hmin, x, work, backup);
   /* A wrong generated jacobian also stalls Newton: check it once. */
   if (sim_distrust_jacobian(c, t, x)) {
     st = m->step(c, t, h, x, work);
@@ -237,6 +241,7 @@ static int fixed_run(SimContext *c, const Method *m, const struct eom_sim_option
       if (c->cs_project &&
           (st = stabilize_project(c, t_next, x, 10, "projecting onto the constraints")))
         goto restore;
+      events_fixed_step(c, t_next, x);
       t = t_next;
       c->t_good = t;
       rep->steps++;
@@ -337,6 +342,7 @@ static int fixed_run_keep_step(SimContext *c, const Method *m, const struct eom_
     if (c->cs_project &&
         (st = stabilize_project(c, t1, x, 10, "projecting onto the constraints")))
       goto restore;
+    events_fixed_step(c, t1, x);
     c->t_good = t1;
     rep->steps++;
     if ((st = emit_in_step(c, s, t, t1, x, &b, &have_f0))) goto done;
@@ -400,7 +406,9 @@ int eom_simulate(const struct eom_model *m, const double *p, const eom_inputs *i
   } else if (c.cs_active && !o->no_initial_fix &&
              (st = initial_fix(&c, o->t0, x)) != EOM_OK) {
     /* x is the user's state: the failed sample below shows it. */
-  } else if ((st = sampler_emit(&c, &s, o->t0, x)) == EOM_OK) {
+  } else if ((st = stick_init(&c, o)) != EOM_OK) {
+    snprintf(rep->message, sizeof rep->message, "out of memory");
+  } else if (events_start(&c, o->t0, x), (st = sampler_emit(&c, &s, o->t0, x)) == EOM_OK) {
     /* fixed_step: exactly o->step, no error control (order studies). */
     if (meth->run && !o->fixed_step)
       st = meth->run(&c, o, &s, x);

@@ -43,6 +43,7 @@ typedef struct SimContext {
   const int *cs_hold;       /* nq flags or NULL: coordinates the initial fix keeps */
   int cs_solver;            /* enum eom_constraint_solver */
   int cs_holding;           /* 1 during the initial fix: honour cs_hold */
+  struct StickState *stick; /* Coulomb sticking (stick.c); NULL when off */
 } SimContext;
 
 /* Allocate the scratch of c for model m (everything else set by the caller).
@@ -206,6 +207,56 @@ int stabilize_accel(SimContext *c, double t, const double *x, const double *u, d
 /* Inputs u(t) into c->u (dynamics.c). */
 void sim_load_inputs(SimContext *c, double t);
 
+/* Coulomb sticking of rate switches (stick.c), below dynamics.c: the
+** callers have loaded c->u for the time they pass. */
+typedef struct StickState {
+  int ns, nq;
+  int nlead;            /* stuck switches that carry a multiplier */
+  int *lead;            /* nlead: their indices */
+  int *follows;         /* ns: -1 free, k itself for a lead, else its lead */
+  double *sigma;        /* nlead: multiplier of each lead at the last transition */
+  double *s_prev;       /* ns: switch values after the last fixed step */
+  FILE *log;
+  /* scratch */
+  double *A, *r, *D, *gram, *df, *f0, *fb, *fp, *fm, *M, *B, *W, *rhs, *xp, *s1, *s2;
+  double *now, *sig, *qdd, *wdiag, *vals, *xc;
+  int *piv;
+} StickState;
+/* c->stick for a model with switches and no constraints, unless
+** o->no_events.  EOM_OK or EOM_ENOMEM. */
+int stick_init(SimContext *c, const struct eom_sim_options *o);
+void stick_free(SimContext *c);
+/* Is some rate stuck? (sim_rhs then asks stick_accel for qdd.) */
+int stick_holding(const SimContext *c);
+/* qdd at (t, x) with the stuck rates held by their friction. */
+int stick_accel(SimContext *c, double t, const double *x, double *qdd);
+/* Replace the values of stuck switches in sw (ns) by their margins
+** 1 - |sigma| (a release is a crossing) and those of followers by 1. */
+void stick_margins(SimContext *c, double t, const double *x, double *sw);
+/* After an event of switch k at (t, x): a stuck switch slips, a rate that
+** reached zero sticks when its friction can hold it (counted as an event
+** unless its crossing was).  1 when x or the stuck set changed. */
+int stick_event(SimContext *c, int k, double t, double *x, int counted);
+/* A step from (t, x) of h failed (an implicit method's Newton iteration
+** cannot follow a rate across a friction's jump, an adaptive step shrank
+** away before it): the rates that reach zero within h stick when their
+** friction holds them, else are set just past zero.  1 when x changed;
+** the step is then taken again. */
+int stick_rescue(SimContext *c, double t, double h, double *x);
+/* After an accepted step to (t, x): a rate closing in on zero that is
+** already within the step tolerance of it has reached it (no step could
+** resolve the rest): it sticks, or is set just past zero.  1 when x
+** changed; the method restarts. */
+int stick_near_zero(SimContext *c, double t, double *x);
+/* A step from (t, x) of h failed or shrank away, and a rate reaches zero
+** within h so soon that an Euler step there is within the tolerance: take
+** it (t and x move there), then the rate sticks or turns.  1 when so; the
+** method restarts. */
+int stick_reach(SimContext *c, double *t, double h, double *x);
+/* At the start: rates at zero stick, or are set moving the way they slip.
+** 1 when something changed. */
+int stick_start(SimContext *c, double t, double *x);
+
 /* Switches of non-smooth models located in time (events.c).  A DenseFn
 ** writes the accepted step's continuous extension at t into x. */
 typedef void (*DenseFn)(const void *ctx, double t, double *x);
@@ -236,6 +287,25 @@ void events_values(SimContext *c, double t, const double *x, double *s);
 ** crossing back right after its events fails the run: -EOM_ECHATTER. */
 int events_after_step(SimContext *c, EventWatch *w, double t, double t_new, const double *x_new,
                       DenseFn dense, const void *dctx, double tol, double *t_ev);
+/* After events_after_step at t (x the state there, as the step ends):
+** when its event left a rate at zero or released a stuck one, the stuck
+** set is updated (stick.c), x moved onto it and the watch reset; 1 then,
+** and the method restarts. */
+int events_stick(SimContext *c, EventWatch *w, double t, double *x);
+/* A step from (*t, x) of h failed or shrank away: stick_reach, and the
+** watch restarted there.  1 when *t and x moved. */
+int events_reach(SimContext *c, EventWatch *w, double *t, double h, double *x);
+/* Before a run: rates at rest stick or start to slip (1 when x changed). */
+int events_start(SimContext *c, double t, double *x);
+/* After a fixed step to (t, x): rates that crossed zero in it stick, stuck
+** ones whose friction no longer holds slip. */
+void events_fixed_step(SimContext *c, double t, double *x);
+/* After an accepted step from t to t1 without event: does a switch that
+** closes in on zero cross it on the step's extension carried on to t2?
+** Then as events_after_step: 1, *t_ev past the crossing, the state there
+** in w->x_ev. */
+int events_past_end(SimContext *c, EventWatch *w, double t, double t1, double t2, DenseFn dense,
+                    const void *dctx, double tol, double *t_ev);
 /* Does a trial step from t to t_new cross a switch (one that does not
 ** chatter)?  Then *t_sw is just past the earliest crossing.  Changes
 ** nothing but scratch. */

@@ -232,6 +232,7 @@ static void run_one(const Base *b, long run, Slot *s, double *scratch, int *give
   s->run.t = w.samples > 0 ? w.t_prev : o->sim.t0;
   s->run.energy_change = w.samples > 0 ? w.E - w.E0 : 0.0;
   s->run.status = (eom_status)st;
+  s->run.events = rep.events;
   if (st == EOM_OK) s->message[0] = '\0';
   else if (rep.message[0]) memcpy(s->message, rep.message, sizeof s->message);
   else snprintf(s->message, sizeof s->message, "%s", eom_status_text((eom_status)st));

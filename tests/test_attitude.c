@@ -571,14 +571,61 @@ END_TEST
 /* Verbs whose analysis does not handle attitudes yet say so at the attitude. */
 START_TEST(modes_refuses_attitudes_at_the_attitude) {
   char *model = write_file(scratch_dir(), "spinner.eom", free_body, strlen(free_body));
-  static const char *const verbs[] = {"modes", "linearize"};
-  for (int k = 0; k < 2; k++) {
-    RunResult r = eomc_run(verbs[k], model, NULL);
-    ck_assert_int_eq(r.status, 1);
-    ck_assert_msg(strstr(r.err, "spinner.eom:2:10: error: attitude 'R'") != NULL, "%s", r.err);
-    run_free(&r);
-  }
+  RunResult r = eomc_run("modes", model, NULL);
+  ck_assert_int_eq(r.status, 1);
+  ck_assert_msg(strstr(r.err, "spinner.eom:2:10: error: attitude 'R'") != NULL, "%s", r.err);
+  run_free(&r);
+  r = eomc_run("linearize", model, NULL);   /* the equilibrium search */
+  ck_assert_int_eq(r.status, 3);
+  ck_assert_msg(strstr(r.err, "give the point with --no-search") != NULL, "%s", r.err);
+  run_free(&r);
   free(model);
+}
+END_TEST
+
+/* The first `count` numbers after `key` in s (brackets, commas skipped). */
+static int numbers_after(const char *s, const char *key, double *v, int count) {
+  const char *p = strstr(s, key);
+  int n = 0;
+  if (!p) return 0;
+  p += strlen(key);
+  while (*p && n < count) {
+    char *end;
+    double d = strtod(p, &end);
+    if (end != p) v[n++] = d, p = end;
+    else p++;
+  }
+  return n;
+}
+
+/* `eomc linearize` of a body spinning at W about its intermediate axis, in
+** the minimal state [dth (3); omega (3)]: the omega block is Euler's
+** equations linearized (I1 w1' = (I2 - I3) W w3, I3 w3' = (I1 - I2) W w1,
+** as in intermediate_axis_unstable), and the small rotations turn with the
+** spin, dth' = dw - W e2 x dth (the kinematics of a rotation perturbed in
+** body axes; our own derivation). */
+START_TEST(linearize_in_three_rotation_parameters) {
+  static const char model[] =
+    "model spin3\nattitude R\nparam I1 = 1\nparam I2 = 2\nparam I3 = 3\n"
+    "body b mass 1 at [0, 0, 0] orient R inertia diag(I1, I2, I3)\n"
+    "initial R = rotz(0.4)*roty(-1.1)\n"
+    "initial omega(R) = [0, 1.5, 0]\n";
+  const double W = 1.5, I1 = 1, I2 = 2, I3 = 3;
+  char *path = write_file(scratch_dir(), "spin3.eom", model, strlen(model));
+  RunResult r = eomc_run("linearize", path, "--no-search", "--json", NULL);
+  ck_assert_msg(r.status == 0, "%s", r.err);
+  ck_assert_msg(strstr(r.out, "\"state\": [\"R.dth1\", \"R.dth2\", \"R.dth3\", \"omega(R)[1]\"") != NULL,
+                "%s", r.out);
+  double A[36];
+  ck_assert_int_eq(numbers_after(r.out, "\"A\":", A, 36), 36);
+  double want[36] = {0};
+  want[0 * 6 + 2] = -W, want[2 * 6 + 0] = W;                  /* -W e2 x dth */
+  want[0 * 6 + 3] = want[1 * 6 + 4] = want[2 * 6 + 5] = 1;     /* + dw */
+  want[3 * 6 + 5] = (I2 - I3) / I1 * W, want[5 * 6 + 3] = (I1 - I2) / I3 * W;
+  for (int k = 0; k < 36; k++)
+    ck_assert_msg(fabs(A[k] - want[k]) < 1e-7, "A[%d,%d] = %.10g, want %.10g", k / 6, k % 6, A[k], want[k]);
+  run_free(&r);
+  free(path);
 }
 END_TEST
 
@@ -600,6 +647,7 @@ static Suite *make_suite(void) {
   tcase_add_test(tc, heavy_top_against_euler_angles);
   tcase_add_test(tc, heavy_top_through_the_vertical);
   tcase_add_test(tc, modes_refuses_attitudes_at_the_attitude);
+  tcase_add_test(tc, linearize_in_three_rotation_parameters);
   suite_add_tcase(s, tc);
   return s;
 }

@@ -169,6 +169,38 @@ START_TEST(grid_matches_closed_form) {
 }
 END_TEST
 
+/* The events column counts each run's located switches: the crate of
+** return_slide.eom turns n times, where its turning points x0 - 2 i F/k
+** (i = 1..n) first come within F/k of the rest point, and then sticks
+** there (Den Hartog, Mechanical Vibrations, the section on Coulomb
+** damping; from memory): n = ceil((k x0 / F - 1) / 2) events, the last
+** of them a stick.  A smooth model's rows say 0. */
+START_TEST(events_column_counts_switches) {
+  const char *out = work("events.csv");
+  RunResult r = sweep(model("return_slide.eom"), "--vary", "F=2:6:5", "--until", "3", "-o", out,
+                      NULL);
+  ck_assert_msg(r.status == 0, "status %d: %.2000s", r.status, r.err);
+  Table t = read_table(out);
+  ck_assert_int_eq(t.nrows, 5);
+  ck_assert_str_eq(t.head[t.ncols - 2], "events");
+  for (int row = 0; row < t.nrows; row++) {
+    double F = at(&t, row, "F"), n = ceil((300 * 0.105 / F - 1) / 2);
+    ck_assert_msg(at(&t, row, "events") == n, "F = %g: %g events, want %g", F,
+                  at(&t, row, "events"), n);
+    ck_assert_msg(fabs(fabs(at(&t, row, "final(x)")) - fabs(0.105 - 2 * n * F / 300)) < 1e-7,
+                  "F = %g: x = %.10g", F, at(&t, row, "final(x)"));
+  }
+  free_table(&t);
+  run_free(&r);
+  r = sweep(model("dock_buffer.eom"), "--vary", "m=10:50:2", "--until", "0.1", "-o", out, NULL);
+  ck_assert_msg(r.status == 0, "%.2000s", r.err);
+  t = read_table(out);
+  for (int row = 0; row < t.nrows; row++) ck_assert_double_eq(at(&t, row, "events"), 0);
+  free_table(&t);
+  run_free(&r);
+}
+END_TEST
+
 /* Axes multiply with the first varying slowest; run numbers count from 0. */
 START_TEST(grid_order) {
   const char *out = work("order.csv");
@@ -491,6 +523,7 @@ static Suite *sweep_suite(void) {
   tcase_set_timeout(tc, 120);
   tcase_add_test(tc, grid_matches_closed_form);
   tcase_add_test(tc, grid_order);
+  tcase_add_test(tc, events_column_counts_switches);
   tcase_add_test(tc, pendulum_period_over_lengths);
   tcase_add_test(tc, random_draws_follow_their_distributions);
   tcase_add_test(tc, same_rows_whatever_the_threads);

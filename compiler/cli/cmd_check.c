@@ -10,6 +10,7 @@
 #include "cli/cmd.h"
 #include "cli/conserved_report.h"
 #include "cli/frontend.h"
+#include "front/builtins.h"
 #include "front/rate_degree.h"
 #include "sym/symbolic.h"
 #include "front/units.h"
@@ -22,7 +23,8 @@ static const char check_usage[] =
   "and constraint term with its line.  `-` reads the model from stdin.\n"
   "Then it derives the equations of motion and says whether the split\n"
   "M q'' + C q' + g = Q - dD/dq' exists and which quantities are conserved\n"
-  "(momenta of cyclic coordinates, the energy function).\n"
+  "(momenta of cyclic coordinates, the energy function), and lists the\n"
+  "switching functions of the branch functions (min, max, sign, ...).\n"
   "\n"
   "options:\n"
   "  --no-derive  parse and check only: skip the derivation and its report\n"
@@ -177,8 +179,22 @@ static void note_integrable(Frontend *fe) {
   diag_print_from(&fe->diag, printed, stderr);
 }
 
-/* Derive the equations of motion and report the M/C/g split and the
-** constants of the motion; a derivation error is a model error. */
+/* The switching functions of the non-smooth terms, as the descriptor's
+** switch_names has them: where each changes sign the runtime locates an
+** event (nothing is printed for a smooth model). */
+static void report_switches(const EomSystem *s, FILE *out) {
+  if (s->ns == 0) return;
+  fprintf(out, "switching functions (%d):\n", s->ns);
+  for (int i = 0; i < s->ns; i++) {
+    const EomSwitch *w = &s->switch_info[i];
+    fprintf(out, "  %d:%d %s%s\n", w->line, w->col, scalar_builtins[w->fn].name,
+            w->part == 1 ? " lower" : w->part == 2 ? " upper" : "");
+  }
+}
+
+/* Derive the equations of motion and report the M/C/g split, the
+** constants of the motion and the switches; a derivation error is a model
+** error. */
 static int print_structure(Frontend *fe, FILE *out) {
   EomSystem sys;
   SymOptions so = {0, 0.0};
@@ -188,6 +204,7 @@ static int print_structure(Frontend *fe, FILE *out) {
     fputs("equations of motion: not derived (see the errors above)\n", out);
   } else {
     report_structure(&fe->model, &sys, out);
+    report_switches(&sys, out);
     fflush(out);
     failed = frontend_check_inertia(fe, &sys, DIAG_ERROR) != 0;
     if (sys.vc_integrable) note_integrable(fe);

@@ -15,6 +15,15 @@
 ** absolute floor so that two zeros (a degenerate point) never disagree.
 ** Models with constraints are linearized by differences of the constrained
 ** dynamics (their state keeps the dependent coordinates).
+**
+** A model with attitudes is linearized in a minimal state: each attitude's
+** quaternion q (4 entries) is replaced by a small rotation dth about its
+** body axes, q = q0 (x) [1, dth/2], so dq = N(q0) dth and dth = 4 N(q0)^T dq
+** (N the kinematic map of P_kinematics; N^T N = I/4 on the unit sphere).
+** With T (full from minimal) and P (minimal from full), z = P dx gives
+** z' = (P A_full T + P' T) z + P B_full u, so A = P A_full T + P' T (P'
+** from q0' = N(q0) omega0: zero at rest, the turning of the body axes in a
+** steady spin), B = P B_full, C = C_full T.
 */
 #include <float.h>
 #include <math.h>
@@ -36,6 +45,8 @@ static const char linearize_usage[] =
   "inputs, y the outputs, as deviations from the point) with row and column\n"
   "labels.  The point is a static equilibrium, searched (as `eomc modes`\n"
   "does) from the initial coordinates with the inputs at their --set values.\n"
+  "With attitudes (--no-search only) the state is minimal: three small body-axis\n"
+  "rotations R.dth1..3 per attitude instead of its quaternion.\n"
   "\n"
   "options:\n"
   "  --at NAME=VALUE    a coordinate's starting value for the search, or with\n"
@@ -144,7 +155,7 @@ static int output_matrices(const struct eom_model *m, const double *p, const dou
       else L->D[(size_t)i * nu + (j - n)] = d;
     }
   }
-  if (m->output_jacobian && m->output_kinematic) {
+  if (m->output_jacobian && m->output_kinematic && m->nattitudes == 0) {  /* J is NV wide with attitudes */
     m->output_jacobian(x, p, J);
     for (int i = 0; i < ny; i++) {
       if (!m->output_kinematic[i]) continue;
@@ -198,18 +209,82 @@ static int linearize_at(const struct eom_model *m, const double *p, const double
   return 0;
 }
 
-/* State names: q1..., then q1'... (malloc'd array of malloc'd strings). */
+/* State names: q1..., then q1'... (malloc'd array of malloc'd strings).
+** With attitudes, the minimal state: the coordinates, each attitude's
+** small rotations R.dth1..3, then the velocities (x', omega(R)[1] ...). */
 static char **state_names(const struct eom_model *m) {
-  int nq = m->nq;
-  char **names = calloc((size_t)2 * nq + 1, sizeof *names);
+  int nq = m->nq, nv = eom_nv(m), nplain = nq - 4 * m->nattitudes, n = 2 * nv;
+  char **names = calloc((size_t)n + 1, sizeof *names);
   if (!names) return NULL;
-  for (int i = 0; i < 2 * nq; i++) {
-    const char *c = m->coord_names[i % nq];
-    names[i] = malloc(strlen(c) + 2);
+  for (int i = 0; i < n; i++) {
+    const char *c = i < nplain ? m->coord_names[i] : i < nv ? m->attitude_names[(i - nplain) / 3]
+                  : m->nattitudes ? m->rate_names[i - nv] : m->coord_names[i - nv];
+    names[i] = malloc(strlen(c) + 8);
     if (!names[i]) return names;  /* caller checks each */
-    sprintf(names[i], "%s%s", c, i < nq ? "" : "'");
+    if (i < nplain) sprintf(names[i], "%s", c);
+    else if (i < nv) sprintf(names[i], "%s.dth%d", c, (i - nplain) % 3 + 1);
+    else sprintf(names[i], "%s%s", c, m->nattitudes ? "" : "'");
   }
   return names;
+}
+
+/* T (nx x nz, full state from minimal) and P (nz x nx, minimal from full)
+** at the state x of a model with attitudes (see the top of this file);
+** with x the quaternion rates q' instead of q, P is P' (N is linear in q). */
+static void attitude_maps(const struct eom_model *m, const double *x, double *T, double *P) {
+  int nq = m->nq, nv = eom_nv(m), nx = nq + nv, nz = 2 * nv, nplain = nq - 4 * m->nattitudes;
+  memset(T, 0, (size_t)nx * nz * sizeof(double));
+  memset(P, 0, (size_t)nz * nx * sizeof(double));
+  for (int i = 0; i < nplain; i++) T[(size_t)i * nz + i] = P[(size_t)i * nx + i] = 1;
+  for (int i = 0; i < nv; i++) T[(size_t)(nq + i) * nz + nv + i] = P[(size_t)(nv + i) * nx + nq + i] = 1;
+  for (int a = 0; a < m->nattitudes; a++) {
+    const double *q = x + nplain + 4 * a;
+    const double N[4][3] = {{-q[1], -q[2], -q[3]}, {q[0], -q[3], q[2]}, {q[3], q[0], -q[1]},
+                            {-q[2], q[1], q[0]}};   /* times 1/2 */
+    for (int r = 0; r < 4; r++)
+      for (int c = 0; c < 3; c++) {
+        int qi = nplain + 4 * a + r, zi = nplain + 3 * a + c;
+        T[(size_t)qi * nz + zi] = 0.5 * N[r][c];
+        P[(size_t)zi * nx + qi] = 2.0 * N[r][c];   /* 4 (N/2)^T */
+      }
+  }
+}
+
+/* out (r x c) = a (r x k) b (k x c). */
+static void matmul(const double *a, const double *b, int r, int k, int c, double *out) {
+  for (int i = 0; i < r; i++)
+    for (int j = 0; j < c; j++) {
+      double s = 0;
+      for (int l = 0; l < k; l++) s += a[(size_t)i * k + l] * b[(size_t)l * c + j];
+      out[(size_t)i * c + j] = s;
+    }
+}
+
+/* The minimal linear model Z of the full one F (models with attitudes). */
+static int reduce_attitudes(const struct eom_model *m, const double *x, const Linear *F, Linear *Z) {
+  int nx = F->n, nz = Z->n, nu = F->nu, ny = F->ny;
+  double *T = malloc(((size_t)nx * nz * 5 + (size_t)nx + 1) * sizeof(double));
+  if (!T) return -1;
+  double *P = T + (size_t)nx * nz, *PA = P + (size_t)nz * nx, *Pd = PA + (size_t)nz * nx;
+  double *Td = Pd + (size_t)nz * nx, *xd = Td + (size_t)nx * nz;
+  attitude_maps(m, x, T, P);
+  matmul(P, F->A, nz, nx, nx, PA);
+  matmul(PA, T, nz, nx, nz, Z->A);
+  /* + P' T: P at the rates q0' (in the q slots; the rest of P' is zero) */
+  memcpy(xd, x, (size_t)nx * sizeof(double));
+  m->kinematics(x, x + m->nq, xd);
+  attitude_maps(m, xd, Td, Pd);
+  for (int i = 0; i < nz; i++)
+    for (int j = 0; j < nx; j++)
+      if (!(j >= m->nq - 4 * m->nattitudes && j < m->nq)) Pd[(size_t)i * nx + j] = 0;
+  matmul(Pd, T, nz, nx, nz, PA);
+  for (size_t k = 0; k < (size_t)nz * nz; k++) Z->A[k] += PA[k];
+  matmul(P, F->B, nz, nx, nu, Z->B);
+  matmul(F->C, T, ny, nx, nz, Z->C);
+  memcpy(Z->D, F->D, (size_t)ny * nu * sizeof(double));
+  Z->from_jacobian = F->from_jacobian;
+  free(T);
+  return 0;
 }
 
 static void free_names(char **names, int n) {
@@ -271,6 +346,17 @@ typedef struct Point {
   const struct eom_report *eq;  /* its report, when searched */
 } Point;
 
+/* The name of entry i of the full state (the point): the linear model's
+** state names without attitudes; else coordinates with quaternion entries
+** (R.w ...) and the velocities (omega(R)[1] ...). */
+static const char *point_name(const struct eom_model *m, const char *const *xs, int i, char *buf,
+                              size_t size) {
+  if (m->nattitudes == 0) return xs[i];
+  if (i < m->nq) snprintf(buf, size, "%s", m->coord_names[i]);
+  else snprintf(buf, size, "%s", m->rate_names[i - m->nq]);
+  return buf;
+}
+
 static void print_json(FILE *f, const struct eom_model *m, const Point *pt, const Linear *L,
                        const char *const *xs) {
   fputs("{\n  \"model\": ", f);
@@ -281,9 +367,10 @@ static void print_json(FILE *f, const struct eom_model *m, const Point *pt, cons
     json_num(f, pt->eq->residual);
   }
   fputs(",\n  \"point\": {", f);
-  for (int i = 0; i < L->n; i++) {
+  char name[256];
+  for (int i = 0; i < eom_state_size(m); i++) {
     fputs(i ? ", " : "", f);
-    json_str(f, xs[i]);
+    json_str(f, point_name(m, xs, i, name, sizeof name));
     fputs(": ", f);
     json_num_exact(f, pt->x[i]);
   }
@@ -312,10 +399,15 @@ static void print_text(FILE *f, const struct eom_model *m, const Point *pt, cons
             m->name, pt->eq->steps, pt->eq->residual);
   else
     fprintf(f, "%s linearized at the given point:\n", m->name);
-  for (int i = 0; i < L->n; i++) fprintf(f, "  %s = %.12g\n", xs[i], pt->x[i]);
+  char name[256];
+  for (int i = 0; i < eom_state_size(m); i++)
+    fprintf(f, "  %s = %.12g\n", point_name(m, xs, i, name, sizeof name), pt->x[i]);
   for (int i = 0; i < L->nu; i++) fprintf(f, "  input %s = %.12g\n", m->input_names[i], pt->u[i]);
   fprintf(f, "x' = A x + B u, y = C x + D u (deviations from the point); x = [q; q'] (%d), "
              "u (%d), y (%d)\n", L->n, L->nu, L->ny);
+  if (m->nattitudes > 0)
+    fprintf(f, "(with attitudes: each quaternion's deviation is a small rotation R.dth1..3 about\n"
+               " the body axes, and the rates are the velocities, omega(R) for an attitude)\n");
   if (m->nc > 0)
     fprintf(f, "(with constraints: the state keeps every coordinate; A and B are differences\n"
                " of the constrained dynamics)\n");
@@ -415,7 +507,7 @@ int cmd_linearize(int argc, char **argv) {
   Linear L;
   char **xs = NULL, err[512] = "";
   memset(&L, 0, sizeof L);
-  if ((rc = build_model_without_attitudes(o.model, "linearize", &bm)) != 0) goto done;
+  if ((rc = build_model(o.model, &bm)) != 0) goto done;
   const struct eom_model *m = bm.model;
   if (run_values_init(&rv, m) != 0) {
     fputs("eomc linearize: out of memory\n", stderr);
@@ -426,6 +518,12 @@ int cmd_linearize(int argc, char **argv) {
   int nq = m->nq;
   struct eom_report eq;
   memset(&eq, 0, sizeof eq);
+  if (!o.no_search && m->nattitudes > 0) {
+    fprintf(stderr, "eomc linearize: error: the equilibrium search does not handle attitudes yet: "
+                    "give the point with --no-search (the model's initial values and --at)\n");
+    rc = EXIT_RUN;
+    goto values;
+  }
   if (!o.no_search) {
     memset(rv.x + nq, 0, (size_t)nq * sizeof(double));  /* at rest */
     if (eom_equilibrium(m, rv.p, rv.u, 0, rv.x, 0, 0, &eq) != EOM_OK) {
@@ -437,9 +535,9 @@ int cmd_linearize(int argc, char **argv) {
     clean_point(rv.x, nq);
   }
   xs = state_names(m);
-  int names_ok = xs != NULL;
-  for (int i = 0; names_ok && i < 2 * nq; i++) names_ok = xs[i] != NULL;
-  if (!names_ok || linear_alloc(&L, 2 * nq, m->nu, m->ny) != 0) {
+  int names_ok = xs != NULL, nz = 2 * eom_nv(m);
+  for (int i = 0; names_ok && i < nz; i++) names_ok = xs[i] != NULL;
+  if (!names_ok || linear_alloc(&L, eom_state_size(m), m->nu, m->ny) != 0) {
     fputs("eomc linearize: out of memory\n", stderr);
     rc = EXIT_RUN;
     goto values;
@@ -449,6 +547,17 @@ int cmd_linearize(int argc, char **argv) {
     rc = EXIT_RUN;
     goto values;
   }
+  if (m->nattitudes > 0) {   /* to the minimal state */
+    Linear Z;
+    if (linear_alloc(&Z, nz, m->nu, m->ny) != 0 || reduce_attitudes(m, rv.x, &L, &Z) != 0) {
+      linear_free(&Z);
+      fputs("eomc linearize: out of memory\n", stderr);
+      rc = EXIT_RUN;
+      goto values;
+    }
+    linear_free(&L);
+    L = Z;
+  }
   Point pt = {rv.x, rv.u, !o.no_search, &eq};
   if (o.json) print_json(stdout, m, &pt, &L, (const char *const *)xs);
   else print_text(stdout, m, &pt, &L, (const char *const *)xs);
@@ -456,7 +565,7 @@ int cmd_linearize(int argc, char **argv) {
 values:
   run_values_free(&rv);
 unload:
-  free_names(xs, bm.model ? 2 * bm.model->nq : 0);
+  free_names(xs, bm.model ? 2 * eom_nv(bm.model) : 0);
   linear_free(&L);
   built_model_close(&bm);
 done:

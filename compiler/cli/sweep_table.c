@@ -63,7 +63,7 @@ void sweep_table_header(SweepTable *t) {
   for (int i = 0; i < m->nq; i++) fprintf(f, ",min(%s),max(%s)", m->coord_names[i], m->coord_names[i]);
   for (int i = 0; i < m->ny; i++)
     fprintf(f, ",min(%s),max(%s)", m->output_names[i], m->output_names[i]);
-  fputs(",dE,status\n", f);
+  fputs(",dE,events,status\n", f);
   if (ferror(f)) t->write_failed = 1;
 }
 
@@ -108,6 +108,7 @@ void sweep_table_add(SweepTable *t, const struct eom_sweep_run *r) {
   for (int i = 0; i < nq; i++) put_number(f, r->qmin[i]), put_number(f, r->qmax[i]);
   for (int i = 0; i < ny; i++) put_number(f, r->ymin[i]), put_number(f, r->ymax[i]);
   put_number(f, r->energy_change);
+  fprintf(f, ",%ld", r->events);
   if (r->status == EOM_OK) {
     fputs(",ok\n", f);
     for (int i = 0; i < nq; i++) {
@@ -169,12 +170,12 @@ void sweep_table_summary(const SweepTable *t, FILE *f) {
 
 /* ----------------------------------------------------- MPI records */
 
-/* Layout in doubles: run, t, dE, status, values, x, y, qmin, qmax, ymin,
-** ymax, trace; then the message's bytes. */
+/* Layout in doubles: run, t, dE, status, events, values, x, y, qmin, qmax,
+** ymin, ymax, trace; then the message's bytes. */
 static size_t record_doubles(const struct eom_model *m, int nvars, int trace_points) {
   size_t nq = (size_t)m->nq, ny = (size_t)m->ny;
   size_t trace = trace_points > 1 ? (size_t)trace_points * (nq + ny) : 0;
-  return 4 + (size_t)nvars + 4 * nq + 3 * ny + trace;
+  return 5 + (size_t)nvars + 4 * nq + 3 * ny + trace;
 }
 
 size_t sweep_record_size(const struct eom_model *m, int nvars, int trace_points) {
@@ -185,13 +186,14 @@ void sweep_record_pack(const struct eom_model *m, int nvars, int trace_points,
                        const struct eom_sweep_run *r, unsigned char *dst) {
   size_t nq = (size_t)m->nq, ny = (size_t)m->ny, at = 0;
   size_t nd = record_doubles(m, nvars, trace_points);
-  double head[4] = {(double)r->run, r->t, r->energy_change, (double)r->status};
+  double head[5] = {(double)r->run, r->t, r->energy_change, (double)r->status,
+                    (double)r->events};
 #define PUT(src, count)                                          \
   do {                                                           \
     memcpy(dst + at, (src), (count) * sizeof(double));           \
     at += (count) * sizeof(double);                              \
   } while (0)
-  PUT(head, 4);
+  PUT(head, 5);
   PUT(r->values, (size_t)nvars);
   PUT(r->x, 2 * nq);
   PUT(r->y, ny);
@@ -214,7 +216,8 @@ void sweep_record_unpack(const struct eom_model *m, int nvars, int trace_points,
   double *d = storage;
   memset(r, 0, sizeof *r);
   r->run = (long)d[0], r->t = d[1], r->energy_change = d[2], r->status = (eom_status)d[3];
-  d += 4;
+  r->events = (long)d[4];
+  d += 5;
   r->values = d, d += nvars;
   r->x = d, d += 2 * nq;
   r->y = d, d += ny;

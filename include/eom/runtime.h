@@ -37,7 +37,8 @@ typedef enum eom_status {
   EOM_ESTOPPED,    /* the sample callback asked to stop */
   EOM_EMAXSTEPS,   /* more steps than max_steps */
   EOM_EINPUT,      /* an input table could not be read */
-  EOM_ECHATTER     /* a switch keeps crossing back at once (dry friction at rest) */
+  EOM_ECHATTER     /* a switch keeps crossing back at once (a sliding motion;
+                      dry friction in a model with constraints) */
 } eom_status;
 
 /* Short fixed name of a status, e.g. "step size underflow". */
@@ -52,7 +53,8 @@ struct eom_report {
   long rhs_evals;      /* evaluations of the model's dynamics */
   double residual;     /* final max-norm of the residual (equilibrium) */
   long events;         /* switches located (dopri, radau5; models with branch
-                          functions): the method restarted at each */
+                          functions): the method restarted at each; and
+                          the sticks and slips of dry friction (all methods) */
   char message[512];   /* "" on success; else names the time and state */
 };
 
@@ -111,7 +113,8 @@ struct eom_sim_options {
   /* Models with switching functions (ns > 0): dopri and radau5 locate each
   ** sign change on the step's dense output and restart there; the
   ** fixed-step methods do not (docs/runtime.md). */
-  int no_events;       /* 1: step across switches like any other point */
+  int no_events;       /* 1: step across switches like any other point (and
+                          no dry-friction sticking, docs/runtime.md) */
   FILE *event_log;     /* non-NULL: one line per located event */
   /* Models with constraints: how G M⁻¹ Gᵀ is factored (docs/runtime.md,
   ** "Models with constraints"): enum eom_constraint_solver. */

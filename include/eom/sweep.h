@@ -87,6 +87,8 @@ struct eom_sweep_run {
   const char *message;      /* "" on success; else what eom_simulate reported */
   const double *trace;      /* trace_points x (nq + ny), row by row; NaN after a
                                failure; NULL when trace_points < 2 */
+  long events;              /* switches located and dry-friction sticks and
+                               slips (eom_report's events) */
 };
 
 typedef void (*eom_sweep_run_fn)(void *ctx, const struct eom_sweep_run *run);
