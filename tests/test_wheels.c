@@ -438,7 +438,9 @@ END_TEST
 START_TEST(coin_sweep_table_and_plot) {
   const double Wc = sqrt(9.81 / (3 * 0.02));
   char sweep[128];
-  snprintf(sweep, sizeof sweep, "ph=%.17g:%.17g:5", 0.5 * Wc, 1.5 * Wc);
+  /* six rates, none at the threshold itself (there the motion is
+  ** marginal, and which side rounding puts it on says nothing) */
+  snprintf(sweep, sizeof sweep, "ph=%.17g:%.17g:6", 0.5 * Wc, 1.5 * Wc);
   char *svg = scratch_path("sweep.svg");
   RunResult r = eomc_run("modes", example_file("rolling_coin.eom"), "--at", "th=0", "--sweep-rate",
                          sweep, "--plot", svg, NULL);
@@ -454,7 +456,7 @@ START_TEST(coin_sweep_table_and_plot) {
     last = stable;
     rows++;
   }
-  ck_assert_int_eq(rows, 5);
+  ck_assert_int_eq(rows, 6);
   ck_assert_int_eq(flips, 1);
   char *text = read_file(svg, NULL);
   ck_assert_msg(text && strstr(text, "<svg"), "no SVG written");
@@ -471,7 +473,7 @@ START_TEST(steady_motion_errors) {
   run_free(&r);
   r = eomc_run("modes", example_file("cartesian_pendulum.eom"), "--rate", "x=1", NULL);
   ck_assert_int_eq(r.status, 3);
-  ck_assert_msg(strstr(r.err, "position constraints are not supported"), "%s", r.err);
+  ck_assert_msg(strstr(r.err, "'x' enters the dynamics"), "%s", r.err);
   run_free(&r);
   r = eomc_run("modes", example_file("rolling_coin.eom"), "--rate", "nosuch=1", NULL);
   ck_assert_int_eq(r.status, 2);

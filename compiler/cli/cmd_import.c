@@ -161,12 +161,26 @@ static int is_leaf(const UrdfRobot *r, int i) {
   return 1;
 }
 
+/* An angle as written: a whole multiple of a quarter turn that the
+** description can only give to double precision (1.5707963267948966) is
+** written as that multiple of pi, so its sines and cosines are exact and
+** the derivation drops the terms they zero; any other angle as its
+** number.  Within 1e-12 rad, far below what a drawing can mean. */
+static const char *angle(double a, char *buf) {
+  static const double quarter = 1.57079632679489661923;
+  static const char *const quarters[] = {"-pi", "-pi/2", "", "pi/2", "pi"};
+  double k = nearbyint(a / quarter);
+  if (k != 0 && fabs(k) <= 2 && fabs(a - k * quarter) <= 1e-12)
+    return strcpy(buf, quarters[(int)k + 2]);
+  return num(a, buf);
+}
+
 /* "*rotz(y)*roty(p)*rotx(r)" for the nonzero angles of rpy (URDF's fixed
 ** axes roll, pitch, yaw: R = Rz(yaw) Ry(pitch) Rx(roll)). */
 static void put_rpy(Out *o, const double rpy[3]) {
   static const char axes[] = "xyz";
   for (int k = 2; k >= 0; k--)
-    if (rpy[k] != 0) put(o, "*rot%c(%s)", axes[k], NUM(rpy[k]));
+    if (rpy[k] != 0) put(o, "*rot%c(%s)", axes[k], angle(rpy[k], (char[32]){0}));
 }
 
 /* "*R(axis, q)": a coordinate axis directly, any other through the turn
@@ -274,6 +288,15 @@ static void put_bodies(Out *o, const UrdfRobot *r, const Idents *id) {
       continue;
     }
     int root = l->parent_joint < 0;
+    int point = in->ixx == 0 && in->ixy == 0 && in->ixz == 0 && in->iyy == 0 && in->iyz == 0 &&
+                in->izz == 0;
+    if (point) {  /* a zero inertia is a point mass (a payload, a tool's tip) */
+      put(o, "# %s: a point mass (its inertia is zero)\nbody %s mass %s at ", l->name, id->body[i],
+          id->mass[i]);
+      if (!root) put(o, "%s + ", id->p[i]);
+      put(o, "%s*[%s, %s, %s]\n", id->R[i], NUM(in->xyz[0]), NUM(in->xyz[1]), NUM(in->xyz[2]));
+      continue;
+    }
     put(o, "let %s = [[%s, %s, %s], [%s, %s, %s], [%s, %s, %s]]\n", id->inertia[i], NUM(in->ixx),
         NUM(in->ixy), NUM(in->ixz), NUM(in->ixy), NUM(in->iyy), NUM(in->iyz), NUM(in->ixz),
         NUM(in->iyz), NUM(in->izz));

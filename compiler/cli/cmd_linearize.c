@@ -13,8 +13,15 @@
 ** warning with the numbers is printed only when the jacobian and the
 ** differences truly disagree: relative to the size of the matrices, with an
 ** absolute floor so that two zeros (a degenerate point) never disagree.
-** Models with constraints are linearized by differences of the constrained
-** dynamics (their state keeps the dependent coordinates).
+** Models with constraints (or with --rate) are linearized in a reduced
+** state z = [q_K; v_I] (reduce.h): the independent positions and rates,
+** chosen by pivoting on the constraints' matrices (--independent names the
+** coordinates to keep), the others following from the constraints.  A, B,
+** C, D are central differences through that reduction, checked by the
+** chain rule against differences of the runtime's constrained dynamics:
+** dz'/dz = P (dx'/dx) (dx/dz), P picking z's entries out of x'.  With
+** --rate the point is a steady motion (steady.c), and z leaves out the
+** coordinates that turn at the given rates and those that enter nothing.
 **
 ** A model with attitudes is linearized in a minimal state: each attitude's
 ** quaternion q (4 entries) is replaced by a small rotation dth about its
@@ -23,7 +30,8 @@
 ** With T (full from minimal) and P (minimal from full), z = P dx gives
 ** z' = (P A_full T + P' T) z + P B_full u, so A = P A_full T + P' T (P'
 ** from q0' = N(q0) omega0: zero at rest, the turning of the body axes in a
-** steady spin), B = P B_full, C = C_full T.
+** steady spin), B = P B_full, C = C_full T.  (Not yet together with
+** constraints or --rate.)
 */
 #include <float.h>
 #include <math.h>
@@ -34,7 +42,11 @@
 #include "cli/build_model.h"
 #include "cli/cmd.h"
 #include "cli/json_out.h"
+#include "cli/linearize_print.h"
+#include "cli/reduce.h"
 #include "cli/run_values.h"
+#include "cli/steady.h"
+#include "cli/value_text.h"
 #include "eom/runtime.h"
 
 static const char linearize_usage[] =
@@ -57,7 +69,16 @@ static const char linearize_usage[] =
   "                     converted to the declared one: 30[deg], 2.5[kN/m], L/2\n"
   "  --no-search        take the point as given (model's initial state and\n"
   "                     --at), not an equilibrium\n"
+  "  --rate NAME=VALUE  linearize about a steady motion in which the\n"
+  "                     coordinate NAME turns at this constant rate (it must\n"
+  "                     not enter the dynamics; repeatable), as `eomc modes\n"
+  "                     --rate` finds it\n"
+  "  --independent NAME with constraints: keep NAME among the independent\n"
+  "                     coordinates of the reduced state (repeatable)\n"
   "  --json             machine-readable output\n"
+  "\n"
+  "With constraints, or with --rate, the state is reduced: the independent\n"
+  "positions and rates only, the others following from the constraints.\n"
   "\n"
   "exit status: 0 success, 1 model error, 2 usage error,\n"
   "             3 no equilibrium found or the analysis failed\n";
@@ -67,14 +88,6 @@ static const char linearize_usage[] =
 #define AGREEMENT 1e-6
 /* ... plus this absolute floor, below which both are zero. */
 #define ZERO_FLOOR 1e-9
-
-/* The linear model and what it was computed from. */
-typedef struct Linear {
-  int n, nu, ny;
-  double *A, *B, *C, *D;      /* n x n, n x nu, ny x n, ny x nu, row-major */
-  double *Ad, *Bd;            /* A and B by differences */
-  int from_jacobian;          /* A, B are the generated jacobian's */
-} Linear;
 
 static void linear_free(Linear *L) {
   free(L->A);
@@ -292,141 +305,38 @@ static void free_names(char **names, int n) {
   free(names);
 }
 
-/* Print an r x c matrix with labels, in columns wide enough for both. */
-static void print_matrix(FILE *f, const char *title, const double *a, int r, int c,
-                         const char *const *rows, const char *const *cols) {
-  int lw = 1, cw = 12;
-  fprintf(f, "\n%s:\n", title);
-  if (r == 0 || c == 0) {
-    fprintf(f, "  (empty: %d x %d)\n", r, c);
-    return;
-  }
-  for (int i = 0; i < r; i++)
-    if ((int)strlen(rows[i]) > lw) lw = (int)strlen(rows[i]);
-  for (int j = 0; j < c; j++)
-    if ((int)strlen(cols[j]) + 1 > cw) cw = (int)strlen(cols[j]) + 1;
-  fprintf(f, "  %*s", lw, "");
-  for (int j = 0; j < c; j++) fprintf(f, " %*s", cw, cols[j]);
-  fputc('\n', f);
-  for (int i = 0; i < r; i++) {
-    fprintf(f, "  %-*s", lw, rows[i]);
-    for (int j = 0; j < c; j++) {
-      double v = a[(size_t)i * c + j];
-      fprintf(f, " %*.*g", cw, 6, v == 0 ? 0.0 : v);  /* no -0 */
-    }
-    fputc('\n', f);
-  }
-}
-
-static void json_names(FILE *f, const char *key, const char *const *names, int n) {
-  fprintf(f, ",\n  \"%s\": [", key);
-  for (int i = 0; i < n; i++) {
-    fputs(i ? ", " : "", f);
-    json_str(f, names[i]);
-  }
-  fputc(']', f);
-}
-
-static void json_matrix(FILE *f, const char *key, const double *a, int r, int c) {
-  fprintf(f, ",\n  \"%s\": [", key);
-  for (int i = 0; i < r; i++) {
-    fputs(i ? ",\n    [" : "\n    [", f);
-    for (int j = 0; j < c; j++) {
-      fputs(j ? ", " : "", f);
-      json_num_exact(f, a[(size_t)i * c + j] == 0 ? 0.0 : a[(size_t)i * c + j]);
-    }
-    fputc(']', f);
-  }
-  fputs(r ? "\n  ]" : "]", f);
-}
-
-typedef struct Point {
-  const double *x, *u;
-  int searched;                 /* an equilibrium was searched for */
-  const struct eom_report *eq;  /* its report, when searched */
-} Point;
-
-/* The name of entry i of the full state (the point): the linear model's
-** state names without attitudes; else coordinates with quaternion entries
-** (R.w ...) and the velocities (omega(R)[1] ...). */
-static const char *point_name(const struct eom_model *m, const char *const *xs, int i, char *buf,
-                              size_t size) {
-  if (m->nattitudes == 0) return xs[i];
-  if (i < m->nq) snprintf(buf, size, "%s", m->coord_names[i]);
-  else snprintf(buf, size, "%s", m->rate_names[i - m->nq]);
-  return buf;
-}
-
-static void print_json(FILE *f, const struct eom_model *m, const Point *pt, const Linear *L,
-                       const char *const *xs) {
-  fputs("{\n  \"model\": ", f);
-  json_str(f, m->name);
-  fprintf(f, ",\n  \"equilibrium\": %s", pt->searched ? "true" : "false");
-  if (pt->searched) {
-    fprintf(f, ",\n  \"newton_iterations\": %ld,\n  \"residual\": ", pt->eq->steps);
-    json_num(f, pt->eq->residual);
-  }
-  fputs(",\n  \"point\": {", f);
-  char name[256];
-  for (int i = 0; i < eom_state_size(m); i++) {
-    fputs(i ? ", " : "", f);
-    json_str(f, point_name(m, xs, i, name, sizeof name));
-    fputs(": ", f);
-    json_num_exact(f, pt->x[i]);
-  }
-  fputs("},\n  \"inputs_at\": {", f);
-  for (int i = 0; i < L->nu; i++) {
-    fputs(i ? ", " : "", f);
-    json_str(f, m->input_names[i]);
-    fputs(": ", f);
-    json_num_exact(f, pt->u[i]);
-  }
-  fputc('}', f);
-  json_names(f, "state", xs, L->n);
-  json_names(f, "inputs", m->input_names, L->nu);
-  json_names(f, "outputs", m->output_names, L->ny);
-  json_matrix(f, "A", L->A, L->n, L->n);
-  json_matrix(f, "B", L->B, L->n, L->nu);
-  json_matrix(f, "C", L->C, L->ny, L->n);
-  json_matrix(f, "D", L->D, L->ny, L->nu);
-  fputs("\n}\n", f);
-}
-
-static void print_text(FILE *f, const struct eom_model *m, const Point *pt, const Linear *L,
-                       const char *const *xs) {
-  if (pt->searched)
-    fprintf(f, "%s linearized at an equilibrium (%ld Newton iterations, residual %.3g):\n",
-            m->name, pt->eq->steps, pt->eq->residual);
-  else
-    fprintf(f, "%s linearized at the given point:\n", m->name);
-  char name[256];
-  for (int i = 0; i < eom_state_size(m); i++)
-    fprintf(f, "  %s = %.12g\n", point_name(m, xs, i, name, sizeof name), pt->x[i]);
-  for (int i = 0; i < L->nu; i++) fprintf(f, "  input %s = %.12g\n", m->input_names[i], pt->u[i]);
-  fprintf(f, "x' = A x + B u, y = C x + D u (deviations from the point); x = [q; q'] (%d), "
-             "u (%d), y (%d)\n", L->n, L->nu, L->ny);
-  if (m->nattitudes > 0)
-    fprintf(f, "(with attitudes: each quaternion's deviation is a small rotation R.dth1..3 about\n"
-               " the body axes, and the rates are the velocities, omega(R) for an attitude)\n");
-  if (m->nc > 0)
-    fprintf(f, "(with constraints: the state keeps every coordinate; A and B are differences\n"
-               " of the constrained dynamics)\n");
-  print_matrix(f, "A", L->A, L->n, L->n, xs, xs);
-  print_matrix(f, "B", L->B, L->n, L->nu, xs, m->input_names);
-  print_matrix(f, "C", L->C, L->ny, L->n, m->output_names, xs);
-  print_matrix(f, "D", L->D, L->ny, L->nu, m->output_names, m->input_names);
-}
-
 typedef struct Options {
   const char *model;
-  char **at, **set;
-  int nat, nset, json, no_search;
+  char **at, **set, **rate, **independent;
+  int nat, nset, nrate, nindependent, json, no_search;
 } Options;
 
-/* 0, or an exit status after printing the problem. */
+/* The value of an option that takes one; NULL after a message. */
+static char *option_value(int argc, char **argv, int *i, const char *name) {
+  size_t len = strlen(name);
+  const char *arg = argv[*i];
+  if (strncmp(arg, name, len) == 0 && arg[len] == '=') return (char *)arg + len + 1;
+  if (*i + 1 >= argc) {
+    fprintf(stderr, "eomc linearize: option '%s' needs a value (try 'eomc linearize --help')\n",
+            name);
+    return NULL;
+  }
+  return argv[++*i];
+}
+
+static int is_option(const char *arg, const char *name) {
+  size_t len = strlen(name);
+  return strncmp(arg, name, len) == 0 && (arg[len] == '\0' || arg[len] == '=');
+}
+
+/* 0, or an exit status after printing the problem (-1: help printed). */
 static int parse_options(int argc, char **argv, Options *o) {
+  static const char *const valued[] = {"--at", "--set", "--rate", "--independent"};
   for (int i = 1; i < argc; i++) {
     const char *arg = argv[i];
+    int which = -1;
+    for (int k = 0; k < 4; k++)
+      if (is_option(arg, valued[k])) which = k;
     if (cmd_is_help(arg)) {
       fputs(linearize_usage, stdout);
       return -1;
@@ -434,17 +344,13 @@ static int parse_options(int argc, char **argv, Options *o) {
       o->json = 1;
     } else if (strcmp(arg, "--no-search") == 0) {
       o->no_search = 1;
-    } else if (strcmp(arg, "--at") == 0 || strcmp(arg, "--set") == 0) {
-      if (i + 1 >= argc) {
-        fprintf(stderr, "eomc linearize: option '%s' needs NAME=VALUE (try 'eomc linearize --help')\n", arg);
-        return EXIT_USAGE;
-      }
-      if (arg[2] == 'a') o->at[o->nat++] = argv[++i];
-      else o->set[o->nset++] = argv[++i];
-    } else if (strncmp(arg, "--at=", 5) == 0) {
-      o->at[o->nat++] = (char *)arg + 5;
-    } else if (strncmp(arg, "--set=", 6) == 0) {
-      o->set[o->nset++] = (char *)arg + 6;
+    } else if (which >= 0) {
+      char *v = option_value(argc, argv, &i, valued[which]);
+      if (!v) return EXIT_USAGE;
+      if (which == 0) o->at[o->nat++] = v;
+      else if (which == 1) o->set[o->nset++] = v;
+      else if (which == 2) o->rate[o->nrate++] = v;
+      else o->independent[o->nindependent++] = v;
     } else if (arg[0] == '-' && arg[1] != '\0') {
       fprintf(stderr, "eomc linearize: unknown option '%s' (try 'eomc linearize --help')\n", arg);
       return EXIT_USAGE;
@@ -457,6 +363,11 @@ static int parse_options(int argc, char **argv, Options *o) {
   }
   if (!o->model) {
     fputs("eomc linearize: no model file given (try 'eomc linearize --help')\n", stderr);
+    return EXIT_USAGE;
+  }
+  if (o->nrate > 0 && o->no_search) {
+    fputs("eomc linearize: --rate linearizes about a steady motion, which is always searched "
+          "for (leave out --no-search)\n", stderr);
     return EXIT_USAGE;
   }
   return 0;
@@ -479,6 +390,48 @@ static int apply_values(const Options *o, const struct eom_model *m, RunValues *
   return 0;
 }
 
+static int coord_index(const struct eom_model *m, const char *name, size_t len) {
+  for (int i = 0; i < m->nq; i++)
+    if (strlen(m->coord_names[i]) == len && strncmp(m->coord_names[i], name, len) == 0) return i;
+  return -1;
+}
+
+/* --rate NAME=VALUE (NAME or NAME'; VALUE as for --set, in the
+** coordinate's unit per second) into given/rate, --independent NAME into
+** prefer; p: the parameters VALUE may name.  0 or EXIT_USAGE. */
+static int apply_rates(const Options *o, const struct eom_model *m, const double *p, int *given,
+                       double *rate, int *prefer) {
+  for (int k = 0; k < o->nrate; k++) {
+    const char *arg = o->rate[k], *eq = strchr(arg, '=');
+    size_t len = eq ? (size_t)(eq - arg) : 0;
+    if (len > 0 && arg[len - 1] == '\'') len--;
+    int i = len ? coord_index(m, arg, len) : -1;
+    if (!eq || len == 0 || i < 0) {
+      fprintf(stderr, "eomc linearize: --rate %s: %s\n", arg,
+              !eq || len == 0 ? "not NAME=VALUE" : "not a coordinate of the model");
+      return EXIT_USAGE;
+    }
+    char unit[256] = "", err[1024];
+    if (m->coord_units && m->coord_units[i][0])
+      snprintf(unit, sizeof unit, "(%s)/s", m->coord_units[i]);
+    if (value_text_eval(arg, eq + 1, m, p, unit, &rate[i], err, sizeof err) != 0) {
+      fprintf(stderr, "eomc linearize: --rate %s\n", err);
+      return EXIT_USAGE;
+    }
+    given[i] = 1;
+  }
+  for (int k = 0; k < o->nindependent; k++) {
+    int i = coord_index(m, o->independent[k], strlen(o->independent[k]));
+    if (i < 0) {
+      fprintf(stderr, "eomc linearize: --independent %s: not a coordinate of the model\n",
+              o->independent[k]);
+      return EXIT_USAGE;
+    }
+    prefer[i] = 1;
+  }
+  return 0;
+}
+
 /* Newton leftovers (1e-30 where the answer is 0) print as 0. */
 static void clean_point(double *q, int n) {
   double scale = 0;
@@ -487,26 +440,249 @@ static void clean_point(double *q, int n) {
     if (fabs(q[i]) < 1e-14 * fmax(1.0, scale)) q[i] = 0;
 }
 
-int cmd_linearize(int argc, char **argv) {
-  Options o;
-  memset(&o, 0, sizeof o);
-  o.at = calloc((size_t)argc + 1, sizeof(char *));
-  o.set = calloc((size_t)argc + 1, sizeof(char *));
-  int rc = 0;
-  if (!o.at || !o.set) {
-    free(o.at), free(o.set);
+/* The chain-rule check of a reduced A against differences of the runtime's
+** constrained dynamics (see the header); a warning with the numbers when
+** they truly disagree.  r's full state is z's on return. */
+static void check_reduced(const struct eom_model *m, Reduction *r, double *z, const Linear *L) {
+  int nq = m->nq, n2 = 2 * nq, nz = L->n;
+  double *Af = malloc((size_t)n2 * n2 * sizeof(double)), *T = malloc((size_t)n2 * nz * sizeof(double));
+  double *x = malloc((size_t)n2 * 3 * sizeof(double)), *Ac = malloc((size_t)nz * nz * sizeof(double));
+  if (!Af || !T || !x || !Ac) goto out;
+  double *x1 = x + n2, *x2 = x1 + n2;
+  for (int j = 0; j < nz; j++) {  /* T = dx/dz */
+    double base = z[j], h = fd_step(base);
+    z[j] = base + h;
+    int bad = reduce_state(r, z);
+    memcpy(x1, r->qf, (size_t)nq * sizeof(double)), memcpy(x1 + nq, r->vf, (size_t)nq * sizeof(double));
+    z[j] = base - h;
+    bad = bad || reduce_state(r, z);
+    memcpy(x2, r->qf, (size_t)nq * sizeof(double)), memcpy(x2 + nq, r->vf, (size_t)nq * sizeof(double));
+    z[j] = base;
+    if (bad) goto out;
+    for (int i = 0; i < n2; i++) T[(size_t)i * nz + j] = (x1[i] - x2[i]) / (2 * h);
+  }
+  if (reduce_state(r, z) != 0) goto out;
+  memcpy(x, r->qf, (size_t)nq * sizeof(double)), memcpy(x + nq, r->vf, (size_t)nq * sizeof(double));
+  if (eom_state_matrix(m, r->p, r->t, x, r->u, Af) != EOM_OK) goto out;
+  for (int a = 0; a < nz; a++) {  /* row a of z' is row `row` of x' */
+    int row = a < r->nk ? r->kept[a] : nq + r->independent[a - r->nk];
+    for (int b = 0; b < nz; b++) {
+      double s = 0;
+      for (int k = 0; k < n2; k++) s += Af[(size_t)row * n2 + k] * T[(size_t)k * nz + b];
+      Ac[(size_t)a * nz + b] = s;
+    }
+  }
+  double d = 0, sc = 0;
+  compare((size_t)nz * nz, L->A, Ac, &d, &sc);
+  /* both are differences (of differences for Ac): a looser bound */
+  if (d > 1e-4 * sc + 1e-7)
+    fprintf(stderr, "eomc linearize: warning: the reduced A disagrees with differences of the "
+                    "constrained dynamics: largest difference %.3g (entries up to %.3g)\n", d, sc);
+out:
+  free(Af), free(T), free(x), free(Ac);
+}
+
+/* Replace the full linear model L by its minimal one (attitudes). */
+static int to_minimal_state(const struct eom_model *m, const double *x, Linear *L) {
+  Linear Z;
+  if (linear_alloc(&Z, 2 * eom_nv(m), m->nu, m->ny) != 0 || reduce_attitudes(m, x, L, &Z) != 0) {
+    linear_free(&Z);
+    return -1;
+  }
+  linear_free(L);
+  *L = Z;
+  return 0;
+}
+
+/* The plain linearization in x = [q; q'] (no constraints, no rates;
+** with attitudes, then reduced to the minimal state). */
+static int linearize_full(const struct eom_model *m, RunValues *rv, const Options *o,
+                          char **xs) {
+  int nq = m->nq, rc = 0;
+  char err[512] = "";
+  struct eom_report eq;
+  memset(&eq, 0, sizeof eq);
+  Linear L;
+  memset(&L, 0, sizeof L);
+  if (!o->no_search && m->nattitudes > 0) {
+    fprintf(stderr, "eomc linearize: error: the equilibrium search does not handle attitudes yet: "
+                    "give the point with --no-search (the model's initial values and --at)\n");
+    return EXIT_RUN;
+  }
+  if (!o->no_search) {
+    memset(rv->x + nq, 0, (size_t)nq * sizeof(double));  /* at rest */
+    if (eom_equilibrium(m, rv->p, rv->u, 0, rv->x, 0, 0, &eq) != EOM_OK) {
+      fprintf(stderr, "eomc linearize: error: no static equilibrium: %s\n"
+                      "  (--no-search linearizes at the given point instead)\n", eq.message);
+      return EXIT_RUN;
+    }
+    clean_point(rv->x, nq);
+  }
+  if (linear_alloc(&L, eom_state_size(m), m->nu, m->ny) != 0) {
     fputs("eomc linearize: out of memory\n", stderr);
     return EXIT_RUN;
   }
+  if (linearize_at(m, rv->p, rv->x, rv->u, &L, err, sizeof err) != 0) {
+    fprintf(stderr, "eomc linearize: error: %s\n", err);
+    rc = EXIT_RUN;
+  } else if (m->nattitudes > 0 && to_minimal_state(m, rv->x, &L) != 0) {
+    fputs("eomc linearize: out of memory\n", stderr);
+    rc = EXIT_RUN;
+  } else {
+    Point pt = {rv->x, rv->u, o->no_search ? POINT_GIVEN : POINT_EQUILIBRIUM, eq.steps,
+                eq.residual, NULL};
+    const char *const *names = (const char *const *)xs;
+    if (o->json) linearize_print_json(stdout, m, &pt, &L, names, names);
+    else linearize_print_text(stdout, m, &pt, &L, names, names);
+  }
+  linear_free(&L);
+  return rc;
+}
+
+/* The point of a reduced linearization: a steady motion (--rate), a
+** static equilibrium, or the given point; r is set up there.  0, or an
+** exit status after the message. */
+static int reduced_point(const struct eom_model *m, RunValues *rv, const Options *o,
+                         const int *given, const double *rate, const int *prefer,
+                         SteadyMotion *sm, Reduction *own, Point *pt, Reduction **red) {
+  int nq = m->nq;
+  char err[1024] = "";
+  if (o->nrate > 0) {
+    if (steady_analyze(m, rv->p, rv->u, rv->x, rv->x + nq, given, rate, prefer, 0, sm, err,
+                       sizeof err) != 0) {
+      fprintf(stderr, "eomc linearize: error: %s\n", err);
+      return EXIT_RUN;
+    }
+    pt->kind = POINT_STEADY, pt->steps = sm->iterations, pt->residual = sm->residual;
+    *red = &sm->red;
+    return 0;
+  }
+  if (!o->no_search) {
+    struct eom_report eq;
+    memset(&eq, 0, sizeof eq);
+    memset(rv->x + nq, 0, (size_t)nq * sizeof(double));  /* at rest */
+    if (eom_equilibrium(m, rv->p, rv->u, 0, rv->x, 0, 0, &eq) != EOM_OK) {
+      fprintf(stderr, "eomc linearize: error: no static equilibrium: %s\n"
+                      "  (--no-search linearizes at the given point instead)\n", eq.message);
+      return EXIT_RUN;
+    }
+    clean_point(rv->x, nq);
+    pt->kind = POINT_EQUILIBRIUM, pt->steps = eq.steps, pt->residual = eq.residual;
+  }
+  if (reduce_init(own, m, rv->p, rv->u, 0.0, rv->x, rv->x + nq) != 0) {
+    fputs("eomc linearize: out of memory\n", stderr);
+    return EXIT_RUN;
+  }
+  for (int i = 0; i < nq; i++)
+    if (prefer[i]) own->role[i] |= REDUCE_PREFER;
+  if (reduce_choose(own, err, sizeof err) != 0) {
+    fprintf(stderr, "eomc linearize: error: %s\n", err);
+    return EXIT_RUN;
+  }
+  /* the given point onto the constraints: the dependent coordinates and
+  ** rates follow from the independent ones */
+  double *z = malloc((size_t)(own->nk + own->ni + 1) * sizeof(double));
+  int bad = !z;
+  if (z) {
+    reduce_point(own, z);
+    bad = reduce_state(own, z) != 0;
+    free(z);
+  }
+  if (bad) {
+    fputs("eomc linearize: error: the constraints cannot be met at the point from its "
+          "independent coordinates (start nearer with --at)\n", stderr);
+    return EXIT_RUN;
+  }
+  reduce_rebase(own);
+  *red = own;
+  return 0;
+}
+
+/* The linearization in the reduced state (constraints or --rate). */
+static int linearize_reduced(const struct eom_model *m, RunValues *rv, const Options *o) {
+  int nq = m->nq, rc = 0;
+  int *given = calloc((size_t)nq + 1, sizeof(int)), *prefer = calloc((size_t)nq + 1, sizeof(int));
+  double *rate = calloc((size_t)nq + 1, sizeof(double)), *z = NULL, *x = NULL;
+  char **xs = state_names(m), **zs = NULL;
+  SteadyMotion sm;
+  Reduction own, *red = NULL;
+  Linear L;
+  memset(&sm, 0, sizeof sm);
+  memset(&own, 0, sizeof own);
+  memset(&L, 0, sizeof L);
+  Point pt = {NULL, NULL, POINT_GIVEN, 0, 0, NULL};
+  int ok = given && prefer && rate && xs;
+  for (int i = 0; ok && i < 2 * nq; i++) ok = xs[i] != NULL;
+  if (!ok) {
+    fputs("eomc linearize: out of memory\n", stderr);
+    rc = EXIT_RUN;
+    goto out;
+  }
+  if ((rc = apply_rates(o, m, rv->p, given, rate, prefer)) != 0) goto out;
+  if ((rc = reduced_point(m, rv, o, given, rate, prefer, &sm, &own, &pt, &red)) != 0) goto out;
+  for (int i = 0; i < nq; i++)
+    if (prefer[i] && (red->role[i] & REDUCE_RATE_DEP)) {
+      fprintf(stderr, "eomc linearize: error: '%s' cannot be independent: the constraints fix "
+                      "it from the other coordinates here\n", m->coord_names[i]);
+      rc = EXIT_RUN;
+      goto out;
+    }
+  int nz = red->nk + red->ni;
+  z = malloc((size_t)(nz + 2 * nq + 1) * sizeof(double));
+  zs = calloc((size_t)nz + 1, sizeof *zs);
+  if (!z || !zs || linear_alloc(&L, nz, m->nu, m->ny) != 0) {
+    fputs("eomc linearize: out of memory\n", stderr);
+    rc = EXIT_RUN;
+    goto out;
+  }
+  x = z + nz;
+  for (int k = 0; k < nz; k++) {
+    char buf[512];
+    zs[k] = strdup(reduce_name(red, k, buf, sizeof buf));
+    if (!zs[k]) rc = EXIT_RUN;
+  }
+  reduce_point(red, z);
+  if (rc == 0 && reduce_linearize(red, z, L.A, L.B, L.C, L.D) != 0) {
+    fputs("eomc linearize: error: the constrained dynamics fail next to the point\n", stderr);
+    rc = EXIT_RUN;
+  }
+  if (rc != 0) goto out;
+  check_reduced(m, red, z, &L);
+  memcpy(x, red->q, (size_t)nq * sizeof(double));
+  memcpy(x + nq, red->v, (size_t)nq * sizeof(double));
+  clean_point(x, 2 * nq);
+  pt.x = x, pt.u = red->u, pt.red = red;
+  const char *const *full = (const char *const *)xs, *const *reduced = (const char *const *)zs;
+  if (o->json) linearize_print_json(stdout, m, &pt, &L, full, reduced);
+  else linearize_print_text(stdout, m, &pt, &L, full, reduced);
+out:
+  free_names(zs, red ? red->nk + red->ni : 0);
+  free_names(xs, 2 * nq);
+  linear_free(&L);
+  steady_free(&sm);
+  reduce_free(&own);
+  free(given), free(prefer), free(rate), free(z);
+  return rc;
+}
+
+int cmd_linearize(int argc, char **argv) {
+  Options o;
+  memset(&o, 0, sizeof o);
+  char **lists = calloc(4 * ((size_t)argc + 1), sizeof(char *));
+  int rc = 0;
+  if (!lists) {
+    fputs("eomc linearize: out of memory\n", stderr);
+    return EXIT_RUN;
+  }
+  o.at = lists, o.set = lists + argc + 1, o.rate = o.set + argc + 1;
+  o.independent = o.rate + argc + 1;
   if ((rc = parse_options(argc, argv, &o)) != 0) {
-    free(o.at), free(o.set);
+    free(lists);
     return rc < 0 ? 0 : rc;
   }
   BuiltModel bm;
   RunValues rv;
-  Linear L;
-  char **xs = NULL, err[512] = "";
-  memset(&L, 0, sizeof L);
+  char **xs = NULL;
   if ((rc = build_model(o.model, &bm)) != 0) goto done;
   const struct eom_model *m = bm.model;
   if (run_values_init(&rv, m) != 0) {
@@ -515,60 +691,34 @@ int cmd_linearize(int argc, char **argv) {
     goto unload;
   }
   if ((rc = apply_values(&o, m, &rv)) != 0) goto values;
-  int nq = m->nq;
-  struct eom_report eq;
-  memset(&eq, 0, sizeof eq);
-  if (!o.no_search && m->nattitudes > 0) {
-    fprintf(stderr, "eomc linearize: error: the equilibrium search does not handle attitudes yet: "
-                    "give the point with --no-search (the model's initial values and --at)\n");
+  if ((m->nc + m->nvc > 0 || o.nrate > 0) && m->nattitudes > 0) {
+    fputs("eomc linearize: error: constraints or --rate together with attitudes are not "
+          "handled yet\n", stderr);
     rc = EXIT_RUN;
-    goto values;
-  }
-  if (!o.no_search) {
-    memset(rv.x + nq, 0, (size_t)nq * sizeof(double));  /* at rest */
-    if (eom_equilibrium(m, rv.p, rv.u, 0, rv.x, 0, 0, &eq) != EOM_OK) {
-      fprintf(stderr, "eomc linearize: error: no static equilibrium: %s\n"
-                      "  (--no-search linearizes at the given point instead)\n", eq.message);
-      rc = EXIT_RUN;
-      goto values;
-    }
-    clean_point(rv.x, nq);
-  }
-  xs = state_names(m);
-  int names_ok = xs != NULL, nz = 2 * eom_nv(m);
-  for (int i = 0; names_ok && i < nz; i++) names_ok = xs[i] != NULL;
-  if (!names_ok || linear_alloc(&L, eom_state_size(m), m->nu, m->ny) != 0) {
-    fputs("eomc linearize: out of memory\n", stderr);
-    rc = EXIT_RUN;
-    goto values;
-  }
-  if (linearize_at(m, rv.p, rv.x, rv.u, &L, err, sizeof err) != 0) {
-    fprintf(stderr, "eomc linearize: error: %s\n", err);
-    rc = EXIT_RUN;
-    goto values;
-  }
-  if (m->nattitudes > 0) {   /* to the minimal state */
-    Linear Z;
-    if (linear_alloc(&Z, nz, m->nu, m->ny) != 0 || reduce_attitudes(m, rv.x, &L, &Z) != 0) {
-      linear_free(&Z);
+  } else if (m->nc + m->nvc > 0 || o.nrate > 0) {
+    rc = linearize_reduced(m, &rv, &o);
+  } else {
+    xs = state_names(m);
+    int names_ok = xs != NULL;
+    for (int i = 0; names_ok && i < 2 * eom_nv(m); i++) names_ok = xs[i] != NULL;
+    if (!names_ok) {
       fputs("eomc linearize: out of memory\n", stderr);
       rc = EXIT_RUN;
       goto values;
     }
-    linear_free(&L);
-    L = Z;
+    if (o.nindependent > 0) {
+      fputs("eomc linearize: note: the model has no constraints: every coordinate is "
+            "independent (--independent changes nothing)\n", stderr);
+    }
+    rc = linearize_full(m, &rv, &o, xs);
   }
-  Point pt = {rv.x, rv.u, !o.no_search, &eq};
-  if (o.json) print_json(stdout, m, &pt, &L, (const char *const *)xs);
-  else print_text(stdout, m, &pt, &L, (const char *const *)xs);
-  if (fflush(stdout) != 0) rc = EXIT_RUN;
+  if (rc == 0 && fflush(stdout) != 0) rc = EXIT_RUN;
 values:
   run_values_free(&rv);
 unload:
   free_names(xs, bm.model ? 2 * eom_nv(bm.model) : 0);
-  linear_free(&L);
   built_model_close(&bm);
 done:
-  free(o.at), free(o.set);
+  free(lists);
   return rc;
 }

@@ -1,6 +1,7 @@
 /*
 ** modes_steady.c — `eomc modes --rate NAME=VALUE` and `--sweep-rate`:
-** eigenvalues of the reduced system about a steady motion (steady.c), as
+** eigenvalues of the reduced system about a steady motion (steady.c; with
+** position constraints too, in the coordinates they leave free), as
 ** text, JSON, or a table over a range of one rate (with an SVG of growth
 ** rates and frequencies against it).
 */
@@ -16,6 +17,7 @@
 #include "cli/json_out.h"
 #include "cli/plot.h"
 #include "cli/steady.h"
+#include "cli/value_text.h"
 
 static const double TWO_PI = 6.283185307179586476925286766559;
 
@@ -25,9 +27,17 @@ static int coord_index(const struct eom_model *m, const char *name, size_t len) 
   return -1;
 }
 
-/* "NAME=VALUE" (NAME or NAME'): the coordinate and the rate; -1 and a message. */
-static int parse_rate(const struct eom_model *m, const char *arg, int *index, double *value,
-                      char *err, size_t errlen) {
+/* The unit a rate of coordinate i is written in ("" when none). */
+static const char *rate_unit(const struct eom_model *m, int i, char *buf, size_t size) {
+  buf[0] = '\0';
+  if (m->coord_units && m->coord_units[i][0]) snprintf(buf, size, "(%s)/s", m->coord_units[i]);
+  return buf;
+}
+
+/* "NAME=VALUE" (NAME or NAME'; VALUE as for --set, cli/value_text.h): the
+** coordinate and the rate; -1 and a message. */
+static int parse_rate(const struct eom_model *m, const double *p, const char *arg, int *index,
+                      double *value, char *err, size_t errlen) {
   const char *eq = strchr(arg, '=');
   size_t len = eq ? (size_t)(eq - arg) : 0;
   if (len > 0 && arg[len - 1] == '\'') len--;
@@ -40,17 +50,15 @@ static int parse_rate(const struct eom_model *m, const char *arg, int *index, do
     snprintf(err, errlen, "'%.*s' is not a coordinate of the model", (int)len, arg);
     return -1;
   }
-  if (parse_number(eq + 1, value) != 0) {
-    snprintf(err, errlen, "'%s' is not a number", eq + 1);
-    return -1;
-  }
-  return 0;
+  char unit[256];
+  return value_text_eval(arg, eq + 1, m, p, rate_unit(m, *index, unit, sizeof unit), value, err,
+                         errlen);
 }
 
 /* "NAME=LO:HI:N" */
-static int parse_sweep(const struct eom_model *m, const char *arg, int *index, double *lo,
-                       double *hi, int *n, char *err, size_t errlen) {
-  char buf[512];
+static int parse_sweep(const struct eom_model *m, const double *p, const char *arg, int *index,
+                       double *lo, double *hi, int *n, char *err, size_t errlen) {
+  char buf[512], unit[256];
   snprintf(buf, sizeof buf, "%s", arg);
   char *eq = strchr(buf, '='), *c1 = eq ? strchr(eq, ':') : NULL, *c2 = c1 ? strchr(c1 + 1, ':') : NULL;
   if (!c2) {
@@ -59,9 +67,11 @@ static int parse_sweep(const struct eom_model *m, const char *arg, int *index, d
   }
   *c1 = *c2 = '\0';
   double count;
-  if (parse_rate(m, buf, index, lo, err, errlen) != 0) return -1;
-  if (parse_number(c1 + 1, hi) != 0 || parse_number(c2 + 1, &count) != 0 || count < 2 ||
-      count > 100000 || count != floor(count)) {
+  if (parse_rate(m, p, buf, index, lo, err, errlen) != 0) return -1;
+  if (value_text_eval(c1 + 1, c1 + 1, m, p, rate_unit(m, *index, unit, sizeof unit), hi, err,
+                      errlen) != 0)
+    return -1;
+  if (parse_number(c2 + 1, &count) != 0 || count < 2 || count > 100000 || count != floor(count)) {
     snprintf(err, errlen, "--sweep-rate wants NAME=LO:HI:N with N a whole number >= 2, not '%s'",
              arg);
     return -1;
@@ -77,6 +87,9 @@ static void print_motion(FILE *f, const struct eom_model *m, const SteadyMotion 
     const char *name = m->coord_names[i];
     if (role & STEADY_KEPT)
       fprintf(f, "  %s = %.10g (at rest)\n", name, sm->q[i]);
+    else if (role & STEADY_POS_DEP)
+      fprintf(f, "  %s = %.10g, %s' = %.10g (follow from the position constraints)\n", name,
+              sm->q[i], name, sm->v[i]);
     else if (role & STEADY_GIVEN)
       fprintf(f, "  %s' = %.10g (given; %s left out: it does not enter the dynamics)\n", name,
               sm->v[i], name);
@@ -135,7 +148,7 @@ static int sweep(const struct eom_model *m, RunValues *rv, int *given, double *r
   char err[1024];
   int idx, n;
   double lo, hi;
-  if (parse_sweep(m, o->sweep, &idx, &lo, &hi, &n, err, sizeof err) != 0) {
+  if (parse_sweep(m, rv->p, o->sweep, &idx, &lo, &hi, &n, err, sizeof err) != 0) {
     fprintf(stderr, "eomc modes: %s\n", err);
     return EXIT_USAGE;
   }
@@ -156,7 +169,7 @@ static int sweep(const struct eom_model *m, RunValues *rv, int *given, double *r
   memset(&sm, 0, sizeof sm);
   for (int k = 0; k < n && rc == 0; k++) {
     rate[idx] = lo + (hi - lo) * k / (n - 1);
-    if (steady_analyze(m, rv->p, rv->u, rv->x, rv->x + m->nq, given, rate, k > 0, &sm, err,
+    if (steady_analyze(m, rv->p, rv->u, rv->x, rv->x + m->nq, given, rate, NULL, k > 0, &sm, err,
                        sizeof err) != 0) {
       fprintf(stderr, "eomc modes: error: at %s' = %.10g: %s\n", m->coord_names[idx], rate[idx],
               err);
@@ -208,7 +221,7 @@ int modes_steady(const struct eom_model *m, RunValues *rv, const SteadyOptions *
   for (int k = 0; k < o->nrates; k++) {
     int idx;
     double v;
-    if (parse_rate(m, o->rates[k], &idx, &v, err, sizeof err) != 0) {
+    if (parse_rate(m, rv->p, o->rates[k], &idx, &v, err, sizeof err) != 0) {
       fprintf(stderr, "eomc modes: --rate %s\n", err);
       rc = EXIT_USAGE;
       goto out;
@@ -228,7 +241,7 @@ int modes_steady(const struct eom_model *m, RunValues *rv, const SteadyOptions *
   }
   SteadyMotion sm;
   memset(&sm, 0, sizeof sm);
-  if (steady_analyze(m, rv->p, rv->u, rv->x, rv->x + m->nq, given, rate, 0, &sm, err,
+  if (steady_analyze(m, rv->p, rv->u, rv->x, rv->x + m->nq, given, rate, NULL, 0, &sm, err,
                      sizeof err) != 0) {
     fprintf(stderr, "eomc modes: error: %s\n", err);
     rc = EXIT_RUN;
