@@ -7,6 +7,8 @@
 ** terminating NUL from NUL bytes inside the file, which are errors.
 */
 #include "front/lexer.h"
+#include "front/keywords.h"
+#include "front/xalloc.h"
 
 #include <assert.h>
 #include <errno.h>
@@ -189,11 +191,25 @@ static int name_token(Lexer *lx, Token *t, int kind) {
   return kind;
 }
 
+/* A name, or one of the language's words (front/keywords.h): reserved
+** keywords and context words are looked up after the name is scanned, so
+** the table is the only list of them. */
+static int word_token(Lexer *lx, Token *t) {
+  size_t n = (size_t)(lx->cur - lx->tok);
+#define IS_WORD(spelling) (n == sizeof spelling - 1 && memcmp(lx->tok, spelling, n) == 0)
+#define AS_KEYWORD(token, spelling) if (IS_WORD(spelling)) return keyword(lx, t, token);
+#define AS_CONTEXT_WORD(token, spelling) if (IS_WORD(spelling)) return name_token(lx, t, token);
+  EOM_WORDS(AS_KEYWORD, AS_CONTEXT_WORD)
+#undef AS_CONTEXT_WORD
+#undef AS_KEYWORD
+#undef IS_WORD
+  return name_token(lx, t, T_NAME);
+}
+
 static int number_token(Lexer *lx, Token *t) {
   finish(lx, t, T_NUMBER);
   char small[64];
-  char *buf = t->len < sizeof small ? small : malloc(t->len + 1);
-  if (!buf) abort();
+  char *buf = t->len < sizeof small ? small : xmalloc(t->len + 1);
   memcpy(buf, lx->tok, t->len);
   buf[t->len] = '\0';
   errno = 0;
@@ -351,35 +367,7 @@ static int scan(Lexer *lx, Token *t) {
         return T_NEWLINE;
       }
 
-      "model"       { return keyword(lx, t, KW_MODEL); }
-      "coord"       { return keyword(lx, t, KW_COORD); }
-      "param"       { return keyword(lx, t, KW_PARAM); }
-      "const"       { return keyword(lx, t, KW_CONST); }
-      "input"       { return keyword(lx, t, KW_INPUT); }
-      "let"         { return keyword(lx, t, KW_LET); }
-      "initial"     { return keyword(lx, t, KW_INITIAL); }
-      "output"      { return keyword(lx, t, KW_OUTPUT); }
-      "frame"       { return keyword(lx, t, KW_FRAME); }
-      "attitude"    { return keyword(lx, t, KW_ATTITUDE); }
-      "identify"    { return keyword(lx, t, KW_IDENTIFY); }
-      "kinetic"     { return keyword(lx, t, KW_KINETIC); }
-      "potential"   { return keyword(lx, t, KW_POTENTIAL); }
-      "lagrangian"  { return keyword(lx, t, KW_LAGRANGIAN); }
-      "dissipation" { return keyword(lx, t, KW_DISSIPATION); }
-      "force"       { return keyword(lx, t, KW_FORCE); }
-      "torque"      { return keyword(lx, t, KW_TORQUE); }
-      "gravity"     { return keyword(lx, t, KW_GRAVITY); }
-      "body"        { return keyword(lx, t, KW_BODY); }
-      "constraint"  { return keyword(lx, t, KW_CONSTRAINT); }
-      "stop"        { return keyword(lx, t, KW_STOP); }
-
-      "mass"        { return name_token(lx, t, CW_MASS); }
-      "at"          { return name_token(lx, t, CW_AT); }
-      "on"          { return name_token(lx, t, CW_ON); }
-      "orient"      { return name_token(lx, t, CW_ORIENT); }
-      "inertia"     { return name_token(lx, t, CW_INERTIA); }
-      "bounce"      { return name_token(lx, t, CW_BOUNCE); }
-      name          { return name_token(lx, t, T_NAME); }
+      name          { return word_token(lx, t); }
 
       num           { return number_token(lx, t); }
       num [eE] [+-]? {

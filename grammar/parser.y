@@ -34,7 +34,9 @@ void yyerror(YYLTYPE *lloc, ParseCtx *ctx, const char *msg);
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include "front/keywords.h"
 #include "front/lexer.h"
+#include "front/xalloc.h"
 #include "front/parse.h"
 
 /* A growable array of pointers in the arena (the old array is abandoned
@@ -447,18 +449,10 @@ static void describe(yysymbol_kind_t k, const Token *tok, char *buf, size_t n) {
     return;
   }
   static const struct { yysymbol_kind_t k; const char *w; } words[] = {
-    {YYSYMBOL_KW_MODEL, "model"}, {YYSYMBOL_KW_COORD, "coord"}, {YYSYMBOL_KW_PARAM, "param"},
-    {YYSYMBOL_KW_CONST, "const"}, {YYSYMBOL_KW_INPUT, "input"}, {YYSYMBOL_KW_LET, "let"},
-    {YYSYMBOL_KW_INITIAL, "initial"}, {YYSYMBOL_KW_OUTPUT, "output"},
-    {YYSYMBOL_KW_IDENTIFY, "identify"}, {YYSYMBOL_KW_KINETIC, "kinetic"},
-    {YYSYMBOL_KW_POTENTIAL, "potential"}, {YYSYMBOL_KW_LAGRANGIAN, "lagrangian"},
-    {YYSYMBOL_KW_DISSIPATION, "dissipation"}, {YYSYMBOL_KW_FORCE, "force"},
-    {YYSYMBOL_KW_TORQUE, "torque"}, {YYSYMBOL_KW_GRAVITY, "gravity"},
-    {YYSYMBOL_KW_BODY, "body"}, {YYSYMBOL_KW_CONSTRAINT, "constraint"},
-    {YYSYMBOL_KW_FRAME, "frame"}, {YYSYMBOL_KW_ATTITUDE, "attitude"},
-    {YYSYMBOL_KW_STOP, "stop"}, {YYSYMBOL_T_GE, ">="}, {YYSYMBOL_CW_BOUNCE, "bounce"},
-    {YYSYMBOL_CW_MASS, "mass"}, {YYSYMBOL_CW_AT, "at"}, {YYSYMBOL_CW_ON, "on"},
-    {YYSYMBOL_CW_ORIENT, "orient"}, {YYSYMBOL_CW_INERTIA, "inertia"},
+#define WORD(token, spelling) {YYSYMBOL_##token, spelling},
+    EOM_WORDS(WORD, WORD)
+#undef WORD
+    {YYSYMBOL_T_GE, ">="},
   };
   for (size_t i = 0; i < sizeof words / sizeof words[0]; i++)
     if (words[i].k == k) {
@@ -469,11 +463,17 @@ static void describe(yysymbol_kind_t k, const Token *tok, char *buf, size_t n) {
 }
 
 static int is_keyword(yysymbol_kind_t k) {
-  return (k >= YYSYMBOL_KW_MODEL && k <= YYSYMBOL_KW_CONSTRAINT) || k == YYSYMBOL_KW_STOP;
+#define IS(token, spelling) if (k == YYSYMBOL_##token) return 1;
+  EOM_WORDS(IS, EOM_WORD_SKIP)
+#undef IS
+  return 0;
 }
 
 static int is_contextual(yysymbol_kind_t k) {
-  return k >= YYSYMBOL_CW_MASS && k <= YYSYMBOL_CW_BOUNCE;
+#define IS(token, spelling) if (k == YYSYMBOL_##token) return 1;
+  EOM_WORDS(EOM_WORD_SKIP, IS)
+#undef IS
+  return 0;
 }
 
 /* " after 'x'" naming the token before the offending one, when it belongs
@@ -616,15 +616,10 @@ Ast *parse_model(const char *path, const char *src, size_t len, Diag *d) {
   ast->path = arena_strdup(a, path ? path : "-");
   /* The lexer needs a NUL after the last byte; the caller's buffer may not
   ** have one, so work on a copy. */
-  char *text = malloc(len + 1);
-  if (!text) {
-    fputs("eomc: out of memory\n", stderr);
-    abort();
-  }
+  char *text = xmalloc(len + 1);
   if (len) memcpy(text, src, len);
   text[len] = '\0';
-  ParseCtx *ctx = malloc(sizeof *ctx);
-  if (!ctx) abort();
+  ParseCtx *ctx = xmalloc(sizeof *ctx);
   memset(ctx, 0, sizeof *ctx);
   lexer_init(&ctx->lx, text, len, a, d);
   ctx->arena = a;

@@ -58,6 +58,12 @@ typedef struct Index {
   int *mark;      /* nq: scratch (blocks touched by a row) */
   int *put;       /* nc: the rows put off, s->nput of them, increasing */
   int *perm;      /* nc: the border's pivot order (row m of the pivoted C is put[perm[m]]) */
+  int *rbstart;   /* nc + 1: row k touches blocks rblk[rbstart[k] ..) */
+  int *rblk;      /* nc * nq */
+  int *brstart;   /* nq + 1: block b is touched by rows brow[brstart[b] ..) */
+  int *brow;      /* nc * nq */
+  int *stamp;     /* nc: scratch (rows already met) */
+  int *sdlo, *sdhi; /* nc each: the nonzero range of the border's row Sd[m] */
 } Index;
 
 static Index index_of(const ConstraintSolver *s) {
@@ -72,11 +78,18 @@ static Index index_of(const ConstraintSolver *s) {
   x.mark = x.first + nc;
   x.put = x.mark + nq;
   x.perm = x.put + nc;
+  x.rbstart = x.perm + nc;
+  x.rblk = x.rbstart + nc + 1;
+  x.brstart = x.rblk + (size_t)nc * nq;
+  x.brow = x.brstart + nq + 1;
+  x.stamp = x.brow + (size_t)nc * nq;
+  x.sdlo = x.stamp + nc;
+  x.sdhi = x.sdlo + nc;
   return x;
 }
 
 size_t csparse_ints(int nq, int nc) {
-  return 4 * (size_t)nq + 2 + 4 * (size_t)nc + (size_t)nc * nq;
+  return 5 * (size_t)nq + 4 + 8 * (size_t)nc + 3 * (size_t)nc * nq;
 }
 
 size_t csparse_doubles(int nc) {
@@ -177,23 +190,51 @@ static void block_solve(const ConstraintSolver *s, const Index *x, int b, double
 /* G's nonzeros by rows, and row k of s->W = M⁻¹ g_k (nonzero only on the
 ** blocks g_k touches). */
 static void reactions(ConstraintSolver *s, const double *G, Index *x) {
-  int nq = s->nq, nc = s->nc, nz = 0;
+  int nq = s->nq, nc = s->nc, nb = s->nblocks, nz = 0, nr = 0;
   memset(s->W, 0, (size_t)nc * nq * sizeof(double));
   for (int k = 0; k < nc; k++) {
     const double *g = G + (size_t)k * nq;
     double *w = s->W + (size_t)k * nq;
     x->gstart[k] = nz;
-    for (int b = 0; b < s->nblocks; b++) x->mark[b] = 0;
+    x->rbstart[k] = nr;
+    for (int b = 0; b < nb; b++) x->mark[b] = 0;
     for (int i = 0; i < nq; i++)
       if (g[i] != 0) {
         x->gcol[nz++] = i;
         w[i] = g[i];
         x->mark[x->block_of[i]] = 1;
       }
-    for (int b = 0; b < s->nblocks; b++)
-      if (x->mark[b]) block_solve(s, x, b, w);
+    for (int b = 0; b < nb; b++)
+      if (x->mark[b]) {
+        block_solve(s, x, b, w);
+        x->rblk[nr++] = b;
+      }
   }
   x->gstart[nc] = nz;
+  x->rbstart[nc] = nr;
+  /* the same incidence by blocks: the rows that touch each block */
+  memset(x->brstart, 0, (size_t)(nb + 1) * sizeof(int));
+  for (int p = 0; p < nr; p++) x->brstart[x->rblk[p] + 1]++;
+  for (int b = 0; b < nb; b++) x->brstart[b + 1] += x->brstart[b];
+  memcpy(x->mark, x->brstart, (size_t)nb * sizeof(int));
+  for (int k = 0; k < nc; k++)
+    for (int p = x->rbstart[k]; p < x->rbstart[k + 1]; p++) x->brow[x->mark[x->rblk[p]]++] = k;
+}
+
+/* Call visit(s, x, a, b, ctx) once for every row b that shares a block of
+** M with row a (b = a included): the entries of S that can be nonzero. */
+typedef void (*NeighbourFn)(ConstraintSolver *s, Index *x, int a, int b, void *ctx);
+
+static void each_neighbour(ConstraintSolver *s, Index *x, int a, NeighbourFn visit, void *ctx) {
+  for (int p = x->rbstart[a]; p < x->rbstart[a + 1]; p++) {
+    int blk = x->rblk[p];
+    for (int q = x->brstart[blk]; q < x->brstart[blk + 1]; q++) {
+      int b = x->brow[q];
+      if (x->stamp[b] == a) continue;
+      x->stamp[b] = a;
+      visit(s, x, a, b, ctx);
+    }
+  }
 }
 
 /* Entry (a, b) of S = G M⁻¹ Gᵀ: g_a · (M⁻¹ g_b), over g_a's nonzeros. */
@@ -204,16 +245,24 @@ static double s_entry(const ConstraintSolver *s, const Index *x, int a, int b) {
   return v;
 }
 
-/* S = G M⁻¹ Gᵀ into the lower triangle of s->S, and each row's profile. */
-static void schur(ConstraintSolver *s, const Index *x) {
+/* Entry (a, b) of S into its lower triangle when b <= a, widening a's profile. */
+static void schur_entry(ConstraintSolver *s, Index *x, int a, int b, void *ctx) {
+  (void)ctx;
+  if (b > a) return;
+  double v = s_entry(s, x, a, b);
+  s->S[a * s->nc + b] = v;
+  if (v != 0 && b < x->first[a]) x->first[a] = b;
+}
+
+/* S = G M⁻¹ Gᵀ into the lower triangle of s->S (zero where rows share no
+** block of M), and each row's profile. */
+static void schur(ConstraintSolver *s, Index *x) {
   int nc = s->nc;
+  memset(s->S, 0, (size_t)nc * nc * sizeof(double));
+  for (int a = 0; a < nc; a++) x->stamp[a] = -1;
   for (int a = 0; a < nc; a++) {
     x->first[a] = a;
-    for (int b = 0; b <= a; b++) {
-      double v = s_entry(s, x, a, b);
-      s->S[a * nc + b] = v;
-      if (v != 0 && b < x->first[a]) x->first[a] = b;
-    }
+    each_neighbour(s, x, a, schur_entry, NULL);
   }
 }
 
@@ -320,6 +369,20 @@ static int pivoted_ldl(int n, double *c, double *dd, int *perm, double drop) {
   return n;
 }
 
+/* Entry S_jp (p = put[m]) of the border's row Sd[m] for a kept row j. */
+typedef struct BorderRow {
+  int m;
+  double *sd;
+} BorderRow;
+
+static void border_entry(ConstraintSolver *s, Index *x, int p, int j, void *ctx) {
+  BorderRow *row = ctx;
+  if (s->ev[j] == 0) return; /* put off (p itself among them) */
+  row->sd[j] = s_entry(s, x, j, p);
+  if (j < x->sdlo[row->m]) x->sdlo[row->m] = j;
+  if (j > x->sdhi[row->m]) x->sdhi[row->m] = j;
+}
+
 /* The rows put off, D, as a border of the kept ones, B:
 ** S = [S_BB S_BD; S_DB S_DD] = Lb diag(S_BB, C) Lbᵀ with
 ** Lb = [I 0; S_DB S_BB⁻¹ I] and C = S_DD - S_DB S_BB⁻¹ S_BD.  Row m of Sd
@@ -327,20 +390,24 @@ static int pivoted_ldl(int n, double *c, double *dd, int *perm, double drop) {
 ** with pivoting, and what is left of it below tol * top is dropped (the
 ** threshold the dense route applies to S's eigenvalues).  Returns the
 ** rank. */
-static int border(ConstraintSolver *s, const Index *x, double tol, double top) {
+static int border(ConstraintSolver *s, Index *x, double tol, double top) {
   int nc = s->nc, d = s->nput;
   Border b = border_of(s);
+  for (int j = 0; j < nc; j++) x->stamp[j] = -1;
   for (int m = 0; m < d; m++) {
     double *sd = b.Sd + (size_t)m * nc, *vd = b.Vd + (size_t)m * nc;
-    int p = x->put[m];
-    for (int j = 0; j < nc; j++) sd[j] = s->ev[j] != 0 ? s_entry(s, x, j, p) : 0;
+    memset(sd, 0, (size_t)nc * sizeof(double));
+    BorderRow row = {m, sd};
+    x->sdlo[m] = nc, x->sdhi[m] = -1;
+    each_neighbour(s, x, x->put[m], border_entry, &row);
     memcpy(vd, sd, (size_t)nc * sizeof(double));
     solve_kept(s, x, vd);
   }
   for (int m = 0; m < d; m++)
     for (int n = 0; n <= m; n++) {
       double v = s_entry(s, x, x->put[m], x->put[n]);
-      for (int j = 0; j < nc; j++) v -= b.Sd[(size_t)m * nc + j] * b.Vd[(size_t)n * nc + j];
+      const double *sd = b.Sd + (size_t)m * nc, *vd = b.Vd + (size_t)n * nc;
+      for (int j = x->sdlo[m]; j <= x->sdhi[m]; j++) v -= sd[j] * vd[j];
       b.C[m * d + n] = b.C[n * d + m] = v;
     }
   s->crank = d > 0 ? pivoted_ldl(d, b.C, b.dd, x->perm, top > 0 ? tol * top : 0) : 0;
@@ -380,6 +447,7 @@ static void null_space(ConstraintSolver *s, const Index *x) {
     double *z = s->V + (size_t)m * nc;
     memset(z, 0, (size_t)nc * sizeof(double));
     for (int j = 0; j < d; j++) {
+      if (e[j] == 0) continue; /* e is a unit vector where C is dropped whole */
       const double *vd = b.Vd + (size_t)j * nc;
       for (int i = 0; i < nc; i++) z[i] -= e[j] * vd[i];
       z[x->put[j]] += e[j];
@@ -447,7 +515,7 @@ void csparse_pinv(const ConstraintSolver *s, const double *r, double *mu) {
   solve_kept(s, &x, mu);
   for (int m = 0; m < d; m++) {
     const double *sd = b.Sd + (size_t)m * nc;
-    for (int j = 0; j < nc; j++) t[m] -= sd[j] * mu[j];
+    for (int j = x.sdlo[m]; j <= x.sdhi[m]; j++) t[m] -= sd[j] * mu[j];
   }
   border_solve(s, &x, t, c);
   for (int m = 0; m < d; m++) {

@@ -55,7 +55,9 @@ START_TEST(usage_statuses) {
   run_free(&r);
   r = run2("check", "/nonexistent/dir/model.eom");
   ck_assert_int_eq(r.status, 2);
-  ck_assert_ptr_nonnull(strstr(r.err, "cannot open"));
+  /* through the Diag like every error: FILE: error: message */
+  ck_assert_msg(strstr(r.err, "/nonexistent/dir/model.eom: error: cannot open the file") != NULL,
+                "%s", r.err);
   run_free(&r);
 }
 END_TEST

@@ -11,6 +11,7 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "front/keywords.h"
 #include "front/lexer.h"
 
 /* A lexed input: its tokens, values and locations, and the diagnostics. */
@@ -98,6 +99,110 @@ START_TEST(every_keyword_and_operator) {
                 '+', '-', '*', '/', '^', '=', ',', ';', '\'', '(', ')', ']', NL, END};
   expect_kinds(x, want);
   lexed_free(x);
+}
+END_TEST
+
+/* Every word of the table lexes as its token, alone and in a statement. */
+START_TEST(every_word_of_the_table) {
+  static const struct { int token; const char *spelling; } words[] = {
+#define WORD(token, spelling) {token, spelling},
+    EOM_WORDS(WORD, WORD)
+#undef WORD
+  };
+  for (size_t i = 0; i < sizeof words / sizeof words[0]; i++) {
+    char text[64];
+    snprintf(text, sizeof text, "%s %sx x%s", words[i].spelling, words[i].spelling,
+             words[i].spelling);
+    Lexed *x = lex(text);
+    int want[] = {words[i].token, T_NAME, T_NAME, NL, END};
+    expect_kinds(x, want);
+    lexed_free(x);
+  }
+}
+END_TEST
+
+/* The words a document lists between `from` and `to` (malloc'd): in
+** Markdown the words of that stretch of text (which sits inside one code
+** span), in troff the word after each .B or .BR at a line's start. */
+static char **words_between(const char *text, const char *from, const char *to, int troff,
+                            int *n) {
+  const char *a = strstr(text, from);
+  ck_assert_msg(a != NULL, "no '%s' in the document", from);
+  a += strlen(from);
+  const char *b = strstr(a, to);
+  ck_assert_msg(b != NULL, "no '%s' after '%s'", to, from);
+  char **w = calloc(64, sizeof *w);
+  ck_assert_ptr_nonnull(w);
+  *n = 0;
+  for (const char *p = a; p < b;) {
+    if (troff) { /* to the next ".B word" or ".BR word" */
+      const char *m = strstr(p, "\n.B");
+      if (!m || m >= b) break;
+      p = m + 3;
+      if (*p == 'R') p++;
+      if (*p != ' ') continue;
+    }
+    while (p < b && !(*p >= 'a' && *p <= 'z')) p++;
+    const char *e = p;
+    while (e < b && ((*e >= 'a' && *e <= 'z') || *e == '_')) e++;
+    if (e > p) {
+      ck_assert_int_lt(*n, 63);
+      char *word = malloc((size_t)(e - p) + 1);
+      ck_assert_ptr_nonnull(word);
+      memcpy(word, p, (size_t)(e - p));
+      word[e - p] = '\0';
+      w[(*n)++] = word;
+    }
+    p = e;
+  }
+  return w;
+}
+
+static int listed(char **w, int n, const char *word) {
+  for (int i = 0; i < n; i++)
+    if (strcmp(w[i], word) == 0) return 1;
+  return 0;
+}
+
+static void free_words(char **w, int n) {
+  for (int i = 0; i < n; i++) free(w[i]);
+  free(w);
+}
+
+/* The reference pages list exactly the table's words: the reserved words
+** and the context words, in docs/language.md ("Lexical structure") and in
+** docs/eom.5 (LEXICAL STRUCTURE). */
+static void check_doc(const char *file, int troff, const char *kw_from, const char *kw_to,
+                      const char *cw_from, const char *cw_to) {
+  char path[4096];
+  snprintf(path, sizeof path, "%s/docs/%s", SRCDIR, file);
+  FILE *f = fopen(path, "rb");
+  ck_assert_msg(f != NULL, "cannot open %s", path);
+  static char text[1 << 20];
+  size_t len = fread(text, 1, sizeof text - 1, f);
+  fclose(f);
+  text[len] = '\0';
+  int nk, nc, nkw = 0, ncw = 0;
+  char **kw = words_between(text, kw_from, kw_to, troff, &nk);
+  char **cw = words_between(text, cw_from, cw_to, troff, &nc);
+#define IN_KEYWORDS(token, spelling) \
+  nkw++;                             \
+  ck_assert_msg(listed(kw, nk, spelling), "%s does not list the keyword '%s'", file, spelling);
+#define IN_CONTEXT_WORDS(token, spelling) \
+  ncw++;                                  \
+  ck_assert_msg(listed(cw, nc, spelling), "%s does not list the word '%s'", file, spelling);
+  EOM_WORDS(IN_KEYWORDS, IN_CONTEXT_WORDS)
+#undef IN_KEYWORDS
+#undef IN_CONTEXT_WORDS
+  ck_assert_msg(nk == nkw, "%s lists %d reserved words, the language has %d", file, nk, nkw);
+  ck_assert_msg(nc == ncw, "%s lists %d context words, the language has %d", file, nc, ncw);
+  free_words(kw, nk);
+  free_words(cw, nc);
+}
+
+START_TEST(docs_list_the_words_of_the_table) {
+  check_doc("language.md", 0, "Reserved words: `", "`.", "The words `", "`");
+  check_doc("eom.5", 1, "Reserved words:", "The words", "The words", "mean something");
 }
 END_TEST
 
@@ -473,6 +578,8 @@ static Suite *lexer_suite(void) {
   tcase_set_timeout(tc, 60);
   tcase_add_test(tc, declaration_tokens);
   tcase_add_test(tc, every_keyword_and_operator);
+  tcase_add_test(tc, every_word_of_the_table);
+  tcase_add_test(tc, docs_list_the_words_of_the_table);
   tcase_add_test(tc, names_contextual_words_and_prefixes);
   tcase_add_test(tc, locations);
   tcase_add_test(tc, numbers);

@@ -354,6 +354,9 @@ START_TEST(keywords_are_reserved) {
   expect_error("let param = 2\n", 1, 5, "'param' is a reserved word");
   expect_error("coord x, kinetic\n", 1, 10, "'kinetic' is a reserved word");
   expect_error("param body = 1\n", 1, 7, "'body' is a reserved word");
+  /* every reserved word of front/keywords.h, the later ones too */
+  expect_error("coord frame\n", 1, 7, "'frame' is a reserved word");
+  expect_error("param attitude = 2\n", 1, 7, "'attitude' is a reserved word");
 }
 END_TEST
 

@@ -17,6 +17,7 @@
 #include <unistd.h>
 
 #include "cli/frontend.h"
+#include "sym/numeric.h"
 #include "sym/symbolic.h"
 
 /* ------------------------------------------------------------ helpers */
@@ -1156,6 +1157,46 @@ START_TEST(body_without_inertia_is_an_error) {
 }
 END_TEST
 
+/* The probes' Cholesky solve against a system with a known answer: the
+** 4x4 Hilbert matrix H_ij = 1/(i + j - 1), symmetric positive definite,
+** with b = H (1, 1, 1, 1)^T (Higham, Accuracy and Stability of Numerical
+** Algorithms, 2002, ch. 10: Cholesky is backward stable on any SPD matrix;
+** cond(H_4) ~ 1.6e4, so the answer holds to ~1e-12).  Not positive
+** definite: -1. */
+START_TEST(spd_solve_known_answer) {
+  double H[16], b[4];
+  for (int i = 0; i < 4; i++) {
+    b[i] = 0;
+    for (int j = 0; j < 4; j++) b[i] += H[i * 4 + j] = 1.0 / (i + j + 1);
+  }
+  ck_assert_int_eq(num_spd_solve(4, H, b), 0);
+  for (int i = 0; i < 4; i++) ck_assert_msg(fabs(b[i] - 1) < 1e-10, "x[%d] = %.17g", i, b[i]);
+  double I2[4] = {1, 2, 2, 1}, r[2] = {1, 1}; /* eigenvalues 3 and -1 */
+  ck_assert_int_eq(num_spd_solve(2, I2, r), -1);
+}
+END_TEST
+
+/* The probes' sequence: a fixed seed gives a fixed sequence in [0, 1) with
+** the moments of a uniform variable (mean 1/2, variance 1/12: common
+** practice), and the first draw is the LCG step by hand. */
+START_TEST(probe_sequence_is_uniform_and_fixed) {
+  uint64_t state = 0, again = 0;
+  double first = num_uniform(&again);
+  ck_assert(first == (double)(1442695040888963407ULL >> 11) / 9007199254740992.0);
+  double sum = 0, sum2 = 0;
+  const int n = 100000;
+  for (int k = 0; k < n; k++) {
+    double u = num_uniform(&state);
+    ck_assert(u >= 0 && u < 1);
+    sum += u;
+    sum2 += u * u;
+  }
+  double mean = sum / n, var = sum2 / n - mean * mean;
+  ck_assert_msg(fabs(mean - 0.5) < 0.005, "mean %g", mean);
+  ck_assert_msg(fabs(var - 1.0 / 12) < 0.002, "variance %g", var);
+}
+END_TEST
+
 Suite *symbolic_suite(void) {
   Suite *s = suite_create("symbolic");
   TCase *tc = tcase_create("closed forms");
@@ -1195,6 +1236,11 @@ Suite *symbolic_suite(void) {
   tcase_add_test(tc, time_dependent_mass_is_an_error);
   tcase_add_test(tc, time_limit_is_an_error);
   tcase_add_test(tc, body_without_inertia_is_an_error);
+  suite_add_tcase(s, tc);
+  tc = tcase_create("numeric probes");
+  tcase_set_timeout(tc, 30);
+  tcase_add_test(tc, spd_solve_known_answer);
+  tcase_add_test(tc, probe_sequence_is_uniform_and_fixed);
   suite_add_tcase(s, tc);
   return s;
 }

@@ -442,15 +442,17 @@ int cmd_import(int argc, char **argv) {
     return EXIT_USAGE;
   }
   Source src;
-  char err[512];
-  if (source_read(&src, in, err, sizeof err) != 0) {
-    fprintf(stderr, "eomc import: %s\n", err);
-    return EXIT_USAGE;
-  }
   Diag d;
   UrdfRobot robot;
   Out o = {0};
-  diag_init(&d, in, src.text, src.len);
+  diag_init(&d, in, NULL, 0);
+  if (source_read(&src, in, &d) != 0) {
+    diag_print(&d, stderr);
+    diag_free(&d);
+    return EXIT_USAGE;
+  }
+  d.src = src.text; /* now messages can quote their line */
+  d.len = src.len;
   int rc = urdf_read(src.text, src.len, &d, &robot) ? EXIT_MODEL : 0;
   if (rc == 0 && write_model(&robot, in, &o) != 0) {
     fputs("eomc import: out of memory\n", stderr);

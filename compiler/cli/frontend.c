@@ -10,13 +10,11 @@
 #include "front/parse.h"
 
 int frontend_load(Frontend *fe, const char *path) {
-  char err[512];
   memset(fe, 0, sizeof *fe);
-  if (source_read(&fe->src, path, err, sizeof err) != 0) {
-    fprintf(stderr, "eomc: error: %s\n", err);
-    return 2;
-  }
-  diag_init(&fe->diag, path, fe->src.text, fe->src.len);
+  diag_init(&fe->diag, path, NULL, 0);
+  if (source_read(&fe->src, path, &fe->diag) != 0) return 2;
+  fe->diag.src = fe->src.text; /* now messages can quote their line */
+  fe->diag.len = fe->src.len;
   fe->ast = parse_model(path, fe->src.text, fe->src.len, &fe->diag);
   if (fe->diag.nerrors) return 1;
   check_model(fe->ast, &fe->diag, &fe->model);
@@ -33,7 +31,7 @@ void frontend_free(Frontend *fe) {
 int frontend_open(Frontend *fe, const char *path, int quiet) {
   int rc = frontend_load(fe, path);
   fe->diag.errors_only = quiet;
-  if (rc != 2) diag_print(&fe->diag, stderr);
+  diag_print(&fe->diag, stderr);
   if (rc != 0) frontend_free(fe);
   return rc == 0 ? 0 : rc == 2 ? EXIT_USAGE : EXIT_MODEL;
 }
@@ -42,9 +40,11 @@ int frontend_derive(Frontend *fe, const SymOptions *so, EomSystem *sys) {
   int printed = fe->diag.nmsgs;
   memset(sys, 0, sizeof *sys);
   int failed = sym_derive(&fe->model, so, &fe->diag, sys) != 0;
+  if (failed && fe->diag.nerrors == 0) {
+    const SrcLoc whole = {0, 0};
+    diag_error(&fe->diag, whole, "the derivation failed");
+  }
   diag_print_from(&fe->diag, printed, stderr);
-  if (failed && fe->diag.nmsgs == printed)
-    fprintf(stderr, "eomc: error: %s: the derivation failed\n", fe->src.path);
   return failed;
 }
 

@@ -20,8 +20,9 @@ typedef struct Frontend {
   Model model;
 } Frontend;
 
-/* Returns 0 when the model is usable; 1 on a model error (diagnostics in
-** fe->diag, not yet printed); 2 when the file cannot be read (message printed). */
+/* Returns 0 when the model is usable; 1 on a model error, 2 when the file
+** cannot be read (either way the diagnostics are in fe->diag, not yet
+** printed). */
 int frontend_load(Frontend *fe, const char *path);
 void frontend_free(Frontend *fe);
 

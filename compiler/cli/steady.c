@@ -23,6 +23,7 @@
 **  5. J = dz'/dz by central differences and its eigenvalues (LAPACK dgeev).
 */
 #include "cli/steady.h"
+#include "sym/numeric.h"
 
 #include "eom/runtime.h"
 
@@ -108,26 +109,7 @@ static int lm_step(int nu, int nr, const double *J, const double *r, double mu, 
     }
   }
   for (int a = 0; a < nu; a++) N[a * nu + a] += mu * (N[a * nu + a] + 1e-12);
-  for (int j = 0; j < nu; j++) {
-    double s = N[j * nu + j];
-    for (int k = 0; k < j; k++) s -= N[j * nu + k] * N[j * nu + k];
-    if (!(s > 0)) return -1;
-    N[j * nu + j] = sqrt(s);
-    for (int i = j + 1; i < nu; i++) {
-      double t = N[i * nu + j];
-      for (int k = 0; k < j; k++) t -= N[i * nu + k] * N[j * nu + k];
-      N[i * nu + j] = t / N[j * nu + j];
-    }
-  }
-  for (int i = 0; i < nu; i++) {
-    for (int k = 0; k < i; k++) d[i] -= N[i * nu + k] * d[k];
-    d[i] /= N[i * nu + i];
-  }
-  for (int i = nu - 1; i >= 0; i--) {
-    for (int k = i + 1; k < nu; k++) d[i] -= N[k * nu + i] * d[k];
-    d[i] /= N[i * nu + i];
-  }
-  return 0;
+  return num_spd_solve(nu, N, d);
 }
 
 /* Step 4: Levenberg–Marquardt on the unknown entries of z (the kept

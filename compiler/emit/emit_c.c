@@ -5,6 +5,7 @@
 ** the writers of each part live beside it (emit_internal.h is the map).
 */
 #include "emit/emit_c.h"
+#include "front/xalloc.h"
 #include "emit/emit_control.h"
 #include "emit/emit_attitude.h"
 #include "emit/emit_internal.h"
@@ -157,17 +158,13 @@ static int emit_both(const Model *m, const EomSystem *s, const EmitOptions *o, F
   }
   assert(s->np == m->nparams && s->nu == m->ninputs && s->ny == m->ny);
   assert(s->nq == m->ncoords + 4 * m->nattitudes && s->nv == m->ncoords + 3 * m->nattitudes);
-  E.uses = calloc((size_t)nn + 1, sizeof *E.uses);
-  E.tempno = calloc((size_t)nn + 1, sizeof *E.tempno);
-  E.size = calloc((size_t)nn + 1, sizeof *E.size);
-  E.slot = calloc((size_t)s->nv * (size_t)s->nv, sizeof *E.slot);
-  E.part = calloc((size_t)nn + 1, sizeof *E.part);
-  E.last_part = calloc((size_t)nn + 1, sizeof *E.last_part);
-  E.wslot = calloc((size_t)nn + 1, sizeof *E.wslot);
-  if (!E.uses || !E.tempno || !E.size || !E.slot || !E.part || !E.last_part || !E.wslot) {
-    fputs("eomc: out of memory\n", stderr);
-    abort();
-  }
+  E.uses = xcalloc((size_t)nn + 1, sizeof *E.uses);
+  E.tempno = xcalloc((size_t)nn + 1, sizeof *E.tempno);
+  E.size = xcalloc((size_t)nn + 1, sizeof *E.size);
+  E.slot = xcalloc((size_t)s->nv * (size_t)s->nv, sizeof *E.slot);
+  E.part = xcalloc((size_t)nn + 1, sizeof *E.part);
+  E.last_part = xcalloc((size_t)nn + 1, sizeof *E.last_part);
+  E.wslot = xcalloc((size_t)nn + 1, sizeof *E.wslot);
   ldl_pattern(&E);
   int rc = select_functions(&E, o->only, err, errlen);
   if (rc == 0 && E.single)

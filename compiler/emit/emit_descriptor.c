@@ -4,6 +4,7 @@
 ** eom_model of <eom/model.h>) with its tables of names, units and values.
 */
 #include "emit/emit_internal.h"
+#include "front/xalloc.h"
 #include "emit/emit_control.h"
 #include "emit/emit_attitude.h"
 
@@ -46,14 +47,13 @@ static void emit_texts(Emitter *E, const char *name, char **texts, int n) {
 /* A table of one field of each declaration: 0 name, 1 unit, 2 description. */
 static void emit_string_table(Emitter *E, const char *name, Decl **ds, int n, int field) {
   if (!n) return;
-  char **texts = calloc((size_t)n, sizeof *texts);
-  assert(texts);
+  char **texts = xcalloc((size_t)n, sizeof *texts);
   for (int i = 0; i < n; i++) {
     Buf b = {0};
     if (field == 0) buf_put(&b, ds[i]->name);
     else if (field == 2) buf_put(&b, ds[i]->desc ? ds[i]->desc : "");
     else unit_annotation_text(&b, ds[i]->unit);
-    texts[i] = b.s ? b.s : calloc(1, 1);
+    texts[i] = b.s ? b.s : xcalloc(1, 1);
   }
   emit_texts(E, name, texts, n);
   free(texts);
@@ -76,8 +76,7 @@ static void emit_coord_tables(Emitter *E) {
   static const char *const part = "wxyz";
   int nq = E->s->nq;
   for (int field = 0; field < 3; field++) {
-    char **texts = calloc((size_t)nq, sizeof *texts);
-    assert(texts);
+    char **texts = xcalloc((size_t)nq, sizeof *texts);
     for (int i = 0; i < nq; i++) {
       Buf b = {0};
       const Decl *d = i < m->ncoords ? m->coords[i] : m->attitudes[(i - m->ncoords) / 4];
@@ -85,7 +84,7 @@ static void emit_coord_tables(Emitter *E) {
       else if (field == 0) buf_printf(&b, "%s.%c", d->name, part[(i - m->ncoords) % 4]);
       else if (field == 2) buf_put(&b, d->desc ? d->desc : "");
       else if (i < m->ncoords) unit_annotation_text(&b, d->unit);
-      texts[i] = b.s ? b.s : calloc(1, 1);
+      texts[i] = b.s ? b.s : xcalloc(1, 1);
     }
     emit_texts(E, field == 0 ? "coord_names" : field == 1 ? "coord_units" : "coord_descs", texts, nq);
     free(texts);
@@ -95,9 +94,8 @@ static void emit_coord_tables(Emitter *E) {
 static void emit_output_names(Emitter *E) {
   const Model *m = E->m;
   if (!m->ny) return;
-  char **texts = calloc((size_t)m->ny, sizeof *texts);
+  char **texts = xcalloc((size_t)m->ny, sizeof *texts);
   int k = 0;
-  assert(texts);
   for (int i = 0; i < m->noutputs; i++) {
     const Decl *d = m->outputs[i];
     int rows = d->shape.rows, cols = d->shape.cols;
@@ -123,8 +121,7 @@ static void emit_output_names(Emitter *E) {
 static void emit_switch_names(Emitter *E) {
   const EomSystem *s = E->s;
   if (!s->ns) return;
-  char **texts = calloc((size_t)s->ns, sizeof *texts);
-  assert(texts);
+  char **texts = xcalloc((size_t)s->ns, sizeof *texts);
   for (int i = 0; i < s->ns; i++) {
     const EomSwitch *w = &s->switch_info[i];
     Buf b = {0};
@@ -216,8 +213,7 @@ void emit_defaults(Emitter *E) {
   fputs("}\n\n", o);
   emit_derived_params(E);
   fprintf(o, "void %s_initial_state(double *x)\n{\n", E->P);
-  double *q0 = calloc((size_t)nq, sizeof *q0), *v0 = calloc((size_t)E->s->nv, sizeof *v0);
-  assert(q0 && v0);
+  double *q0 = xcalloc((size_t)nq, sizeof *q0), *v0 = xcalloc((size_t)E->s->nv, sizeof *v0);
   initial_state(m, q0, v0);
   for (int i = 0; i < nq; i++) {
     format_number(E, q0[i], num, sizeof num);
@@ -237,9 +233,8 @@ void emit_descriptor(Emitter *E) {
   const Model *m = E->m;
   const EomSystem *s = E->s;
   const char *P = E->P;
-  double *q0 = calloc((size_t)s->nq, sizeof *q0), *qd0 = calloc((size_t)s->nv, sizeof *qd0);
-  double *pd = calloc((size_t)s->np + 1, sizeof *pd);
-  assert(q0 && qd0 && pd);
+  double *q0 = xcalloc((size_t)s->nq, sizeof *q0), *qd0 = xcalloc((size_t)s->nv, sizeof *qd0);
+  double *pd = xcalloc((size_t)s->np + 1, sizeof *pd);
   initial_state(m, q0, qd0);
   for (int i = 0; i < s->np; i++) pd[i] = m->params[i]->number;
   fprintf(o, "#ifndef EOM_NO_DESCRIPTOR\n#include <eom/model.h>\n\n");

@@ -6,6 +6,7 @@
 */
 #include "emit/emit_internal.h"
 #include "emit/emit_attitude.h"
+#include "front/xalloc.h"
 
 #include <assert.h>
 #include <stdio.h>
@@ -166,8 +167,7 @@ void emit_jacobian(Emitter *E) {
   /* Which columns of d qdd/d(x, u) are not structurally zero, and whether
   ** any needs qdd itself (through dM/dq). */
   int need_qdd = 0, need_c = 0;
-  int *live = calloc((size_t)(nx + nu), sizeof *live);
-  assert(live);
+  int *live = xcalloc((size_t)(nx + nu), sizeof *live);
   for (int col = 0; col < nx + nu; col++)
     for (int i = 0; i < nv; i++) {
       int df = col < nq ? s->dforcing_dq[i * nq + col]

@@ -10,6 +10,8 @@
 ** signs folded into subtractions, small integer powers as products.
 */
 #include "emit/emit_internal.h"
+#include "sym/numeric.h"
+#include "front/xalloc.h"
 
 #include <assert.h>
 #include <math.h>
@@ -24,11 +26,7 @@ static void buf_grow(Buf *b, size_t extra) {
   if (b->len + extra + 1 <= b->cap) return;
   size_t cap = b->cap ? b->cap : 256;
   while (cap < b->len + extra + 1) cap *= 2;
-  char *s = realloc(b->s, cap);
-  if (!s) {
-    fputs("eomc: out of memory\n", stderr);
-    abort();
-  }
+  char *s = xrealloc(b->s, cap);
   b->s = s;
   b->cap = cap;
 }
@@ -154,11 +152,7 @@ void add_root(Emitter *E, int n) {
   assert(n >= 0 && n < E->g->nnodes);
   if (E->nroots == E->roots_cap) {
     E->roots_cap = E->roots_cap ? 2 * E->roots_cap : 64;
-    E->roots = realloc(E->roots, (size_t)E->roots_cap * sizeof *E->roots);
-    if (!E->roots) {
-      fputs("eomc: out of memory\n", stderr);
-      abort();
-    }
+    E->roots = xrealloc(E->roots, (size_t)E->roots_cap * sizeof *E->roots);
   }
   E->roots[E->nroots++] = n;
 }
@@ -561,10 +555,7 @@ static const char *var_list(unsigned vars) {
 
 /* ------------------------------------------------------------------ numeric independence */
 
-static double lcg_uniform(unsigned long *s) {   /* in [-1, 1), deterministic */
-  *s = (*s * 6364136223846793005UL + 1442695040888963407UL) & 0xffffffffffffUL;
-  return (double)(*s >> 16) / 16777216.0 * 2.0 - 1.0;
-}
+static double lcg_uniform(uint64_t *s) { return 2.0 * num_uniform(s) - 1.0; } /* in [-1, 1) */
 
 /* Do the function's roots, which mention the variables in `vars` (t, u),
 ** give the same values whatever those are?  Symbolic results can mention t
@@ -573,14 +564,14 @@ static double lcg_uniform(unsigned long *s) {   /* in [-1, 1), deterministic */
 static int independent_of(const Emitter *E, unsigned vars) {
   const EomSystem *s = E->s;
   int hi = 0, compared = 0, ok = 1;
-  unsigned long seed = 12345;
+  uint64_t seed = 12345;
   for (int i = 0; i < E->nroots; i++) hi = E->roots[i] > hi ? E->roots[i] : hi;
-  double t[1], *q = calloc((size_t)s->nq + 1, sizeof(double)), *qd = calloc((size_t)s->nq + 1, sizeof(double)),
-         *qdd = calloc((size_t)s->nq + 1, sizeof(double)), *u = calloc((size_t)s->nu + 1, sizeof(double)),
-         *p = calloc((size_t)s->np + 1, sizeof(double)), *v0 = malloc(((size_t)hi + 1) * sizeof(double)),
-         *v1 = malloc(((size_t)hi + 1) * sizeof(double));
+  double t[1], *q = xcalloc((size_t)s->nq + 1, sizeof(double)),
+         *qd = xcalloc((size_t)s->nq + 1, sizeof(double)),
+         *qdd = xcalloc((size_t)s->nq + 1, sizeof(double)),
+         *u = xcalloc((size_t)s->nu + 1, sizeof(double)), *p = xcalloc((size_t)s->np + 1, sizeof(double)),
+         *v0 = xmalloc(((size_t)hi + 1) * sizeof(double)), *v1 = xmalloc(((size_t)hi + 1) * sizeof(double));
   const double *const vals[6] = {t, q, qd, qdd, u, p};
-  assert(q && qd && qdd && u && p && v0 && v1);
   for (int sample = 0; ok && sample < 4; sample++) {
     for (int i = 0; i < s->nq; i++) {
       q[i] = 1.5 * lcg_uniform(&seed);

@@ -3,6 +3,7 @@
 ** macros with a comment on every slot, and the prototypes.
 */
 #include "emit/emit_internal.h"
+#include "front/xalloc.h"
 #include "emit/emit_control.h"
 #include "emit/emit_attitude.h"
 
@@ -126,8 +127,7 @@ void emit_header(Emitter *E) {
   for (int k = 0; k < 4; k++) {
     if (!counts[k]) continue;
     /* an output's macro is the index of its first entry in y */
-    int *first = calloc((size_t)counts[k], sizeof *first);
-    assert(first);
+    int *first = xcalloc((size_t)counts[k], sizeof *first);
     for (int i = 1; i < counts[k]; i++)
       first[i] = first[i - 1] + (k == 3 ? lists[k][i - 1]->shape.rows * lists[k][i - 1]->shape.cols : 1);
     fprintf(o, "/*\n** %s:\n", kinds[k].what);

@@ -15,6 +15,7 @@
 #include <stdlib.h>
 #include <string.h>
 #include "emit/emit_kinematics.h"
+#include "front/xalloc.h"
 
 static const char *frame_name(const Model *m, const EomSystem *s, int f) {
   assert(f >= 0 && f < s->nframes && s->frame_decl[f] < m->noutputs);
@@ -49,8 +50,7 @@ void emit_kinematics_prototypes(FILE *o, const Model *m, const EomSystem *s, con
 
 /* a followed by b, malloc'd */
 static char *copy(const char *a, const char *b) {
-  char *s = malloc(strlen(a) + strlen(b) + 1);
-  assert(s);
+  char *s = xmalloc(strlen(a) + strlen(b) + 1);
   strcpy(s, a);
   strcat(s, b);
   return s;
@@ -58,8 +58,7 @@ static char *copy(const char *a, const char *b) {
 
 int emit_kinematics_functions(const Model *m, const EomSystem *s, KinematicFunction **out) {
   int nq = s->nv, n = 0;   /* Jacobians are over the velocities */
-  KinematicFunction *fns = calloc((size_t)s->nframes + 2, sizeof *fns);
-  assert(fns);
+  KinematicFunction *fns = xcalloc((size_t)s->nframes + 2, sizeof *fns);
   if (s->nkinematic > 0) {
     KinematicFunction J = {copy("output_jacobian", ""), EMIT_ARG_Q | EMIT_ARG_P,
                            {{"J", s->output_jacobian, s->ny * nq}}, 1};

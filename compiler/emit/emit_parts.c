@@ -20,6 +20,7 @@
 ** printed once per use anyway, and under --no-split.
 */
 #include "emit/emit_internal.h"
+#include "front/xalloc.h"
 
 #include <assert.h>
 #include <stdio.h>
@@ -31,12 +32,6 @@
 /* About this many printed nodes go into one helper. */
 #define PART_NODES 2000
 
-static void *xcalloc(size_t n, size_t size) {
-  void *p = calloc(n ? n : 1, size);
-  if (!p) {
-    fputs("eomc: out of memory\n", stderr);
-    abort();
-  }
   return p;
 }
 

@@ -5,6 +5,7 @@
 ** its own.  Memory is zeroed so nodes start with every field cleared.
 */
 #include "front/arena.h"
+#include "front/xalloc.h"
 
 #include <stdio.h>
 #include <stdlib.h>
@@ -24,17 +25,8 @@ struct Arena {
 #define ALIGN 16
 #define HEADER (((sizeof(Chunk) + ALIGN - 1) / ALIGN) * ALIGN)
 
-static void *xcalloc(size_t n) {
-  void *p = calloc(1, n);
-  if (!p) {
-    fputs("eomc: out of memory\n", stderr);
-    abort();
-  }
-  return p;
-}
-
 Arena *arena_new(void) {
-  Arena *a = xcalloc(sizeof *a);
+  Arena *a = xcalloc(1, sizeof *a);
   a->next_size = 64 * 1024;
   return a;
 }
@@ -57,7 +49,7 @@ void *arena_alloc(Arena *a, size_t n) {
   if (!c || c->size - c->used < n) {
     size_t size = a->next_size;
     if (size < n) size = n;
-    c = xcalloc(HEADER + size);
+    c = xcalloc(1, HEADER + size);
     c->size = size;
     c->next = a->head;
     a->head = c;

@@ -15,6 +15,7 @@
 ** once per statement.
 */
 #include "front/check.h"
+#include "front/xalloc.h"
 #include "front/rate_degree.h"
 
 #include "front/builtins.h"
@@ -25,6 +26,7 @@
 #include <stdlib.h>
 #include <string.h>
 #include "front/attitude.h"
+#include "front/keywords.h"
 #include "front/units.h"
 
 /* pi to double precision (M_PI is not C99). */
@@ -33,9 +35,9 @@
 /* ------------------------------------------------------------ reserved names */
 
 static const char *const keywords[] = {
-  "model", "coord", "param", "const", "input", "let", "initial", "output", "identify",
-  "kinetic", "potential", "lagrangian", "dissipation", "force", "torque", "gravity",
-  "body", "constraint", "frame", "attitude", "stop",
+#define SPELLING(token, spelling) spelling,
+  EOM_WORDS(SPELLING, EOM_WORD_SKIP)
+#undef SPELLING
 };
 
 int check_is_keyword(const char *s) {
@@ -95,8 +97,7 @@ typedef struct PtrVec {
 static void vec_push(PtrVec *p, void *x) {
   if (p->n == p->cap) {
     p->cap = p->cap ? 2 * p->cap : 16;
-    p->v = realloc(p->v, (size_t)p->cap * sizeof *p->v);
-    if (!p->v) abort();
+    p->v = xrealloc(p->v, (size_t)p->cap * sizeof *p->v);
   }
   p->v[p->n++] = x;
 }
@@ -159,8 +160,7 @@ static Decl *lookup(Checker *c, const char *name) {
 static void table_insert(Checker *c, Decl *dc) {
   if (2 * (c->tabcount + 1) > c->tabcap) {
     size_t ncap = c->tabcap ? 2 * c->tabcap : 64;
-    Decl **ntab = calloc(ncap, sizeof *ntab);
-    if (!ntab) abort();
+    Decl **ntab = xcalloc(ncap, sizeof *ntab);
     for (size_t i = 0; i < c->tabcap; i++) {
       if (!c->tab[i]) continue;
       size_t j = hash_name(c->tab[i]->name) & (ncap - 1);
@@ -701,16 +701,14 @@ static int declare(Checker *c, Decl *dc, Shape s) {
   if (dc->kind == DECL_COORD) {
     if ((size_t)list->n > c->initcap) {
       size_t ncap = c->initcap ? 2 * c->initcap : 16;
-      c->init = realloc(c->init, ncap * sizeof *c->init);
-      if (!c->init) abort();
+      c->init = xrealloc(c->init, ncap * sizeof *c->init);
       memset(c->init + c->initcap, 0, (ncap - c->initcap) * sizeof *c->init);
       c->initcap = ncap;
     }
   }
   if (dc->kind == DECL_ATTITUDE && (size_t)list->n > c->attcap) {
     size_t ncap = c->attcap ? 2 * c->attcap : 8;
-    c->attinit = realloc(c->attinit, ncap * sizeof *c->attinit);
-    if (!c->attinit) abort();
+    c->attinit = xrealloc(c->attinit, ncap * sizeof *c->attinit);
     for (size_t i = c->attcap; i < ncap; i++) {
       memset(&c->attinit[i], 0, sizeof c->attinit[i]);
       c->attinit[i].quat[0] = 1;   /* default: body axes along the world's */
@@ -719,8 +717,7 @@ static int declare(Checker *c, Decl *dc, Shape s) {
   }
   if (dc->kind == DECL_LET && (size_t)list->n > c->letcap) {
     size_t ncap = c->letcap ? 2 * c->letcap : 16;
-    c->lets = realloc(c->lets, ncap * sizeof *c->lets);
-    if (!c->lets) abort();
+    c->lets = xrealloc(c->lets, ncap * sizeof *c->lets);
     memset(c->lets + c->letcap, 0, (ncap - c->letcap) * sizeof *c->lets);
     c->letcap = ncap;
   }

@@ -6,6 +6,7 @@
 ** binary garbage or a 1 MB line still gives a readable message.
 */
 #include "front/diag.h"
+#include "front/xalloc.h"
 
 #include <assert.h>
 #include <stdlib.h>
@@ -33,8 +34,7 @@ static char *vformat(const char *fmt, va_list ap) {
   int n = vsnprintf(NULL, 0, fmt, ap2);
   va_end(ap2);
   if (n < 0) n = 0;
-  char *s = malloc((size_t)n + 1);
-  if (!s) abort();
+  char *s = xmalloc((size_t)n + 1);
   vsnprintf(s, (size_t)n + 1, fmt, ap);
   return s;
 }
@@ -51,8 +51,7 @@ void diag_vreport(Diag *d, DiagLevel level, SrcLoc loc, const char *fmt, va_list
   }
   if (d->nmsgs == d->cap) {
     d->cap = d->cap ? 2 * d->cap : 16;
-    d->msgs = realloc(d->msgs, (size_t)d->cap * sizeof *d->msgs);
-    if (!d->msgs) abort();
+    d->msgs = xrealloc(d->msgs, (size_t)d->cap * sizeof *d->msgs);
   }
   DiagMsg *m = &d->msgs[d->nmsgs++];
   m->level = level;

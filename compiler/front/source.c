@@ -8,24 +8,25 @@
 #include <stdlib.h>
 #include <string.h>
 
-int source_read(Source *s, const char *path, char *err, size_t errlen) {
+int source_read(Source *s, const char *path, Diag *d) {
+  const SrcLoc whole = {0, 0};
   memset(s, 0, sizeof *s);
   s->path = path;
   FILE *f = strcmp(path, "-") == 0 ? stdin : fopen(path, "rb");
   if (!f) {
-    snprintf(err, errlen, "cannot open '%s': %s", path, strerror(errno));
+    diag_error(d, whole, "cannot open the file: %s", strerror(errno));
     return -1;
   }
   size_t cap = 1 << 16, len = 0;
   char *buf = malloc(cap);
   for (;;) {
     if (!buf) {
-      snprintf(err, errlen, "out of memory reading '%s'", path);
+      diag_error(d, whole, "out of memory reading the file");
       break;
     }
     if (len + 1 >= cap) {
       if (cap > SOURCE_MAX_BYTES) {
-        snprintf(err, errlen, "'%s' is larger than %zu MB", path, SOURCE_MAX_BYTES >> 20);
+        diag_error(d, whole, "the file is larger than %zu MB", SOURCE_MAX_BYTES >> 20);
         free(buf);
         buf = NULL;
         break;
@@ -39,7 +40,7 @@ int source_read(Source *s, const char *path, char *err, size_t errlen) {
     len += n;
     if (n == 0) {
       if (ferror(f)) {
-        snprintf(err, errlen, "cannot read '%s': %s", path, strerror(errno));
+        diag_error(d, whole, "cannot read the file: %s", strerror(errno));
         free(buf);
         buf = NULL;
       }

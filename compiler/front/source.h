@@ -5,6 +5,7 @@
 #define EOMC_SOURCE_H
 
 #include <stddef.h>
+#include "front/diag.h"
 
 typedef struct Source {
   const char *path;
@@ -15,8 +16,9 @@ typedef struct Source {
 /* Largest model file accepted (bytes). */
 #define SOURCE_MAX_BYTES ((size_t)256 * 1024 * 1024)
 
-/* Read `path` ("-" is stdin).  Returns 0, or -1 with a message in `err`. */
-int source_read(Source *s, const char *path, char *err, size_t errlen);
+/* Read `path` ("-" is stdin).  Returns 0, or -1 after an error in `d`
+** (not tied to a line: "PATH: error: cannot open the file: ..."). */
+int source_read(Source *s, const char *path, Diag *d);
 void source_free(Source *s);
 
 #endif

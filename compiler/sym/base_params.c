@@ -6,6 +6,7 @@
 #include <stdlib.h>
 #include <string.h>
 #include "sym/base_params.h"
+#include "sym/numeric.h"
 
 /* Samples beyond the ni/nq needed for full column rank: a dependence that
 ** holds at this many random states holds structurally (common practice). */
@@ -15,10 +16,7 @@
 #define DEPENDENCE_TOL 1e-8
 
 
-static double uniform(unsigned long long *s) {  /* in [-1, 1), fixed sequence */
-  *s = *s * 6364136223846793005ULL + 1442695040888963407ULL;
-  return (double)(*s >> 11) / 4503599627370496.0 - 1.0;
-}
+static double uniform(uint64_t *s) { return 2.0 * num_uniform(s) - 1.0; } /* in [-1, 1) */
 
 /* W (rows x ni, column-major): Y stacked over random states. */
 static int sample_regressor(const Model *m, const EomSystem *s, int rows, double *W) {
@@ -28,7 +26,7 @@ static int sample_regressor(const Model *m, const EomSystem *s, int rows, double
                *p = calloc((size_t)s->np + 1, sizeof *p),
                *v = calloc((size_t)s->g.nnodes + 1, sizeof *v);
   const double *const vals[6] = {t, q, qd, qdd, u, p};
-  unsigned long long seed = 0x5851f42d4c957f2dULL;
+  uint64_t seed = 0x5851f42d4c957f2dULL;
   int ok = q && qd && qdd && u && p && v;
   for (int i = 0; ok && i < s->np; i++) p[i] = m->params[i]->number;
   for (int r0 = 0; ok && r0 < rows; r0 += nq) {

@@ -22,6 +22,7 @@
 ** gradients line up, which the test catches as well.
 */
 #include "sym/constraint_rank.h"
+#include "sym/numeric.h"
 #include "front/rate_degree.h"
 
 #include <assert.h>
@@ -98,32 +99,6 @@ static double max_norm(int n, const double *v) {
   return m;
 }
 
-/* Solve the symmetric positive definite A x = b (n x n, destroyed) by
-** Cholesky; -1 when a pivot is not positive. */
-static int spd_solve(int n, double *A, double *b) {
-  for (int j = 0; j < n; j++) {
-    double d = A[j * n + j];
-    for (int k = 0; k < j; k++) d -= A[j * n + k] * A[j * n + k];
-    if (!(d > 0)) return -1;
-    d = sqrt(d);
-    A[j * n + j] = d;
-    for (int i = j + 1; i < n; i++) {
-      double t = A[i * n + j];
-      for (int k = 0; k < j; k++) t -= A[i * n + k] * A[j * n + k];
-      A[i * n + j] = t / d;
-    }
-  }
-  for (int i = 0; i < n; i++) {
-    for (int k = 0; k < i; k++) b[i] -= A[i * n + k] * b[k];
-    b[i] /= A[i * n + i];
-  }
-  for (int i = n - 1; i >= 0; i--) {
-    for (int k = i + 1; k < n; k++) b[i] -= A[k * n + i] * b[k];
-    b[i] /= A[i * n + i];
-  }
-  return 0;
-}
-
 /* Move e->q towards phi = 0 by Levenberg–Marquardt steps
 ** dq = -Gᵀ (G Gᵀ + mu I)⁻¹ phi (mu keeps the step finite when G loses
 ** rank), halved while max|phi| does not drop.  Stops at phi ~ 0, when no
@@ -146,7 +121,7 @@ static void approach_constraints(Eval *e, double *phi, double *G, double *A, dou
     if (!(trace > 0) || !isfinite(trace)) return;
     for (int a = 0; a < nc; a++) A[a * nc + a] += 1e-12 * trace / nc;
     memcpy(w, phi, (size_t)nc * sizeof(double));
-    if (spd_solve(nc, A, w) != 0) return;
+    if (num_spd_solve(nc, A, w) != 0) return;
     memcpy(q_old, e->q, (size_t)nq * sizeof(double));
     double step = 1, r_new = INFINITY;
     for (int half = 0; half < 30; half++, step /= 2) {

@@ -64,9 +64,6 @@ uint64_t double_bits(double v) {
 
 bool is_commutative(IrOp op) { return op == IR_ADD || op == IR_MUL; }
 
-/* Value of fn at constant arguments, the way the generated C computes it. */
-double eval_fn(IrFn fn, const double *a) { return builtin_value(fn, a); }
-
 }  // namespace
 
 struct IrBuilder::Impl {
@@ -467,7 +464,7 @@ struct IrBuilder::Impl {
     bool constant = true;
     std::vector<double> v(args.size());
     for (size_t i = 0; i < args.size(); i++) constant = constant && is_num(args[i], &v[i]);
-    if (constant) return num(eval_fn(fn, v.data()));
+    if (constant) return num(builtin_value(fn, v.data()));  /* as the generated C computes it */
     if (args.size() == 1 && negative(args[0])) {
       /* f(-x) by parity: one node for sin(a - b) and sin(b - a) */
       int x = neg(args[0]);

@@ -17,6 +17,8 @@
 #include <cstdlib>
 #include <cstring>
 
+#include "sym/numeric.h"
+
 using namespace GiNaC;
 
 namespace eomsym {
@@ -214,10 +216,7 @@ double value_at(const ex &e, Subst &point) {
 ** value in [0.35, 1.35) drawn from `state`: where the numeric guards look.
 ** Fixed seeds keep their verdicts reproducible. */
 exmap Derivation::random_point(uint64_t &state, bool rates) {
-  auto next = [&state]() {
-    state = state * 6364136223846793005ULL + 1442695040888963407ULL;
-    return 0.35 + (double)(state >> 11) / 9007199254740992.0;
-  };
+  auto next = [&state]() { return 0.35 + num_uniform(&state); };
   exmap point;
   point[t_] = next();
   for (int i = 0; i < nq_; i++) point[q_[i]] = next();

@@ -18,8 +18,8 @@ FUZZ_TARGETS=${FUZZ_TARGETS:-"frontend symbolic"}
 CLANG=${CLANG:-clang}
 CLANGXX=${CLANGXX:-clang++}
 # Source lists from Makefile.am (make fuzz passes them); defaults for hand use.
-FRONT_SOURCES=${FRONT_SOURCES:-"compiler/front/arena.c compiler/front/ast.c compiler/front/diag.c compiler/front/check.c compiler/front/units.c compiler/front/source.c"}
-SYM_SOURCES=${SYM_SOURCES:-"compiler/sym/ir.c compiler/symbolic.cc compiler/ir_build.cc"}
+FRONT_SOURCES=${FRONT_SOURCES:-"$(cd "$SRCDIR" && echo compiler/front/*.c)"}
+SYM_SOURCES=${SYM_SOURCES:-"$(cd "$SRCDIR" && echo compiler/sym/*.c compiler/sym/*.cc)"}
 
 BUILDDIR=$(cd "$BUILDDIR" && pwd)
 mkdir -p "$FUZZ_WORK" && FUZZ_WORK=$(cd "$FUZZ_WORK" && pwd)
