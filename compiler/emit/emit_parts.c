@@ -32,9 +32,6 @@
 /* About this many printed nodes go into one helper. */
 #define PART_NODES 2000
 
-  return p;
-}
-
 /* Where each node is printed: -1 nowhere yet, 0..nparts-1 in a helper,
 ** nparts in the body.  A temporary is printed where it is defined; any
 ** other node inline in its single user (CSE makes every non-leaf node
