@@ -460,13 +460,17 @@ int stick_start(SimContext *c, double t, double *x) {
 /* Rate switch k at value v has as good as reached zero: it sticks, or
 ** turns (put on the far side at once, as far as it was from zero). */
 static void turn_or_stick(SimContext *c, StickState *s, int k, double t, double *x, double v) {
-  double sigma, want = fmax(fabs(v), release_kick(c, x)) * (v < 0 ? 1 : -1);
-  int one[1] = {k};
+  double sigma, want[65];
+  int ks[65];
   if (stick_try(c, s, k, t, x, &sigma)) {
     log_transition(c, t, k, "sticks", sigma, 0);
     return;
   }
-  set_rate_switches(c, s, t, x, one, 1, &want);
+  /* the stuck rates stay at zero: move along k's dual direction among them */
+  for (int l = 0; l < s->nlead; l++) ks[l] = s->lead[l], want[l] = 0;
+  ks[s->nlead] = k;
+  want[s->nlead] = fmax(fabs(v), release_kick(c, x)) * (v < 0 ? 1 : -1);
+  set_rate_switches(c, s, t, x, ks, s->nlead + 1, want);
   c->rep->events++;
   if (s->log)
     fprintf(s->log, "event at t = %.10g: switch %d (%s) %s through 0\n", t, k + 1,

@@ -174,6 +174,52 @@ START_TEST(pallet_slips_when_the_winch_exceeds_the_bound) {
 }
 END_TEST
 
+/* Rows of a CSV text: column col of every row into v (at most cap). */
+static int columns_of(const char *csv, int col, double *v, int cap) {
+  int n = 0;
+  for (const char *p = strchr(csv, '\n'); p && p[1] && n < cap; p = strchr(p + 1, '\n')) {
+    const char *f = p + 1;
+    for (int i = 0; i < col && f; i++) f = strchr(f, ',') ? strchr(f, ',') + 1 : NULL;
+    ck_assert_msg(f != NULL, "short row");
+    v[n++] = strtod(f, NULL);
+  }
+  return n;
+}
+
+/* The tote of stacked_carts.eom sticks to its cart at t_s: from then on
+** the two ride as one mass m1 + m2 on the spring k with the guide's
+** friction F/2 against the motion, x(t) = c + (x_s - c) cos w(t - t_s) +
+** v_s/w sin w(t - t_s), w = sqrt(k / (m1 + m2)), c = F/(2k) while x' < 0
+** (harmonic motion under a constant force; from memory), and their
+** relative rate stays zero (to rounding) while the cart turns and stops. */
+START_TEST(stacked_carts_ride_together) {
+  const char *method[] = {"dopri", "radau5"};
+  for (int i = 0; i < 2; i++) {
+    RunResult r = sim("stacked_carts.eom", "3", method[i], NULL, NULL);
+    double t_s = event_time(r.err, "switch 1 (13:13 sign) sticks");
+    ck_assert_msg(strstr(r.err, "switch 1 (13:13 sign) slips") == NULL, "%s", r.err);
+    static double t[400], x[400], xd[400], yd[400];
+    int n = columns_of(r.out, 0, t, 400);
+    ck_assert_int_eq(columns_of(r.out, 1, x, 400), n);
+    ck_assert_int_eq(columns_of(r.out, 3, xd, 400), n);
+    ck_assert_int_eq(columns_of(r.out, 4, yd, 400), n);
+    int k0 = (int)ceil(t_s / 0.01 + 1e-9);  /* the first row after the stick */
+    double w = sqrt(50.0 / 3), c = 3 / (2 * 50.0), turn = INFINITY;
+    for (int k = k0; k < n; k++) {
+      ck_assert_msg(fabs(xd[k] - yd[k]) < 1e-13, "%s: t = %g: x' = %.17g, y' = %.17g", method[i],
+                    t[k], xd[k], yd[k]);
+      if (xd[k] >= 0) turn = fmin(turn, t[k]);
+      if (t[k] >= turn) continue;
+      double dt = t[k] - t[k0], want = c + (x[k0] - c) * cos(w * dt) + xd[k0] / w * sin(w * dt);
+      ck_assert_msg(fabs(x[k] - want) < 1e-8, "%s: t = %g: x = %.12g, want %.12g", method[i],
+                    t[k], x[k], want);
+    }
+    ck_assert_msg(turn < 1, "%s: the cart never turned", method[i]);
+    run_free(&r);
+  }
+}
+END_TEST
+
 static Suite *friction_suite(void) {
   Suite *s = suite_create("friction");
   TCase *tc = tcase_create("sticking");
@@ -184,6 +230,7 @@ static Suite *friction_suite(void) {
   tcase_add_test(tc, crate_stops_fixed_step);
   tcase_add_test(tc, ramp_holds_or_slides_back);
   tcase_add_test(tc, pallet_slips_when_the_winch_exceeds_the_bound);
+  tcase_add_test(tc, stacked_carts_ride_together);
   suite_add_tcase(s, tc);
   return s;
 }
