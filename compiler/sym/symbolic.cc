@@ -85,12 +85,19 @@ Derivation::Derivation(const Model *m, const SymOptions *opt, Diag *d)
     const ex *quat = &q_[ncoord_ + 4 * a];
     std::array<ex, 12> N;
     attitude_rate_map(quat, N.data());
-    att_N_.push_back(N);
     for (int k = 0; k < 4; k++) {
       exvector t;
       for (int c = 0; c < 3; c++) t.push_back(N[3 * k + c] * qd_[ncoord_ + 3 * a + c]);
       qrate_.push_back(add(t));
     }
+    std::array<ex, 9> r, Rq;
+    for (int k = 0; k < 9; k++) {
+      r[k] = realsymbol(fmt("%s[%d,%d]", name.c_str(), k / 3 + 1, k % 3 + 1));
+      dr_.emplace_back(r[k], deps_.add_var(r[k]), &deps_);
+    }
+    attitude_rotation(quat, Rq.data());
+    att_r_.push_back(r);
+    att_Rq_.push_back(Rq);
   }
   assert((int)q_.size() == nq_ && (int)qd_.size() == nv_);
   for (int i = 0; i < nu_; i++) {
@@ -135,6 +142,10 @@ ex Derivation::totald(const ex &e) {
     d = dqd_[i](e);
     if (!d.is_zero()) terms.push_back(d * qdd_[i]);
   }
+  for (int a = 0; a < m_->nattitudes; a++) {   /* R' = R [omega]x */
+    d = along_r(a, &qd_[ncoord_ + 3 * a], e);
+    if (!d.is_zero()) terms.push_back(d);
+  }
   for (size_t k = 0; k < atoms_.size(); k++) {
     d = dw_[k](e);
     if (!d.is_zero()) terms.push_back(d * atoms_[k].accel);
@@ -142,21 +153,84 @@ ex Derivation::totald(const ex &e) {
   return terms.empty() ? ex(0) : ex(add(terms));
 }
 
+/* sum_ij de/dr_ij (R [w]x)_ij for attitude a: the rate of e when R turns
+** at w in its body axes.  Column j of R [w]x is R (w x e_j). */
+ex Derivation::along_r(int a, const ex w[3], const ex &e) {
+  const std::array<ex, 9> &r = att_r_[a];
+  exvector t;
+  for (int i = 0; i < 3; i++)
+    for (int j = 0; j < 3; j++) {
+      ex d = dr_[9 * a + 3 * i + j](e);
+      if (d.is_zero()) continue;
+      /* w x e_j = (0, w3, -w2), (-w3, 0, w1), (w2, -w1, 0) for j = 0, 1, 2 */
+      int k1 = (j + 1) % 3, k2 = (j + 2) % 3;   /* (w x e_j)_k1 = w_k2, _k2 = -w_k1 */
+      ex col = r[3 * i + k1] * w[k2] - r[3 * i + k2] * w[k1];
+      if (!col.is_zero()) t.push_back(d * col);
+    }
+  return t.empty() ? ex(0) : ex(add(t));
+}
+
+/* In a point where every q has a value: each attitude's quaternion made
+** unit and its r set to R(q), so that checks see a true rotation. */
+void Derivation::attitude_point(exmap &point) {
+  for (int a = 0; a < m_->nattitudes; a++) {
+    ex quat[4], R[9];
+    double n = 0;
+    for (int k = 0; k < 4; k++) {
+      double v = ex_to<numeric>(point[q_[ncoord_ + 4 * a + k]].evalf()).to_double();
+      n += v * v;
+    }
+    n = std::sqrt(n);
+    for (int k = 0; k < 4; k++) {
+      ex &v = point[q_[ncoord_ + 4 * a + k]];
+      v = ex_to<numeric>(v.evalf()).to_double() / n;
+      quat[k] = v;
+    }
+    attitude_rotation(quat, R);
+    for (int k = 0; k < 9; k++) point[att_r_[a][k]] = R[k].evalf();
+  }
+}
+
+/* e with each attitude's r replaced by R(q): what the roots hold. */
+ex Derivation::with_quaternions(const ex &e) {
+  if (m_->nattitudes == 0) return e;
+  if (!att_subst_) {
+    exmap m;
+    for (int a = 0; a < m_->nattitudes; a++)
+      for (int k = 0; k < 9; k++) m[att_r_[a][k]] = att_Rq_[a][k];
+    att_subst_.reset(new Subst(m));
+  }
+  return (*att_subst_)(e);
+}
+
+/* de/dq_k of e(q, r), r = R(q): the chain rule through the attitude's
+** rotation for a quaternion entry. */
+ex Derivation::dq_full(int k, const ex &e) {
+  if (k < ncoord_) return dq_[k](e);
+  int a = (k - ncoord_) / 4;
+  exvector t;
+  for (int i = 0; i < 9; i++) {
+    ex d = dr_[9 * a + i](e);
+    if (d.is_zero()) continue;
+    ex dR = dq_[k](att_Rq_[a][i]);
+    if (!dR.is_zero()) t.push_back(d * dR);
+  }
+  return t.empty() ? ex(0) : ex(add(t));
+}
+
 /* The derivative of e along velocity j: de/dq_j for a coordinate; for
-** entry c of an attitude's omega, the body-frame direction
-** X_c e = sum_m de/dq_m N_mc (symbolic_attitude.cc).  Generalized forces,
-** partial velocities and the Euler-Lagrange terms all take this in place
-** of d/dq, so coordinates and attitudes share one derivation. */
+** entry c of an attitude's omega, the body-frame direction X_c e, the rate
+** of e as R turns about its body axis c (R -> R [e_c]x, in r: along_r).
+** Generalized forces, partial velocities and the Euler-Lagrange terms all
+** take this in place of d/dq, so coordinates and attitudes share one
+** derivation. */
 ex Derivation::dv(int j, const ex &e) {
   assert(j >= 0 && j < nv_);
   if (j < ncoord_) return dq_[j](e);
   int a = (j - ncoord_) / 3, c = (j - ncoord_) % 3;
-  exvector t;
-  for (int m = 0; m < 4; m++) {
-    ex d = dq_[ncoord_ + 4 * a + m](e);
-    if (!d.is_zero()) t.push_back(d * att_N_[a][3 * m + c]);
-  }
-  return t.empty() ? ex(0) : ex(add(t));
+  ex axis[3] = {0, 0, 0};
+  axis[c] = 1;
+  return along_r(a, axis, e);
 }
 
 /* "x'" for a coordinate, "omega(R)[2]" for an attitude's velocity. */
@@ -311,11 +385,11 @@ void Derivation::derive_jacobians(Equations &eq) {
   for (int k = 0; k < nq; k++) {
     for (int i = 0; i < n; i++)
       for (int j = i; j < n; j++)
-        dM[(size_t)k * n * n + i * n + j] = dM[(size_t)k * n * n + j * n + i] = dq_[k](M[i][j]);
+        dM[(size_t)k * n * n + i * n + j] = dM[(size_t)k * n * n + j * n + i] = dq_full(k, M[i][j]);
     tick("deriving dM/dq");
   }
   for (int i = 0; i < n; i++) {
-    for (int j = 0; j < nq; j++) dfdq[(size_t)i * nq + j] = dq_[j](f[i]);
+    for (int j = 0; j < nq; j++) dfdq[(size_t)i * nq + j] = dq_full(j, f[i]);
     for (int j = 0; j < n; j++) dfdqd[(size_t)i * n + j] = dqd_[j](f[i]);
     for (int j = 0; j < nu_; j++) dfdu[(size_t)i * nu_ + j] = du_[j](f[i]);
     tick("deriving the Jacobian of the forcing");

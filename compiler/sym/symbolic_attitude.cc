@@ -5,16 +5,17 @@
 ** q = [w, x, y, z] (scalar first) and moves with the body-frame angular
 ** velocity omega: R' = R [omega]x and q' = q (x) [0, omega] / 2 = N(q) omega.
 ** The equations of motion are written in omega (quasi-velocities), so the
-** derivation needs, besides R(q) and N(q), the derivative of an expression
-** e(q) along the body-frame direction e_a:
-**   X_a e = sum_m de/dq_m N_ma(q),
-** the rate of e per unit of omega_a.  These X_a are left-invariant vector
-** fields of the rotation group, [X_a, X_b] = X_(e_a x e_b), which is where the
-** term omega x dL/domega of the equations comes from (the Euler-Poincare
-** equations: J. E. Marsden and T. S. Ratiu, "Introduction to Mechanics and
-** Symmetry", 2nd ed., 1999, ch. 13; the Boltzmann-Hamel form of the same:
-** L. Meirovitch, "Methods of Analytical Dynamics", 1970, ch. 4; chapters
-** from memory).
+** derivation needs the derivative of an expression e along the body-frame
+** direction e_a, the rate of e per unit of omega_a.  While deriving, R is
+** nine symbols r (Derivation::att_r_) and that derivative is
+**   X_a e = sum_ij de/dr_ij (R [e_a]x)_ij,
+** with R' = R [omega]x the same way; R(q) below replaces r in the results.
+** The X_a are left-invariant vector fields of the rotation group,
+** [X_a, X_b] = X_(e_a x e_b), which is where the term omega x dL/domega of
+** the equations comes from (the Euler-Poincare equations: J. E. Marsden
+** and T. S. Ratiu, "Introduction to Mechanics and Symmetry", 2nd ed., 1999,
+** ch. 13; the Boltzmann-Hamel form of the same: L. Meirovitch, "Methods of
+** Analytical Dynamics", 1970, ch. 4; chapters from memory).
 */
 #include "sym/symbolic_internal.h"
 

@@ -185,6 +185,7 @@ void Derivation::check_inertia(const Stmt *s, const Val &I) {
   point[t_] = 0;
   for (int i = 0; i < ncoord_; i++) point[q_[i]] = m_->q0 ? m_->q0[i] : 0.0;
   for (int i = ncoord_; i < nq_; i++) point[q_[i]] = m_->attitude_q0[i - ncoord_];
+  attitude_point(point);
   for (int i = 0; i < nv_; i++) point[qd_[i]] = 0;
   for (int i = 0; i < nu_; i++) point[u_[i]] = 0;
   for (int i = 0; i < np_; i++) point[p_[i]] = m_->params[i]->number;

@@ -221,6 +221,7 @@ exmap Derivation::random_point(uint64_t &state, bool rates) {
   exmap point;
   point[t_] = next();
   for (int i = 0; i < nq_; i++) point[q_[i]] = next();
+  attitude_point(point);
   for (int i = 0; rates && i < nv_; i++) point[qd_[i]] = next(), point[qdd_[i]] = next();
   for (int i = 0; i < nu_; i++) point[u_[i]] = next();
   for (int i = 0; i < np_; i++) point[p_[i]] = next();

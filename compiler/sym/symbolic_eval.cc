@@ -95,8 +95,8 @@ Val Derivation::eval_name(const Expr *x) {
       throw SymError{x->loc, fmt("bodies are not supported yet ('%s')", d->name)};
     case DECL_ATTITUDE: {       /* R(q) of its quaternion */
       assert(d->index >= 0 && d->index < m_->nattitudes);
-      Val R(3, 3);
-      attitude_rotation(&q_[ncoord_ + 4 * d->index], R.a.data());
+      Val R(3, 3);   /* its entries' symbols (see Derivation::att_r_) */
+      for (int k = 0; k < 9; k++) R.a[k] = att_r_[d->index][k];
       R.att = d->index;
       return R;
     }

@@ -449,7 +449,14 @@ class Derivation {
   GiNaC::ex t_;
   std::vector<GiNaC::ex> q_, qd_, qdd_, u_, p_;  /* qd_, qdd_: v and v' (nv_ each) */
   std::vector<GiNaC::ex> qrate_;                 /* nq_: q' in terms of q and v (N(q) v) */
-  std::vector<std::array<GiNaC::ex, 12>> att_N_;  /* per attitude: N(q), q' = N omega */
+  /* Per attitude: the symbols r standing for the entries of R while
+  ** deriving (row-major), their derivatives, and R(q) that replaces them in
+  ** the roots.  With R' = R [omega]x and the body-frame directions
+  ** X_c R = R [e_c]x written in r itself, every derivative stays a short
+  ** polynomial in r; R(q) enters only at the end (symbolic_attitude.cc). */
+  std::vector<std::array<GiNaC::ex, 9>> att_r_, att_Rq_;
+  std::vector<Deriver> dr_;                      /* 9 per attitude */
+  std::unique_ptr<Subst> att_subst_;             /* r -> R(q) */
   VarTable vars_;
   DepCache deps_;
   Deriver dt_;
@@ -517,6 +524,10 @@ class Derivation {
   void tick(const char *step);
   GiNaC::ex totald(const GiNaC::ex &e);
   GiNaC::ex dv(int j, const GiNaC::ex &e);
+  GiNaC::ex dq_full(int k, const GiNaC::ex &e);   /* d/dq_k through R(q) */
+  GiNaC::ex along_r(int a, const GiNaC::ex w[3], const GiNaC::ex &e);
+  GiNaC::ex with_quaternions(const GiNaC::ex &e);
+  void attitude_point(GiNaC::exmap &point);
   std::string rate_name(int j) const;
   Val rate(const Val &v);
   GiNaC::ex unatom(const GiNaC::ex &e);

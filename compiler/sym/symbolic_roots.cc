@@ -43,42 +43,44 @@ void Derivation::emit_roots(const Equations &eq, EomSystem *out) {
 
 /* One graph for everything; root handles are kept in this order. */
 void Derivation::add_roots(const Equations &eq, IrBuilder &b, RootHandles &h) {
+  /* the roots hold R(q) where the derivation wrote each attitude's r */
+  auto root = [&](const ex &e, SrcLoc loc) { return b.add_root(with_quaternions(e), loc); };
   const int n = nv_, nq = nq_, nc = (int)eq.phi.size(), nvc = (int)eq.vc_b.size();
   const SrcLoc none = kNoLoc;
   for (int i = 0; i < n; i++)
-    for (int j = 0; j < n; j++) h.mass.push_back(b.add_root(eq.M[i][j], none));
-  for (const ex &e : eq.f) h.f.push_back(b.add_root(e, none));
+    for (int j = 0; j < n; j++) h.mass.push_back(root(eq.M[i][j], none));
+  for (const ex &e : eq.f) h.f.push_back(root(e, none));
   tick("building the expression graph");
-  for (const ex &e : eq.dM) h.dM.push_back(b.add_root(e, none));
+  for (const ex &e : eq.dM) h.dM.push_back(root(e, none));
   tick("building the expression graph");
   if (nq == n) {  /* interleaved, as always for models without attitudes */
     for (size_t k = 0; k < eq.dfdq.size(); k++) {
-      h.dfdq.push_back(b.add_root(eq.dfdq[k], none));
-      h.dfdqd.push_back(b.add_root(eq.dfdqd[k], none));
+      h.dfdq.push_back(root(eq.dfdq[k], none));
+      h.dfdqd.push_back(root(eq.dfdqd[k], none));
       if (k % n == 0) tick("building the expression graph");
     }
   } else {
-    for (const ex &e : eq.dfdq) h.dfdq.push_back(b.add_root(e, none));
-    for (const ex &e : eq.dfdqd) h.dfdqd.push_back(b.add_root(e, none));
+    for (const ex &e : eq.dfdq) h.dfdq.push_back(root(e, none));
+    for (const ex &e : eq.dfdqd) h.dfdqd.push_back(root(e, none));
     tick("building the expression graph");
   }
-  for (const ex &e : eq.dfdu) h.dfdu.push_back(b.add_root(e, none));
-  for (const ex &e : eq.inv) h.inv.push_back(b.add_root(e, none));
-  h.T = b.add_root(unatom(eq.T + eq.T_rot), kinetic_.empty() ? none : kinetic_[0].stmt->loc);
-  h.V = b.add_root(unatom(eq.V_reported), potential_.empty() ? none : potential_[0].stmt->loc);
-  for (size_t i = 0; i < eq.outs.size(); i++) h.out.push_back(b.add_root(eq.outs[i], eq.out_locs[i]));
-  for (int c = 0; c < nc; c++) h.phi.push_back(b.add_root(eq.phi[c], constraints_[c].first->loc));
+  for (const ex &e : eq.dfdu) h.dfdu.push_back(root(e, none));
+  for (const ex &e : eq.inv) h.inv.push_back(root(e, none));
+  h.T = root(unatom(eq.T + eq.T_rot), kinetic_.empty() ? none : kinetic_[0].stmt->loc);
+  h.V = root(unatom(eq.V_reported), potential_.empty() ? none : potential_[0].stmt->loc);
+  for (size_t i = 0; i < eq.outs.size(); i++) h.out.push_back(root(eq.outs[i], eq.out_locs[i]));
+  for (int c = 0; c < nc; c++) h.phi.push_back(root(eq.phi[c], constraints_[c].first->loc));
   for (int c = 0; c < nc; c++)
-    for (int j = 0; j < n; j++) h.G.push_back(b.add_root(eq.G[(size_t)c * n + j], none));
-  for (int c = 0; c < nc; c++) h.gamma.push_back(b.add_root(eq.gamma[c], none));
-  for (int c = 0; c < nc; c++) h.phi_t.push_back(b.add_root(eq.phi_t[c], none));
-  for (const ex &e : eq.vc_A) h.vA.push_back(b.add_root(e, none));
-  for (int c = 0; c < nvc; c++) h.vb.push_back(b.add_root(eq.vc_b[c], vconstraints_[c].first->loc));
-  for (const ex &e : eq.vc_gamma) h.vgamma.push_back(b.add_root(e, none));
-  for (const ex &e : eq.ctl.coriolis) h.cor.push_back(b.add_root(e, none));
-  for (const ex &e : eq.ctl.gravity) h.grav.push_back(b.add_root(e, none));
-  for (const ex &e : eq.ctl.momenta) h.mom.push_back(b.add_root(e, none));
-  h.ham = b.add_root(eq.ctl.hamiltonian, none);
+    for (int j = 0; j < n; j++) h.G.push_back(root(eq.G[(size_t)c * n + j], none));
+  for (int c = 0; c < nc; c++) h.gamma.push_back(root(eq.gamma[c], none));
+  for (int c = 0; c < nc; c++) h.phi_t.push_back(root(eq.phi_t[c], none));
+  for (const ex &e : eq.vc_A) h.vA.push_back(root(e, none));
+  for (int c = 0; c < nvc; c++) h.vb.push_back(root(eq.vc_b[c], vconstraints_[c].first->loc));
+  for (const ex &e : eq.vc_gamma) h.vgamma.push_back(root(e, none));
+  for (const ex &e : eq.ctl.coriolis) h.cor.push_back(root(e, none));
+  for (const ex &e : eq.ctl.gravity) h.grav.push_back(root(e, none));
+  for (const ex &e : eq.ctl.momenta) h.mom.push_back(root(e, none));
+  h.ham = root(eq.ctl.hamiltonian, none);
   /* a param default that reads other params: the rule that recomputes it */
   h.rule.assign(np_, -1);
   for (int i = 0; i < np_; i++) {
@@ -87,19 +89,19 @@ void Derivation::add_roots(const Equations &eq, IrBuilder &b, RootHandles &h) {
     ex e = scalar(d->value, "a parameter's default");
     bool reads_params = false;
     for (int k = 0; k < np_; k++) reads_params = reads_params || (k != i && e.has(p_[k]));
-    if (reads_params) h.rule[i] = b.add_root(e, d->loc);
+    if (reads_params) h.rule[i] = root(e, d->loc);
   }
   for (size_t k = 0; k < eq.outs.size(); k++) {
     if (!eq.kr.kinematic[k]) continue;
-    for (int j = 0; j < n; j++) h.ojac.push_back(b.add_root(eq.kr.jacobian[k * n + j], none));
-    h.obias.push_back(b.add_root(eq.kr.bias[k], none));
+    for (int j = 0; j < n; j++) h.ojac.push_back(root(eq.kr.jacobian[k * n + j], none));
+    h.obias.push_back(root(eq.kr.bias[k], none));
   }
-  for (const ex &e : eq.kr.frame_jacobian) h.fjac.push_back(b.add_root(e, none));
-  for (const ex &e : eq.kr.frame_bias) h.fbias.push_back(b.add_root(e, none));
+  for (const ex &e : eq.kr.frame_jacobian) h.fjac.push_back(root(e, none));
+  for (const ex &e : eq.kr.frame_bias) h.fbias.push_back(root(e, none));
   /* switching functions: those that can change sign, each once */
   std::vector<ex> sw;
   for (const SwitchFn &w : switches_) {
-    ex e = unatom(w.e);
+    ex e = with_quaternions(unatom(w.e));
     bool moves = e.has(t_);
     for (int i = 0; i < nq; i++) moves = moves || e.has(q_[i]);
     for (int i = 0; i < n; i++) moves = moves || e.has(qd_[i]);
@@ -109,10 +111,10 @@ void Derivation::add_roots(const Equations &eq, IrBuilder &b, RootHandles &h) {
     if (!moves || again) continue;
     sw.push_back(e);
     h.sw_info.push_back(EomSwitch{w.loc.line, w.loc.col, (int)w.fn, w.part});
-    h.sw.push_back(b.add_root(e, w.loc));
+    h.sw.push_back(root(e, w.loc));
   }
-  for (const ex &e : eq.reg.Y) h.reg.push_back(b.add_root(e, none));
-  for (const ex &e : eq.reg.offset) h.reg0.push_back(b.add_root(e, none));
+  for (const ex &e : eq.reg.Y) h.reg.push_back(root(e, none));
+  for (const ex &e : eq.reg.offset) h.reg0.push_back(root(e, none));
   tick("building the expression graph");
 }
 

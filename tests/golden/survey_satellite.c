@@ -320,19 +320,16 @@ void survey_satellite_hamiltonian(const double *q, const double *qd, const doubl
 void survey_satellite_output_jacobian(const double *q, const double *p, double *J)
 {
   (void)p;
-  const double w0 = q[3]*q[3];
-  const double w1 = q[2]*q[2];
-  const double w2 = q[3]*q[2];
-  const double w3 = q[4]*q[1];
-  const double w4 = q[4]*q[4];
-  const double w5 = -q[1]*q[1];
+  const double w0 = q[3]*q[2];
+  const double w1 = q[4]*q[1];
+  const double w2 = q[4]*q[4];
   J[0] = 0.0;
-  J[1] = -2.0*(w2 - w3);
-  J[2] = -(w4 - w1 + w0 + w5);
+  J[1] = -2.0*(w0 - w1);
+  J[2] = 1.0 - 2.0*(w2 + q[3]*q[3]);
   J[3] = 0.0;
   J[4] = 0.0;
-  J[5] = w4 + w5 + w1 - w0;
-  J[6] = 2.0*(w2 + w3);
+  J[5] = -(1.0 - 2.0*(w2 + q[2]*q[2]));
+  J[6] = 2.0*(w0 + w1);
   J[7] = 0.0;
   J[8] = 0.0;
   J[9] = -2.0*(q[3]*q[4] + q[2]*q[1]);
@@ -351,17 +348,13 @@ void survey_satellite_output_bias(const double *q, const double *qd, const doubl
   const double w5 = w3 - w4;
   const double w6 = q[3]*q[3];
   const double w7 = q[2]*q[2];
-  const double w8 = q[3]*q[2];
-  const double w9 = q[4]*q[1];
-  const double w10 = q[4]*q[4];
-  const double w11 = -w7;
-  const double w12 = q[1]*q[1];
-  const double w13 = -w12;
-  const double w14 = -w6;
-  const double w15 = w10 + w11 + w14 + w12;
-  b[0] = -(2.0*qd[2]*(w2*qd[2] - qd[3]*(w8 - w9)) + (2.0*w2*qd[1] + qd[3]*(w10 + w11 + w6 + w13))*qd[1]);
-  b[1] = -(2.0*(w5*qd[1] - qd[3]*(w8 + w9))*qd[1] + qd[2]*(2.0*qd[2]*w5 + qd[3]*(w10 + w13 + w7 + w14)));
-  b[2] = qd[2]*(2.0*qd[3]*(w3 + w4) - qd[2]*w15) - (2.0*(w0 - w1)*qd[3] + w15*qd[1])*qd[1];
+  const double w8 = 1.0 - 2.0*(w6 + w7);
+  const double w9 = q[3]*q[2];
+  const double w10 = q[4]*q[1];
+  const double w11 = q[4]*q[4];
+  b[0] = -(2.0*qd[2]*(w2*qd[2] - qd[3]*(w9 - w10)) + (2.0*w2*qd[1] - qd[3]*(1.0 - 2.0*(w11 + w6)))*qd[1]);
+  b[1] = -(2.0*(w5*qd[1] - qd[3]*(w9 + w10))*qd[1] + (2.0*qd[2]*w5 - qd[3]*(1.0 - 2.0*(w11 + w7)))*qd[2]);
+  b[2] = -((w8*qd[1] + 2.0*(w0 - w1)*qd[3])*qd[1] + (qd[2]*w8 - 2.0*qd[3]*(w3 + w4))*qd[2]);
 }
 
 void survey_satellite_default_params(double *p)
