@@ -1,13 +1,15 @@
 /*
 ** cmd_sim.c — `eomc sim`: build the model, integrate it with libeomrt, write
-** the samples as CSV (t, coordinates, rates, outputs, inputs, multipliers,
-** T, V) and optionally
-** plot them.
+** the samples (t, coordinates, rates, outputs, inputs, multipliers, T, V,
+** or the --columns chosen) as CSV or HDF5 (run_sink.c) and optionally plot
+** them (plot_run.c).
 **
 ** The summary line on stderr gives the steps, the final time, the energy
 ** change and the action, the time integral of L = T - V over the run, by
 ** Simpson's rule on the samples.  An integration failure keeps every row
-** written so far (the file is still renamed into place) and exits 3.
+** written so far (the file is still renamed into place) and exits 3; a run
+** stopped by SIGINT or SIGTERM keeps nothing, says where it stopped and
+** exits 128 + the signal's number.
 */
 #include <errno.h>
 #include <math.h>
@@ -22,7 +24,11 @@
 #include "cli/cmd.h"
 #include "cli/conserved_monitor.h"
 #include "eom/runtime.h"
+#include "cli/interrupt.h"
 #include "cli/plot.h"
+#include "cli/plot_run.h"
+#include "cli/run_columns.h"
+#include "cli/run_sink.h"
 #include "cli/run_values.h"
 
 static const char sim_usage[] =
@@ -52,7 +58,14 @@ static const char sim_usage_tail[] =
   "  --inputs FILE.csv  inputs over time: header `t,INPUT,...`, rows of numbers,\n"
   "                     interpolated linearly (its columns override --set)\n"
   "  -o OUT.csv         write the CSV there (default: standard output)\n"
-  "  --plot OUT.svg     plot coordinates, energies and phase portraits (gnuplot)\n"
+  "  -o OUT.h5          write HDF5 instead: dataset 'rows' (rows x columns) with\n"
+  "                     the attributes columns, units, model, parameters,\n"
+  "                     eomc_version (.hdf5 too)\n"
+  "  --columns LIST     the columns written and plotted, comma-separated, named as\n"
+  "                     in the CSV header (e.g. t,x,phi,T,V)\n"
+  "  --plot OUT.svg     plot the columns with gnuplot, one panel per unit, and a\n"
+  "                     phase portrait per coordinate; the format follows the\n"
+  "                     name: .svg, .png or .pdf\n"
   "\n"
   "models with branch functions (min, max, sign, step, clamp, abs): dopri and\n"
   "radau5 locate each switch in time and restart there (rk4 and midpoint do not):\n"
@@ -78,7 +91,8 @@ static const char sim_usage_tail[] =
   "\n"
   "Cache: $EOMC_CACHE_DIR, else $XDG_CACHE_HOME/eomc, else ~/.cache/eomc.\n"
   "Compiler: $CC (default cc).\n"
-  "exit status: 0 success, 1 model error, 2 usage error, 3 run failure\n";
+  "exit status: 0 success, 1 model error, 2 usage error, 3 run failure,\n"
+  "128 + N stopped by signal N (SIGINT, SIGTERM: nothing is kept)\n";
 
 static void print_sim_usage(FILE *out) {
   fputs(sim_usage, out);
@@ -88,7 +102,7 @@ static void print_sim_usage(FILE *out) {
 }
 
 typedef struct SimArgs {
-  const char *model, *method, *out, *plot, *inputs;
+  const char *model, *method, *out, *plot, *inputs, *columns;
   double until, step, every, rtol, atol;
   char **sets;
   int nsets;
@@ -151,6 +165,7 @@ static int parse_args(int argc, char **argv, SimArgs *a) {
     else if ((v = option_value(argc, argv, &i, "--hold"))) a->holds[a->nholds++] = (char *)v;
     else if ((v = option_value(argc, argv, &i, "--inputs"))) a->inputs = v;
     else if ((v = option_value(argc, argv, &i, "--plot"))) a->plot = v;
+    else if ((v = option_value(argc, argv, &i, "--columns"))) a->columns = v;
     else if ((v = option_value(argc, argv, &i, "-o"))) a->out = v;
     else if ((v = option_value(argc, argv, &i, "--constraint-tol"))) num = &a->constraint_tol;
     else if ((v = option_value(argc, argv, &i, "--constraint-solver"))) {
@@ -197,6 +212,12 @@ static int parse_args(int argc, char **argv, SimArgs *a) {
             eom_method_list());
     return EXIT_USAGE;
   }
+  char err[512];
+  if (a->plot && plot_format_check(a->plot, err, sizeof err) != 0)
+    return usage_error("--plot: %s", err);
+  if (run_sink_is_h5(a->out) && !h5_out_library())
+    return usage_error("-o %s: this eomc was built without HDF5, so it cannot write .h5 files "
+                       "(install libhdf5-dev and re-run configure)", a->out);
   if (a->step > a->until) return usage_error("%s", "--step is longer than --until");
   if (a->every > a->until) return usage_error("%s", "--every is longer than --until");
   /* About 1,000 rows unless asked; never more rows than steps by default. */
@@ -209,8 +230,11 @@ static int parse_args(int argc, char **argv, SimArgs *a) {
 typedef struct SimOut {
   const struct eom_model *m;
   const double *p;
-  FILE *csv;
+  RunSink *sink;
+  double *row;      /* eom_row_width(m) values of a sample */
   int write_failed;
+  char write_error[256];
+  int stopped_by;   /* the signal that stopped the run, or 0 */
   long rows;
   double E0, E, t_last;
   /* Action by Simpson's rule: pending samples (ta, La), (tb, Lb). */
@@ -270,12 +294,18 @@ static void progress(SimOut *s, double t) {
 static int on_sample(void *ctx, double t, const double *x, const double *u) {
   SimOut *s = ctx;
   const struct eom_model *m = s->m;
-  double T = 0, V = 0;
-  if (eom_csv_write_row(s->csv, m, s->p, t, x, u) != 0) {
+  int width = eom_row_width(m);
+  if ((s->stopped_by = interrupt_signal()) != 0) return 1;
+  if (eom_row_eval(m, s->p, t, x, u, s->row) != 0) {
+    snprintf(s->write_error, sizeof s->write_error, "out of memory");
     s->write_failed = 1;
     return 1;
   }
-  if (m->energy) m->energy(x, x + m->nq, s->p, &T, &V);
+  if (run_sink_row(s->sink, s->row, s->write_error, sizeof s->write_error) != 0) {
+    s->write_failed = 1;
+    return 1;
+  }
+  double T = s->row[width - 2], V = s->row[width - 1];
   cmon_sample(s->conserved, x, s->p);
   if (s->rows == 0) s->E0 = T + V;
   if (s->rows == 0 && s->x_first) memcpy(s->x_first, x, (size_t)eom_state_size(m) * sizeof(double));
@@ -344,41 +374,139 @@ static void print_fix_summary(const struct eom_model *m, const double *given, co
   fputc('\n', stderr);
 }
 
-/* Copy a finished scratch CSV to standard output. */
-static int copy_to_stdout(const char *path) {
-  char buf[65536];
-  size_t n;
-  FILE *f = fopen(path, "r");
-  if (!f) return -1;
-  while ((n = fread(buf, 1, sizeof buf, f)) > 0)
-    if (fwrite(buf, 1, n, stdout) != n) break;
-  int bad = ferror(f) || ferror(stdout) || fflush(stdout) != 0;
-  fclose(f);
-  return bad ? -1 : 0;
+/* The HDF5 attributes besides the columns: the model, the parameters used. */
+static H5Meta run_meta(const struct eom_model *m, const double *p) {
+  H5Meta meta;
+  memset(&meta, 0, sizeof meta);
+  meta.model = m->name;
+  meta.version = EOMC_VERSION;
+  meta.param_names = (const char *const *)m->param_names;
+  meta.param_values = p;
+  meta.np = m->np;
+  return meta;
 }
 
-/* Open the CSV destination: a temporary beside `out` (renamed at the end),
-** stdout, or a scratch file (copied to stdout at the end) when a plot needs
-** the data in a file. */
-static FILE *open_csv(const SimArgs *a, char **tmp_path) {
-  struct stat st;
-  *tmp_path = NULL;
-  if (a->out && stat(a->out, &st) == 0 && !S_ISREG(st.st_mode))
-    return fopen(a->out, "w"); /* /dev/null, a pipe: nothing to rename */
-  if (a->out) {
-    size_t len = strlen(a->out) + 32;
-    *tmp_path = malloc(len);
-    if (!*tmp_path) return NULL;
-    snprintf(*tmp_path, len, "%s.tmp.%ld", a->out, (long)getpid());
-    return fopen(*tmp_path, "w");
+/* The plot of the rows written, from the sink's CSV. */
+static int plot_rows(const SimArgs *a, const struct eom_model *m, const RunSink *sink) {
+  char err[1024];
+  PlotRun pr = {m, sink->cols, sink->ncols, sink->lo, sink->hi};
+  if (plot_run(&pr, run_sink_plot_data(sink), a->plot, err, sizeof err) != 0) {
+    fprintf(stderr, "eomc sim: error: %s\n", err);
+    return EXIT_RUN;
   }
-  if (a->plot) {
-    *tmp_path = strdup("/tmp/eomc-sim-XXXXXX");
-    if (!*tmp_path) return NULL;
-    int fd = mkstemp(*tmp_path);
-    return fd < 0 ? NULL : fdopen(fd, "w");
+  return 0;
+}
+
+/* Where an interrupted run stopped, on stderr. */
+static void report_interrupt(const SimArgs *a, const SimOut *so) {
+  fprintf(stderr, "eomc sim: stopped by %s at t = %.10g after %ld rows", interrupt_name(so->stopped_by),
+          so->t_last, so->rows);
+  if (a->out) fprintf(stderr, "; %s not written (its temporary removed)", a->out);
+  fputc('\n', stderr);
+}
+
+/* Integrate, writing rows into the sink; then the summary or the failure.
+** Returns the exit status. */
+static int run_and_report(const SimArgs *a, const struct eom_model *m, RunValues *rv,
+                          eom_inputs *in, const int *hold, double *x_given, RunSink *sink,
+                          ConservedMonitor *cmon) {
+  struct eom_sim_options o;
+  struct eom_report rep;
+  SimOut so;
+  char err[512];
+  int rc = 0;
+  memset(&so, 0, sizeof so);
+  so.m = m;
+  so.p = rv->p;
+  so.sink = sink;
+  so.conserved = cmon;
+  so.tty = isatty(STDERR_FILENO);
+  so.t_end = a->until;
+  so.started = so.last_draw = now_seconds();
+  so.x_first = x_given + eom_state_size(m);
+  if (!(so.row = malloc((size_t)eom_row_width(m) * sizeof(double)))) {
+    fprintf(stderr, "eomc sim: error: out of memory\n");
+    return EXIT_RUN;
   }
-  return stdout;
+  eom_sim_options_init(&o);
+  o.method = a->method;
+  o.t0 = 0;
+  o.t_end = a->until;
+  o.sample_dt = a->every;
+  /* A step of its own is kept exactly; else steps land on the rows. */
+  o.step = strcmp(a->method, "dopri") == 0 ? 0 : a->step > 0 ? a->step : a->every;
+  o.keep_step = a->step > 0;
+  if (a->rtol > 0) o.rtol = a->rtol;
+  if (a->atol > 0) o.atol = a->atol;
+  if (a->alpha >= 0) o.baumgarte_alpha = a->alpha, o.baumgarte_beta = a->beta;
+  o.no_projection = a->no_projection;
+  o.no_initial_fix = a->no_initial_fix;
+  o.constraint_tol = a->constraint_tol;
+  o.constraint_solver = a->constraint_solver;
+  o.hold = hold;
+  o.no_events = a->no_events;
+  o.event_log = a->log_events ? stderr : NULL;
+  if (m->ns > 0 && !a->no_events &&
+      (strcmp(a->method, "rk4") == 0 || strcmp(a->method, "midpoint") == 0))
+    fprintf(stderr,
+            "eomc sim: note: %s does not locate the model's %d switches in time "
+            "(dopri and radau5 do)\n", a->method, m->ns);
+
+  int st = eom_simulate(m, rv->p, in, rv->x, &o, on_sample, &so, &rep);
+  if (!so.stopped_by) so.stopped_by = interrupt_signal();
+  free(so.row);
+  if (so.drawn) fprintf(stderr, "\r%*s\r", 70, "");
+  if (so.stopped_by) {
+    run_sink_finish(sink, 0, err, sizeof err);
+    report_interrupt(a, &so);
+    return 128 + so.stopped_by;
+  }
+  if (so.write_failed) {
+    run_sink_finish(sink, 0, err, sizeof err);
+    fprintf(stderr, "eomc sim: error: %s\n", so.write_error);
+    return EXIT_RUN;
+  }
+  /* The rows so far are kept even after a failure. */
+  if (run_sink_finish(sink, 1, err, sizeof err) != 0) {
+    fprintf(stderr, "eomc sim: error: %s\n", err);
+    return EXIT_RUN;
+  }
+  if (m->nc + m->nvc > 0 && !a->no_initial_fix && so.rows > 0 && (st == EOM_OK || rep.steps > 0))
+    print_fix_summary(m, x_given, so.x_first, hold);
+  if (st == EOM_OK) {
+    print_run_summary(a, &rep, &so, "eomc sim: ");
+    cmon_report(cmon, "eomc sim: ", stderr);
+  } else {
+    /* The failure first; figures of the run up to it only as a note, and
+    ** none when it failed before the first step. */
+    fprintf(stderr, "eomc sim: error: integration failed %s\n",
+            rep.message[0] ? rep.message : eom_status_text((eom_status)st));
+    if (rep.steps > 0) print_run_summary(a, &rep, &so, "eomc sim: note: up to the failure: ");
+    if (a->out) fprintf(stderr, "eomc sim: note: %ld rows up to t = %.10g kept in %s\n", so.rows,
+                        so.t_last, a->out);
+    rc = EXIT_RUN;
+  }
+  return rc;
+}
+
+/* The values of the run: --set, then --inputs.  0 or an exit status. */
+static int apply_values(const SimArgs *a, const struct eom_model *m, RunValues *rv,
+                        eom_inputs *in) {
+  char err[1024];
+  for (int i = 0; i < a->nsets; i++)
+    if (run_values_assign(rv, m, a->sets[i], RV_PARAMS | RV_INPUTS | RV_COORDS | RV_RATES, err,
+                          sizeof err) != 0) {
+      fprintf(stderr, "eomc sim: --set %s\n", err);
+      return EXIT_USAGE;
+    }
+  for (int j = 0; j < m->nu; j++) eom_inputs_set_constant(in, j, rv->u[j]);
+  if (a->inputs &&
+      eom_inputs_load_csv(in, a->inputs, (const char *const *)m->input_names, err, sizeof err) !=
+          EOM_OK) {
+    fprintf(stderr, "eomc sim: error: %s\n", err);
+    return EXIT_USAGE;
+  }
+  return 0;
 }
 
 int cmd_sim(int argc, char **argv) {
@@ -386,8 +514,9 @@ int cmd_sim(int argc, char **argv) {
   BuiltModel bm;
   ConservedMonitor cmon;
   RunValues rv;
+  RunSink sink;
   char err[1024];
-  int rc;
+  int rc, *cols = NULL, ncols = 0;
   for (int i = 1; i < argc; i++)
     if (cmd_is_help(argv[i])) {
       print_sim_usage(stdout);
@@ -414,26 +543,17 @@ int cmd_sim(int argc, char **argv) {
   int *hold = NULL;
   double *x_given = NULL;
   memset(&cmon, 0, sizeof cmon);
-  FILE *csv = NULL;
-  char *tmp_csv = NULL;
+  memset(&sink, 0, sizeof sink);
   if (run_values_init(&rv, m) != 0 || !(in = eom_inputs_new(m->nu)) || cmon_init(&cmon, m) != 0) {
     fprintf(stderr, "eomc sim: error: out of memory\n");
     rc = EXIT_RUN;
     goto out;
   }
-  for (int i = 0; i < a.nsets; i++)
-    if (run_values_assign(&rv, m, a.sets[i], RV_PARAMS | RV_INPUTS | RV_COORDS | RV_RATES, err,
-                          sizeof err) != 0) {
-      fprintf(stderr, "eomc sim: --set %s\n", err);
-      rc = EXIT_USAGE;
-      goto out;
-    }
-  for (int j = 0; j < m->nu; j++) eom_inputs_set_constant(in, j, rv.u[j]);
-  if (a.inputs &&
-      eom_inputs_load_csv(in, a.inputs, (const char *const *)m->input_names, err, sizeof err) !=
-          EOM_OK) {
-    fprintf(stderr, "eomc sim: error: %s\n", err);
-    rc = EXIT_USAGE;
+  if ((rc = apply_values(&a, m, &rv, in)) != 0) goto out;
+  if (a.columns ? run_columns_parse(m, a.columns, &cols, &ncols, err, sizeof err)
+                : run_columns_all(m, &cols, &ncols)) {
+    fprintf(stderr, "eomc sim: %s\n", a.columns ? err : "error: out of memory");
+    rc = a.columns ? EXIT_USAGE : EXIT_RUN;
     goto out;
   }
   if (!(hold = hold_flags(&a, m))) {
@@ -447,111 +567,27 @@ int cmd_sim(int argc, char **argv) {
     goto out;
   }
   memcpy(x_given, rv.x, (size_t)eom_state_size(m) * sizeof(double));
-  csv = open_csv(&a, &tmp_csv);
-  if (!csv) {
-    fprintf(stderr, "eomc sim: error: cannot write %s: %s\n", tmp_csv ? tmp_csv : "the CSV",
-            strerror(errno));
+  H5Meta meta = run_meta(m, rv.p);
+  /* From the first temporary on, a signal stops the run and removes it. */
+  interrupt_watch();
+  if (run_sink_open(&sink, m, cols, ncols, a.out, a.plot != NULL, &meta, err, sizeof err) != 0) {
+    fprintf(stderr, "eomc sim: error: %s\n", err);
     rc = EXIT_RUN;
     goto out;
   }
-
-  struct eom_sim_options o;
-  struct eom_report rep;
-  SimOut so;
-  memset(&so, 0, sizeof so);
-  so.m = m;
-  so.p = rv.p;
-  so.csv = csv;
-  so.conserved = &cmon;
-  so.tty = isatty(STDERR_FILENO);
-  so.t_end = a.until;
-  so.started = so.last_draw = now_seconds();
-  so.x_first = x_given + eom_state_size(m);
-  eom_sim_options_init(&o);
-  o.method = a.method;
-  o.t0 = 0;
-  o.t_end = a.until;
-  o.sample_dt = a.every;
-  /* A step of its own is kept exactly; else steps land on the rows. */
-  o.step = strcmp(a.method, "dopri") == 0 ? 0 : a.step > 0 ? a.step : a.every;
-  o.keep_step = a.step > 0;
-  if (a.rtol > 0) o.rtol = a.rtol;
-  if (a.atol > 0) o.atol = a.atol;
-  if (a.alpha >= 0) o.baumgarte_alpha = a.alpha, o.baumgarte_beta = a.beta;
-  o.no_projection = a.no_projection;
-  o.no_initial_fix = a.no_initial_fix;
-  o.constraint_tol = a.constraint_tol;
-  o.constraint_solver = a.constraint_solver;
-  o.hold = hold;
-  o.no_events = a.no_events;
-  o.event_log = a.log_events ? stderr : NULL;
-  if (m->ns > 0 && !a.no_events &&
-      (strcmp(a.method, "rk4") == 0 || strcmp(a.method, "midpoint") == 0))
-    fprintf(stderr,
-            "eomc sim: note: %s does not locate the model's %d switches in time "
-            "(dopri and radau5 do)\n", a.method, m->ns);
-
-  eom_csv_write_header(csv, m);
-  int st = eom_simulate(m, rv.p, in, rv.x, &o, on_sample, &so, &rep);
-  if (so.drawn) fprintf(stderr, "\r%*s\r", 70, "");
-  int write_failed = so.write_failed || fflush(csv) != 0 || ferror(csv);
-  if (csv != stdout) {
-    write_failed |= fclose(csv) != 0;
-    csv = NULL;
-  }
-  if (write_failed) {
-    fprintf(stderr, "eomc sim: error: writing the CSV failed\n");
-    rc = EXIT_RUN;
-    goto out;
-  }
-  /* The rows so far are kept even after a failure. */
-  if (a.out && tmp_csv && rename(tmp_csv, a.out) != 0) {
-    fprintf(stderr, "eomc sim: error: cannot write %s: %s\n", a.out, strerror(errno));
-    rc = EXIT_RUN;
-    goto out;
-  }
-  rc = 0;
-  if (m->nc + m->nvc > 0 && !a.no_initial_fix && so.rows > 0 && (st == EOM_OK || rep.steps > 0))
-    print_fix_summary(m, x_given, so.x_first, hold);
-  if (st == EOM_OK) {
-    print_run_summary(&a, &rep, &so, "eomc sim: ");
-    cmon_report(&cmon, "eomc sim: ", stderr);
-  } else {
-    /* The failure first; figures of the run up to it only as a note, and
-    ** none when it failed before the first step. */
-    fprintf(stderr, "eomc sim: error: integration failed %s\n",
-            rep.message[0] ? rep.message : eom_status_text((eom_status)st));
-    if (rep.steps > 0) print_run_summary(&a, &rep, &so, "eomc sim: note: up to the failure: ");
-    if (a.out) fprintf(stderr, "eomc sim: note: %ld rows up to t = %.10g kept in %s\n", so.rows,
-                       so.t_last, a.out);
-    rc = EXIT_RUN;
-  }
-  if (!a.out && tmp_csv && copy_to_stdout(tmp_csv) != 0) {
-    fprintf(stderr, "eomc sim: error: writing the CSV to standard output failed\n");
-    rc = EXIT_RUN;
-  }
-  if (a.plot) {
-    const char *data = a.out ? a.out : tmp_csv;
-    if (a.out && !tmp_csv) {
-      fprintf(stderr, "eomc sim: error: --plot needs -o to name a regular file (or no -o)\n");
-      rc = EXIT_RUN;
-      goto out;
-    }
-    if (plot_svg(m, data, a.plot, err, sizeof err) != 0) {
-      fprintf(stderr, "eomc sim: error: %s\n", err);
-      rc = EXIT_RUN;
-    }
+  rc = run_and_report(&a, m, &rv, in, hold, x_given, &sink, &cmon);
+  if (a.plot && rc < 128 && sink.rows > 0) {
+    int prc = plot_rows(&a, m, &sink);
+    if (rc == 0) rc = prc;
   }
 out:
-  if (csv && csv != stdout) fclose(csv);
-  if (tmp_csv) {
-    if (rc != 0 || !a.out) unlink(tmp_csv); /* harmless after the rename */
-    free(tmp_csv);
-  }
+  run_sink_free(&sink);
+  interrupt_unwatch();
   eom_inputs_free(in);
   cmon_free(&cmon);
   run_values_free(&rv);
   built_model_close(&bm);
+  free(cols);
   free(hold);
   free(x_given);
   free(a.sets);

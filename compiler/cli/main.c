@@ -6,6 +6,7 @@
 #include <stdio.h>
 #include <string.h>
 #include "cli/cmd.h"
+#include "cli/h5_out.h"
 
 #ifndef EOMC_VERSION
 #define EOMC_VERSION "unknown"
@@ -56,6 +57,8 @@ int main(int argc, char **argv) {
   }
   if (strcmp(argv[1], "--version") == 0) {
     printf("eomc %s\n", EOMC_VERSION);
+    if (h5_out_library()) printf("HDF5 output (-o RUN.h5): %s\n", h5_out_library());
+    else printf("HDF5 output (-o RUN.h5): not built in (libhdf5-dev was not found by configure)\n");
     return 0;
   }
   for (size_t i = 0; i < sizeof verbs / sizeof verbs[0]; i++)

@@ -16,6 +16,7 @@
 #include "cli/cmd.h"
 #include "cli/json_out.h"
 #include "cli/plot.h"
+#include "cli/tmpfiles.h"
 #include "cli/steady.h"
 #include "cli/value_text.h"
 
@@ -153,15 +154,16 @@ static int sweep(const struct eom_model *m, RunValues *rv, int *given, double *r
     return EXIT_USAGE;
   }
   given[idx] = 1;
-  char tmp[] = "/tmp/eomc-sweep-XXXXXX";
+  char *tmp = NULL;
   FILE *out = stdout;
   int fd = -1, rc = 0, neig = 0;
   if (o->plot) {
-    fd = mkstemp(tmp);
+    fd = tmpfiles_create("eomc-sweep", &tmp);
     out = fd >= 0 ? fdopen(fd, "w") : NULL;
     if (!out) {
-      fprintf(stderr, "eomc modes: cannot create a temporary file\n");
+      fprintf(stderr, "eomc modes: cannot create a temporary file in %s\n", tmpfiles_dir());
       if (fd >= 0) close(fd), unlink(tmp);
+      free(tmp);
       return EXIT_RUN;
     }
   }
@@ -204,6 +206,7 @@ static int sweep(const struct eom_model *m, RunValues *rv, int *given, double *r
       }
     }
     unlink(tmp);
+    free(tmp);
   }
   return rc;
 }

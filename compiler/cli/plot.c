@@ -1,17 +1,17 @@
 /*
-** plot.c — write a gnuplot script for a simulation CSV and run gnuplot on
-** it (fork + execvp, never a shell).  Panels, top to bottom: coordinates
-** against time; T, V and T + V against time; one phase portrait per
-** coordinate.  For a sweep of steady motions: growth rates and
-** frequencies of the eigenvalues against the swept rate.
+** plot.c — run gnuplot (fork + execvp, never a shell) on a script written
+** for the data, into an image whose format follows its name (.svg, .png,
+** .pdf), through a temporary renamed into place.  The plot of a run is
+** plot_run.c's; the plot of a sweep of steady motions (growth rates and
+** frequencies of the eigenvalues against the swept rate) is here.
 */
 #include "cli/plot.h"
-#include "eom/runtime.h"
 
 #ifdef HAVE_CONFIG_H
 #include "config.h"
 #endif
 
+#include <assert.h>
 #include <errno.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -19,6 +19,8 @@
 #include <sys/types.h>
 #include <sys/wait.h>
 #include <unistd.h>
+
+#include "cli/tmpfiles.h"
 
 int plot_available(char *err, size_t errlen) {
 #ifdef GNUPLOT_PATH
@@ -33,9 +35,32 @@ int plot_available(char *err, size_t errlen) {
   return -1;
 }
 
-#ifdef GNUPLOT_PATH
-/* A gnuplot single-quoted string: a quote inside is doubled. */
-static void put_quoted(FILE *f, const char *s) {
+/* The image formats, by the output's extension (gnuplot's cairo terminals
+** for png and pdf; its own svg terminal). */
+static const struct {
+  const char *ext, *terminal, *font;
+} formats[] = {
+  {".svg", "svg", "sans,11"},
+  {".png", "pngcairo", "sans,10"},
+  {".pdf", "pdfcairo", "sans,8"},
+};
+
+static int format_of(const char *path) {
+  size_t n = strlen(path);
+  for (size_t i = 0; i < sizeof formats / sizeof formats[0]; i++) {
+    size_t k = strlen(formats[i].ext);
+    if (n > k && strcmp(path + n - k, formats[i].ext) == 0) return (int)i;
+  }
+  return -1;
+}
+
+int plot_format_check(const char *path, char *err, size_t errlen) {
+  if (format_of(path) >= 0) return 0;
+  snprintf(err, errlen, "cannot tell the plot format of '%s': name it .svg, .png or .pdf", path);
+  return -1;
+}
+
+void plot_quoted(FILE *f, const char *s) {
   fputc('\'', f);
   for (; *s; s++) {
     if (*s == '\'') fputc('\'', f);
@@ -44,67 +69,40 @@ static void put_quoted(FILE *f, const char *s) {
   fputc('\'', f);
 }
 
-/* Panels: the coordinates (with attitudes: each one's roll, pitch and yaw
-** instead of its quaternion), the energies, and a phase portrait per
-** coordinate; columns as eom_row_column numbers them (1-based here). */
-static int write_script(FILE *f, const struct eom_model *m, const char *csv, const char *out) {
-  int nq = m->nq, nplain = m->nq - 4 * m->nattitudes, width = eom_row_width(m);
-  int col_T = width - 1, col_V = width, col_angles = 2 + eom_state_size(m);
-  int panels = 2 + nplain;
-  fprintf(f, "set terminal svg size 900,%d dynamic noenhanced font 'sans,11'\n", 260 * panels);
+void plot_terminal(FILE *f, const char *out, int width, int height) {
+  int k = format_of(out);
+  assert(k >= 0); /* render() names its temporary with the format's extension */
+  if (strcmp(formats[k].terminal, "pdfcairo") == 0) /* inches, at 100 px per inch */
+    fprintf(f, "set terminal pdfcairo size %.2fin,%.2fin noenhanced font '%s'\n", width / 100.0,
+            height / 100.0, formats[k].font);
+  else
+    fprintf(f, "set terminal %s size %d,%d %snoenhanced font '%s'\n", formats[k].terminal, width,
+            height, strcmp(formats[k].terminal, "svg") == 0 ? "dynamic " : "", formats[k].font);
   fputs("set output ", f);
-  put_quoted(f, out);
-  fputs("\nset datafile separator ','\nset grid\nset key outside right top\n", f);
-  fprintf(f, "set multiplot layout %d,1\n", panels);
-  fputs("set title 'coordinates'\nset xlabel 't'\nset ylabel ''\nplot ", f);
-  int ncurves = 0;
-  for (int c = 0; c < nplain + 3 * m->nattitudes; c++) {
-    int col = c < nplain ? 2 + c : col_angles + (c - nplain);
-    fputs(ncurves++ ? ", '' " : "", f);
-    if (c == 0) put_quoted(f, csv);
-    fprintf(f, " using 1:%d with lines title columnheader(%d)", col, col);
-  }
-  fputs("\nset title 'energy'\nplot ", f);
-  put_quoted(f, csv);
-  fprintf(f,
-          " using 1:%d with lines title 'T', '' using 1:%d with lines title 'V', "
-          "'' using 1:(column(%d) + column(%d)) with lines title 'T + V'\n",
-          col_T, col_V, col_T, col_V);
-  for (int i = 0; i < nplain; i++) {
-    const char *name = m->coord_names[i];
-    fputs("set title ", f);
-    char buf[300];
-    snprintf(buf, sizeof buf, "phase portrait: %s", name);
-    put_quoted(f, buf);
-    fputs("\nset xlabel ", f);
-    put_quoted(f, name);
-    fputs("\nset ylabel ", f);
-    snprintf(buf, sizeof buf, "%s'", name);
-    put_quoted(f, buf);
-    fputs("\nplot ", f);
-    put_quoted(f, csv);
-    fprintf(f, " using %d:%d with lines notitle\n", 2 + i, 2 + nq + i);
-  }
-  fputs("unset multiplot\nset output\n", f);
-  return ferror(f) ? -1 : 0;
+  plot_quoted(f, out);
+  fputc('\n', f);
 }
-#endif
 
 #ifdef GNUPLOT_PATH
 /* Write a gnuplot script with `write` into a temporary file, run gnuplot on
 ** it and rename its SVG into place. */
 static int render(PlotScriptWriter write, const void *ctx, const char *data_path,
                   const char *svg_path, char *err, size_t errlen) {
-  char script[] = "/tmp/eomc-plot-XXXXXX";
-  size_t tlen = strlen(svg_path) + 32;
+  char *script = NULL;
+  size_t tlen = strlen(svg_path) + 40;
   char *tmp_svg = malloc(tlen);
-  int rc = -1, fd = mkstemp(script);
+  int rc = -1, fd = -1;
   FILE *f = NULL;
+  if (plot_format_check(svg_path, err, errlen) != 0) goto out;
+  fd = tmpfiles_create("eomc-plot", &script);
   if (!tmp_svg || fd < 0) {
-    snprintf(err, errlen, "cannot create a temporary file: %s", strerror(errno));
+    snprintf(err, errlen, "cannot create a temporary file in %s: %s", tmpfiles_dir(),
+             strerror(errno));
     goto out;
   }
-  snprintf(tmp_svg, tlen, "%s.tmp.%ld", svg_path, (long)getpid());
+  /* The temporary keeps the extension: it names the format (plot_terminal). */
+  snprintf(tmp_svg, tlen, "%s.tmp.%ld%s", svg_path, (long)getpid(),
+           formats[format_of(svg_path)].ext);
   f = fdopen(fd, "w");
   if (!f || write(f, ctx, data_path, tmp_svg) != 0 || fclose(f) != 0) {
     if (!f) close(fd);
@@ -140,12 +138,9 @@ static int render(PlotScriptWriter write, const void *ctx, const char *data_path
 out:
   if (fd >= 0) unlink(script);
 out_keep_script:
+  free(script);
   free(tmp_svg);
   return rc;
-}
-
-static int write_sim_script(FILE *f, const void *ctx, const char *csv, const char *out) {
-  return write_script(f, (const struct eom_model *)ctx, csv, out);
 }
 
 /* Growth rates and frequencies against the swept rate (plot_sweep_svg). */
@@ -157,40 +152,28 @@ typedef struct SweepPlot {
 static int write_sweep_script(FILE *f, const void *ctx, const char *csv, const char *out) {
   const SweepPlot *sp = ctx;
   char buf[300];
-  fputs("set terminal svg size 900,760 dynamic noenhanced font 'sans,11'\nset output ", f);
-  put_quoted(f, out);
-  fputs("\nset datafile separator ','\nset grid\nset key off\nset multiplot layout 2,1\n", f);
+  plot_terminal(f, out, 900, 760);
+  fputs("set datafile separator ','\nset grid\nset key off\nset multiplot layout 2,1\n", f);
   snprintf(buf, sizeof buf, "%s'", sp->name);
   fputs("set xlabel ", f);
-  put_quoted(f, buf);
+  plot_quoted(f, buf);
   fputs("\nset title 'growth rates Re(s) (above 0: unstable)'\nset ylabel '1/s'\n"
         "set xzeroaxis lt -1\nplot ", f);
   for (int k = 0; k < sp->neig; k++) {
     fputs(k ? ", '' " : "", f);
-    if (!k) put_quoted(f, csv);
+    if (!k) plot_quoted(f, csv);
     fprintf(f, " using 1:%d with points pt 7 ps 0.5", 4 + 2 * k);
   }
   fputs("\nset title 'frequencies |Im(s)|'\nset ylabel 'rad/s'\nplot ", f);
   for (int k = 0; k < sp->neig; k++) {
     fputs(k ? ", '' " : "", f);
-    if (!k) put_quoted(f, csv);
+    if (!k) plot_quoted(f, csv);
     fprintf(f, " using 1:(abs(column(%d))) with points pt 7 ps 0.5", 5 + 2 * k);
   }
   fputs("\nunset multiplot\nset output\n", f);
   return ferror(f) ? -1 : 0;
 }
 #endif
-
-int plot_svg(const struct eom_model *m, const char *csv_path, const char *svg_path, char *err,
-             size_t errlen) {
-#ifndef GNUPLOT_PATH
-  (void)m, (void)csv_path, (void)svg_path;
-  return plot_available(err, errlen);
-#else
-  if (plot_available(err, errlen) != 0) return -1;
-  return render(write_sim_script, m, csv_path, svg_path, err, errlen);
-#endif
-}
 
 int plot_sweep_svg(const char *name, int neig, const char *csv_path, const char *svg_path,
                    char *err, size_t errlen) {

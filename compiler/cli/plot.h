@@ -1,6 +1,7 @@
 /*
-** plot.h — draw a simulation CSV (`eomc sim --plot`) or a sweep of steady
-** motions (`eomc modes --sweep-rate --plot`) as an SVG with gnuplot.
+** plot.h — images drawn by gnuplot: the format follows the file name
+** (.svg, .png, .pdf).  A run's plot is in plot_run.h; a sweep of steady
+** motions (`eomc modes --sweep-rate --plot`) is here.
 */
 #ifndef EOMC_PLOT_H
 #define EOMC_PLOT_H
@@ -16,12 +17,15 @@ typedef int (*PlotScriptWriter)(FILE *f, const void *ctx, const char *data, cons
 /* Is gnuplot available?  0, or -1 with a message in err. */
 int plot_available(char *err, size_t errlen);
 
-/* Plot the CSV written by eomc sim for model m (columns t, q, q', outputs,
-** T, V) into svg_path: coordinates against time, T, V and T + V against
-** time, and a phase portrait (q', q) per coordinate.  The SVG goes through
-** a temporary renamed into place.  0, or -1 with a message in err. */
-int plot_svg(const struct eom_model *m, const char *csv_path, const char *svg_path, char *err,
-             size_t errlen);
+/* Is `path` named for a format the plots know (.svg, .png, .pdf)?  0, or
+** -1 with a message in err. */
+int plot_format_check(const char *path, char *err, size_t errlen);
+
+/* For script writers: `set terminal` for the format `out` is named in
+** (width x height pixels; inches at 100 px per inch for pdf) and `set
+** output`; a gnuplot single-quoted string. */
+void plot_terminal(FILE *f, const char *out, int width, int height);
+void plot_quoted(FILE *f, const char *s);
 
 /* Plot the table of `eomc modes --sweep-rate` (columns: the swept rate,
 ** max growth, stable flag, then Re and Im of each of neig eigenvalues)
@@ -31,7 +35,9 @@ int plot_sweep_svg(const char *name, int neig, const char *csv_path, const char 
                    char *err, size_t errlen);
 
 /* Any plot: run gnuplot on the script `write` writes for data_path, its
-** SVG going through a temporary renamed to svg_path.  0, or -1 with a
+** image going through a temporary renamed to svg_path (the temporary
+** keeps the extension, so the writer's plot_terminal(f, out, ...) picks
+** the format).  0, or -1 with a
 ** message in err. */
 int plot_render(PlotScriptWriter write, const void *ctx, const char *data_path,
                 const char *svg_path, char *err, size_t errlen);

@@ -15,6 +15,7 @@
 #include <unistd.h>
 
 #include "cli/plot.h"
+#include "cli/tmpfiles.h"
 
 static const double PERCENTS[5] = {5, 25, 50, 75, 95};
 
@@ -75,10 +76,8 @@ static int write_band_script(FILE *f, const void *ctx, const char *data, const c
   const SweepTable *t = ctx;
   const struct eom_model *m = t->m;
   int width = m->nq + m->ny;
-  fprintf(f, "set terminal svg size 900,%d dynamic noenhanced font 'sans,11'\n", 240 * width);
-  fputs("set output ", f);
-  put_quoted(f, out);
-  fprintf(f, "\nset grid\nset key outside right top\nset xlabel 't'\n"
+  plot_terminal(f, out, 900, 240 * width);
+  fprintf(f, "set grid\nset key outside right top\nset xlabel 't'\n"
              "set style fill transparent solid 0.25 noborder\n"
              "set multiplot layout %d,1\n", width);
   for (int c = 0; c < width; c++) {
@@ -109,8 +108,8 @@ int sweep_bands_svg(const SweepTable *t, double t0, double t_end, const char *sv
     snprintf(err, errlen, "--plot: the model has nothing to plot");
     return -1;
   }
-  char data[] = "/tmp/eomc-bands-XXXXXX";
-  int fd = mkstemp(data);
+  char *data = NULL;
+  int fd = tmpfiles_create("eomc-bands", &data);
   if (fd < 0) {
     snprintf(err, errlen, "cannot create a temporary file: %s", strerror(errno));
     return -1;
@@ -126,5 +125,6 @@ int sweep_bands_svg(const SweepTable *t, double t0, double t_end, const char *sv
     rc = plot_render(write_band_script, t, data, svg_path, err, errlen);
   }
   unlink(data);
+  free(data);
   return rc;
 }
