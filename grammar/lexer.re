@@ -124,7 +124,7 @@ static int continues(int kind) {
 /* May a `[` right after a token of this kind index it? */
 static int indexable(int kind) {
   switch (kind) {
-    case T_NAME: case CW_MASS: case CW_AT: case CW_ON: case CW_ORIENT: case CW_INERTIA:
+    case T_NAME: case CW_MASS: case CW_AT: case CW_ON: case CW_ORIENT: case CW_INERTIA: case CW_BOUNCE:
     case ')': case ']': case '\'':
       return 1;
     default:
@@ -371,12 +371,14 @@ static int scan(Lexer *lx, Token *t) {
       "gravity"     { return keyword(lx, t, KW_GRAVITY); }
       "body"        { return keyword(lx, t, KW_BODY); }
       "constraint"  { return keyword(lx, t, KW_CONSTRAINT); }
+      "stop"        { return keyword(lx, t, KW_STOP); }
 
       "mass"        { return name_token(lx, t, CW_MASS); }
       "at"          { return name_token(lx, t, CW_AT); }
       "on"          { return name_token(lx, t, CW_ON); }
       "orient"      { return name_token(lx, t, CW_ORIENT); }
       "inertia"     { return name_token(lx, t, CW_INERTIA); }
+      "bounce"      { return name_token(lx, t, CW_BOUNCE); }
       name          { return name_token(lx, t, T_NAME); }
 
       num           { return number_token(lx, t); }
@@ -402,6 +404,7 @@ static int scan(Lexer *lx, Token *t) {
         finish(lx, t, ';');
         return ';';
       }
+      ">="          { finish(lx, t, T_GE); return T_GE; }
       [-+*/^=,']    { finish(lx, t, *lx->tok); return t->kind; }
 
       *             { return invalid_char(lx, t); }

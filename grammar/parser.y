@@ -161,12 +161,14 @@ static Stmt *expr_stmt(ParseCtx *ctx, StmtKind sk, YYLTYPE kw, Expr *e0, Expr *e
 %token KW_MODEL KW_COORD KW_PARAM KW_CONST KW_INPUT KW_LET KW_INITIAL KW_OUTPUT
 %token KW_IDENTIFY KW_KINETIC KW_POTENTIAL KW_LAGRANGIAN KW_DISSIPATION
 %token KW_FORCE KW_TORQUE KW_GRAVITY KW_BODY KW_CONSTRAINT KW_FRAME KW_ATTITUDE
-/* Contextual words: ordinary names except where `body`, `force` and
-** `torque` expect them. */
-%token <str> CW_MASS CW_AT CW_ON CW_ORIENT CW_INERTIA
+%token KW_STOP
+%token T_GE          /* `>=` (only in `stop`) */
+/* Contextual words: ordinary names except where `body`, `force`,
+** `torque` and `stop` expect them. */
+%token <str> CW_MASS CW_AT CW_ON CW_ORIENT CW_INERTIA CW_BOUNCE
 
 %type <str> name desc_opt
-%type <expr> expr postfix primary unit_opt name_unit_opt
+%type <expr> bounce_opt expr postfix primary unit_opt name_unit_opt
 %type <vec> namelist exprlist args_opt
 %type <stmt> stmt body_parts
 %type <ival> body_word
@@ -188,7 +190,7 @@ file:
 sep: T_NEWLINE | ';' ;
 
 name:
-    T_NAME | CW_MASS | CW_AT | CW_ON | CW_ORIENT | CW_INERTIA ;
+    T_NAME | CW_MASS | CW_AT | CW_ON | CW_ORIENT | CW_INERTIA | CW_BOUNCE ;
 
 stmt:
     KW_MODEL name {
@@ -280,6 +282,11 @@ stmt:
       $$ = expr_stmt(ctx, ST_CONSTRAINT, @1, $2, $4);
       if ($$) $$->e[2] = $5;
     }
+  | KW_STOP expr T_GE expr bounce_opt desc_opt {
+      $$ = expr_stmt(ctx, ST_STOP, @1, $2, $4);
+      $$->e[2] = $5;
+      $$->desc = $6;
+    }
   | KW_BODY name body_parts {
       $$ = $3;
       if ($$) {
@@ -335,6 +342,11 @@ name_unit_opt:
     %empty                  { $$ = NULL; }
   | '[' expr ']'            { $$ = $2; }
   | T_IDX_LBRACK expr ']'   { $$ = $2; }
+  ;
+
+bounce_opt:
+    %empty              { $$ = NULL; }
+  | CW_BOUNCE expr      { $$ = $2; }
   ;
 
 desc_opt:
@@ -444,6 +456,7 @@ static void describe(yysymbol_kind_t k, const Token *tok, char *buf, size_t n) {
     {YYSYMBOL_KW_TORQUE, "torque"}, {YYSYMBOL_KW_GRAVITY, "gravity"},
     {YYSYMBOL_KW_BODY, "body"}, {YYSYMBOL_KW_CONSTRAINT, "constraint"},
     {YYSYMBOL_KW_FRAME, "frame"}, {YYSYMBOL_KW_ATTITUDE, "attitude"},
+    {YYSYMBOL_KW_STOP, "stop"}, {YYSYMBOL_T_GE, ">="}, {YYSYMBOL_CW_BOUNCE, "bounce"},
     {YYSYMBOL_CW_MASS, "mass"}, {YYSYMBOL_CW_AT, "at"}, {YYSYMBOL_CW_ON, "on"},
     {YYSYMBOL_CW_ORIENT, "orient"}, {YYSYMBOL_CW_INERTIA, "inertia"},
   };
@@ -456,11 +469,11 @@ static void describe(yysymbol_kind_t k, const Token *tok, char *buf, size_t n) {
 }
 
 static int is_keyword(yysymbol_kind_t k) {
-  return k >= YYSYMBOL_KW_MODEL && k <= YYSYMBOL_KW_CONSTRAINT;
+  return (k >= YYSYMBOL_KW_MODEL && k <= YYSYMBOL_KW_CONSTRAINT) || k == YYSYMBOL_KW_STOP;
 }
 
 static int is_contextual(yysymbol_kind_t k) {
-  return k >= YYSYMBOL_CW_MASS && k <= YYSYMBOL_CW_INERTIA;
+  return k >= YYSYMBOL_CW_MASS && k <= YYSYMBOL_CW_BOUNCE;
 }
 
 /* " after 'x'" naming the token before the offending one, when it belongs

@@ -390,6 +390,15 @@ int eom_simulate(const struct eom_model *m, const double *p, const eom_inputs *i
              "and a model with coordinates");
     return rep->status = EOM_EINVAL;
   }
+  if (m->abi >= 9 && m->nstops > 0) {
+    /* The impact law and the contact phase are not in the runtime yet:
+    ** running on as if the stops were not there would be silently wrong. */
+    snprintf(rep->message, sizeof rep->message,
+             "the model has %d end stop%s ('stop'): simulating them is not supported yet "
+             "(the generated P_stops gives their gaps, gradients and gamma)",
+             m->nstops, m->nstops == 1 ? "" : "s");
+    return rep->status = EOM_EINVAL;
+  }
   if (simctx_init(&c, m, p, in, rep) != EOM_OK) {
     snprintf(rep->message, sizeof rep->message, "out of memory");
     return rep->status = EOM_ENOMEM;

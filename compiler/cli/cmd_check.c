@@ -151,11 +151,19 @@ static void print_summary(const Model *m, const char *path, FILE *out) {
     fprintf(out, "  line %-5d %s", s->loc.line, term_kind(s));
     if (s->kind == ST_FORCE) fprintf(out, " on %s", s->name);
     if (s->kind == ST_BODY) fprintf(out, " %s", s->decls[0]->name);
+    if (s->kind == ST_STOP) {
+      fprintf(out, " (bounce %.15g)", s->bounce);
+      if (s->desc) {
+        fputs("  ", out);
+        put_clean(s->desc, out);
+      }
+    }
     fputc('\n', out);
   }
   if (m->nconstraints) fprintf(out, "constraint equations: %d\n", m->nconstraints);
   if (m->nvconstraints)
     fprintf(out, "velocity constraint equations: %d (A(t, q) q' = b(t, q))\n", m->nvconstraints);
+  if (m->nstops) fprintf(out, "end stops: %d (gaps kept >= 0)\n", m->nstops);
   fprintf(out, "units: %s\n", m->has_units ? "checked" : "not checked (not every coordinate and param has one)");
 }
 

@@ -41,6 +41,7 @@ static void emit_source(Emitter *E) {
   if (E->s->nvc) emit_velocity_constraint(E);
   if (E->s->nc + E->s->nvc) emit_accel_constrained(E);
   if (E->s->nc) emit_constraint_gamma(E);
+  if (E->s->nstops) emit_stops(E);
   PlainFunction fns[EMIT_CONTROL_MAX_FUNCTIONS];
   int nfns = emit_control_functions(E->s, fns);
   for (int k = 0; k < nfns; k++)

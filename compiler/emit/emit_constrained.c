@@ -233,3 +233,37 @@ void emit_accel_constrained(Emitter *E) {
     "  return 0;\n}\n\n",
     nq, nc, nq, nc);
 }
+
+/* End stops: the gaps g = LEFT - RIGHT (>= 0 while apart), their gradient
+** G = dg/dq (nstops x nq) and gamma = -(g'' at qdd = 0), so g'' = G qdd -
+** gamma: what an impact law and a contact solver need, in one function
+** whose three outputs share their subexpressions. */
+void emit_stops(Emitter *E) {
+  const Param ps[] = {PARAM_T, PARAM_Q, PARAM_QD, PARAM_P, {-1, "double *g", "g"},
+                      {-1, "double *G", "G"}, {-1, "double *gamma", "gamma"}};
+  const EomSystem *s = E->s;
+  const int ns = s->nstops, n = s->nv;
+  char lhs[64];
+  fn_reset(E);
+  add_roots(E, s->stop_gap, ns);
+  add_roots(E, s->stop_gradient, ns * n);
+  add_roots(E, s->stop_gamma, ns);
+  fn_analyse(E);
+  assert(!needs_missing(E, VAR_BIT(IRV_T) | VAR_BIT(IRV_Q) | VAR_BIT(IRV_QD) | VAR_BIT(IRV_P)));
+  emit_signature(E, "void", "stops", ps, NPARAMS(ps), 0);
+  emit_unused(E, ps, NPARAMS(ps));
+  emit_temps(E);
+  for (int i = 0; i < ns; i++) {
+    snprintf(lhs, sizeof lhs, "g[%d]", i);
+    emit_assign(E, lhs, s->stop_gap[i]);
+  }
+  for (int i = 0; i < ns * n; i++) {
+    snprintf(lhs, sizeof lhs, "G[%d]", i);
+    emit_assign(E, lhs, s->stop_gradient[i]);
+  }
+  for (int i = 0; i < ns; i++) {
+    snprintf(lhs, sizeof lhs, "gamma[%d]", i);
+    emit_assign(E, lhs, s->stop_gamma[i]);
+  }
+  fputs("}\n\n", E->out);
+}

@@ -136,6 +136,22 @@ static void emit_switch_names(Emitter *E) {
   free(texts);
 }
 
+/* "LINE:COL text" per stop ("LINE:COL stop" when it has no text). */
+static void emit_stop_names(Emitter *E) {
+  const EomSystem *s = E->s;
+  if (!s->nstops) return;
+  char **texts = calloc((size_t)s->nstops, sizeof *texts);
+  assert(texts);
+  for (int i = 0; i < s->nstops; i++) {
+    const Stmt *st = s->stop_stmt[i];
+    Buf b = {0};
+    buf_printf(&b, "%d:%d %s", st->loc.line, st->loc.col, st->desc ? st->desc : "stop");
+    texts[i] = b.s;
+  }
+  emit_texts(E, "stop_names", texts, s->nstops);
+  free(texts);
+}
+
 static void emit_double_table(Emitter *E, const char *name, const double *v, int n) {
   FILE *o = E->out;
   char num[64];
@@ -236,6 +252,14 @@ void emit_descriptor(Emitter *E) {
   emit_string_table(E, "input_units", m->inputs, m->ninputs, 1);
   emit_output_names(E);
   emit_switch_names(E);
+  emit_stop_names(E);
+  if (s->nstops) {
+    double *bounce = calloc((size_t)s->nstops, sizeof *bounce);
+    assert(bounce);
+    for (int i = 0; i < s->nstops; i++) bounce[i] = s->stop_stmt[i]->bounce;
+    emit_double_table(E, "stop_bounce", bounce, s->nstops);
+    free(bounce);
+  }
   emit_double_table(E, "q0", q0, s->nq);
   emit_double_table(E, "qd0", qd0, s->nv);
   emit_attitude_tables(o, m, P);
@@ -279,6 +303,10 @@ void emit_descriptor(Emitter *E) {
   if (s->ns) fprintf(o, "  %d, %s_switches, %s_switch_names,\n", s->ns, P, P);
   else fputs("  0, 0, 0,\n", o);
   emit_attitude_fields(o, m, P);
+  if (s->nstops)
+    fprintf(o, "  %d, %s_stops, %s_stop_names, %s_stop_bounce,\n", s->nstops, P, P, P);
+  else
+    fputs("  0, 0, 0, 0,\n", o);
   fprintf(o, "};\n#endif\n");
   free(q0);
   free(qd0);

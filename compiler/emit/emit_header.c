@@ -198,6 +198,15 @@ void emit_header(Emitter *E) {
       "void %s_switches(double t, const double *q, const double *qd, const double *u,\n"
       "  const double *p, double *s);\n",
       s->ns, P, s->ns, P);
+  if (s->nstops)
+    fprintf(o,
+      "/* The %d end stops (P_stop_names): gaps g = LEFT - RIGHT, >= 0 while\n"
+      "** apart, their gradient G = dg/dq (NSTOPS x NQ, row-major) and gamma,\n"
+      "** so that g'' = G qdd - gamma. */\n"
+      "#define %s_NSTOPS %d\n"
+      "void %s_stops(double t, const double *q, const double *qd, const double *p,\n"
+      "  double *g, double *G, double *gamma);\n",
+      s->nstops, P, s->nstops, P);
   emit_control_prototypes(o, m, s, P);
   emit_kinematics_prototypes(o, m, s, P);
   fprintf(o, "\n#ifndef EOM_NO_DESCRIPTOR\nstruct eom_model;\nextern const struct eom_model %s_model;\n#endif\n", P);

@@ -163,6 +163,7 @@ void emit_constraint(Emitter *E);
 void emit_constraint_jacobian(Emitter *E);
 void emit_constraint_at(Emitter *E);
 void emit_constraint_gamma(Emitter *E);
+void emit_stops(Emitter *E);
 void emit_velocity_constraint(Emitter *E);
 void emit_accel_constrained(Emitter *E);
 

@@ -671,6 +671,20 @@ static void print_plain_equations(Show *S, FILE *out) {
   }
 }
 
+/* The end stops: each gap, kept >= 0, with its statement and bounce. */
+static void print_stops(Show *S, FILE *out) {
+  const EomSystem *s = S->s;
+  if (!s->nstops) return;
+  fputs("\nstops (gap g = left - right >= 0; on contact the rates jump, bounce e):\n", out);
+  for (int k = 0; k < s->nstops; k++) {
+    const Stmt *st = s->stop_stmt[k];
+    char *e = render(S, s->stop_gap[k]);
+    fprintf(out, "  (%d) %s >= 0    [line %d, bounce %.15g%s%s%s]\n", k + 1, e, st->loc.line,
+            st->bounce, st->desc ? ": \"" : "", st->desc ? st->desc : "", st->desc ? "\"" : "");
+    free(e);
+  }
+}
+
 static void print_plain(Show *S, FILE *out) {
   const EomSystem *s = S->s;
   int nq = s->nv;
@@ -712,6 +726,7 @@ static void print_plain(Show *S, FILE *out) {
     print_constraints_plain(S, o, out);
     free(o);
   }
+  print_stops(S, out);
   print_plain_equations(S, out);
 }
 

@@ -125,6 +125,7 @@ const char *ast_stmt_keyword(StmtKind k) {
     case ST_GRAVITY: return "gravity";
     case ST_BODY: return "body";
     case ST_CONSTRAINT: return "constraint";
+    case ST_STOP: return "stop";
     case ST_FRAME: return "frame";
     case ST_ATTITUDE: return "attitude";
   }

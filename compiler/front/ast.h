@@ -103,7 +103,8 @@ typedef enum StmtKind {
                       : decls[0] (DECL_BODY), e[0]=m, e[1]=P, e[2]=R|NULL, e[3]=I|NULL */
   ST_CONSTRAINT,   /* constraint a = b [u]           : e[0]=a, e[1]=b, e[2]=unit or NULL */
   ST_FRAME,        /* frame a = T "d"                : decls[0] (DECL_OUTPUT, frame = 1) */
-  ST_ATTITUDE      /* attitude R, S "d"              : decls (DECL_ATTITUDE) */
+  ST_ATTITUDE,     /* attitude R, S "d"              : decls (DECL_ATTITUDE) */
+  ST_STOP          /* stop a >= b [bounce e] "d"     : e[0]=a, e[1]=b, e[2]=e or NULL, desc */
 } StmtKind;
 
 typedef struct Stmt {
@@ -111,6 +112,7 @@ typedef struct Stmt {
   SrcLoc loc;            /* the keyword */
   const char *name;      /* ST_MODEL, ST_INITIAL, ST_FORCE: the named target */
   SrcLoc name_loc;
+  const char *desc;      /* ST_STOP: its text, or NULL */
   int rate;              /* ST_INITIAL: 1 for `initial q' = ...` */
   int omega;             /* ST_INITIAL: 1 for `initial omega(R) = ...` */
   Decl **decls;
@@ -121,6 +123,7 @@ typedef struct Stmt {
   Expr *e[4];
   /* checker: */
   struct Decl *target;   /* ST_FORCE, ST_INITIAL: the coordinate named */
+  double bounce;         /* ST_STOP: the coefficient of restitution (0 without `bounce`) */
 } Stmt;
 
 /* A parsed model file. */

@@ -35,7 +35,7 @@
 static const char *const keywords[] = {
   "model", "coord", "param", "const", "input", "let", "initial", "output", "identify",
   "kinetic", "potential", "lagrangian", "dissipation", "force", "torque", "gravity",
-  "body", "constraint", "frame", "attitude",
+  "body", "constraint", "frame", "attitude", "stop",
 };
 
 int check_is_keyword(const char *s) {
@@ -135,7 +135,7 @@ typedef struct Checker {
   size_t letcap;
   PtrVec identify;
   Stmt *gravity;
-  int nconstraints, nvconstraints;
+  int nconstraints, nvconstraints, nstops;
   int has_energy, has_coord_stmt;
   /* Undefined names already reported in the current statement. */
   const char *undefined[16];
@@ -1034,6 +1034,63 @@ static void check_constraint(Checker *c, Stmt *s) {
   c->nconstraints += a.shape.rows * a.shape.cols;
 }
 
+/* stop LEFT >= RIGHT [bounce E]: one scalar gap of the coordinates,
+** params and t (no rates: the runtime handles the gap's rate itself), and
+** a constant coefficient of restitution in [0, 1]. */
+/* The first `x'` in e, for pointing at a rate (NULL when the rate comes
+** through a `let`). */
+static const Expr *first_rate(const Expr *e) {
+  if (e->kind == EX_RATE) return e;
+  for (int i = 0; i < e->nargs; i++) {
+    const Expr *r = e->args[i] ? first_rate(e->args[i]) : NULL;
+    if (r) return r;
+  }
+  return NULL;
+}
+
+static void check_stop(Checker *c, Stmt *s) {
+  Info side[2] = {check_expr(c, s->e[0]), check_expr(c, s->e[1])};
+  c->nstops++;
+  for (int k = 0; k < 2; k++) {
+    if (is_err(side[k].shape)) return;
+    if (!is_scalar(side[k].shape)) {
+      diag_error(c->d, s->e[k]->loc, "the %s side of a stop must be a scalar, not %s",
+                 k ? "right" : "left", shape_str(side[k].shape));
+      return;
+    }
+    if (side[k].input) {
+      diag_error(c->d, s->e[k]->loc, "a stop cannot use input '%s': its gap may depend on "
+                 "coordinates, params and t only", side[k].input->name);
+      return;
+    }
+    if (side[k].order >= 1) {
+      const Expr *r = first_rate(s->e[k]);
+      diag_error(c->d, r ? r->loc : s->e[k]->loc, "a stop cannot use rates: its gap LEFT - RIGHT "
+                 "may depend on coordinates, params and t only");
+      return;
+    }
+  }
+  s->bounce = 0;
+  if (!s->e[2]) return;
+  Info e = expect_shape(c, s->e[2], SHAPE_SCALAR, "a bounce");
+  if (is_err(e.shape)) return;
+  double v;
+  const Expr *bad = NULL;
+  char why[160];
+  if (!eval_const(s->e[2], 0, &v, &bad)) {
+    diag_error(c->d, bad->loc, "a bounce must be a constant expression of numbers and consts: %s",
+               why_not_constant(bad, why, sizeof why));
+    return;
+  }
+  if (!(v >= 0 && v <= 1)) {
+    if (!uses_failed_value(s->e[2]))
+      diag_error(c->d, s->e[2]->loc, "a bounce (coefficient of restitution) must lie in [0, 1], "
+                 "not %.15g", v);
+    return;
+  }
+  s->bounce = v;
+}
+
 static void check_statement(Checker *c, Stmt *s, int position) {
   char what[160];
   Unit u;
@@ -1143,6 +1200,10 @@ static void check_statement(Checker *c, Stmt *s, int position) {
     check_constraint(c, s);
     vec_push(&c->terms, s);
     break;
+  case ST_STOP:
+    check_stop(c, s);
+    vec_push(&c->terms, s);
+    break;
   }
 }
 
@@ -1238,6 +1299,7 @@ int check_model(Ast *ast, Diag *d, Model *m) {
   m->terms = (Stmt **)arena_copy_ptrs(a, c.terms.v, (size_t)c.terms.n);
   m->nconstraints = c.nconstraints;
   m->nvconstraints = c.nvconstraints;
+  m->nstops = c.nstops;
   free(c.terms.v);
   free(c.tab);
   free(c.init);

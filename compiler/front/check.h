@@ -27,6 +27,7 @@ typedef struct Model {
   /* Energy, force, body, gravity and constraint statements in source order. */
   Stmt **terms;    int nterms;
   int nconstraints;               /* position constraint equations phi(t, q) = 0 */
+  int nstops;                     /* `stop` statements (each one gap, in terms) */
   int nvconstraints;             /* velocity constraint equations A(t, q) q' = b(t, q) */
   double *q0, *qd0;              /* initial state, ncoords each (default 0) */
   double *attitude_q0;           /* 4 per attitude: unit quaternion [w, x, y, z] (default 1, 0, 0, 0) */

@@ -773,6 +773,11 @@ static void check_statement(UnitCheck *uc, Model *m, Stmt *s) {
   case ST_CONSTRAINT:
     check_constraint(uc, s);
     break;
+  case ST_STOP:
+    agree(uc, expr_unit(uc, s->e[0]), expr_unit(uc, s->e[1]), s->loc, "sides of the stop");
+    if (s->e[2])
+      expect_unit(uc, s->e[2], unit_dimensionless(), s->e[2]->loc, "bounce", "dimensionless (1)");
+    break;
   case ST_PARAM: check_decl_value(uc, s->decls[0], "param"); break;
   case ST_CONST: check_decl_value(uc, s->decls[0], "const"); break;
   case ST_OUTPUT: check_decl_value(uc, s->decls[0], "output"); break;

@@ -414,7 +414,7 @@ void Derivation::derive_jacobians(Equations &eq) {
 ** constraints' A, b, gamma (symbolic_constraints.cc). */
 void Derivation::derive_constraint_equations(Equations &eq) {
   const int n = nq_;
-  assert(constraints_.empty() || nq_ == nv_);  /* add_constraint refuses them with attitudes */
+  assert((constraints_.empty() && stops_.empty()) || nq_ == nv_);  /* refused with attitudes */
   exmap no_accel;
   for (const ex &a : qdd_) no_accel[a] = 0;
   Subst zero_qdd(no_accel);
@@ -431,6 +431,19 @@ void Derivation::derive_constraint_equations(Equations &eq) {
     gamma[c] = -zero_qdd(totald(totald(phi[c])));
     phi_t[c] = dt_(phi[c]);
     tick("deriving the constraints");
+  }
+  /* stops: the same three for each gap (they never pull, so they are kept
+  ** apart from the constraints; the runtime decides when one is active) */
+  const int nstop = (int)stops_.size();
+  eq.stop_g.assign(nstop, ex(0));
+  eq.stop_G.assign((size_t)nstop * n, ex(0));
+  eq.stop_gamma.assign(nstop, ex(0));
+  for (int k = 0; k < nstop; k++) {
+    const ex &g = stops_[k].second;
+    eq.stop_g[k] = g;
+    for (int j = 0; j < n; j++) eq.stop_G[(size_t)k * n + j] = dq_[j](g);
+    eq.stop_gamma[k] = -zero_qdd(totald(totald(g)));
+    tick("deriving the stops");
   }
 
   derive_velocity_constraints(eq.vc_A, eq.vc_b, eq.vc_gamma);
@@ -661,5 +674,9 @@ extern "C" void sym_free(EomSystem *s) {
   free(s->frame_bias);
   free(s->switches);
   free(s->switch_info);
+  free(s->stop_gap);
+  free(s->stop_gradient);
+  free(s->stop_gamma);
+  free((void *)s->stop_stmt);
   memset(s, 0, sizeof *s);
 }

@@ -89,6 +89,13 @@ typedef struct EomSystem {
   int ns;
   int *switches;             /* ns */
   EomSwitch *switch_info;    /* ns */
+  /* end stops: gap g(t, q, p) = LEFT - RIGHT >= 0, its gradient G = dg/dq
+  ** and gamma = -(g'' at qdd = 0), so that g'' = G qdd - gamma */
+  int nstops;
+  int *stop_gap;             /* nstops */
+  int *stop_gradient;        /* nstops*nv  G = dg/dq */
+  int *stop_gamma;           /* nstops     gamma with g'' = G qdd - gamma */
+  const struct Stmt **stop_stmt;  /* nstops: the statement (location, text, bounce) */
 } EomSystem;
 
 typedef struct SymOptions {

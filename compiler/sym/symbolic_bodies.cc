@@ -70,6 +70,7 @@ void Derivation::collect_terms() {
         case ST_TORQUE: add_torque(s); break;
         case ST_GRAVITY: gravity_.push_back({s, vec3(s->e[0], "gravity")}); break;
         case ST_CONSTRAINT: add_constraint(s); break;
+        case ST_STOP: add_stop(s); break;
         default:
           throw SymError{s->loc, fmt("'%s' statements are not supported yet",
                                      ast_stmt_keyword(s->kind))};

@@ -30,6 +30,15 @@ void Derivation::add_constraint(const Stmt *s) {
   }
 }
 
+/* A stop's gap LEFT - RIGHT (the checker made sure it has no rates). */
+void Derivation::add_stop(const Stmt *s) {
+  if (m_->nattitudes > 0)
+    throw SymError{s->loc, "stops in a model with attitudes are not supported yet"};
+  ex g = scalar(s->e[0], "the left side of a stop") - scalar(s->e[1], "the right side of a stop");
+  assert(!depends_on_rates(g));
+  stops_.push_back({s, g});
+}
+
 /* Velocity constraints c(t, q, q') = A q' - b = 0: A = dc/dq', b = -c(q' = 0)
 ** and gamma = -(c' at q'' = 0), so that A q'' = gamma.  A must not depend on
 ** the rates (the checker names a non-linear term; this is the exact test). */

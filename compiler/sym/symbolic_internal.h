@@ -425,6 +425,7 @@ struct Equations {
   std::vector<GiNaC::ex> inv;                    /* n: inverse dynamics at u = 0 */
   std::vector<GiNaC::ex> phi, G, gamma, phi_t;   /* nc, nc*n, nc, nc */
   std::vector<GiNaC::ex> vc_A, vc_b, vc_gamma;   /* nvc*n, nvc, nvc */
+  std::vector<GiNaC::ex> stop_g, stop_G, stop_gamma;  /* nstops, nstops*n, nstops */
   ControlResult ctl;
   RegressorResult reg;
   std::vector<GiNaC::ex> outs;                   /* ny */
@@ -516,6 +517,7 @@ class Derivation {
   std::vector<std::pair<const Stmt *, Val>> gravity_;
   std::vector<std::pair<const Stmt *, GiNaC::ex>> constraints_;  /* phi = 0, one per entry */
   std::vector<std::pair<const Stmt *, GiNaC::ex>> vconstraints_;  /* A q' - b = 0, one per entry */
+  std::vector<std::pair<const Stmt *, GiNaC::ex>> stops_;         /* gaps LEFT - RIGHT >= 0 */
   /* switching functions of the branch functions in the terms, in source order */
   bool collecting_ = false;
   std::vector<SwitchFn> switches_;
@@ -556,6 +558,7 @@ class Derivation {
   void add_force_at(const Stmt *s);
   void add_torque(const Stmt *s);
   void add_constraint(const Stmt *s);
+  void add_stop(const Stmt *s);
   void derive_velocity_constraints(std::vector<GiNaC::ex> &A, std::vector<GiNaC::ex> &b, std::vector<GiNaC::ex> &gamma);
   bool velocity_constraints_integrable(const std::vector<GiNaC::ex> &A, const std::vector<GiNaC::ex> &b);
   bool depends_on_rates(const GiNaC::ex &e);

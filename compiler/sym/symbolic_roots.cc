@@ -22,6 +22,7 @@ struct RootHandles {
   std::vector<int> mass, f, dM, dfdq, dfdqd, dfdu, inv, out;
   int T = -1, V = -1, ham = -1;
   std::vector<int> phi, G, gamma, phi_t, vA, vb, vgamma;
+  std::vector<int> stop_g, stop_G, stop_gamma;
   std::vector<int> cor, grav, mom, rule, ojac, obias, fjac, fbias, sw, reg, reg0;
   std::vector<EomSwitch> sw_info;
 };
@@ -77,6 +78,10 @@ void Derivation::add_roots(const Equations &eq, IrBuilder &b, RootHandles &h) {
   for (const ex &e : eq.vc_A) h.vA.push_back(root(e, none));
   for (int c = 0; c < nvc; c++) h.vb.push_back(root(eq.vc_b[c], vconstraints_[c].first->loc));
   for (const ex &e : eq.vc_gamma) h.vgamma.push_back(root(e, none));
+  for (size_t k = 0; k < eq.stop_g.size(); k++)
+    h.stop_g.push_back(root(eq.stop_g[k], stops_[k].first->loc));
+  for (const ex &e : eq.stop_G) h.stop_G.push_back(root(e, none));
+  for (const ex &e : eq.stop_gamma) h.stop_gamma.push_back(root(e, none));
   for (const ex &e : eq.ctl.coriolis) h.cor.push_back(root(e, none));
   for (const ex &e : eq.ctl.gravity) h.grav.push_back(root(e, none));
   for (const ex &e : eq.ctl.momenta) h.mom.push_back(root(e, none));
@@ -149,6 +154,14 @@ void Derivation::write_roots(const Equations &eq, const RootHandles &h,
   out->vconstraint_A = place(h.vA, (size_t)nvc * n);
   out->vconstraint_b = place(h.vb, nvc);
   out->vconstraint_gamma = place(h.vgamma, nvc);
+  const int nstop = (int)eq.stop_g.size();
+  out->nstops = nstop;
+  out->stop_gap = place(h.stop_g, nstop);
+  out->stop_gradient = place(h.stop_G, (size_t)nstop * n);
+  out->stop_gamma = place(h.stop_gamma, nstop);
+  out->stop_stmt = (const Stmt **)calloc(nstop + 1, sizeof(Stmt *));
+  if (!out->stop_stmt) throw std::bad_alloc();
+  for (int k = 0; k < nstop; k++) out->stop_stmt[k] = stops_[k].first;
   out->vc_integrable = nvc > 0 && velocity_constraints_integrable(eq.vc_A, eq.vc_b);
   out->has_split = ctl.split;
   snprintf(out->split_why, sizeof out->split_why, "%s", ctl.split_why.c_str());

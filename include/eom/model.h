@@ -18,7 +18,7 @@ extern "C" {
 #endif
 
 /* Bumped whenever the layout of struct eom_model changes. */
-#define EOM_MODEL_ABI 8
+#define EOM_MODEL_ABI 9
 
 struct eom_model {
   int abi;                          /* EOM_MODEL_ABI of the generating eomc */
@@ -138,6 +138,17 @@ struct eom_model {
   const char *const *rate_names;
   void (*kinematics)(const double *q, const double *v, double *qdot);
   double (*normalize)(double *q);
+
+  /* Since ABI 9: the nstops end stops (`stop LEFT >= RIGHT`).  stops writes
+  ** their gaps g = LEFT - RIGHT (nstops; >= 0 while apart), the gradient
+  ** G = dg/dq (nstops x nv) and gamma (nstops) with g'' = G qdd - gamma.
+  ** stop_names[k] is "LINE:COL TEXT"; stop_bounce[k] the coefficient of
+  ** restitution in [0, 1].  0 and NULL when the model has none. */
+  int nstops;
+  void (*stops)(double t, const double *q, const double *qd, const double *p, double *g,
+                double *G, double *gamma);
+  const char *const *stop_names;
+  const double *stop_bounce;
 };
 
 #ifdef __cplusplus

@@ -409,5 +409,6 @@ const struct eom_model arm2_body_model = {
   0,
   0, 0, 0,
   2, 0, 0, 0, 0, 0,
+  0, 0, 0, 0,
 };
 #endif

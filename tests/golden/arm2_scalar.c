@@ -416,5 +416,6 @@ const struct eom_model arm2_scalar_model = {
   0,
   0, 0, 0,
   2, 0, 0, 0, 0, 0,
+  0, 0, 0, 0,
 };
 #endif

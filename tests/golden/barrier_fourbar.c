@@ -554,5 +554,6 @@ const struct eom_model barrier_fourbar_model = {
   barrier_fourbar_constraint_gamma,
   0, 0, 0,
   3, 0, 0, 0, 0, 0,
+  0, 0, 0, 0,
 };
 #endif

@@ -969,5 +969,6 @@ const struct eom_model camera_quadcopter_model = {
   0,
   0, 0, 0,
   6, 1, camera_quadcopter_attitude_names, camera_quadcopter_rate_names, camera_quadcopter_kinematics, camera_quadcopter_normalize,
+  0, 0, 0, 0,
 };
 #endif

@@ -382,5 +382,6 @@ const struct eom_model cargo_sledge_model = {
   0,
   0, 0, 0,
   3, 0, 0, 0, 0, 0,
+  0, 0, 0, 0,
 };
 #endif

@@ -340,5 +340,6 @@ const struct eom_model cartesian_pendulum_model = {
   cartesian_pendulum_constraint_gamma,
   0, 0, 0,
   2, 0, 0, 0, 0, 0,
+  0, 0, 0, 0,
 };
 #endif

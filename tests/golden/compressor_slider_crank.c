@@ -515,5 +515,6 @@ const struct eom_model compressor_slider_crank_model = {
   compressor_slider_crank_constraint_gamma,
   0, 0, 0,
   3, 0, 0, 0, 0, 0,
+  0, 0, 0, 0,
 };
 #endif

@@ -308,5 +308,6 @@ const struct eom_model gantry_crane_model = {
   0,
   0, 0, 0,
   2, 0, 0, 0, 0, 0,
+  0, 0, 0, 0,
 };
 #endif

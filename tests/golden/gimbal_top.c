@@ -464,5 +464,6 @@ const struct eom_model gimbal_top_model = {
   0,
   0, 0, 0,
   3, 0, 0, 0, 0, 0,
+  0, 0, 0, 0,
 };
 #endif

@@ -699,5 +699,6 @@ const struct eom_model lifting_platform_model = {
   lifting_platform_constraint_gamma,
   0, 0, 0,
   6, 0, 0, 0, 0, 0,
+  0, 0, 0, 0,
 };
 #endif

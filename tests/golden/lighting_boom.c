@@ -364,5 +364,6 @@ const struct eom_model lighting_boom_model = {
   0,
   0, 0, 0,
   2, 0, 0, 0, 0, 0,
+  0, 0, 0, 0,
 };
 #endif

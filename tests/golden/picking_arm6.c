@@ -3524,5 +3524,6 @@ const struct eom_model picking_arm6_model = {
   0,
   0, 0, 0,
   6, 0, 0, 0, 0, 0,
+  0, 0, 0, 0,
 };
 #endif

@@ -849,5 +849,6 @@ const struct eom_model rolling_coin_model = {
   0,
   0, 0, 0,
   5, 0, 0, 0, 0, 0,
+  0, 0, 0, 0,
 };
 #endif

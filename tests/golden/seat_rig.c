@@ -249,5 +249,6 @@ const struct eom_model seat_rig_model = {
   0,
   0, 0, 0,
   1, 0, 0, 0, 0, 0,
+  0, 0, 0, 0,
 };
 #endif

@@ -390,5 +390,6 @@ const struct eom_model shear_frame_model = {
   0,
   0, 0, 0,
   3, 0, 0, 0, 0, 0,
+  0, 0, 0, 0,
 };
 #endif

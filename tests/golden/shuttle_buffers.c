@@ -283,5 +283,6 @@ const struct eom_model shuttle_buffers_model = {
   0,
   5, shuttle_buffers_switches, shuttle_buffers_switch_names,
   1, 0, 0, 0, 0, 0,
+  0, 0, 0, 0,
 };
 #endif

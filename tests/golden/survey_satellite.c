@@ -490,5 +490,6 @@ const struct eom_model survey_satellite_model = {
   0,
   0, 0, 0,
   4, 1, survey_satellite_attitude_names, survey_satellite_rate_names, survey_satellite_kinematics, survey_satellite_normalize,
+  0, 0, 0, 0,
 };
 #endif

@@ -340,5 +340,6 @@ const struct eom_model telescoping_feeder_model = {
   0,
   0, 0, 0,
   2, 0, 0, 0, 0, 0,
+  0, 0, 0, 0,
 };
 #endif

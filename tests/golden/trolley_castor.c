@@ -365,5 +365,6 @@ const struct eom_model trolley_castor_model = {
   0,
   0, 0, 0,
   2, 0, 0, 0, 0, 0,
+  0, 0, 0, 0,
 };
 #endif

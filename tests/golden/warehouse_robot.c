@@ -554,5 +554,6 @@ const struct eom_model warehouse_robot_model = {
   0,
   0, 0, 0,
   5, 0, 0, 0, 0, 0,
+  0, 0, 0, 0,
 };
 #endif
