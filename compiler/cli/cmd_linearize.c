@@ -445,24 +445,26 @@ static void clean_point(double *q, int n) {
 ** they truly disagree.  r's full state is z's on return. */
 static void check_reduced(const struct eom_model *m, Reduction *r, double *z, const Linear *L) {
   int nq = m->nq, n2 = 2 * nq, nz = L->n;
-  double *Af = malloc((size_t)n2 * n2 * sizeof(double)), *T = malloc((size_t)n2 * nz * sizeof(double));
-  double *x = malloc((size_t)n2 * 3 * sizeof(double)), *Ac = malloc((size_t)nz * nz * sizeof(double));
+  double *Af = malloc((size_t)n2 * n2 * sizeof(double));
+  double *T = malloc((size_t)n2 * nz * sizeof(double));
+  double *x = malloc((size_t)n2 * 3 * sizeof(double));
+  double *Ac = malloc((size_t)nz * nz * sizeof(double));
   if (!Af || !T || !x || !Ac) goto out;
   double *x1 = x + n2, *x2 = x1 + n2;
   for (int j = 0; j < nz; j++) {  /* T = dx/dz */
     double base = z[j], h = fd_step(base);
     z[j] = base + h;
     int bad = reduce_state(r, z);
-    memcpy(x1, r->qf, (size_t)nq * sizeof(double)), memcpy(x1 + nq, r->vf, (size_t)nq * sizeof(double));
+    memcpy(x1, r->qf, (size_t)n2 * sizeof(double));  /* qf, vf: one array */
     z[j] = base - h;
     bad = bad || reduce_state(r, z);
-    memcpy(x2, r->qf, (size_t)nq * sizeof(double)), memcpy(x2 + nq, r->vf, (size_t)nq * sizeof(double));
+    memcpy(x2, r->qf, (size_t)n2 * sizeof(double));
     z[j] = base;
     if (bad) goto out;
     for (int i = 0; i < n2; i++) T[(size_t)i * nz + j] = (x1[i] - x2[i]) / (2 * h);
   }
   if (reduce_state(r, z) != 0) goto out;
-  memcpy(x, r->qf, (size_t)nq * sizeof(double)), memcpy(x + nq, r->vf, (size_t)nq * sizeof(double));
+  memcpy(x, r->qf, (size_t)n2 * sizeof(double));
   if (eom_state_matrix(m, r->p, r->t, x, r->u, Af) != EOM_OK) goto out;
   for (int a = 0; a < nz; a++) {  /* row a of z' is row `row` of x' */
     int row = a < r->nk ? r->kept[a] : nq + r->independent[a - r->nk];
