@@ -63,7 +63,10 @@ void csolve_init(ConstraintSolver *s, int nq, int nc, double *work) {
   s->rhs = s->ev + nc;
   s->tmp = s->rhs + nc;
   s->dwork = work + dense_doubles(nq, nc);
-  s->iwork = (int *)(s->dwork + csparse_doubles(nc));
+  /* The work comes from malloc, so its tail takes the type of what is stored
+  ** in it; csolve_doubles rounds that tail up to whole doubles. */
+  void *tail = s->dwork + csparse_doubles(nc);
+  s->iwork = tail;
   s->rank = 0;
   s->mode = EOM_CSOLVE_AUTO;
   s->sparse = 0;

@@ -196,12 +196,12 @@ static int convert(ValueCtx *c, const char *unit, size_t ulen, long uoffset, con
 int value_text_eval(const char *arg, const char *value, const struct eom_model *m,
                     const double *p, const char *declared, double *out, char *err,
                     size_t errlen) {
+  assert(arg && value && value >= arg && m && out);
   ValueCtx c = {arg, m, p, err, errlen};
   long offset = (long)(value - arg);
   size_t n = strlen(value), elen;
   const char *unit = NULL;
   size_t ulen = 0;
-  assert(arg && value && value >= arg && m && out);
   while (n > 0 && (value[n - 1] == ' ' || value[n - 1] == '\t')) n--;
   elen = n;
   /* A trailing [UNIT]: the last top-level bracket pair. */
