@@ -608,7 +608,7 @@ START_TEST(parallelogram_row_keeps_its_branch) {
   double e0 = csv_at(&t, 0, cT) + csv_at(&t, 0, cV), branch = 0, drift = 0, crank = 0, routes = 0;
   for (int i = 0; i < t.nrows; i++) {
     for (int j = 1; j <= 4; j++) {
-      char rj[8], cj[8];
+      char rj[16], cj[16];
       snprintf(rj, sizeof rj, "r%d", j);
       snprintf(cj, sizeof cj, "c%d", j);
       branch = fmax(branch, fabs(csv_at(&t, i, csv_col(&t, cj))));
