@@ -36,6 +36,7 @@ import time
 
 sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
 import linkage_row  # noqa: E402
+import installed  # noqa: E402
 
 EOMC = os.environ.get("EOMC", "./eomc")
 SIZES = [int(n) for n in os.environ.get("BENCH_LINKAGE_N", "1 4 10 40").split()]
@@ -43,14 +44,7 @@ UNTIL = 10.0
 
 
 def real_binary():
-    """Time the program itself, not libtool's wrapper script around it."""
-    top = os.path.dirname(os.path.abspath(EOMC))
-    real = os.path.join(top, ".libs", "eomc")
-    if not os.path.exists(real):
-        return EOMC, {}
-    libs = os.path.join(top, "runtime", ".libs")
-    path = os.environ.get("LD_LIBRARY_PATH")
-    return real, {"LD_LIBRARY_PATH": libs + (":" + path if path else "")}
+    return installed.real_binary(EOMC)
 
 
 def timed(argv, env):

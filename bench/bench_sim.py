@@ -13,22 +13,14 @@ import subprocess
 import sys
 import tempfile
 import time
+import installed  # noqa: E402
 
 EOMC = os.environ.get("EOMC", "./eomc")
 SRCDIR = os.environ.get("SRCDIR", ".")
 
 
 def real_binary():
-    """In a build tree ./eomc is libtool's wrapper script, which costs a
-    fork and a shell before eomc starts: time the program itself, the way
-    it runs once installed."""
-    top = os.path.dirname(os.path.abspath(EOMC))
-    real = os.path.join(top, ".libs", "eomc")
-    if not os.path.exists(real):
-        return EOMC, {}
-    libs = os.path.join(top, "runtime", ".libs")
-    path = os.environ.get("LD_LIBRARY_PATH")
-    return real, {"LD_LIBRARY_PATH": libs + (":" + path if path else "")}
+    return installed.real_binary(EOMC)
 
 
 def run(argv, env):

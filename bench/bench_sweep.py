@@ -17,6 +17,7 @@ import subprocess
 import sys
 import tempfile
 import time
+import installed  # noqa: E402
 
 EOMC = os.environ.get("EOMC", "./eomc")
 SRCDIR = os.environ.get("SRCDIR", ".")
@@ -24,14 +25,7 @@ RUNS = int(os.environ.get("BENCH_SWEEP_RUNS", "1000"))
 
 
 def real_binary():
-    """Time the program itself, not libtool's wrapper script around it."""
-    top = os.path.dirname(os.path.abspath(EOMC))
-    real = os.path.join(top, ".libs", "eomc")
-    if not os.path.exists(real):
-        return EOMC, {}
-    libs = os.path.join(top, "runtime", ".libs")
-    path = os.environ.get("LD_LIBRARY_PATH")
-    return real, {"LD_LIBRARY_PATH": libs + (":" + path if path else "")}
+    return installed.real_binary(EOMC)
 
 
 def timed(argv, env):
